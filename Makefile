@@ -1,0 +1,29 @@
+# One command serves, one tests; both create the virtual environment when it is missing.
+VENV ?= .venv
+PYTHON ?= python3
+PY := $(VENV)/bin/python
+STAMP := $(VENV)/.installed-stamp
+
+.PHONY: install serve test bench openapi clean
+
+install: $(STAMP)
+
+$(STAMP): pyproject.toml requirements.lock
+	test -x $(PY) || $(PYTHON) -m venv $(VENV)
+	$(PY) -m pip install --quiet -c requirements.lock -e '.[test]'
+	touch $(STAMP)
+
+serve: $(STAMP)
+	$(VENV)/bin/gunicorn --config deploy/gunicorn.conf.py service.asgi:app
+
+test: $(STAMP)
+	$(PY) -m pytest
+
+bench: $(STAMP)
+	$(PY) tests/benchmarks/run.py
+
+openapi: $(STAMP)
+	$(PY) -m service.api.openapi > openapi/openapi.json
+
+clean:
+	rm -rf $(VENV) .pytest_cache .hypothesis

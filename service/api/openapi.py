@@ -1,0 +1,137 @@
+"""The OpenAPI 3.1 document, generated from the wire Structs by msgspec.
+
+msgspec's JSON Schema keeps every constraint of the Structs (item bounds, enumerations,
+``additionalProperties: false``), so the published schema is exactly what the decoder
+enforces. Paths come from :data:`OPERATIONS`; a test checks it against the app's routes.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import msgspec
+
+import service
+from service.api import schemas
+from service.api.problems import PROBLEM_MEDIA_TYPE, PROBLEM_TYPES
+
+
+@dataclass(frozen=True)
+class Operation:
+    method: str
+    path: str
+    operation_id: str
+    summary: str
+    description: str
+    request: type | None
+    response: type
+    problems: tuple[int, ...]
+    tag: str
+
+
+OPERATIONS = (
+    Operation(
+        method="post",
+        path="/v1/descriptors/samples",
+        operation_id="describeSamples",
+        summary="Describe a raw sample",
+        description=(
+            "Every descriptor of raw observations: location, spread, moments, shape in the "
+            "Joanes & Gill families, quantiles by any Hyndman & Fan type, modes and lag-1 "
+            "autocorrelation. Undefined results are null with a warning saying why."
+        ),
+        request=schemas.SamplesRequest,
+        response=schemas.DescriptionResponse,
+        problems=(400, 406, 413, 415, 422),
+        tag="descriptors",
+    ),
+    Operation(
+        method="get",
+        path="/health/live",
+        operation_id="live",
+        summary="Liveness",
+        description="200 while the process serves requests.",
+        request=None,
+        response=schemas.Health,
+        problems=(),
+        tag="health",
+    ),
+    Operation(
+        method="get",
+        path="/health/ready",
+        operation_id="ready",
+        summary="Readiness",
+        description="200 while this worker accepts new work.",
+        request=None,
+        response=schemas.Health,
+        problems=(),
+        tag="health",
+    ),
+)
+
+_REF = "#/components/schemas/{name}"
+
+
+def build_document() -> dict:
+    """The complete OpenAPI 3.1 document as a JSON-ready dict."""
+    types = [schemas.Problem]
+    for op in OPERATIONS:
+        types.append(op.response)
+        if op.request is not None:
+            types.append(op.request)
+    refs, components = msgspec.json.schema_components(types, ref_template=_REF)
+    ref_of = dict(zip(types, refs))
+    problem_ref = ref_of[schemas.Problem]
+
+    paths: dict[str, dict] = {}
+    for op in OPERATIONS:
+        responses = {
+            "200": {
+                "description": "Success.",
+                "content": {"application/json": {"schema": ref_of[op.response]}},
+            }
+        }
+        for status in op.problems:
+            titles = sorted({title for code, title in PROBLEM_TYPES.values() if code == status})
+            responses[str(status)] = {
+                "description": "; ".join(titles) + " (RFC 9457 problem details).",
+                "content": {PROBLEM_MEDIA_TYPE: {"schema": problem_ref}},
+            }
+        entry = {
+            "operationId": op.operation_id,
+            "summary": op.summary,
+            "description": op.description,
+            "tags": [op.tag],
+            "responses": responses,
+        }
+        if op.request is not None:
+            entry["requestBody"] = {
+                "required": True,
+                "content": {"application/json": {"schema": ref_of[op.request]}},
+            }
+        paths.setdefault(op.path, {})[op.method] = entry
+
+    return {
+        "openapi": "3.1.0",
+        "info": {
+            "title": "Tailgauge",
+            "version": service.__version__,
+            "description": (
+                "Descriptors of a distribution with named estimator conventions. "
+                "Descriptors summarise data; they do not certify a process."
+            ),
+        },
+        "paths": paths,
+        "components": {"schemas": components},
+    }
+
+
+def document_bytes() -> bytes:
+    """The document as canonical, indented JSON (the form committed under openapi/)."""
+    return msgspec.json.format(msgspec.json.encode(build_document()), indent=2) + b"\n"
+
+
+if __name__ == "__main__":
+    import sys
+
+    sys.stdout.buffer.write(document_bytes())

@@ -1,0 +1,59 @@
+"""HTTP handlers: check media types, hand the bytes to a worker thread, return the bytes."""
+
+from __future__ import annotations
+
+from functools import partial
+
+import anyio.to_thread
+from litestar import Request, Response, get, post
+
+from service.api import compute
+from service.api.problems import ApiProblem
+from service.api.schemas import ProblemLocation
+
+JSON = "application/json"
+
+
+def _require_json_body(request: Request) -> None:
+    media = request.headers.get("content-type", "").split(";")[0].strip().lower()
+    if media != JSON:
+        shown = media or "no Content-Type"
+        raise ApiProblem(
+            "unsupported-media-type",
+            f"send the request body as {JSON} (got {shown})",
+            [ProblemLocation(path="header.content-type", message=f"expected {JSON}")],
+        )
+
+
+def _require_json_accepted(request: Request) -> None:
+    if "accept" in request.headers and request.accept.best_match([JSON]) is None:
+        raise ApiProblem(
+            "not-acceptable",
+            f"this endpoint answers with {JSON}; the Accept header excludes it",
+            [ProblemLocation(path="header.accept", message=f"accept {JSON}")],
+        )
+
+
+@post("/v1/descriptors/samples", status_code=200, include_in_schema=False)
+async def describe_samples(request: Request) -> Response[bytes]:
+    _require_json_body(request)
+    _require_json_accepted(request)
+    body = await request.body()
+    settings = request.app.state.settings
+    # CPU-bound work (decoding included) runs off the event loop, so health checks stay live.
+    encoded = await anyio.to_thread.run_sync(partial(compute.describe_samples, body, settings))
+    return Response(encoded, media_type=JSON)
+
+
+@get("/health/live", include_in_schema=False, sync_to_thread=False)
+def live() -> Response[bytes]:
+    return Response(b'{"status":"ok"}', media_type=JSON)
+
+
+@get("/health/ready", include_in_schema=False, sync_to_thread=False)
+def ready() -> Response[bytes]:
+    return Response(b'{"status":"ok"}', media_type=JSON)
+
+
+COMPUTE_HANDLERS = [describe_samples]
+HEALTH_HANDLERS = [live, ready]

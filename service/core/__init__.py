@@ -1,0 +1,23 @@
+"""The numeric core: pure numpy/scipy functions on the one weighted form; no HTTP here."""
+
+from service.core.describe import DEFAULT_PROBABILITIES, Description, DescribeOptions, describe
+from service.core.errors import DescriptorError, LimitExceeded, Location, UncomputableInput
+from service.core.moments import CentralSums, central_sums
+from service.core.weighted import WeightedData, WeightMeaning, from_array, from_samples
+
+__all__ = [
+    "DEFAULT_PROBABILITIES",
+    "CentralSums",
+    "DescribeOptions",
+    "Description",
+    "DescriptorError",
+    "LimitExceeded",
+    "Location",
+    "UncomputableInput",
+    "WeightMeaning",
+    "WeightedData",
+    "central_sums",
+    "describe",
+    "from_array",
+    "from_samples",
+]

@@ -1,0 +1,39 @@
+"""Errors raised by the numeric core when an input cannot be described.
+
+    DescriptorError                 base: the input is well-formed but cannot be computed
+    ├── UncomputableInput           a located reason (e.g. a missing value under the reject policy)
+    └── LimitExceeded               the input is larger than the configured limits allow
+
+The core knows nothing of HTTP; the API layer maps each class to one problem type.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+
+
+@dataclass(frozen=True)
+class Location:
+    """A JSON-path-like pointer to the offending part of the input, with why it is wrong."""
+
+    path: str
+    message: str
+
+
+@dataclass
+class DescriptorError(Exception):
+    """Base class: the input cannot be described as given."""
+
+    detail: str
+    locations: list[Location] = field(default_factory=list)
+
+    def __str__(self) -> str:
+        return self.detail
+
+
+class UncomputableInput(DescriptorError):
+    """The input matches the schema but no descriptor set can be computed from it."""
+
+
+class LimitExceeded(DescriptorError):
+    """The input exceeds a configured limit (number of values, moment order, ...)."""

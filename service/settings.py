@@ -1,0 +1,64 @@
+"""Limits and switches of the service, read from ``TAILGAUGE_*`` environment variables and validated."""
+
+from __future__ import annotations
+
+import os
+from collections.abc import Mapping
+from dataclasses import dataclass, fields
+
+PREFIX = "TAILGAUGE_"
+
+
+class SettingsError(ValueError):
+    """A setting from the environment is missing its type, malformed or out of bounds."""
+
+
+@dataclass(frozen=True)
+class Settings:
+    """Every limit the service enforces; defaults are safe for a shared deployment.
+
+    Each field is read from ``TAILGAUGE_<FIELD NAME IN CAPITALS>``.
+    """
+
+    # Largest request body accepted, in bytes (413 beyond). 1e6 values as JSON is ~20 MB.
+    max_body_bytes: int = 32 * 1024 * 1024
+    # Most observations (values, nulls included) in one request (413 beyond).
+    max_values: int = 2_000_000
+    # Highest moment order a caller may request.
+    max_moment_order: int = 12
+    # Most quantile probabilities in one request.
+    max_probabilities: int = 1_000
+    # Most tied modes listed in a response (the count of ties is always given).
+    max_modes_listed: int = 100
+
+    _BOUNDS = {
+        "max_body_bytes": (1024, 1024**3),
+        "max_values": (1, 100_000_000),
+        "max_moment_order": (4, 40),
+        "max_probabilities": (1, 100_000),
+        "max_modes_listed": (1, 100_000),
+    }
+
+    def __post_init__(self) -> None:
+        for name, (low, high) in self._BOUNDS.items():
+            value = getattr(self, name)
+            if not isinstance(value, int) or isinstance(value, bool) or not low <= value <= high:
+                raise SettingsError(f"{name} must be an integer in [{low}, {high}], got {value!r}")
+
+    @classmethod
+    def from_env(cls, environ: Mapping[str, str] | None = None) -> Settings:
+        """Settings from ``environ`` (default ``os.environ``); unknown TAILGAUGE_ names are errors."""
+        environ = os.environ if environ is None else environ
+        known = {f.name for f in fields(cls)}
+        values: dict[str, int] = {}
+        for key, raw in environ.items():
+            if not key.startswith(PREFIX):
+                continue
+            name = key[len(PREFIX) :].lower()
+            if name not in known:
+                raise SettingsError(f"unknown setting {key}")
+            try:
+                values[name] = int(raw.replace("_", ""))
+            except ValueError:
+                raise SettingsError(f"{key} must be an integer, got {raw!r}") from None
+        return cls(**values)
