@@ -23,7 +23,7 @@ bench: $(STAMP)
 	$(PY) tests/benchmarks/run.py
 
 openapi: $(STAMP)
-	$(PY) -m service.api.openapi > openapi/openapi.json
+	$(PY) -c 'import sys; from service.api.openapi import document_bytes; sys.stdout.buffer.write(document_bytes())' > openapi/openapi.json
 
 clean:
 	rm -rf $(VENV) .pytest_cache .hypothesis

@@ -30,6 +30,8 @@ class Settings:
     max_probabilities: int = 1_000
     # Most tied modes listed in a response (the count of ties is always given).
     max_modes_listed: int = 100
+    # Most outcomes (bins) listed in tail_contributions before only the largest are listed.
+    max_contributions_listed: int = 1_000
 
     _BOUNDS = {
         "max_body_bytes": (1024, 1024**3),
@@ -37,6 +39,7 @@ class Settings:
         "max_moment_order": (4, 40),
         "max_probabilities": (1, 100_000),
         "max_modes_listed": (1, 100_000),
+        "max_contributions_listed": (1, 100_000),
     }
 
     def __post_init__(self) -> None:

@@ -34,13 +34,44 @@ OPERATIONS = (
         method="post",
         path="/v1/descriptors/samples",
         operation_id="describeSamples",
-        summary="Describe a raw sample",
+        summary="Describe a raw sample, optionally weighted",
         description=(
             "Every descriptor of raw observations: location, spread, moments, shape in the "
-            "Joanes & Gill families, quantiles by any Hyndman & Fan type, modes and lag-1 "
-            "autocorrelation. Undefined results are null with a warning saying why."
+            "Joanes & Gill families, quantiles by any Hyndman & Fan type, modes, the largest tail "
+            "contributors and lag-1 autocorrelation. Optional frequency or reliability weights. "
+            "Undefined results are null with a warning saying why."
         ),
         request=schemas.SamplesRequest,
+        response=schemas.DescriptionResponse,
+        problems=(400, 406, 413, 415, 422),
+        tag="descriptors",
+    ),
+    Operation(
+        method="post",
+        path="/v1/descriptors/table",
+        operation_id="describeTable",
+        summary="Describe a table of outcomes with counts or probabilities",
+        description=(
+            "Counts: sample descriptors exactly as if each value were repeated its count times, "
+            "computed without expanding the table. Probabilities: the exact population descriptors "
+            "of a discrete distribution (probabilities must sum to 1 within 1e-9)."
+        ),
+        request=schemas.TableRequest,
+        response=schemas.DescriptionResponse,
+        problems=(400, 406, 413, 415, 422),
+        tag="descriptors",
+    ),
+    Operation(
+        method="post",
+        path="/v1/descriptors/bins",
+        operation_id="describeBins",
+        summary="Describe binned counts (a histogram)",
+        description=(
+            "Moments from bin midpoints (null while an open-ended bin holds data), grouped median and "
+            "quantiles by interpolation within bins, the modal class and interpolated grouped mode, "
+            "and optional Sheppard's corrections for equal widths."
+        ),
+        request=schemas.BinsRequest,
         response=schemas.DescriptionResponse,
         problems=(400, 406, 413, 415, 422),
         tag="descriptors",
@@ -130,8 +161,3 @@ def document_bytes() -> bytes:
     """The document as canonical, indented JSON (the form committed under openapi/)."""
     return msgspec.json.format(msgspec.json.encode(build_document()), indent=2) + b"\n"
 
-
-if __name__ == "__main__":
-    import sys
-
-    sys.stdout.buffer.write(document_bytes())

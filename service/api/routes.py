@@ -34,15 +34,28 @@ def _require_json_accepted(request: Request) -> None:
         )
 
 
-@post("/v1/descriptors/samples", status_code=200, include_in_schema=False)
-async def describe_samples(request: Request) -> Response[bytes]:
+async def _compute(request: Request, work) -> Response[bytes]:
     _require_json_body(request)
     _require_json_accepted(request)
     body = await request.body()
-    settings = request.app.state.settings
     # CPU-bound work (decoding included) runs off the event loop, so health checks stay live.
-    encoded = await anyio.to_thread.run_sync(partial(compute.describe_samples, body, settings))
+    encoded = await anyio.to_thread.run_sync(partial(work, body, request.app.state.settings))
     return Response(encoded, media_type=JSON)
+
+
+@post("/v1/descriptors/samples", status_code=200, include_in_schema=False)
+async def describe_samples(request: Request) -> Response[bytes]:
+    return await _compute(request, compute.describe_samples)
+
+
+@post("/v1/descriptors/table", status_code=200, include_in_schema=False)
+async def describe_table(request: Request) -> Response[bytes]:
+    return await _compute(request, compute.describe_table)
+
+
+@post("/v1/descriptors/bins", status_code=200, include_in_schema=False)
+async def describe_bins(request: Request) -> Response[bytes]:
+    return await _compute(request, compute.describe_bins)
 
 
 @get("/health/live", include_in_schema=False, sync_to_thread=False)
@@ -55,5 +68,5 @@ def ready() -> Response[bytes]:
     return Response(b'{"status":"ok"}', media_type=JSON)
 
 
-COMPUTE_HANDLERS = [describe_samples]
+COMPUTE_HANDLERS = [describe_samples, describe_table, describe_bins]
 HEALTH_HANDLERS = [live, ready]

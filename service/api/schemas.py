@@ -31,16 +31,22 @@ class Message(msgspec.Struct, forbid_unknown_fields=True, kw_only=True):
     """Base of every wire message: unknown fields are errors, never silently ignored."""
 
 
-class SampleOptions(Message):
+NonNegative = Annotated[float, Meta(ge=0.0, description="A finite number >= 0.")]
+
+
+class DescriptorOptions(Message):
+    """Options shared by every descriptor endpoint."""
+
     convention: Annotated[
-        Literal["sample", "population"],
+        Literal["sample", "population"] | None,
         Meta(
             description=(
-                "sample: variance with divisor n - 1 and skewness/kurtosis G1/G2 by default; "
-                "population: divisor n and g1/g2."
+                "sample: variance with divisor n - 1 (V1 - V2/V1 for reliability weights) and "
+                "skewness/kurtosis G1/G2; population: divisor n and g1/g2. null: sample, except "
+                "a probability table, which is always a population."
             )
         ),
-    ] = "sample"
+    ] = None
     skewness_estimator: Annotated[
         Literal["g1", "G1", "b1"] | None,
         Meta(description="Joanes & Gill (1998) skewness family; null follows the convention."),
@@ -56,9 +62,6 @@ class SampleOptions(Message):
             description="Probabilities at which quantiles are reported, in the order given.",
         ),
     ] = msgspec.field(default_factory=lambda: list(DEFAULT_PROBABILITIES))
-    quantile_type: Annotated[
-        int, Meta(ge=1, le=9, description="Hyndman & Fan (1996) sample quantile definition, 1-9.")
-    ] = 7
     moment_order: Annotated[
         int,
         Meta(
@@ -67,10 +70,50 @@ class SampleOptions(Message):
             description="Highest order of the raw, central and standardized moments reported.",
         ),
     ] = 4
+
+
+QuantileType = Annotated[
+    Annotated[int, Meta(ge=1, le=9)] | None,
+    Meta(
+        description=(
+            "Hyndman & Fan (1996) sample quantile definition, 1-9. null: 7 for raw samples and whole "
+            "counts, 2 for other weights (types 3-9 need whole counts), 1 for probabilities."
+        ),
+    ),
+]
+
+
+class SampleOptions(DescriptorOptions):
+    quantile_type: QuantileType = None
     missing: Annotated[
         Literal["reject", "omit"],
         Meta(description="reject: a null value is an error (422); omit: nulls are dropped and counted."),
     ] = "reject"
+
+
+class TableOptions(DescriptorOptions):
+    quantile_type: QuantileType = None
+    normalize: Annotated[
+        bool,
+        Meta(
+            description=(
+                "For probabilities that do not sum to 1 within 1e-9: false answers 422 saying by "
+                "how much; true divides them by their sum and warns."
+            )
+        ),
+    ] = False
+
+
+class BinOptions(DescriptorOptions):
+    sheppard_correction: Annotated[
+        bool,
+        Meta(
+            description=(
+                "Apply Sheppard's corrections to the second and fourth central moments; only for "
+                "bins of equal width (otherwise a warning and no correction)."
+            )
+        ),
+    ] = False
 
 
 class SamplesRequest(Message):
@@ -78,7 +121,55 @@ class SamplesRequest(Message):
         list[Observation],
         Meta(min_length=1, description="Raw observations in observation order."),
     ]
+    weights: Annotated[
+        list[NonNegative] | None,
+        Meta(description="Optional weight per value (same length as values); see weight_kind."),
+    ] = None
+    weight_kind: Annotated[
+        Literal["frequency", "reliability"],
+        Meta(
+            description=(
+                "frequency: a weight w is the same as repeating the value w times; reliability: "
+                "analytic weights (inverse-variance), effective size (sum w)^2 / sum w^2."
+            )
+        ),
+    ] = "frequency"
     options: SampleOptions = msgspec.field(default_factory=SampleOptions)
+
+
+class Outcome(Message):
+    value: Annotated[float, Meta(description="An outcome; repeated outcomes are merged.")]
+    weight: Annotated[NonNegative, Meta(description="Its count or probability (>= 0).")]
+
+
+class TableRequest(Message):
+    outcomes: Annotated[list[Outcome], Meta(min_length=1, description="Outcomes in any order.")]
+    weight_kind: Annotated[
+        Literal["counts", "probabilities"],
+        Meta(
+            description=(
+                "counts: a sample summarised as a frequency table (sample estimators, as if each "
+                "value were repeated); probabilities: a whole discrete distribution (exact "
+                "population descriptors), summing to 1 within 1e-9."
+            )
+        ),
+    ]
+    options: TableOptions = msgspec.field(default_factory=TableOptions)
+
+
+class BinsRequest(Message):
+    edges: Annotated[
+        list[float | None],
+        Meta(
+            min_length=2,
+            description=(
+                "k + 1 strictly increasing bin edges for k counts; the first or last may be null "
+                "for an open-ended bin."
+            ),
+        ),
+    ]
+    counts: Annotated[list[NonNegative], Meta(min_length=1, description="Count in each bin (>= 0).")]
+    options: BinOptions = msgspec.field(default_factory=BinOptions)
 
 
 class DescriptorValue(Message):
@@ -109,10 +200,17 @@ class Descriptors(Message):
 
 
 class Size(Message):
-    n: Annotated[int | float, Meta(description="Number of observations used (after omissions).")]
+    n: Annotated[
+        int | float | None,
+        Meta(description="Observations used (the total count for counts and bins; null for probabilities)."),
+    ]
     total_weight: float
     omitted: Annotated[int, Meta(description="Missing observations omitted.")]
-    distinct_values: int
+    distinct_values: Annotated[int, Meta(description="Distinct values (bins for binned counts).")]
+    zero_weight: Annotated[int, Meta(description="Entries of weight zero left out.")]
+    effective_n: Annotated[
+        float | None, Meta(description="Kish effective sample size (sum w)^2 / sum w^2, for reliability weights.")
+    ]
 
 
 class Moments(Message):
@@ -148,12 +246,46 @@ class ShapeEstimators(Message):
     excess_kurtosis: list[ShapeEstimate]
 
 
+class Contribution(Message):
+    value: float
+    weight: float
+    third: Annotated[float, Meta(description="w (x - mean)^3 / (W sigma^3): signed share of the standardized third moment.")]
+    fourth: Annotated[float, Meta(description="w (x - mean)^4 / (W sigma^4): share of the standardized fourth moment.")]
+
+
+class TailContributions(Message):
+    standardized_third: Annotated[float, Meta(description="Plug-in g1; the sum of every outcome's third.")]
+    standardized_fourth: Annotated[float, Meta(description="Plug-in b2 = g2 + 3; the sum of every fourth.")]
+    complete: Annotated[bool, Meta(description="False when only the largest contributors are listed.")]
+    outcomes: list[Contribution]
+
+
+class ModalClass(Message):
+    lower: float
+    upper: float
+    count: float
+    grouped_mode: MaybeNumber
+
+
+class Grouping(Message):
+    bins: int
+    bin_width: Annotated[float | None, Meta(description="Common width of the closed bins; null when widths differ.")]
+    equal_widths: bool
+    open_lower: bool
+    open_upper: bool
+    open_bin_weight: float
+    lowest_edge: Annotated[float | None, Meta(description="Lower edge of the lowest bin holding data (null if open).")]
+    highest_edge: Annotated[float | None, Meta(description="Upper edge of the highest bin holding data (null if open).")]
+    sheppard_correction_applied: bool
+    modal_classes: list[ModalClass]
+
+
 class Conventions(Message):
     convention: str
     variance_divisor: str
     skewness: str
     kurtosis: str
-    quantile_type: int
+    quantile_type: Annotated[int | None, Meta(description="Hyndman & Fan type used; null for grouped data.")]
     quantile_definition: str
     median: str
     central_moments: str
@@ -168,13 +300,23 @@ class ResultWarning(Message):
 
 
 class DescriptionResponse(Message):
-    kind: Literal["samples"]
+    kind: Literal["samples", "table", "bins"]
     size: Size
     descriptors: Descriptors
-    moments: Moments
+    moments: Annotated[Moments | None, Meta(description="null when an open-ended bin holds data.")]
     quantiles: list[Quantile]
     modes: Modes
     shape_estimators: ShapeEstimators
+    tail_contributions: Annotated[
+        TailContributions | None,
+        Meta(
+            description=(
+                "Each outcome's (bin's) share of the standardized third and fourth moments; for raw "
+                "samples the largest contributors. null when the moments are undefined."
+            )
+        ),
+    ]
+    grouping: Annotated[Grouping | None, Meta(description="Bin facts; null unless the input was bins.")]
     conventions: Conventions
     warnings: list[ResultWarning]
 

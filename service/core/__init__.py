@@ -3,10 +3,19 @@
 from service.core.describe import DEFAULT_PROBABILITIES, Description, DescribeOptions, describe
 from service.core.errors import DescriptorError, LimitExceeded, Location, UncomputableInput
 from service.core.moments import CentralSums, central_sums
-from service.core.weighted import WeightedData, WeightMeaning, from_array, from_samples
+from service.core.weighted import (
+    PROBABILITY_TOLERANCE,
+    WeightedData,
+    WeightMeaning,
+    from_array,
+    from_bins,
+    from_samples,
+    from_table,
+)
 
 __all__ = [
     "DEFAULT_PROBABILITIES",
+    "PROBABILITY_TOLERANCE",
     "CentralSums",
     "DescribeOptions",
     "Description",
@@ -19,5 +28,7 @@ __all__ = [
     "central_sums",
     "describe",
     "from_array",
+    "from_bins",
     "from_samples",
+    "from_table",
 ]

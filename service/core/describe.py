@@ -2,16 +2,21 @@
 
 This is the only place where undefined results become ``None``: each ``None`` is paired with
 a warning that names the descriptor and says why, and no NaN or infinity leaves this module.
+Nothing here knows which endpoint the data came from: the weighted form says what the weights
+mean (unit, frequency, reliability, probability) and whether the support is bins.
 """
 
 from __future__ import annotations
 
+import dataclasses
 import math
 from dataclasses import dataclass, field
 
 import numpy as np
+from scipy import stats
 
-from service.core import order, shape
+from service.core import grouped, order, shape, tail
+from service.core.errors import Location, UncomputableInput
 from service.core.moments import CentralSums, central_sums
 from service.core.serial import lag1_autocorrelation
 from service.core.weighted import WeightedData, WeightMeaning
@@ -44,31 +49,39 @@ SPREAD_DESCRIPTORS = (
     "median_absolute_deviation_normal",
 )
 SHAPE_DESCRIPTORS = ("skewness", "kurtosis", "excess_kurtosis")
+MOMENT_DESCRIPTORS = (
+    "mean",
+    "variance",
+    "standard_deviation",
+    "coefficient_of_variation",
+    "skewness",
+    "kurtosis",
+    "excess_kurtosis",
+)
+# Largest contributors listed for raw samples (tables and bins list every outcome up to the limit).
+SAMPLE_CONTRIBUTORS = 10
+# Rule of thumb for populations (no sampling error): "near zero" and "visibly asymmetric".
+POPULATION_SYMMETRY_THRESHOLD = 0.05
 
 
 @dataclass(frozen=True)
 class DescribeOptions:
-    """What to compute and by which convention (validated by the caller's schema)."""
+    """What to compute and by which convention (validated by the caller's schema).
 
-    convention: str = "sample"
+    ``None`` means "the default for these data": the sample convention except for a
+    probability table (population); quantile type 7 for whole counts, type 2 for other
+    weights, type 1 (the distribution function's inverse) for probabilities.
+    """
+
+    convention: str | None = None
     skewness_estimator: str | None = None
     kurtosis_estimator: str | None = None
     probabilities: tuple[float, ...] = DEFAULT_PROBABILITIES
-    quantile_type: int = 7
+    quantile_type: int | None = None
     moment_order: int = 4
     modes_limit: int = 100
-
-    @property
-    def skewness_family(self) -> str:
-        if self.skewness_estimator is not None:
-            return self.skewness_estimator
-        return "G1" if self.convention == "sample" else "g1"
-
-    @property
-    def kurtosis_family(self) -> str:
-        if self.kurtosis_estimator is not None:
-            return self.kurtosis_estimator
-        return "G2" if self.convention == "sample" else "g2"
+    sheppard_correction: bool = False
+    contributions_limit: int = 1000
 
 
 @dataclass
@@ -87,10 +100,12 @@ class Note:
 
 @dataclass
 class Size:
-    n: int
+    n: float | None
     total_weight: float
     omitted: int
     distinct_values: int
+    zero_weight: int
+    effective_n: float | None
 
 
 @dataclass
@@ -130,12 +145,50 @@ class ShapeEstimators:
 
 
 @dataclass
+class Contribution:
+    value: float
+    weight: float
+    third: float
+    fourth: float
+
+
+@dataclass
+class TailContributions:
+    standardized_third: float
+    standardized_fourth: float
+    complete: bool
+    outcomes: list[Contribution]
+
+
+@dataclass
+class ModalClass:
+    lower: float
+    upper: float
+    count: float
+    grouped_mode: float | None
+
+
+@dataclass
+class Grouping:
+    bins: int
+    bin_width: float | None
+    equal_widths: bool
+    open_lower: bool
+    open_upper: bool
+    open_bin_weight: float
+    lowest_edge: float | None
+    highest_edge: float | None
+    sheppard_correction_applied: bool
+    modal_classes: list[ModalClass]
+
+
+@dataclass
 class Conventions:
     convention: str
     variance_divisor: str
     skewness: str
     kurtosis: str
-    quantile_type: int
+    quantile_type: int | None
     quantile_definition: str
     median: str
     central_moments: str
@@ -148,10 +201,12 @@ class Description:
     kind: str
     size: Size
     descriptors: dict[str, Descriptor]
-    moments: Moments
+    moments: Moments | None
     quantiles: list[Quantile]
     modes: Modes
     shape_estimators: ShapeEstimators
+    tail_contributions: TailContributions | None
+    grouping: Grouping | None
     conventions: Conventions
     warnings: list[Note]
 
@@ -183,6 +238,119 @@ def _finite_or_none(value: float) -> float | None:
     return float(value) if math.isfinite(value) else None
 
 
+@dataclass(frozen=True)
+class _Basis:
+    """How the weights translate into estimator formulas."""
+
+    population: bool
+    reliability: bool
+    sample_size: float | None  # n in bias corrections and normal-theory standard errors
+    variance_factor: float  # sample variance = plug-in variance * variance_factor
+    variance_label: str
+    divisor_label: str
+    bias_correctable: bool
+    single: bool
+    quantile_type: int | None
+    quantile_definition: str
+    median_rule: str
+    skewness_family: str
+    kurtosis_family: str
+
+
+def _reject(path: str, message: str) -> UncomputableInput:
+    return UncomputableInput(detail=f"{path}: {message}", locations=[Location(path, message)])
+
+
+def _basis(data: WeightedData, options: DescribeOptions) -> _Basis:
+    probability = data.meaning is WeightMeaning.PROBABILITY
+    reliability = data.meaning is WeightMeaning.RELIABILITY
+    if probability:
+        if options.convention == "sample":
+            raise _reject(
+                "$.options.convention",
+                "a probability table is a whole distribution: its descriptors are population values",
+            )
+        for path, family, allowed in (
+            ("$.options.skewness_estimator", options.skewness_estimator, "g1"),
+            ("$.options.kurtosis_estimator", options.kurtosis_estimator, "g2"),
+        ):
+            if family not in (None, allowed):
+                raise _reject(path, f"only {allowed} (the population value) applies to a probability table")
+        if options.quantile_type not in (None, 1, 2):
+            raise _reject(
+                "$.options.quantile_type",
+                "population quantiles come from the distribution function: use type 1 or 2",
+            )
+    population = probability or options.convention == "population"
+    total = data.total_weight
+    effective = data.effective_size
+
+    if population:
+        factor, divisor = 1.0, "total weight (population)"
+        variance_label = "population (divisor n)" if not probability else "population (exact)"
+    elif reliability:
+        factor = 1.0 / (1.0 - 1.0 / effective) if effective > 1.0 else math.inf
+        divisor = "V1 - V2 / V1 (reliability weights)"
+        variance_label = "sample, reliability weights (divisor V1 - V2/V1)"
+    else:
+        factor = total / (total - 1.0) if total > 1.0 else math.inf
+        divisor = "n - 1"
+        variance_label = "sample (divisor n - 1)"
+
+    # A population of one point has zero spread; a sample of one says nothing about spread.
+    if population:
+        single = False
+    elif reliability:
+        single = data.count <= 1 or effective <= 1.0
+    else:
+        single = total <= 1.0
+
+    integer = data.integer_weights
+    if data.binned:
+        quantile_type = None
+        definition = "grouped: linear interpolation within the bin holding p N (values spread evenly in bins)"
+        median_rule = "grouped: interpolated within the bin holding N / 2"
+    elif probability:
+        quantile_type = options.quantile_type or 1
+        definition = (
+            "population: smallest x with F(x) >= p"
+            if quantile_type == 1
+            else "population: smallest x with F(x) >= p, averaged with the next value where F(x) = p"
+        )
+        median_rule = "population: smallest x with F(x) >= 1/2"
+    else:
+        quantile_type = options.quantile_type or (7 if integer else 2)
+        definition = f"Hyndman & Fan (1996) type {quantile_type}: {order.QUANTILE_TYPE_NAMES[quantile_type]}"
+        if not integer:
+            definition += " (from the weighted distribution function)"
+        median_rule = (
+            "average of the two middle order statistics"
+            if integer
+            else "weighted: smallest x with F(x) >= 1/2, averaged with the next value where F(x) = 1/2"
+        )
+
+    # Bias corrections need a sample size in whole observations: raw samples and counts.
+    bias_correctable = data.meaning in (WeightMeaning.UNIT, WeightMeaning.FREQUENCY)
+    sample_defaults = bias_correctable and not population
+    skewness_family = options.skewness_estimator or ("G1" if sample_defaults else "g1")
+    kurtosis_family = options.kurtosis_estimator or ("G2" if sample_defaults else "g2")
+    return _Basis(
+        population=population,
+        reliability=reliability,
+        sample_size=None if probability else (effective if reliability else total),
+        variance_factor=factor,
+        variance_label=variance_label,
+        divisor_label=divisor,
+        bias_correctable=bias_correctable,
+        single=single,
+        quantile_type=quantile_type,
+        quantile_definition=definition,
+        median_rule=median_rule,
+        skewness_family=skewness_family,
+        kurtosis_family=kurtosis_family,
+    )
+
+
 def describe(data: WeightedData, options: DescribeOptions, *, kind: str) -> Description:
     """Compute every descriptor of ``data``.
 
@@ -194,23 +362,30 @@ def describe(data: WeightedData, options: DescribeOptions, *, kind: str) -> Desc
       (``constant_data``);
     * too few observations for an estimator (G1 needs n >= 3, G2 n >= 4): ``None``
       (``too_few_observations``);
+    * an open-ended bin holding data: every moment descriptor is ``None``
+      (``open_bin_holds_data``), while quantiles in closed bins are still given;
     * a moment beyond float64's range: ``None`` (``not_representable``).
     """
     notes = _Notes()
-    n = data.total_weight
-    top_order = max(options.moment_order, 4)
-    sums = central_sums(data.values, data.weights, top_order)
-    m2_scaled = sums.scaled_central_moment(2)
-    single = n <= 1.0
-    constant = m2_scaled == 0.0
-    sample = options.convention == "sample"
+    basis = _basis(data, options)
+    _note_input(data, notes)
 
-    if data.omitted:
+    moments_defined = data.open_bin_weight == 0.0
+    sums = midpoint_sums = None
+    sheppard_applied = False
+    if moments_defined:
+        sums = midpoint_sums = central_sums(data.values, data.weights, max(options.moment_order, 4))
+        if data.binned and options.sheppard_correction:
+            sums, sheppard_applied = _sheppard(data, sums, notes)
+    else:
         notes.add(
-            "missing_values_omitted",
-            f"{data.omitted} missing value(s) were omitted; n counts the values used",
+            "open_bin_holds_data",
+            f"open-ended bins hold {data.open_bin_weight:g} of the {data.total_weight:g} counts, so their "
+            "values are unknown and no moment can be computed; quantiles in closed bins are still given",
+            MOMENT_DESCRIPTORS + ("moments", "shape_estimators", "tail_contributions"),
         )
-    if single:
+    constant = sums is not None and sums.scaled_central_moment(2) == 0.0
+    if basis.single:
         notes.add(
             "single_observation",
             "a single observation carries no information on spread or shape",
@@ -221,86 +396,61 @@ def describe(data: WeightedData, options: DescribeOptions, *, kind: str) -> Desc
             "constant_data",
             "all values are equal: the spread is zero, so shape (skewness, kurtosis), "
             "standardized moments and autocorrelation are undefined",
-            SHAPE_DESCRIPTORS + ("lag1_autocorrelation",),
+            SHAPE_DESCRIPTORS + ("lag1_autocorrelation", "tail_contributions"),
         )
 
     descriptors: dict[str, Descriptor] = {}
-    weighted = data.weights is not None
-    descriptors["mean"] = Descriptor(
-        notes.finite(sums.mean, "mean"), "weighted arithmetic mean" if weighted else "arithmetic mean"
-    )
-    median = order.median(data)
-    descriptors["median"] = Descriptor(median, "average of the two middle order statistics")
-
-    variance_label = "sample (divisor n - 1)" if sample else "population (divisor n)"
-    variance = _variance(sums, n, sample, single)
-    descriptors["variance"] = Descriptor(notes.finite(variance, "variance"), variance_label)
-    sd = _standard_deviation(sums, n, sample, single)
-    descriptors["standard_deviation"] = Descriptor(
-        notes.finite(sd, "standard_deviation"), f"square root of the {variance_label} variance"
-    )
-    descriptors["coefficient_of_variation"] = Descriptor(
-        _coefficient_of_variation(data, sums, sd, n, sample, single, notes),
-        f"standard deviation ({variance_label}) / mean",
-    )
-    _shape(descriptors, sums, n, options, single, constant, notes)
-
-    minimum = float(data.sorted_values[0])
-    maximum = float(data.sorted_values[-1])
-    descriptors["minimum"] = Descriptor(minimum, "smallest value")
-    descriptors["maximum"] = Descriptor(maximum, "largest value")
-    descriptors["range"] = Descriptor(
-        None if single else notes.finite(maximum - minimum, "range"), "maximum - minimum"
-    )
-    quartiles = order.quantiles(data, np.array([0.25, 0.75]), options.quantile_type)
-    descriptors["interquartile_range"] = Descriptor(
-        None if single else notes.finite(float(quartiles[1] - quartiles[0]), "interquartile_range"),
-        f"Q(0.75) - Q(0.25), Hyndman & Fan type {options.quantile_type}",
-    )
-    mad = None if single else order.median_absolute_deviation(data, median)
-    descriptors["median_absolute_deviation"] = Descriptor(mad, "median of |x - median|")
-    descriptors["median_absolute_deviation_normal"] = Descriptor(
-        None if mad is None else notes.finite(mad * order.NORMAL_MAD_FACTOR, "median_absolute_deviation_normal"),
-        f"{order.NORMAL_MAD_FACTOR} x median of |x - median| (consistent for the normal sigma)",
-    )
+    _moment_descriptors(descriptors, data, sums, basis, options, constant, notes)
+    quantile_values = _order_descriptors(descriptors, data, basis, options, notes)
     descriptors["lag1_autocorrelation"] = Descriptor(
-        _lag1(data, sums, single, constant, notes), "r(1) = sum (x_i - mean)(x_i+1 - mean) / sum (x_i - mean)^2"
+        _lag1(data, sums, basis.single, constant, notes),
+        "r(1) = sum (x_i - mean)(x_i+1 - mean) / sum (x_i - mean)^2",
     )
+    _check_symmetry(descriptors, data, basis, notes)
 
     probabilities = np.array(options.probabilities, dtype=np.float64)
-    quantile_values = (
-        order.quantiles(data, probabilities, options.quantile_type) if probabilities.size else []
-    )
     quantile_list = [
         Quantile(probability=float(p), value=_finite_or_none(float(v)))
         for p, v in zip(probabilities, quantile_values)
     ]
+    if any(q.value is None for q in quantile_list) and quantile_list:
+        missing = [f"{q.probability:g}" for q in quantile_list if q.value is None]
+        if data.binned:
+            notes.add(
+                "quantile_in_open_bin",
+                f"quantiles at p = {', '.join(missing)} fall inside an open-ended bin, where values are unknown",
+                ["quantiles"],
+            )
 
+    modes, modal = _modes(data, options.modes_limit, notes)
     return Description(
         kind=kind,
         size=Size(
-            n=int(n) if data.meaning is WeightMeaning.UNIT else n,
-            total_weight=n,
+            n=None if data.meaning is WeightMeaning.PROBABILITY else _count_value(data),
+            total_weight=data.total_weight,
             omitted=data.omitted,
-            distinct_values=int(data.support.values.size),
+            distinct_values=int(data.values.size if data.binned else data.support.values.size),
+            zero_weight=data.zero_weight,
+            effective_n=data.effective_size if data.meaning is WeightMeaning.RELIABILITY else None,
         ),
         descriptors=descriptors,
-        moments=_moments(sums, options.moment_order, single, constant, notes),
+        moments=None if sums is None else _moments(sums, options.moment_order, basis.single, constant, notes),
         quantiles=quantile_list,
-        modes=_modes(data, options.modes_limit, notes),
-        shape_estimators=_shape_estimators(sums, n, single, constant),
+        modes=modes,
+        shape_estimators=_shape_estimators(sums, basis, constant),
+        tail_contributions=_tail(data, midpoint_sums, basis.single or constant, options, kind),
+        grouping=_grouping(data, modal, sheppard_applied) if data.binned else None,
         conventions=Conventions(
-            convention=options.convention,
-            variance_divisor="n - 1" if sample else "n",
-            skewness=options.skewness_family,
-            kurtosis=options.kurtosis_family,
-            quantile_type=options.quantile_type,
-            quantile_definition=(
-                f"Hyndman & Fan (1996) type {options.quantile_type}: "
-                f"{order.QUANTILE_TYPE_NAMES[options.quantile_type]}"
-            ),
-            median="average of the two middle order statistics",
-            central_moments="plug-in: sum of w (x - mean)^k divided by the total weight",
+            convention="population" if basis.population else "sample",
+            variance_divisor=basis.divisor_label,
+            skewness=basis.skewness_family,
+            kurtosis=basis.kurtosis_family,
+            quantile_type=basis.quantile_type,
+            quantile_definition=basis.quantile_definition,
+            median=basis.median_rule,
+            central_moments="plug-in: sum of w (x - mean)^k divided by the total weight"
+            + ("; bins at their midpoints" if data.binned else "")
+            + ("; orders 2 and 4 Sheppard-corrected" if sheppard_applied else ""),
             normal_mad_factor=order.NORMAL_MAD_FACTOR,
             weights=data.meaning.value,
         ),
@@ -308,40 +458,195 @@ def describe(data: WeightedData, options: DescribeOptions, *, kind: str) -> Desc
     )
 
 
-def _variance(sums: CentralSums, n: float, sample: bool, single: bool) -> float | None:
-    if single:
-        return None
-    divisor = n - 1.0 if sample else n
-    # sums.central_moment(2) divides by n; rescale to the chosen divisor.
-    return sums.central_moment(2) * (n / divisor)
+def _count_value(data: WeightedData) -> float:
+    """Observations: the count for raw and reliability-weighted samples, the total for counts."""
+    if data.meaning in (WeightMeaning.UNIT, WeightMeaning.RELIABILITY):
+        return data.count
+    total = data.total_weight
+    return int(total) if data.integer_weights else total
 
 
-def _standard_deviation(sums: CentralSums, n: float, sample: bool, single: bool) -> float | None:
-    if single:
-        return None
-    divisor = n - 1.0 if sample else n
-    # sqrt taken in scaled units so it is representable even when the variance is not.
-    return math.sqrt(sums.scaled_central_moment(2) * (n / divisor)) * sums.scale
+def _note_input(data: WeightedData, notes: _Notes) -> None:
+    if data.omitted:
+        notes.add(
+            "missing_values_omitted",
+            f"{data.omitted} missing value(s) were omitted; n counts the values used",
+        )
+    if data.zero_weight:
+        notes.add(
+            "zero_weights_dropped",
+            f"{data.zero_weight} entr{'y' if data.zero_weight == 1 else 'ies'} with weight zero "
+            "contribute nothing and were left out",
+        )
+    if data.normalised_from is not None:
+        notes.add(
+            "probabilities_normalized",
+            f"the probabilities summed to {data.normalised_from!r} and were divided by that sum, as requested",
+        )
+
+
+def _sheppard(data: WeightedData, sums: CentralSums, notes: _Notes) -> tuple[CentralSums, bool]:
+    width = grouped.equal_width(data)
+    if width is None:
+        notes.add(
+            "sheppard_not_applicable",
+            "Sheppard's corrections assume bins of equal width; these widths differ, so no correction was applied",
+            ["variance", "standard_deviation", "kurtosis", "excess_kurtosis", "moments"],
+        )
+        return sums, False
+    # In the scaled units of the sums, so the correction is exact wherever float64 can hold it.
+    scaled_width = math.ldexp(width, -sums.scale_exponent)
+    m2, m4 = sums.scaled_central_moment(2), sums.scaled_central_moment(4)
+    corrected2, corrected4 = grouped.sheppard_corrected(m2, m4, scaled_width)
+    if not (corrected2 > 0.0 and corrected4 > 0.0 and math.isfinite(corrected4)):
+        notes.add(
+            "sheppard_not_applicable",
+            f"the bins (width {width:g}) are too wide for the spread of the data: the corrected second or "
+            "fourth moment would not be positive, so no correction was applied",
+            ["variance", "standard_deviation", "kurtosis", "excess_kurtosis", "moments"],
+        )
+        return sums, False
+    corrected = sums.sums.copy()
+    corrected[2] = corrected2 * sums.total_weight
+    corrected[4] = corrected4 * sums.total_weight
+    return dataclasses.replace(sums, sums=corrected), True
+
+
+def _moment_descriptors(
+    descriptors: dict[str, Descriptor],
+    data: WeightedData,
+    sums: CentralSums | None,
+    basis: _Basis,
+    options: DescribeOptions,
+    constant: bool,
+    notes: _Notes,
+) -> None:
+    weighted = data.weights is not None
+    mean = None if sums is None else notes.finite(sums.mean, "mean")
+    descriptors["mean"] = Descriptor(
+        mean,
+        ("mean of bin midpoints" if data.binned else "weighted arithmetic mean" if weighted else "arithmetic mean"),
+    )
+    variance = sd = None
+    if sums is not None and not basis.single:
+        variance = notes.finite(sums.central_moment(2) * basis.variance_factor, "variance")
+        # Square root taken in scaled units, so it is representable even when the variance is not.
+        sd = notes.finite(sums.standard_deviation(basis.variance_factor), "standard_deviation")
+    descriptors["variance"] = Descriptor(variance, basis.variance_label)
+    descriptors["standard_deviation"] = Descriptor(sd, f"square root of the {basis.variance_label} variance")
+    descriptors["coefficient_of_variation"] = Descriptor(
+        _coefficient_of_variation(data, sums, sd, basis, notes),
+        f"standard deviation ({basis.variance_label}) / mean",
+    )
+    _shape(descriptors, sums, basis, basis.single or constant, notes)
+
+
+def _order_descriptors(
+    descriptors: dict[str, Descriptor],
+    data: WeightedData,
+    basis: _Basis,
+    options: DescribeOptions,
+    notes: _Notes,
+) -> np.ndarray:
+    """Median, extremes, IQR, MAD and the requested quantiles, all from one sort of the data."""
+    probabilities = np.array(options.probabilities, dtype=np.float64)
+    quartiles_and_requested = np.concatenate(([0.25, 0.75], probabilities))
+    if data.binned:
+        values = grouped.quantiles(data, np.concatenate(([0.5], quartiles_and_requested)))
+        median = _finite_or_none(float(values[0]))
+        quartiles, requested = values[1:3], values[3:]
+        if median is None:
+            notes.add("quantile_in_open_bin", "the median falls inside an open-ended bin", ["median"])
+        mad = None
+        if median is not None and not basis.single:
+            mad = _finite_or_none(grouped.median_absolute_deviation(data, median))
+            if mad is None:
+                notes.add(
+                    "quantile_in_open_bin",
+                    "the median absolute deviation reaches into an open-ended bin",
+                    ["median_absolute_deviation", "median_absolute_deviation_normal"],
+                )
+        notes.add(
+            "grouped_extremes",
+            "bins record intervals, not values: the minimum and maximum are unknown (see grouping for the "
+            "outermost edges holding data)",
+            ["minimum", "maximum", "range"],
+        )
+        minimum = maximum = None
+    else:
+        median = order.median(data)
+        quartiles, requested = _sample_quantiles(data, quartiles_and_requested, basis, notes)
+        mad = None if basis.single else order.median_absolute_deviation(data, median)
+        minimum = float(data.sorted_values[0])
+        maximum = float(data.sorted_values[-1])
+
+    descriptors["median"] = Descriptor(median, basis.median_rule)
+    descriptors["minimum"] = Descriptor(minimum, "smallest value")
+    descriptors["maximum"] = Descriptor(maximum, "largest value")
+    spread_range = None
+    if minimum is not None and maximum is not None and not basis.single:
+        spread_range = notes.finite(maximum - minimum, "range")
+    descriptors["range"] = Descriptor(spread_range, "maximum - minimum")
+    iqr = None
+    if not basis.single and quartiles.size and np.all(np.isfinite(quartiles)):
+        iqr = notes.finite(float(quartiles[1] - quartiles[0]), "interquartile_range")
+    elif not basis.single and data.binned:
+        notes.add("quantile_in_open_bin", "a quartile falls inside an open-ended bin", ["interquartile_range"])
+    method = "grouped" if data.binned else f"type {basis.quantile_type}"
+    descriptors["interquartile_range"] = Descriptor(iqr, f"Q(0.75) - Q(0.25), quantiles {method}")
+    descriptors["median_absolute_deviation"] = Descriptor(mad, f"median of |x - median| ({basis.median_rule})")
+    descriptors["median_absolute_deviation_normal"] = Descriptor(
+        None if mad is None else notes.finite(mad * order.NORMAL_MAD_FACTOR, "median_absolute_deviation_normal"),
+        f"{order.NORMAL_MAD_FACTOR} x median of |x - median| (consistent for the normal sigma)",
+    )
+    return requested
+
+
+def _sample_quantiles(
+    data: WeightedData, probabilities: np.ndarray, basis: _Basis, notes: _Notes
+) -> tuple[np.ndarray, np.ndarray]:
+    quantile_type = basis.quantile_type
+    assert quantile_type is not None
+    if data.integer_weights and data.meaning is not WeightMeaning.PROBABILITY:
+        values = order.quantiles(data, probabilities, quantile_type)
+    elif quantile_type in (1, 2):
+        support = data.support
+        values = order.cdf_quantiles(
+            support.values, support.cumulative, probabilities, average_at_steps=quantile_type == 2
+        )
+    else:
+        notes.add(
+            "integer_counts_required",
+            f"quantile type {quantile_type} is defined through the order statistics of whole observations; "
+            "these weights are not whole counts, so use quantile_type 1 or 2",
+            ["quantiles", "interquartile_range"],
+        )
+        values = np.full(probabilities.size, np.nan)
+    return values[:2], values[2:]
 
 
 def _coefficient_of_variation(
-    data: WeightedData,
-    sums: CentralSums,
-    sd: float | None,
-    n: float,
-    sample: bool,
-    single: bool,
-    notes: _Notes,
+    data: WeightedData, sums: CentralSums | None, sd: float | None, basis: _Basis, notes: _Notes
 ) -> float | None:
-    if single or sd is None or not math.isfinite(sd):
+    """``sd / mean`` for data on a ratio scale (no negative values) with a non-zero mean.
+
+    With no negative values the mean is zero only for all-zero data, and otherwise at least
+    ``sd / sqrt(n)``, so "mean near zero relative to the spread" cannot occur on a ratio scale.
+    """
+    if sums is None or basis.single:
         return None
     reason = None
-    if data.sorted_values[0] < 0.0:
+    if data.binned:
+        assert data.edges is not None and data.weights is not None
+        lowest = data.edges[int(np.flatnonzero(data.weights > 0)[0])]
+    else:
+        lowest = data.sorted_values[0]
+    if lowest < 0.0:
         reason = "the data include negative values, so they are not on a ratio scale"
     elif sums.mean == 0.0:
         reason = "the mean is zero"
-    elif sample and abs(sums.mean) < sd / math.sqrt(n):
-        reason = "the mean is within one standard error of zero, so the ratio is unstable"
+    elif sd is None:
+        reason = "the standard deviation is outside the range of float64"
     if reason is not None:
         notes.add(
             "coefficient_of_variation_undefined",
@@ -352,80 +657,85 @@ def _coefficient_of_variation(
     return notes.finite(sd / sums.mean, "coefficient_of_variation")
 
 
+def _family_estimate(
+    family: str, sums: CentralSums, basis: _Basis, undefined: bool
+) -> tuple[float | None, float | None, str | None]:
+    """(value, normal-theory standard error, reason it is undefined) for one J&G family."""
+    skewness = family in shape.SKEWNESS_FAMILIES
+    plug_in = sums.standardized_moment(3) if skewness else sums.standardized_moment(4) - 3.0
+    if undefined:
+        return None, None, None
+    if family in ("g1", "g2") and not basis.bias_correctable:
+        # The plug-in value; no sampling distribution is claimed for probabilities or reliability weights.
+        return _finite_or_none(plug_in), None, None
+    if not basis.bias_correctable:
+        return None, None, "bias-corrected"
+    n = basis.sample_size
+    assert n is not None
+    minimum = shape.SKEWNESS_MIN_N[family] if skewness else shape.KURTOSIS_MIN_N[family]
+    if n < minimum:
+        return None, None, f"needs at least {minimum} observations; n = {n:g}"
+    estimate = (shape.skewness if skewness else shape.excess_kurtosis)(plug_in, n, family)
+    return _finite_or_none(estimate.value), _finite_or_none(estimate.standard_error), None
+
+
 def _shape(
     descriptors: dict[str, Descriptor],
-    sums: CentralSums,
-    n: float,
-    options: DescribeOptions,
-    single: bool,
-    constant: bool,
+    sums: CentralSums | None,
+    basis: _Basis,
+    undefined: bool,
     notes: _Notes,
 ) -> None:
-    skew_family = options.skewness_family
-    kurt_family = options.kurtosis_family
-    skew = kurt = None
-    if not (single or constant):
-        if n < shape.SKEWNESS_MIN_N[skew_family]:
-            notes.add(
-                "too_few_observations",
-                f"skewness {skew_family} needs at least {shape.SKEWNESS_MIN_N[skew_family]} "
-                f"observations; n = {n:g}",
-                ["skewness"],
-            )
+    for name, family, plug_in_family in (
+        ("skewness", basis.skewness_family, "g1"),
+        ("excess_kurtosis", basis.kurtosis_family, "g2"),
+    ):
+        affected = ["skewness"] if name == "skewness" else ["kurtosis", "excess_kurtosis"]
+        value = error = None
+        label = f"{family} (plug-in)" if basis.reliability and family == plug_in_family else family
+        if sums is not None:
+            value, error, reason = _family_estimate(family, sums, basis, undefined)
+            if reason == "bias-corrected":
+                # No published bias correction for these weights: the plug-in value, named as such.
+                value, error, _ = _family_estimate(plug_in_family, sums, basis, undefined)
+                label = f"{plug_in_family} (plug-in)"
+                notes.add(
+                    "plug_in_estimator",
+                    f"{family} has no published form for reliability weights; "
+                    f"the plug-in {plug_in_family} is reported instead",
+                    affected,
+                )
+            elif reason is not None:
+                notes.add("too_few_observations", f"{name.replace('_', ' ')} {family} {reason}", affected)
+        if name == "skewness":
+            descriptors["skewness"] = Descriptor(value, label, error)
         else:
-            skew = shape.skewness(sums.standardized_moment(3), n, skew_family)
-        if n < shape.KURTOSIS_MIN_N[kurt_family]:
-            notes.add(
-                "too_few_observations",
-                f"kurtosis {kurt_family} needs at least {shape.KURTOSIS_MIN_N[kurt_family]} "
-                f"observations; n = {n:g}",
-                ["kurtosis", "excess_kurtosis"],
+            descriptors["kurtosis"] = Descriptor(
+                None if value is None else value + 3.0, f"{label} + 3 (normal = 3)", error
             )
-        else:
-            kurt = shape.excess_kurtosis(sums.standardized_moment(4) - 3.0, n, kurt_family)
-    descriptors["skewness"] = Descriptor(
-        None if skew is None else skew.value,
-        skew_family,
-        None if skew is None else skew.standard_error,
+            descriptors["excess_kurtosis"] = Descriptor(value, f"{label} (normal = 0)", error)
+
+
+def _shape_estimators(sums: CentralSums | None, basis: _Basis, constant: bool) -> ShapeEstimators:
+    """Every Joanes & Gill family side by side; ``None`` where it does not apply or n is too small."""
+    undefined = sums is None or basis.single or constant
+
+    def row(family: str) -> ShapeEstimate:
+        if undefined:
+            return ShapeEstimate(family, None, None)
+        value, error, _ = _family_estimate(family, sums, basis, False)
+        return ShapeEstimate(family, value, error)
+
+    return ShapeEstimators(
+        skewness=[row(f) for f in shape.SKEWNESS_FAMILIES],
+        excess_kurtosis=[row(f) for f in shape.KURTOSIS_FAMILIES],
     )
-    descriptors["kurtosis"] = Descriptor(
-        None if kurt is None else kurt.value + 3.0,
-        f"{kurt_family} + 3 (normal = 3)",
-        None if kurt is None else kurt.standard_error,
-    )
-    descriptors["excess_kurtosis"] = Descriptor(
-        None if kurt is None else kurt.value,
-        f"{kurt_family} (normal = 0)",
-        None if kurt is None else kurt.standard_error,
-    )
-
-
-def _shape_estimators(sums: CentralSums, n: float, single: bool, constant: bool) -> ShapeEstimators:
-    """Every Joanes & Gill family side by side; ``None`` where n is too small or spread is 0."""
-    defined = not (single or constant)
-    skewness = [
-        _family_estimate(family, defined and n >= shape.SKEWNESS_MIN_N[family], shape.skewness, sums, 3, n)
-        for family in shape.SKEWNESS_FAMILIES
-    ]
-    kurtosis = [
-        _family_estimate(family, defined and n >= shape.KURTOSIS_MIN_N[family], shape.excess_kurtosis, sums, 4, n)
-        for family in shape.KURTOSIS_FAMILIES
-    ]
-    return ShapeEstimators(skewness=skewness, excess_kurtosis=kurtosis)
-
-
-def _family_estimate(family, defined, estimator, sums: CentralSums, order_k: int, n: float) -> ShapeEstimate:
-    if not defined:
-        return ShapeEstimate(family, None, None)
-    plug_in = sums.standardized_moment(order_k) - (3.0 if order_k == 4 else 0.0)
-    estimate = estimator(plug_in, n, family)
-    return ShapeEstimate(family, _finite_or_none(estimate.value), _finite_or_none(estimate.standard_error))
 
 
 def _lag1(
-    data: WeightedData, sums: CentralSums, single: bool, constant: bool, notes: _Notes
+    data: WeightedData, sums: CentralSums | None, single: bool, constant: bool, notes: _Notes
 ) -> float | None:
-    if single or constant:
+    if single or constant or sums is None:
         return None
     if not data.ordered or data.weights is not None:
         notes.add(
@@ -437,9 +747,75 @@ def _lag1(
     return _finite_or_none(lag1_autocorrelation(data.values, sums))
 
 
-def _moments(
-    sums: CentralSums, top: int, single: bool, constant: bool, notes: _Notes
-) -> Moments:
+# Normal-theory standard deviations (times sqrt(n)) of the quartile skewness and of
+# (mean - median) / sigma, from the asymptotic covariance of sample quantiles
+# Cov(Q_p, Q_q) = p (1 - q) / (n f(x_p) f(x_q)), p <= q (e.g. Serfling 1980, section 2.3.3),
+# and Var(median - mean) = (pi / 2 - 1) sigma^2 / n for normal data.
+def _quartile_skewness_sd() -> float:
+    probabilities = np.array([0.25, 0.5, 0.75])
+    density = stats.norm.pdf(stats.norm.ppf(probabilities))
+    p, q = np.meshgrid(probabilities, probabilities, indexing="ij")
+    covariance = np.minimum(p, q) * (1.0 - np.maximum(p, q)) / np.outer(density, density)
+    gradient = np.array([1.0, -2.0, 1.0])
+    spread = stats.norm.ppf(0.75) - stats.norm.ppf(0.25)
+    return float(math.sqrt(gradient @ covariance @ gradient) / spread)
+
+
+_QUARTILE_SKEWNESS_SD = _quartile_skewness_sd()
+_MEAN_MEDIAN_GAP_SD = math.sqrt(math.pi / 2.0 - 1.0)
+
+
+def _check_symmetry(
+    descriptors: dict[str, Descriptor], data: WeightedData, basis: _Basis, notes: _Notes
+) -> None:
+    """Warn when skewness is near zero while quartiles or the mean-median gap show asymmetry."""
+    skew = descriptors["skewness"].value
+    mean, median, sd = descriptors["mean"].value, descriptors["median"].value, descriptors["standard_deviation"].value
+    if skew is None or mean is None or median is None or not sd:
+        return
+    probabilities = np.array([0.25, 0.5, 0.75])
+    if data.binned:
+        q1, q2, q3 = grouped.quantiles(data, probabilities)
+    else:
+        support = data.support
+        q1, q2, q3 = order.cdf_quantiles(support.values, support.cumulative, probabilities, average_at_steps=True)
+    if not (math.isfinite(q1) and math.isfinite(q3)) or q3 == q1:
+        return
+    with np.errstate(over="ignore", invalid="ignore"):
+        # Halves first: quartiles near +-1.8e308 must not overflow before the ratio.
+        quartile_skewness = float((0.5 * q3 + 0.5 * q1 - q2) / (0.5 * q3 - 0.5 * q1))
+        # The gap uses the same averaged median as the quartiles, so a symmetric table reads as such.
+        gap = float((0.5 * mean - 0.5 * q2) / (0.5 * sd))
+    if not (math.isfinite(quartile_skewness) and math.isfinite(gap)):
+        return
+    if basis.population or basis.sample_size is None:
+        near_zero = abs(skew) <= POPULATION_SYMMETRY_THRESHOLD
+        limit_quartile = limit_gap = POPULATION_SYMMETRY_THRESHOLD
+        rule = f"rule of thumb for a population: |skewness| <= {POPULATION_SYMMETRY_THRESHOLD}, others beyond it"
+    else:
+        n = basis.sample_size
+        error = descriptors["skewness"].standard_error_under_normality
+        if error is None:
+            error = math.sqrt(6.0 * (n - 2.0) / ((n + 1.0) * (n + 3.0))) if n > 2 else math.inf
+        near_zero = abs(skew) <= 2.0 * error
+        limit_quartile = 2.0 * _QUARTILE_SKEWNESS_SD / math.sqrt(n)
+        limit_gap = 2.0 * _MEAN_MEDIAN_GAP_SD / math.sqrt(n)
+        rule = "two normal-theory standard errors (common practice)"
+    disagree = []
+    if abs(quartile_skewness) > limit_quartile:
+        disagree.append(f"quartile skewness {quartile_skewness:.3g}")
+    if abs(gap) > limit_gap:
+        disagree.append(f"(mean - median) / sd = {gap:.3g}")
+    if near_zero and disagree:
+        notes.add(
+            "asymmetry_despite_small_skewness",
+            f"skewness {skew:.3g} is near zero, yet {' and '.join(disagree)} show asymmetry "
+            f"(threshold: {rule}); a zero third moment does not make a distribution symmetric",
+            ["skewness"],
+        )
+
+
+def _moments(sums: CentralSums, top: int, single: bool, constant: bool, notes: _Notes) -> Moments:
     raw, central, standardized = [], [], []
     for k in range(1, top + 1):
         raw.append(notes.finite(sums.raw_moment(k), f"moments.raw[{k - 1}] (order {k})"))
@@ -453,29 +829,85 @@ def _moments(
     return Moments(order=top, raw=raw, central=central, standardized=standardized)
 
 
-def _modes(data: WeightedData, limit: int, notes: _Notes) -> Modes:
-    found = order.modes(data)
-    values = found.values
-    counted = data.meaning in (WeightMeaning.UNIT, WeightMeaning.FREQUENCY)
-    if counted and found.weight == 1.0 and found.distinct_values > 1:
-        notes.add(
-            "no_repeated_values",
-            f"each of the {found.distinct_values} values occurs once, so the data have no mode",
-            ["modes"],
-        )
-        values = values[:0]
+def _tail(
+    data: WeightedData, sums: CentralSums | None, undefined: bool, options: DescribeOptions, kind: str
+) -> TailContributions | None:
+    if sums is None or undefined:
+        return None
+    if data.binned:
+        values, weights = data.values, data.weights
+    else:
+        support = data.support
+        values, weights = support.values, support.weights
+    found = tail.contributions(
+        values,
+        weights,
+        sums,
+        limit=SAMPLE_CONTRIBUTORS if kind == "samples" else options.contributions_limit,
+        largest_only=kind == "samples",
+    )
+    return TailContributions(
+        standardized_third=float(sums.standardized_moment(3)),
+        standardized_fourth=float(sums.standardized_moment(4)),
+        complete=found.complete,
+        outcomes=[
+            Contribution(float(v), float(w), float(t), float(f))
+            for v, w, t, f in zip(found.values, found.weights, found.third, found.fourth)
+        ],
+    )
+
+
+def _modes(data: WeightedData, limit: int, notes: _Notes) -> tuple[Modes, list[grouped.ModalClass]]:
+    if data.binned:
+        classes = grouped.modal_classes(data)
+        values = np.array([c.mode for c in classes if math.isfinite(c.mode)])
+        if len(values) < len(classes):
+            notes.add(
+                "grouped_mode_undefined",
+                "the interpolated mode of a modal class needs known neighbouring densities: a neighbour is an "
+                "open bin holding data or ties with the class (see grouping.modal_classes)",
+                ["modes"],
+            )
+        weight = classes[0].count if classes else 0.0
+        tied, distinct = len(classes), int(data.values.size)
+    else:
+        found = order.modes(data)
+        values, weight, tied, distinct = found.values, found.weight, found.tied, found.distinct_values
+        counted = data.meaning in (WeightMeaning.UNIT, WeightMeaning.FREQUENCY)
+        if counted and weight == 1.0 and distinct > 1:
+            notes.add(
+                "no_repeated_values",
+                f"each of the {distinct} values occurs once, so the data have no mode",
+                ["modes"],
+            )
+            values = values[:0]
+        classes = []
     truncated = values.size > limit
     if truncated:
-        notes.add(
-            "modes_truncated",
-            f"{values.size} values tie for the mode; the first {limit} are listed",
-            ["modes"],
-        )
+        notes.add("modes_truncated", f"{values.size} values tie for the mode; the first {limit} are listed", ["modes"])
         values = values[:limit]
-    return Modes(
-        values=[float(v) for v in values],
-        count=found.weight,
-        distinct_values=found.distinct_values,
-        tied=found.tied,
-        truncated=truncated,
+    return (
+        Modes(values=[float(v) for v in values], count=weight, distinct_values=distinct, tied=tied, truncated=truncated),
+        classes,
+    )
+
+
+def _grouping(data: WeightedData, classes: list[grouped.ModalClass], sheppard_applied: bool) -> Grouping:
+    edges = data.edges
+    assert edges is not None and data.weights is not None
+    occupied = np.flatnonzero(data.weights > 0)
+    lowest = edges[occupied[0]]
+    highest = edges[occupied[-1] + 1]
+    width = grouped.equal_width(data)
+    return Grouping(
+        bins=int(data.weights.size),
+        bin_width=width,
+        equal_widths=width is not None,
+        open_lower=bool(np.isinf(edges[0])),
+        open_upper=bool(np.isinf(edges[-1])),
+        open_bin_weight=data.open_bin_weight,
+        lowest_edge=_finite_or_none(float(lowest)),
+        highest_edge=_finite_or_none(float(highest)),
+        sheppard_correction_applied=sheppard_applied,
+        modal_classes=[ModalClass(c.lower, c.upper, c.count, _finite_or_none(c.mode)) for c in classes],
     )

@@ -4,8 +4,9 @@ The sums are computed in blocks that stay in cache, about a shift close to the m
 re-centred exactly afterwards (the "shifted data" algorithm; Chan, Golub & LeVeque, "Algorithms
 for computing the sample variance", The American Statistician 37, 1983, section 3). When the
 shift turns out to be poor, or the powers would overflow or underflow float64 (data of
-magnitude 1e150, or spreads near the subnormal range), the data are recomputed in two passes
-with exact power-of-two scaling, so every standardized moment stays finite and accurate.
+magnitude 1e150, near the largest double, or in the subnormal range), the data are recomputed
+in two passes with exact power-of-two scaling, so every standardized moment stays finite and
+accurate for any finite input.
 """
 
 from __future__ import annotations
@@ -24,18 +25,40 @@ _MAX_SHIFT_ERROR = 0.1
 _MAX_POWER_EXPONENT = 280.0
 
 
+def scale_by_power_of_two(value: float, exponent: int) -> float:
+    """``value * 2**exponent`` exactly, or NaN when float64 cannot hold it.
+
+    An underflow to zero (or into the subnormal range) of a non-zero value would be a
+    plausible-looking but wrong number, so it is reported as not representable too.
+    """
+    if value == 0.0 or not math.isfinite(value):
+        return value if value == 0.0 else math.nan
+    if not -1021 < math.frexp(value)[1] + exponent <= 1024:
+        return math.nan
+    return math.ldexp(value, exponent)
+
+
 @dataclass(frozen=True)
 class CentralSums:
-    """Weighted sums of powers of the deviations from the mean, in units of ``scale``.
+    """Weighted sums of powers of the deviations from the mean, in units of ``2**scale_exponent``.
 
-    ``sums[j] = sum_i w_i ((x_i - mean) / scale)**j`` for ``j = 0 .. order``; ``sums[0]`` is
-    the total weight and ``sums[1]`` is zero. ``scale`` is a power of two chosen so the sums
-    are representable; the central moment of order ``j`` is ``scale**j * sums[j] / sums[0]``.
+    Each value ``x`` is mapped to its scaled deviation ``d = (x * 2**pre - shift) * 2**post - centre``
+    (all exact but the subtractions); ``sums[j] = sum_i w_i d_i**j`` for ``j = 0 .. order``, so
+    ``sums[0]`` is the total weight and ``sums[1]`` is zero. ``d`` is the deviation from the mean
+    divided by ``2**scale_exponent`` with ``scale_exponent = -(pre + post)``; the central moment of
+    order ``j`` is ``2**(j * scale_exponent) * sums[j] / sums[0]``.
     """
 
     mean: float
-    scale: float
     sums: np.ndarray
+    pre_exponent: int = 0
+    shift: float = 0.0
+    post_exponent: int = 0
+    centre: float = 0.0
+
+    @property
+    def scale_exponent(self) -> int:
+        return -(self.pre_exponent + self.post_exponent)
 
     @property
     def total_weight(self) -> float:
@@ -45,13 +68,26 @@ class CentralSums:
     def order(self) -> int:
         return int(self.sums.size - 1)
 
+    def scaled_deviations(self, values: np.ndarray) -> np.ndarray:
+        """``(values - mean) / 2**scale_exponent`` by the same exact scaling as the sums."""
+        d = np.ldexp(values, self.pre_exponent) if self.pre_exponent else np.array(values, dtype=np.float64)
+        d -= self.shift
+        if self.post_exponent:
+            d = np.ldexp(d, self.post_exponent)
+        d -= self.centre
+        return d
+
     def scaled_central_moment(self, order: int) -> float:
-        """Central moment of ``order`` divided by ``scale**order`` (always representable)."""
+        """Central moment of ``order`` divided by ``2**(order * scale_exponent)`` (representable)."""
         return float(self.sums[order] / self.sums[0])
 
     def central_moment(self, order: int) -> float:
         """Plug-in central moment (divisor: total weight); NaN when float64 cannot hold it."""
-        return _rescale(self.scaled_central_moment(order), self.scale, order)
+        return scale_by_power_of_two(self.scaled_central_moment(order), order * self.scale_exponent)
+
+    def standard_deviation(self, factor: float = 1.0) -> float:
+        """``sqrt(factor * m2)``, taken in scaled units so it is representable when m2 is not."""
+        return scale_by_power_of_two(math.sqrt(self.scaled_central_moment(2) * factor), self.scale_exponent)
 
     def standardized_moment(self, order: int) -> float:
         """``m_order / m_2**(order/2)``; NaN when the data have no spread."""
@@ -63,49 +99,31 @@ class CentralSums:
     def raw_moment(self, order: int) -> float:
         """Plug-in raw moment ``E[x**order]``, from the central moments by the binomial theorem.
 
-        Computed relative to ``R = max(|mean|, scale)`` so no intermediate overflows; the
-        result is NaN only when the moment itself is beyond float64.
+        Computed relative to ``R = 2**r >= max(|mean|, 2**scale_exponent)`` so no intermediate
+        overflows; the result is NaN only when the moment itself is beyond float64.
         """
-        reference = max(abs(self.mean), self.scale)
-        if reference == 0.0:
-            return 0.0
-        ratio_mean = self.mean / reference
-        ratio_scale = self.scale / reference
+        if self.mean == 0.0:
+            reference = self.scale_exponent
+        else:
+            reference = max(math.frexp(self.mean)[1], self.scale_exponent)
+        ratio_mean = math.ldexp(self.mean, -reference)
+        ratio_scale = math.ldexp(1.0, max(self.scale_exponent - reference, -1074))
         total = 0.0
         for j in range(order + 1):
             central = 1.0 if j == 0 else self.scaled_central_moment(j) * ratio_scale**j
             total += math.comb(order, j) * ratio_mean ** (order - j) * central
-        return _rescale(total, reference, order)
-
-
-def _rescale(scaled: float, scale: float, order: int) -> float:
-    """``scaled * scale**order``, or NaN when that overflows or underflows float64.
-
-    An underflow to zero (or into the subnormal range) of a non-zero moment would be a
-    plausible-looking but wrong number, so it is reported as not representable too.
-    """
-    if scaled == 0.0:
-        return 0.0
-    exponent = math.log2(abs(scaled)) + order * math.log2(scale)
-    if not -1021.0 < exponent < 1023.9:
-        return math.nan
-    # Multiplying one factor at a time moves monotonically from ``scaled`` to the result,
-    # so no intermediate leaves the range the exponent check just confirmed.
-    result = scaled
-    for _ in range(order):
-        result *= scale
-    return result
+        return scale_by_power_of_two(total, reference * order)
 
 
 def _power_sums(
     values: np.ndarray,
     weights: np.ndarray | None,
-    pre_scale: float,
+    pre_exponent: int,
     shift: float,
-    post_scale: float,
+    post_exponent: int,
     order: int,
 ) -> np.ndarray:
-    """``sums[j] = sum w ((x * pre_scale - shift) * post_scale)**j``, blocked to stay in cache."""
+    """``sums[j] = sum w ((x * 2**pre - shift) * 2**post)**j``, blocked to stay in cache."""
     n = values.size
     sums = np.zeros(order + 1)
     block = min(_BLOCK, n)
@@ -117,45 +135,53 @@ def _power_sums(
         d = deviation[:size]
         p = power[:size]
         chunk = values[start:stop]
-        if pre_scale != 1.0:
-            np.multiply(chunk, pre_scale, out=d)
+        if pre_exponent:
+            np.ldexp(chunk, pre_exponent, out=d)
             np.subtract(d, shift, out=d)
         else:
             np.subtract(chunk, shift, out=d)
-        if post_scale != 1.0:
-            np.multiply(d, post_scale, out=d)
+        if post_exponent:
+            np.ldexp(d, post_exponent, out=d)
         if weights is None:
             sums[0] += size
-            np.copyto(p, d)
+            sums[1] += d.sum()
+            np.multiply(d, d, out=p)
+            sums[2] += p.sum()
+            first_power = 3
         else:
             w = weights[start:stop]
             sums[0] += w.sum()
             np.multiply(w, d, out=p)
-        sums[1] += p.sum()
-        for j in range(2, order + 1):
+            sums[1] += p.sum()
+            first_power = 2
+        for j in range(first_power, order + 1):
             np.multiply(p, d, out=p)
             sums[j] += p.sum()
     return sums
 
 
-def _blocked_abs_max(values: np.ndarray, pre_scale: float, shift: float) -> float:
+def _blocked_abs_max(values: np.ndarray, pre_exponent: int, shift: float) -> float:
     result = 0.0
     for start in range(0, values.size, _BLOCK):
-        chunk = values[start : start + _BLOCK] * pre_scale - shift
+        chunk = np.ldexp(values[start : start + _BLOCK], pre_exponent) - shift
         result = max(result, float(np.max(np.abs(chunk))))
     return result
 
 
-def _weighted_mean(values: np.ndarray, weights: np.ndarray | None, pre_scale: float) -> float:
-    total = 0.0
-    for start in range(0, values.size, _BLOCK):
-        chunk = values[start : start + _BLOCK] * pre_scale
-        if weights is None:
-            total += float(chunk.sum())
-        else:
-            total += float(np.dot(weights[start : start + _BLOCK], chunk))
+def _weighted_mean(values: np.ndarray, weights: np.ndarray | None, pre_exponent: int) -> float:
+    """Mean of ``values * 2**pre_exponent``, refined by one correction pass."""
     weight = float(values.size) if weights is None else float(np.sum(weights))
-    return total / weight
+    estimate = 0.0
+    for refine in range(2):
+        total = 0.0
+        for start in range(0, values.size, _BLOCK):
+            chunk = np.ldexp(values[start : start + _BLOCK], pre_exponent) - estimate
+            if weights is None:
+                total += float(chunk.sum())
+            else:
+                total += float(np.dot(weights[start : start + _BLOCK], chunk))
+        estimate += total / weight
+    return estimate
 
 
 def _shift_estimate(values: np.ndarray, weights: np.ndarray | None) -> float:
@@ -170,14 +196,14 @@ def _shift_estimate(values: np.ndarray, weights: np.ndarray | None) -> float:
     return float(np.mean(sample))
 
 
-def _acceptable(sums: np.ndarray, order: int) -> bool:
+def _acceptable(sums: np.ndarray, order: int, values: np.ndarray) -> bool:
     """Whether one-pass sums about a guessed shift are as accurate as the two-pass ones."""
     if not np.all(np.isfinite(sums)):
         return False
     weight, first, second = sums[0], sums[1], sums[2]
     if second <= 0.0:
-        # Either constant data (then every deviation is zero) or squares that underflowed.
-        return first == 0.0 and not np.any(sums[2:])
+        # Constant data, or squares that underflowed: only the first keeps the fast path.
+        return bool(np.all(values == values[0]))
     mean_square = second / weight
     delta = first / weight
     if delta * delta > _MAX_SHIFT_ERROR**2 * mean_square:
@@ -198,6 +224,11 @@ def _recentre(sums: np.ndarray) -> np.ndarray:
             total += math.comb(k, j) * sums[j] * (-delta) ** (k - j)
         centred[k] = total
     return centred
+
+
+def _exponent_to_unit(magnitude: float) -> int:
+    """``e`` such that ``magnitude * 2**e`` lies in [0.5, 1) (0 for zero)."""
+    return -math.frexp(magnitude)[1] if magnitude > 0.0 else 0
 
 
 def central_sums(values: np.ndarray, weights: np.ndarray | None, order: int) -> CentralSums:
@@ -221,20 +252,26 @@ def central_sums(values: np.ndarray, weights: np.ndarray | None, order: int) -> 
     largest deviation, which keeps every power finite for any finite input.
     """
     order = max(order, 2)
+    pre = post = 0
     with np.errstate(over="ignore", invalid="ignore", under="ignore"):
         shift = _shift_estimate(values, weights)
         sums = None
         if math.isfinite(shift):
-            candidate = _power_sums(values, weights, 1.0, shift, 1.0, order)
-            if _acceptable(candidate, order):
-                sums, pre_scale, post_scale = candidate, 1.0, 1.0
+            candidate = _power_sums(values, weights, 0, shift, 0, order)
+            if _acceptable(candidate, order, values):
+                sums = candidate
         if sums is None:
-            magnitude = float(np.max(np.abs(values)))
-            pre_scale = math.ldexp(1.0, -math.frexp(magnitude)[1]) if magnitude > 0.0 else 1.0
-            shift = _weighted_mean(values, weights, pre_scale)
-            spread = _blocked_abs_max(values, pre_scale, shift)
-            post_scale = math.ldexp(1.0, -math.frexp(spread)[1]) if spread > 0.0 else 1.0
-            sums = _power_sums(values, weights, pre_scale, shift, post_scale, order)
-    delta = sums[1] / sums[0]
-    mean = (shift + delta / post_scale) / pre_scale
-    return CentralSums(mean=float(mean), scale=1.0 / (pre_scale * post_scale), sums=_recentre(sums))
+            pre = _exponent_to_unit(float(np.max(np.abs(values))))
+            shift = _weighted_mean(values, weights, pre)
+            post = _exponent_to_unit(_blocked_abs_max(values, pre, shift))
+            sums = _power_sums(values, weights, pre, shift, post, order)
+    centre = float(sums[1] / sums[0])
+    mean = math.ldexp(shift + math.ldexp(centre, -post), -pre)
+    return CentralSums(
+        mean=float(mean),
+        sums=_recentre(sums),
+        pre_exponent=pre,
+        shift=shift,
+        post_exponent=post,
+        centre=centre,
+    )

@@ -1,0 +1,49 @@
+"""Which outcomes drive skewness and kurtosis: each support value's share of the standardized moments.
+
+For support values ``x_i`` with weights ``w_i`` (total ``W``), plug-in standard deviation
+``sigma`` and mean ``mu``, the contributions
+
+    third_i  = w_i (x_i - mu)^3 / (W sigma^3)      (signed)
+    fourth_i = w_i (x_i - mu)^4 / (W sigma^4)      (non-negative)
+
+sum exactly to the plug-in standardized third moment ``g1`` and fourth moment ``b2 = g2 + 3``.
+A value far out in a tail has a large ``fourth``; the sign of ``third`` says which tail.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+
+from service.core.moments import CentralSums
+
+
+@dataclass(frozen=True)
+class Contributions:
+    values: np.ndarray
+    weights: np.ndarray
+    third: np.ndarray
+    fourth: np.ndarray
+    complete: bool  # False when only the largest contributors are listed
+
+
+def contributions(
+    values: np.ndarray, weights: np.ndarray, sums: CentralSums, *, limit: int, largest_only: bool
+) -> Contributions:
+    """Contributions of each support value, all of them in value order or the ``limit`` largest.
+
+    The largest are ranked by ``fourth`` (the tail weight), ties broken by ``|third|``; they are
+    listed when ``largest_only`` or when there are more than ``limit`` values.
+    """
+    m2 = sums.scaled_central_moment(2)
+    total = sums.total_weight
+    standardized = sums.scaled_deviations(values) / np.sqrt(m2)
+    squared = standardized * standardized
+    third = weights * squared * standardized / total
+    fourth = weights * squared * squared / total
+    if largest_only or values.size > limit:
+        ranked = np.lexsort((-np.abs(third), -fourth))[:limit]
+        keep = np.sort(ranked)
+        return Contributions(values[keep], weights[keep], third[keep], fourth[keep], complete=keep.size == values.size)
+    return Contributions(values, weights, third, fourth, complete=True)
