@@ -32,6 +32,10 @@ class Settings:
     max_modes_listed: int = 100
     # Most outcomes (bins) listed in tail_contributions before only the largest are listed.
     max_contributions_listed: int = 1_000
+    # Resampling budget: bootstrap resamples x support rows per request (422 beyond).
+    max_resample_work: int = 1_000_000_000
+    # Wall-clock limit of one request's computation, in seconds (422 beyond).
+    max_request_seconds: int = 30
 
     _BOUNDS = {
         "max_body_bytes": (1024, 1024**3),
@@ -40,6 +44,8 @@ class Settings:
         "max_probabilities": (1, 100_000),
         "max_modes_listed": (1, 100_000),
         "max_contributions_listed": (1, 100_000),
+        "max_resample_work": (1_000, 10**12),
+        "max_request_seconds": (1, 3600),
     }
 
     def __post_init__(self) -> None:

@@ -5,6 +5,8 @@ Runs in a worker thread (see ``routes``), so nothing here may touch the event lo
 
 from __future__ import annotations
 
+import secrets
+import time
 from typing import TypeVar
 
 import msgspec
@@ -21,6 +23,7 @@ from service.api.schemas import (
 )
 from service.core import (
     DescribeOptions,
+    IntervalOptions,
     LimitExceeded,
     Location,
     WeightMeaning,
@@ -41,7 +44,7 @@ def _decode(body: bytes, kind: type[Request]) -> Request:
     try:
         return _decoders[kind].decode(body)
     except msgspec.MsgspecError as error:
-        raise invalid_body(error) from None
+        raise invalid_body(error, body) from None
 
 
 def _check_count(count: int, path: str, settings: Settings) -> None:
@@ -64,7 +67,19 @@ def _describe_options(options: DescriptorOptions, settings: Settings) -> Describ
             detail=f"at most {settings.max_probabilities} probabilities per request on this server",
             locations=[Location("$.options.probabilities", "too many probabilities; send fewer")],
         )
+    interval = None
+    if options.interval is not None:
+        seed = options.interval.seed
+        interval = IntervalOptions(
+            method=options.interval.method,
+            level=options.interval.level,
+            resamples=options.interval.resamples,
+            seed=secrets.randbelow(2**53) if seed is None else seed,
+        )
     return DescribeOptions(
+        interval=interval,
+        max_resample_work=float(settings.max_resample_work),
+        deadline=time.monotonic() + settings.max_request_seconds,
         convention=options.convention,
         skewness_estimator=options.skewness_estimator,
         kurtosis_estimator=options.kurtosis_estimator,

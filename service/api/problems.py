@@ -39,7 +39,8 @@ PROBLEM_TYPES: dict[str, tuple[int, str]] = {
 }
 _SLUG_BY_STATUS = {status: slug for slug, (status, _) in PROBLEM_TYPES.items()}
 _LOCATION = re.compile(r"^(?P<message>.*?) - at `(?P<path>\$[^`]*)`$", re.DOTALL)
-_UNKNOWN_FIELD = re.compile(r"^Object contains unknown field `(?P<field>[^`]*)`")
+_NAMED_FIELD = re.compile(r"^Object (?:contains unknown|missing required) field `(?P<field>[^`]*)`")
+_BYTE = re.compile(r"\(byte (?P<offset>\d+)\)")
 
 logger = logging.getLogger("service.api")
 
@@ -54,23 +55,68 @@ class ApiProblem(Exception):
         self.errors = errors or []
 
 
-def locate_msgspec_error(error: msgspec.MsgspecError) -> ProblemLocation:
+def json_path_at(body: bytes, offset: int) -> str:
+    """The JSON path of the value being read at byte ``offset`` of a (possibly malformed) body.
+
+    msgspec reports a syntax error (a ``NaN`` token, a stray character) only by byte offset;
+    this scan of the prefix tracks objects, arrays, keys and strings to name the field instead.
+    """
+    stack: list[list] = []  # each entry: ["object", key or None, expecting_key] or ["array", index]
+    i, end = 0, min(offset, len(body))
+    while i < end:
+        c = body[i : i + 1]
+        if c == b'"':
+            j = i + 1
+            while j < len(body) and body[j : j + 1] != b'"':
+                j += 2 if body[j : j + 1] == b"\\" else 1
+            if stack and stack[-1][0] == "object" and stack[-1][2]:
+                stack[-1][1] = body[i + 1 : j].decode("utf-8", "replace")
+            i = j + 1
+            continue
+        if c == b"{":
+            stack.append(["object", None, True])
+        elif c == b"[":
+            stack.append(["array", 0])
+        elif c in (b"}", b"]") and stack:
+            stack.pop()
+        elif c == b":" and stack and stack[-1][0] == "object":
+            stack[-1][2] = False
+        elif c == b"," and stack:
+            if stack[-1][0] == "array":
+                stack[-1][1] += 1
+            else:
+                stack[-1][2] = True
+        i += 1
+    path = "$"
+    for entry in stack:
+        if entry[0] == "array":
+            path += f"[{entry[1]}]"
+        elif entry[1] is not None:
+            path += f".{entry[1]}"
+    return path
+
+
+def locate_msgspec_error(error: msgspec.MsgspecError, body: bytes = b"") -> ProblemLocation:
     """Split msgspec's ``"<message> - at `$.path`"`` into a path and a message.
 
-    An unknown field is reported at the field's own path, so the caller sees which name
-    was misspelled.
+    An unknown or missing field is reported at the field's own path, so the caller sees which
+    name was misspelled or left out; a syntax error at the path of the value being read.
     """
     text = str(error)
     match = _LOCATION.match(text)
     message, path = (match["message"], match["path"]) if match else (text, "$")
-    unknown = _UNKNOWN_FIELD.match(message)
-    if unknown:
-        path = f"{path}.{unknown['field']}"
+    named = _NAMED_FIELD.match(message)
+    if named:
+        path = f"{path}.{named['field']}"
+    elif not match and isinstance(error, msgspec.DecodeError):
+        byte = _BYTE.search(message)
+        if byte:
+            path = json_path_at(body, int(byte["offset"]))
     return ProblemLocation(path=path, message=message)
 
 
-def invalid_body(error: msgspec.MsgspecError) -> ApiProblem:
-    location = locate_msgspec_error(error)
+def invalid_body(error: msgspec.MsgspecError, body: bytes = b"") -> ApiProblem:
+    location = locate_msgspec_error(error, body)
     kind = "does not match the schema" if isinstance(error, msgspec.ValidationError) else "is not valid JSON"
     return ApiProblem("invalid-body", f"The request body {kind}: {location.message}", [location])
 

@@ -34,8 +34,35 @@ class Message(msgspec.Struct, forbid_unknown_fields=True, kw_only=True):
 NonNegative = Annotated[float, Meta(ge=0.0, description="A finite number >= 0.")]
 
 
+MAX_SEED = 2**53 - 1
+
+
+class IntervalRequest(Message):
+    method: Annotated[
+        Literal["percentile", "basic", "bca"],
+        Meta(description="Bootstrap interval: percentile, basic, or bias-corrected and accelerated (BCa)."),
+    ] = "bca"
+    level: Annotated[float, Meta(gt=0.0, lt=1.0, description="Confidence level, e.g. 0.95.")] = 0.95
+    resamples: Annotated[
+        int, Meta(ge=100, le=1_000_000, description="Bootstrap resamples (the server's budget may allow fewer).")
+    ] = 9999
+    seed: Annotated[
+        int | None,
+        Meta(description="Seed of the resampling (0 to 2^53 - 1); null draws one, echoed in resampling.seed."),
+    ] = None
+
+    def __post_init__(self) -> None:
+        if self.seed is not None and not 0 <= self.seed <= MAX_SEED:
+            raise ValueError(f"seed must be an integer in [0, {MAX_SEED}] - at `$.options.interval.seed`")
+
+
 class DescriptorOptions(Message):
     """Options shared by every descriptor endpoint."""
+
+    interval: Annotated[
+        IntervalRequest | None,
+        Meta(description="Ask for bootstrap and classical intervals of every descriptor; null: none."),
+    ] = None
 
     convention: Annotated[
         Literal["sample", "population"] | None,
@@ -172,12 +199,38 @@ class BinsRequest(Message):
     options: BinOptions = msgspec.field(default_factory=BinOptions)
 
 
+class Interval(Message):
+    low: MaybeNumber
+    high: MaybeNumber
+    level: float
+    method: Annotated[str, Meta(description="The method actually used (BCa may fall back to percentile).")]
+
+
+class ClassicalInterval(Message):
+    low: float
+    high: float
+    level: float
+    method: Annotated[str, Meta(description="student_t, chi_square, or order_statistics x(l), x(u).")]
+    coverage: Annotated[float | None, Meta(description="Achieved coverage of an order-statistic interval.")]
+    assumption: Annotated[str, Meta(description="What the interval assumes.")]
+
+
 class DescriptorValue(Message):
     value: MaybeNumber
     estimator: Annotated[str, Meta(description="The exact estimator or definition used.")]
     standard_error_under_normality: Annotated[
         float | None,
         Meta(description="Standard error of the estimator for normal data, where one is defined."),
+    ] = None
+    interval: Annotated[
+        Interval | None, Meta(description="Bootstrap interval (when options.interval is given).")
+    ] = None
+    standard_error: Annotated[
+        float | None, Meta(description="Bootstrap standard error (when options.interval is given).")
+    ] = None
+    classical_interval: Annotated[
+        ClassicalInterval | None,
+        Meta(description="Closed-form interval where one exists (t, chi-square, order statistics)."),
     ] = None
 
 
@@ -225,6 +278,17 @@ class Moments(Message):
 class Quantile(Message):
     probability: float
     value: MaybeNumber
+    interval: Interval | None = None
+    standard_error: float | None = None
+    classical_interval: ClassicalInterval | None = None
+
+
+class Resampling(Message):
+    method: str
+    level: float
+    resamples: int
+    seed: Annotated[int, Meta(description="Seed used; the same request with this seed reproduces every interval.")]
+    scheme: Annotated[str, Meta(description="What was resampled and how.")]
 
 
 class Modes(Message):
@@ -319,6 +383,9 @@ class DescriptionResponse(Message):
     grouping: Annotated[Grouping | None, Meta(description="Bin facts; null unless the input was bins.")]
     conventions: Conventions
     warnings: list[ResultWarning]
+    resampling: Annotated[
+        Resampling | None, Meta(description="The resampling performed; null without options.interval.")
+    ] = None
 
 
 class ProblemLocation(Message):

@@ -3,6 +3,7 @@
 from service.core.describe import DEFAULT_PROBABILITIES, Description, DescribeOptions, describe
 from service.core.errors import DescriptorError, LimitExceeded, Location, UncomputableInput
 from service.core.moments import CentralSums, central_sums
+from service.core.resample import IntervalOptions
 from service.core.weighted import (
     PROBABILITY_TOLERANCE,
     WeightedData,
@@ -20,6 +21,7 @@ __all__ = [
     "DescribeOptions",
     "Description",
     "DescriptorError",
+    "IntervalOptions",
     "LimitExceeded",
     "Location",
     "UncomputableInput",

@@ -15,7 +15,7 @@ from dataclasses import dataclass, field
 import numpy as np
 from scipy import stats
 
-from service.core import grouped, order, shape, tail
+from service.core import classical, grouped, order, resample, shape, tail
 from service.core.errors import Location, UncomputableInput
 from service.core.moments import CentralSums, central_sums
 from service.core.serial import lag1_autocorrelation
@@ -82,6 +82,9 @@ class DescribeOptions:
     modes_limit: int = 100
     sheppard_correction: bool = False
     contributions_limit: int = 1000
+    interval: resample.IntervalOptions | None = None
+    max_resample_work: float = 1e9
+    deadline: float | None = None
 
 
 @dataclass
@@ -89,6 +92,9 @@ class Descriptor:
     value: float | None
     estimator: str
     standard_error_under_normality: float | None = None
+    interval: resample.Interval | None = None
+    standard_error: float | None = None
+    classical_interval: classical.ClassicalInterval | None = None
 
 
 @dataclass
@@ -120,6 +126,18 @@ class Moments:
 class Quantile:
     probability: float
     value: float | None
+    interval: resample.Interval | None = None
+    standard_error: float | None = None
+    classical_interval: classical.ClassicalInterval | None = None
+
+
+@dataclass
+class Resampling:
+    method: str
+    level: float
+    resamples: int
+    seed: int
+    scheme: str
 
 
 @dataclass
@@ -209,6 +227,7 @@ class Description:
     grouping: Grouping | None
     conventions: Conventions
     warnings: list[Note]
+    resampling: Resampling | None = None
 
 
 class _Notes:
@@ -422,6 +441,10 @@ def describe(data: WeightedData, options: DescribeOptions, *, kind: str) -> Desc
                 ["quantiles"],
             )
 
+    resampling = None
+    if options.interval is not None:
+        resampling = _intervals(data, sums, basis, options, descriptors, quantile_list, probabilities, notes)
+
     modes, modal = _modes(data, options.modes_limit, notes)
     return Description(
         kind=kind,
@@ -455,7 +478,138 @@ def describe(data: WeightedData, options: DescribeOptions, *, kind: str) -> Desc
             weights=data.meaning.value,
         ),
         warnings=notes.items,
+        resampling=resampling,
     )
+
+
+# Descriptors for which the ordinary bootstrap is known to fail, and why.
+_NO_BOOTSTRAP = {
+    "minimum": "the bootstrap is inconsistent for sample extremes (Bickel & Freedman 1981)",
+    "maximum": "the bootstrap is inconsistent for sample extremes (Bickel & Freedman 1981)",
+    "range": "the bootstrap is inconsistent for sample extremes (Bickel & Freedman 1981)",
+    "lag1_autocorrelation": "resampling independent observations destroys the serial order it measures",
+}
+
+
+def _intervals(
+    data: WeightedData,
+    sums: CentralSums | None,
+    basis: _Basis,
+    options: DescribeOptions,
+    descriptors: dict[str, Descriptor],
+    quantiles: list[Quantile],
+    probabilities: np.ndarray,
+    notes: _Notes,
+) -> Resampling:
+    """Bootstrap and classical intervals for every defined descriptor and quantile."""
+    interval = options.interval
+    assert interval is not None
+    if data.meaning is WeightMeaning.PROBABILITY:
+        raise _reject(
+            "$.options.interval",
+            "a probability table is a whole population: its descriptors are exact and have no sampling interval",
+        )
+    if basis.single:
+        raise _reject("$.options.interval", "a single observation cannot be resampled")
+    # Open bins leave the moments undefined; the plan still needs a finite scaling of the values.
+    plan_sums = sums if sums is not None else central_sums(data.values, data.weights, 4)
+    families = (
+        (basis.skewness_family, basis.kurtosis_family) if basis.bias_correctable else ("g1", "g2")
+    )
+    factor_rule = "population" if basis.population else "reliability" if basis.reliability else "sample"
+    sheppard_width = None
+    if data.binned and sums is not None and descriptors["variance"].estimator and options.sheppard_correction:
+        width = grouped.equal_width(data)
+        if width is not None and sums is not plan_sums:
+            sheppard_width = width
+    outcome = resample.bootstrap(
+        data,
+        plan_sums,
+        {name: d.value for name, d in descriptors.items()},
+        [q.value for q in quantiles],
+        probabilities,
+        families=families,
+        quantile_type=basis.quantile_type,
+        factor_rule=factor_rule,
+        options=interval,
+        max_work=options.max_resample_work,
+        deadline=options.deadline,
+    )
+    fallbacks: dict[str, list[str]] = {}
+    undefined: dict[str, list[str]] = {}
+    for name, result in outcome.results.items():
+        descriptors[name].interval = result.interval
+        descriptors[name].standard_error = _finite_or_none(result.standard_error) if result.standard_error is not None else None
+        if result.reason is not None:
+            (fallbacks if result.interval is not None else undefined).setdefault(result.reason, []).append(name)
+    for i, result in enumerate(outcome.quantiles):
+        quantiles[i].interval = result.interval
+        quantiles[i].standard_error = result.standard_error
+        if result.reason is not None and quantiles[i].value is not None:
+            target = fallbacks if result.interval is not None else undefined
+            target.setdefault(result.reason, []).append(f"quantiles[{i}]")
+    for reason, names in fallbacks.items():
+        notes.add("bca_fallback", f"BCa could not be computed ({reason}); the percentile interval is given", names)
+    for reason, names in undefined.items():
+        notes.add("interval_undefined", f"no bootstrap interval: {reason}", names)
+    skipped = [name for name in _NO_BOOTSTRAP if descriptors[name].value is not None]
+    for reason in sorted({_NO_BOOTSTRAP[name] for name in skipped}):
+        notes.add("interval_not_offered", f"no bootstrap interval: {reason}", [n for n in skipped if _NO_BOOTSTRAP[n] == reason])
+    for text in outcome.notes:
+        notes.add("resampling_scheme", text)
+    n = basis.sample_size or 0.0
+    if n < resample.SMALL_SAMPLE:
+        notes.add(
+            "bootstrap_small_sample",
+            f"with n = {n:g} (< {resample.SMALL_SAMPLE}, common practice) bootstrap intervals may cover "
+            "much less than their level",
+        )
+    distinct = data.values.size if data.binned else data.support.values.size
+    if distinct < resample.FEW_DISTINCT:
+        notes.add(
+            "bootstrap_discrete",
+            f"only {distinct} distinct values: the bootstrap distribution of order statistics (median, "
+            "quantiles, IQR, MAD) is lumpy and their intervals are coarse",
+            ["median", "interquartile_range", "median_absolute_deviation", "quantiles"],
+        )
+    _classical_intervals(data, sums, basis, interval.level, descriptors, quantiles, probabilities)
+    return Resampling(
+        method=interval.method,
+        level=interval.level,
+        resamples=outcome.resamples,
+        seed=interval.seed,
+        scheme=outcome.scheme,
+    )
+
+
+def _classical_intervals(
+    data: WeightedData,
+    sums: CentralSums | None,
+    basis: _Basis,
+    level: float,
+    descriptors: dict[str, Descriptor],
+    quantiles: list[Quantile],
+    probabilities: np.ndarray,
+) -> None:
+    counted = data.meaning in (WeightMeaning.UNIT, WeightMeaning.FREQUENCY)
+    n = data.total_weight
+    if sums is not None and counted and n >= 2 and descriptors["mean"].value is not None:
+        sample_variance = sums.central_moment(2) * n / (n - 1.0)
+        if math.isfinite(sample_variance) and sample_variance > 0.0:
+            descriptors["mean"].classical_interval = classical.mean_interval(
+                descriptors["mean"].value, math.sqrt(sample_variance), n, level
+            )
+            chi = classical.variance_interval(sample_variance, n, level)
+            descriptors["variance"].classical_interval = chi
+            descriptors["standard_deviation"].classical_interval = dataclasses.replace(
+                chi, low=math.sqrt(chi.low), high=math.sqrt(chi.high)
+            )
+    if counted and data.integer_weights and not data.binned:
+        if descriptors["median"].value is not None:
+            descriptors["median"].classical_interval = classical.quantile_interval(data, 0.5, level)
+        for quantile in quantiles:
+            if quantile.value is not None:
+                quantile.classical_interval = classical.quantile_interval(data, quantile.probability, level)
 
 
 def _count_value(data: WeightedData) -> float:
@@ -674,9 +828,12 @@ def _family_estimate(
     assert n is not None
     minimum = shape.SKEWNESS_MIN_N[family] if skewness else shape.KURTOSIS_MIN_N[family]
     if n < minimum:
+        if basis.population and family in ("g1", "g2"):
+            # A population's own skewness needs only spread; its sampling error needs n.
+            return _finite_or_none(plug_in), None, None
         return None, None, f"needs at least {minimum} observations; n = {n:g}"
     estimate = (shape.skewness if skewness else shape.excess_kurtosis)(plug_in, n, family)
-    return _finite_or_none(estimate.value), _finite_or_none(estimate.standard_error), None
+    return _finite_or_none(float(estimate.value)), _finite_or_none(float(estimate.standard_error)), None
 
 
 def _shape(

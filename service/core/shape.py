@@ -22,8 +22,9 @@ Journal of the Royal Statistical Society, Series D (The Statistician) 47(1), 183
 
 from __future__ import annotations
 
-import math
 from dataclasses import dataclass
+
+import numpy as np
 
 SKEWNESS_FAMILIES = ("g1", "G1", "b1")
 KURTOSIS_FAMILIES = ("g2", "G2", "b2")
@@ -34,17 +35,17 @@ KURTOSIS_MIN_N = {"g2": 4, "G2": 4, "b2": 4}
 
 @dataclass(frozen=True)
 class Estimate:
-    """An estimate and its standard error under normality (``None`` where not defined)."""
+    """An estimate and its standard error under normality (arrays when n or g are arrays)."""
 
-    value: float
-    standard_error: float | None
+    value: float | np.ndarray
+    standard_error: float | np.ndarray
 
 
 def _skewness_factor(family: str, n: float) -> float:
     if family == "g1":
         return 1.0
     if family == "G1":
-        return math.sqrt(n * (n - 1.0)) / (n - 2.0)
+        return np.sqrt(n * (n - 1.0)) / (n - 2.0)
     return ((n - 1.0) / n) ** 1.5
 
 
@@ -52,7 +53,7 @@ def skewness(g1: float, n: float, family: str) -> Estimate:
     """Skewness of ``family`` from the plug-in ``g1`` of a sample of size ``n`` (n >= 3)."""
     factor = _skewness_factor(family, n)
     variance_g1 = 6.0 * (n - 2.0) / ((n + 1.0) * (n + 3.0))
-    return Estimate(value=factor * g1, standard_error=factor * math.sqrt(variance_g1))
+    return Estimate(value=factor * g1, standard_error=factor * np.sqrt(variance_g1))
 
 
 def excess_kurtosis(g2: float, n: float, family: str) -> Estimate:
@@ -66,4 +67,4 @@ def excess_kurtosis(g2: float, n: float, family: str) -> Estimate:
     else:
         factor = ((n - 1.0) / n) ** 2
         value = (g2 + 3.0) * factor - 3.0
-    return Estimate(value=value, standard_error=factor * math.sqrt(variance_g2))
+    return Estimate(value=value, standard_error=factor * np.sqrt(variance_g2))

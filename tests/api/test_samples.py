@@ -680,7 +680,7 @@ BAD_REQUESTS = [
     ("string-value", b'{"values":[250.1,"251.0"]}', JSON, 400, "invalid-body", "$.values[1]"),
     ("boolean-value", b'{"values":[250.1,true]}', JSON, 400, "invalid-body", "$.values[1]"),
     ("object-value", b'{"values":[250.1,2,{"g":1}]}', JSON, 400, "invalid-body", "$.values[2]"),
-    ("missing-values", b'{"options":{}}', JSON, 400, "invalid-body", "$"),
+    ("missing-values", b'{"options":{}}', JSON, 400, "invalid-body", "$.values"),
     ("unknown-top-level", b'{"values":[1],"valeus":[1]}', JSON, 400, "invalid-body", "$.valeus"),
     ("unknown-option", b'{"values":[1],"options":{"ddof":1}}', JSON, 400, "invalid-body", "$.options.ddof"),
     ("options-not-object", b'{"values":[1],"options":[]}', JSON, 400, "invalid-body", "$.options"),
@@ -693,10 +693,11 @@ BAD_REQUESTS = [
     ("overflowing-number", b'{"values":[1e400]}', JSON, 400, "invalid-body", "$.values[0]"),
     ("overflowing-negative", b'{"values":[2,-1e400]}', JSON, 400, "invalid-body", "$.values[1]"),
     ("huge-integer", b'{"values":[1' + b"0" * 400 + b"]}", JSON, 400, "invalid-body", "$.values[0]"),
-    # NaN and Infinity are not JSON tokens: the body is not JSON at all, so the path is the root.
-    ("nan-token", b'{"values":[1,NaN]}', JSON, 400, "invalid-body", "$"),
-    ("infinity-token", b'{"values":[Infinity]}', JSON, 400, "invalid-body", "$"),
-    ("minus-infinity-token", b'{"values":[-Infinity]}', JSON, 400, "invalid-body", "$"),
+    # NaN and Infinity are not JSON tokens; the syntax error's byte offset is mapped to the
+    # path of the value being read.
+    ("nan-token", b'{"values":[1,NaN]}', JSON, 400, "invalid-body", "$.values[1]"),
+    ("infinity-token", b'{"values":[Infinity]}', JSON, 400, "invalid-body", "$.values[0]"),
+    ("minus-infinity-token", b'{"values":[-Infinity]}', JSON, 400, "invalid-body", "$.values[0]"),
     ("truncated-json", b'{"values":[1,2', JSON, 400, "invalid-body", "$"),
     ("empty-body", b"", JSON, 400, "invalid-body", "$"),
     ("not-json", b"values=1,2,3", JSON, 400, "invalid-body", "$"),

@@ -1,0 +1,618 @@
+"""Bootstrap intervals for every descriptor at once, by resampling the support rather than the rows.
+
+A resample is a vector of weights over the k support rows (distinct values with their counts,
+or, for reliability or fractional weights, the entries themselves). A batch of resamples is a
+b x k weight matrix; every moment descriptor of the whole batch comes from one matrix product
+with the powers of the scaled deviations, and every order statistic from the cumulative
+weights. So the cost grows with resamples x k, not with the total count.
+
+The BCa acceleration comes from the jackknife over the support rows with their multiplicities
+(leaving out one observation of row i changes only row i), so it costs O(k), never O(n^2).
+
+References
+----------
+B. Efron and R. J. Tibshirani, *An Introduction to the Bootstrap*, Chapman & Hall, 1993:
+percentile (eq. 13.5), basic (Davison & Hinkley 1997, eq. 5.6) and BCa (eq. 14.10-14.15)
+intervals; the acceleration from the jackknife (eq. 14.15).
+"""
+
+from __future__ import annotations
+
+import math
+import time
+from collections.abc import Callable
+from concurrent.futures import ThreadPoolExecutor
+from dataclasses import dataclass
+
+import numpy as np
+from scipy import special
+
+from service.core import grouped, order, shape
+from service.core.errors import LimitExceeded, Location
+from service.core.moments import CentralSums
+from service.core.weighted import WeightedData, WeightMeaning
+
+# Elements of one b x k weight matrix: bounds memory (about 32 MB per matrix) whatever the request.
+_BATCH_ELEMENTS = 1 << 21
+# Fewer observations than this make any bootstrap interval doubtful (common practice).
+SMALL_SAMPLE = 20
+# Fewer distinct values than this make the bootstrap distribution of order statistics lumpy.
+FEW_DISTINCT = 20
+
+
+@dataclass(frozen=True)
+class IntervalOptions:
+    method: str = "bca"
+    level: float = 0.95
+    resamples: int = 9999
+    seed: int = 0
+
+
+@dataclass(frozen=True)
+class Interval:
+    low: float | None
+    high: float | None
+    level: float
+    method: str
+
+
+@dataclass(frozen=True)
+class BootstrapResult:
+    """Interval and bootstrap standard error of one statistic (``None`` where undefined)."""
+
+    interval: Interval | None
+    standard_error: float | None
+    reason: str | None = None  # why the interval is missing, or why the method fell back
+
+
+class _Rows:
+    """Weights of b resamples over the k support rows, seen through what statistics need."""
+
+    def __init__(self, weights: np.ndarray, powers: np.ndarray, whole: bool) -> None:
+        self.weights = weights
+        self.sums = weights @ powers
+        if whole:
+            # Integer prefix sums vectorise; floating ones cannot (they must keep their order).
+            self.cumulative = np.cumsum(weights.astype(np.int64), axis=1).astype(np.float64)
+        else:
+            self.cumulative = np.cumsum(weights, axis=1)
+        self.total = self.cumulative[:, -1]
+        # One search over all rows at once: each row shifted past the previous one. Exact only
+        # while every shifted cumulative count is a whole number below 2**53.
+        spacing = 2.0 * float(np.max(self.total)) + 1.0
+        self._flat = None
+        if whole and spacing * weights.shape[0] < 2.0**52:
+            self._offsets = (np.arange(weights.shape[0]) * spacing)[:, None]
+            self._flat = (self.cumulative + self._offsets).ravel()
+
+    def first_reaching(self, target: np.ndarray) -> np.ndarray:
+        """Per row, the first support index whose cumulative weight reaches ``target`` (b x q)."""
+        rows, k = self.cumulative.shape
+        if self._flat is None:
+            found = np.stack([np.searchsorted(self.cumulative[r], target[r], side="left") for r in range(rows)])
+            return np.minimum(found, k - 1)
+        flat_index = np.searchsorted(self._flat, target + self._offsets, side="left")
+        return np.minimum(flat_index - np.arange(rows)[:, None] * k, k - 1)
+
+    def cumulative_at(self, index: np.ndarray) -> np.ndarray:
+        return np.take_along_axis(self.cumulative, index, axis=1)
+
+    def sum_squared_weights(self) -> np.ndarray:
+        return np.sum(self.weights * self.weights, axis=1)
+
+
+class _LeaveOneOut:
+    """The k jackknife rows: the full data with one observation of support row i removed."""
+
+    def __init__(self, base: np.ndarray, removed: np.ndarray, powers: np.ndarray) -> None:
+        self.base = base  # original weight per support row
+        self.removed = removed  # weight of one observation of each row
+        self.sums = (base @ powers)[None, :] - removed[:, None] * powers
+        self._cumulative = np.cumsum(base)
+        self.total = self._cumulative[-1] - removed
+        self._rows = np.arange(base.size)
+
+    def first_reaching(self, target: np.ndarray) -> np.ndarray:
+        rows = self._rows[:, None]
+        before = np.searchsorted(self._cumulative, target, side="left")
+        after = np.maximum(np.searchsorted(self._cumulative, target + self.removed[:, None], side="left"), rows)
+        return np.minimum(np.where(before < rows, before, after), self.base.size - 1)
+
+    def cumulative_at(self, index: np.ndarray) -> np.ndarray:
+        rows = self._rows[:, None]
+        return self._cumulative[index] - np.where(index >= rows, self.removed[:, None], 0.0)
+
+    def sum_squared_weights(self) -> np.ndarray:
+        squares = float(np.sum(self.base * self.base))
+        remaining = self.base - self.removed
+        return squares - self.base * self.base + remaining * remaining
+
+
+@dataclass(frozen=True)
+class _Plan:
+    """Everything fixed across resamples: the support, its scaled powers and the rules."""
+
+    values: np.ndarray  # support values, increasing
+    base: np.ndarray  # original weight per support row
+    unit: np.ndarray  # weight carried by one resampled draw of each row
+    powers: np.ndarray  # k x (order + 1) powers of the scaled deviations
+    sums: CentralSums
+    draws: int  # observations per resample
+    multinomial: bool  # counts drawn with rng.multinomial, else uniform draws of rows
+    integer: bool  # whole counts: order-statistic quantile rules apply
+    reliability: bool
+    edges: np.ndarray | None  # bins
+    row_of_draw: np.ndarray | None  # support row of each observation, when rows hold several
+    unit_weights: bool
+
+
+def _order_statistic(view, values: np.ndarray, ranks: np.ndarray) -> np.ndarray:
+    total = view.total[:, None]
+    clipped = np.clip(ranks, 1.0, total)
+    return values[view.first_reaching(clipped)]
+
+
+def _hf_quantiles(view, values: np.ndarray, p: np.ndarray, quantile_type: int) -> np.ndarray:
+    """Batched Hyndman & Fan quantiles for whole counts (same rules as ``order.quantiles``)."""
+    n = view.total[:, None]
+    p = p[None, :]
+    if quantile_type in (1, 2):
+        h = order._snap_to_whole(n * p)
+        j = np.floor(h)
+        upper = _order_statistic(view, values, j + 1)
+        lower = _order_statistic(view, values, j)
+        if quantile_type == 1:
+            return np.where(h - j > 0, upper, lower)
+        return np.where(h - j > 0, upper, 0.5 * lower + 0.5 * upper)
+    if quantile_type == 3:
+        h = order._snap_to_whole(n * p - 0.5)
+        j = np.floor(h)
+        take_lower = (h - j == 0) & (np.mod(j, 2) == 0)
+        return np.where(take_lower, _order_statistic(view, values, j), _order_statistic(view, values, j + 1))
+    if quantile_type == 7:
+        h = (n - 1.0) * p + 1.0
+    else:
+        h = n * p + order._CONTINUOUS_OFFSET[quantile_type](p)
+    j = np.floor(h)
+    return order._interpolate(_order_statistic(view, values, j), _order_statistic(view, values, j + 1), h - j)
+
+
+def _cdf_quantiles(view, values: np.ndarray, p: np.ndarray, average: bool) -> np.ndarray:
+    total = view.total[:, None]
+    target = p[None, :] * total
+    slack = order._CDF_TOLERANCE * total
+    index = view.first_reaching(target - slack)
+    result = values[index]
+    if average:
+        at_step = (np.abs(view.cumulative_at(index) - target) <= slack) & (index + 1 < values.size)
+        result = np.where(at_step, 0.5 * result + 0.5 * values[np.minimum(index + 1, values.size - 1)], result)
+    return result
+
+
+def _grouped_quantiles(view, edges: np.ndarray, p: np.ndarray) -> np.ndarray:
+    total = view.total[:, None]
+    # The smallest positive target makes p = 0 land on the first bin holding data.
+    target = np.maximum(p[None, :] * total, np.finfo(np.float64).tiny)
+    index = view.first_reaching(target)
+    cumulative = view.cumulative_at(index)
+    counts = cumulative - np.where(index > 0, view.cumulative_at(np.maximum(index - 1, 0)), 0.0)
+    fraction = np.clip((target - (cumulative - counts)) / counts, 0.0, 1.0)
+    low, high = edges[index], edges[index + 1]
+    with np.errstate(invalid="ignore"):
+        inside = low + fraction * (high - low)
+    return np.where(fraction == 0.0, low, np.where(fraction == 1.0, high, inside))
+
+
+class _Statistics:
+    """Every descriptor of a batch of weight rows, by the same rules as ``describe``."""
+
+    def __init__(self, plan: _Plan, families: tuple[str, str], quantile_type: int | None, factor_rule: str):
+        self.plan = plan
+        self.skewness_family, self.kurtosis_family = families
+        self.quantile_type = quantile_type
+        self.factor_rule = factor_rule  # "sample", "population" or "reliability"
+
+    def quantiles(self, view, p: np.ndarray) -> np.ndarray:
+        plan = self.plan
+        if plan.edges is not None:
+            return _grouped_quantiles(view, plan.edges, p)
+        if plan.integer:
+            return _hf_quantiles(view, plan.values, p, self.quantile_type)
+        return _cdf_quantiles(view, plan.values, p, average=self.quantile_type == 2)
+
+    def median(self, view) -> np.ndarray:
+        plan = self.plan
+        if plan.edges is not None:
+            return _grouped_quantiles(view, plan.edges, np.array([0.5]))[:, 0]
+        if plan.integer:
+            n = view.total[:, None]
+            ranks = np.concatenate((np.floor((n + 1.0) / 2.0), np.ceil((n + 1.0) / 2.0)), axis=1)
+            pair = _order_statistic(view, plan.values, ranks)
+            return 0.5 * pair[:, 0] + 0.5 * pair[:, 1]
+        return _cdf_quantiles(view, plan.values, np.array([0.5]), average=True)[:, 0]
+
+    def mad(self, view, median: np.ndarray) -> np.ndarray:
+        """Median absolute deviation by bisection on the bit pattern of the deviation (exact)."""
+        plan = self.plan
+        total = view.total
+        if plan.edges is not None:
+            return self._grouped_mad(view, median)
+
+        def within(t: np.ndarray) -> np.ndarray:
+            """Weight of support values in [median - t, median + t]."""
+            high = np.searchsorted(plan.values, median + t, side="right") - 1
+            low = np.searchsorted(plan.values, median - t, side="left") - 1
+            above = np.where(high >= 0, view.cumulative_at(np.maximum(high, 0)[:, None])[:, 0], 0.0)
+            below = np.where(low >= 0, view.cumulative_at(np.maximum(low, 0)[:, None])[:, 0], 0.0)
+            return above - below
+
+        def smallest_reaching(target: np.ndarray) -> np.ndarray:
+            low = np.zeros(total.size, dtype=np.int64)
+            high = np.full(total.size, np.float64(np.inf).view(np.int64))
+            while np.any(low < high):
+                middle = low + (high - low) // 2
+                reached = within(middle.view(np.float64)) >= target
+                high = np.where(reached, middle, high)
+                low = np.where(reached, low, middle + 1)
+            return low.view(np.float64)
+
+        if plan.integer:
+            first = smallest_reaching(np.floor((total + 1.0) / 2.0))
+            second = smallest_reaching(np.ceil((total + 1.0) / 2.0))
+            return 0.5 * first + 0.5 * second
+        slack = order._CDF_TOLERANCE * total
+        first = smallest_reaching(0.5 * total - slack)
+        at_step = np.abs(within(first) - 0.5 * total) <= slack
+        # Averaging at an exact half needs the next deviation: the smallest reaching above it.
+        second = smallest_reaching(np.where(at_step, within(first) + slack * 2.0, 0.5 * total - slack))
+        return np.where(at_step, 0.5 * first + 0.5 * second, first)
+
+    def _grouped_mad(self, view, median: np.ndarray) -> np.ndarray:
+        edges = self.plan.edges
+        cumulative = np.concatenate((np.zeros((view.total.size, 1)), view.cumulative), axis=1)
+        finite = np.isfinite(edges)
+        finite_edges = edges[finite]
+        known = cumulative[:, finite]
+        low_known = -np.inf if finite[0] else finite_edges[0]
+        high_known = np.inf if finite[-1] else finite_edges[-1]
+        distances = np.sort(np.abs(finite_edges[None, :] - median[:, None]), axis=1)
+        distances = np.concatenate((np.zeros((median.size, 1)), distances), axis=1)
+        rows = np.arange(median.size)[:, None]
+
+        def interp(x: np.ndarray) -> np.ndarray:
+            index = np.clip(np.searchsorted(finite_edges, x, side="right") - 1, 0, finite_edges.size - 2)
+            x0, x1 = finite_edges[index], finite_edges[index + 1]
+            y0, y1 = known[rows, index], known[rows, index + 1]
+            inside = y0 + (np.clip(x, x0, x1) - x0) / (x1 - x0) * (y1 - y0)
+            return np.where(x < finite_edges[0], 0.0, np.where(x > finite_edges[-1], known[:, -1:], inside))
+
+        centre = median[:, None]
+        spread = interp(centre + distances) - interp(centre - distances)
+        half = 0.5 * view.total[:, None]
+        reached = spread >= half
+        k = np.argmax(reached, axis=1)
+        ok = reached[np.arange(k.size), k]
+        known_ok = (centre - distances >= low_known) & (centre + distances <= high_known)
+        prefix_known = np.cumprod(known_ok, axis=1).astype(bool)[np.arange(k.size), k]
+        k_prev = np.maximum(k - 1, 0)
+        d0, d1 = distances[np.arange(k.size), k_prev], distances[np.arange(k.size), k]
+        g0, g1 = spread[np.arange(k.size), k_prev], spread[np.arange(k.size), k]
+        with np.errstate(invalid="ignore", divide="ignore"):
+            value = np.where(k == 0, 0.0, d0 + (half[:, 0] - g0) / (g1 - g0) * (d1 - d0))
+        return np.where(ok & prefix_known, value, np.nan)
+
+    def evaluate(self, view, probabilities: np.ndarray, names: tuple[str, ...]) -> dict[str, np.ndarray]:
+        """Every requested statistic for each row of ``view``; ``quantile:i`` for probabilities[i]."""
+        plan = self.plan
+        sums = view.sums
+        weight = sums[:, 0]
+        delta = sums[:, 1] / weight
+        # Central moments of each row about its own mean, from sums about the full-sample mean.
+        m = {}
+        for k in (2, 3, 4):
+            total = np.zeros_like(weight)
+            for j in range(k + 1):
+                total = total + math.comb(k, j) * sums[:, j] * (-delta) ** (k - j)
+            m[k] = total / weight
+        exponent = plan.sums.scale_exponent
+        mean = plan.sums.mean + np.ldexp(delta, exponent)
+        if self.factor_rule == "population":
+            factor = np.ones_like(weight)
+        elif self.factor_rule == "reliability":
+            factor = 1.0 / (1.0 - view.sum_squared_weights() / (weight * weight))
+        else:
+            factor = weight / (weight - 1.0)
+        out: dict[str, np.ndarray] = {}
+        with np.errstate(invalid="ignore", divide="ignore", over="ignore"):
+            variance_scaled = m[2] * factor
+            out["mean"] = mean
+            out["variance"] = np.ldexp(variance_scaled, 2 * exponent)
+            sd = np.ldexp(np.sqrt(variance_scaled), exponent)
+            out["standard_deviation"] = sd
+            out["coefficient_of_variation"] = sd / mean
+            g1 = m[3] / m[2] ** 1.5
+            g2 = m[4] / (m[2] * m[2]) - 3.0
+            # Observations per row: the draws of a resample, one fewer in a jackknife row.
+            n = weight if plan.integer else np.full_like(weight, float(plan.draws))
+            skew = np.where(n >= 3, shape.skewness(g1, n, self.skewness_family).value, np.nan)
+            kurt = np.where(n >= 4, shape.excess_kurtosis(g2, n, self.kurtosis_family).value, np.nan)
+            out["skewness"] = skew
+            out["excess_kurtosis"] = kurt
+            out["kurtosis"] = kurt + 3.0
+        median = self.median(view)
+        out["median"] = median
+        if "median_absolute_deviation" in names or "median_absolute_deviation_normal" in names:
+            mad = self.mad(view, median)
+            out["median_absolute_deviation"] = mad
+            out["median_absolute_deviation_normal"] = mad * order.NORMAL_MAD_FACTOR
+        quartiles_and_requested = self.quantiles(view, np.concatenate(([0.25, 0.75], probabilities)))
+        out["interquartile_range"] = quartiles_and_requested[:, 1] - quartiles_and_requested[:, 0]
+        for i in range(probabilities.size):
+            out[f"quantile:{i}"] = quartiles_and_requested[:, 2 + i]
+        return out
+
+
+def _plan(data: WeightedData, sums: CentralSums) -> tuple[_Plan, list[str]]:
+    notes = []
+    if data.binned:
+        assert data.weights is not None and data.edges is not None
+        values, base = data.values, data.weights
+    else:
+        support = data.support
+        values, base = support.values, support.weights
+    integer = data.integer_weights
+    reliability = data.meaning is WeightMeaning.RELIABILITY
+    if integer and not reliability:
+        draws = int(round(float(np.sum(base))))
+        unit = np.ones_like(base)
+        multinomial = True
+    else:
+        if data.binned:
+            raise LimitExceeded(
+                detail="bootstrap intervals for bins need whole counts",
+                locations=[Location("$.counts", "counts must be whole numbers to resample the bins")],
+            )
+        # Each entry is resampled with its weight: rows are the entries, not merged values.
+        order_index = np.argsort(data.values, kind="stable")
+        values = data.values[order_index]
+        assert data.weights is not None
+        unit = data.weights[order_index]
+        base = unit.copy()
+        draws = int(values.size)
+        multinomial = False
+        notes.append(
+            "the weights are not whole counts, so entries are resampled uniformly and keep their weights"
+        )
+    deviations = sums.scaled_deviations(values)
+    powers = np.vander(deviations, 5, increasing=True)
+    row_of_draw = None
+    if not np.all(base == unit) and not (multinomial and draws > 8 * values.size):
+        row_of_draw = np.repeat(np.arange(values.size, dtype=np.int64), np.round(base / unit).astype(np.int64))
+    plan = _Plan(
+        row_of_draw=row_of_draw,
+        unit_weights=bool(np.all(unit == 1.0)),
+        values=values,
+        base=base,
+        unit=unit,
+        powers=powers,
+        sums=sums,
+        draws=draws,
+        multinomial=multinomial,
+        integer=integer and not reliability,
+        reliability=reliability,
+        edges=data.edges if data.binned else None,
+    )
+    return plan, notes
+
+
+def _batches(plan: _Plan, seed: int, resamples: int) -> list[tuple[np.random.Generator, int]]:
+    """(generator, size) of each batch of resamples.
+
+    Batch sizes depend only on k and each batch has its own generator spawned from ``seed``,
+    so the same seed gives the same resamples bit for bit on any worker and thread count.
+    """
+    k = plan.values.size
+    batch = max(1, min(resamples, _BATCH_ELEMENTS // max(k, 1)))
+    sizes = [min(batch, resamples - start) for start in range(0, resamples, batch)]
+    children = np.random.SeedSequence(seed).spawn(len(sizes))
+    return [(np.random.default_rng(child), size) for child, size in zip(children, sizes)]
+
+
+def _draw(plan: _Plan, rng: np.random.Generator, b: int) -> np.ndarray:
+    """A b x k weight matrix of resamples.
+
+    Many draws per row: multinomial counts (cost per resample grows with k). Otherwise the
+    draws themselves are made and counted (cost grows with the draws, cheaper when most rows
+    get 0 or 1).
+    """
+    k = plan.values.size
+    if plan.multinomial and plan.draws > 8 * k:
+        probabilities = plan.base / float(np.sum(plan.base))
+        return rng.multinomial(plan.draws, probabilities, size=b).astype(np.float64)
+    picks = rng.integers(0, plan.draws, size=(b, plan.draws), dtype=np.int64)
+    if plan.row_of_draw is not None:
+        picks = plan.row_of_draw[picks]
+    picks += (np.arange(b, dtype=np.int64) * k)[:, None]
+    counts = np.bincount(picks.ravel(), minlength=b * k).reshape(b, k).astype(np.float64)
+    return counts if plan.unit_weights else counts * plan.unit[None, :]
+
+
+def _percentile(samples: np.ndarray, fractions: np.ndarray) -> np.ndarray:
+    return np.quantile(samples, fractions, method="linear")
+
+
+def _interval(
+    estimate: float,
+    replicates: np.ndarray,
+    jackknife: np.ndarray | None,
+    jackknife_weights: np.ndarray | None,
+    options: IntervalOptions,
+) -> BootstrapResult:
+    if not np.all(np.isfinite(replicates)):
+        return BootstrapResult(None, None, "some resamples leave this descriptor undefined")
+    alpha = 1.0 - options.level
+    se = float(np.std(replicates, ddof=1)) if replicates.size > 1 else None
+    tails = np.array([alpha / 2.0, 1.0 - alpha / 2.0])
+    method, reason = options.method, None
+    if method == "bca":
+        fractions, reason = _bca_fractions(estimate, replicates, jackknife, jackknife_weights, tails)
+        if fractions is None:
+            method = "percentile"
+            fractions = tails
+    else:
+        fractions = tails
+    low, high = _percentile(replicates, fractions)
+    if method == "basic":
+        low, high = 2.0 * estimate - high, 2.0 * estimate - low
+    return BootstrapResult(Interval(float(low), float(high), options.level, method), se, reason)
+
+
+def _bca_fractions(estimate, replicates, jackknife, weights, tails):
+    """Adjusted tail fractions of BCa (Efron & Tibshirani 1993, eq. 14.10), or None and why."""
+    below = np.count_nonzero(replicates < estimate)
+    equal = np.count_nonzero(replicates == estimate)
+    if equal == replicates.size:
+        return None, "every resample gives the estimate itself"
+    proportion = (below + 0.5 * equal) / replicates.size
+    if not 0.0 < proportion < 1.0:
+        return None, "the estimate lies outside the bootstrap distribution"
+    z0 = special.ndtri(proportion)
+    if jackknife is None or not np.all(np.isfinite(jackknife)):
+        return None, "the jackknife is undefined for some left-out observation"
+    centre = np.sum(weights * jackknife) / np.sum(weights)
+    gap = centre - jackknife
+    denominator = np.sum(weights * gap**2) ** 1.5
+    if denominator == 0.0 or not np.isfinite(denominator):
+        return None, "the jackknife shows no variation, so the acceleration is undefined"
+    acceleration = np.sum(weights * gap**3) / (6.0 * denominator)
+    z = special.ndtri(tails)
+    adjusted = special.ndtr(z0 + (z0 + z) / (1.0 - acceleration * (z0 + z)))
+    if not np.all(np.isfinite(adjusted)):
+        return None, "the BCa adjustment is undefined for these data"
+    return adjusted, None
+
+
+def acceleration(values: np.ndarray, statistic: Callable[[np.ndarray], float]) -> float:
+    """Plain leave-one-out jackknife acceleration (O(n) calls); a reference for the tests."""
+    leave_out = np.array([statistic(np.delete(values, i)) for i in range(values.size)])
+    gap = leave_out.mean() - leave_out
+    return float(np.sum(gap**3) / (6.0 * np.sum(gap**2) ** 1.5))
+
+
+@dataclass(frozen=True)
+class BootstrapOutcome:
+    results: dict[str, BootstrapResult]
+    quantiles: list[BootstrapResult]
+    resamples: int
+    scheme: str
+    notes: list[str]
+    accelerations: dict[str, float]
+
+
+INTERVAL_DESCRIPTORS = (
+    "mean",
+    "median",
+    "variance",
+    "standard_deviation",
+    "coefficient_of_variation",
+    "skewness",
+    "kurtosis",
+    "excess_kurtosis",
+    "interquartile_range",
+    "median_absolute_deviation",
+    "median_absolute_deviation_normal",
+)
+
+
+def bootstrap(
+    data: WeightedData,
+    sums: CentralSums,
+    estimates: dict[str, float | None],
+    quantile_estimates: list[float | None],
+    probabilities: np.ndarray,
+    *,
+    families: tuple[str, str],
+    quantile_type: int | None,
+    factor_rule: str,
+    options: IntervalOptions,
+    max_work: float,
+    deadline: float | None,
+    threads: int = 2,
+) -> BootstrapOutcome:
+    """Bootstrap every defined scalar descriptor and requested quantile of ``data`` in one pass.
+
+    ``estimates`` are the point estimates from ``describe``; a descriptor whose estimate is
+    ``None`` gets no interval. Raises :class:`LimitExceeded` when resamples x support rows exceed
+    ``max_work`` or the wall clock passes ``deadline`` (``time.monotonic()`` seconds).
+    """
+    plan, notes = _plan(data, sums)
+    k = plan.values.size
+    work = float(options.resamples) * float(k)
+    if work > max_work:
+        raise LimitExceeded(
+            detail=(
+                f"{options.resamples} resamples x {k} support rows = {work:.3g} exceeds this server's "
+                f"resampling budget of {max_work:.3g}; lower options.interval.resamples to at most "
+                f"{int(max_work // k)}"
+            ),
+            locations=[Location("$.options.interval.resamples", f"at most {int(max_work // k)} for these data")],
+        )
+    statistics = _Statistics(plan, families, quantile_type, factor_rule)
+    wanted = tuple(name for name in INTERVAL_DESCRIPTORS if estimates.get(name) is not None)
+    def run(batch: tuple[np.random.Generator, int]) -> dict[str, np.ndarray]:
+        if deadline is not None and time.monotonic() > deadline:
+            raise LimitExceeded(
+                detail="the resampling did not finish within this server's time limit; lower options.interval.resamples",
+                locations=[Location("$.options.interval.resamples", "lower it")],
+            )
+        weights = _draw(plan, *batch)
+        return statistics.evaluate(_Rows(weights, plan.powers, plan.integer), probabilities, wanted)
+
+    # numpy releases the GIL in the heavy loops, so batches overlap on the cores; each batch has
+    # its own generator, so the result does not depend on which thread ran it.
+    with ThreadPoolExecutor(max_workers=threads) as pool:
+        outputs = list(pool.map(run, _batches(plan, options.seed, options.resamples)))
+    replicates = {name: np.concatenate([out[name] for out in outputs]) for name in outputs[0]}
+
+    jackknife = jackknife_weights = None
+    if options.method == "bca":
+        present = plan.base > 0
+        removed = np.where(present, plan.unit, 0.0)
+        view = _LeaveOneOut(plan.base, removed, plan.powers)
+        jackknife = statistics.evaluate(view, probabilities, wanted)
+        # Each row stands for its observations: row i's leave-one-out value counts base/unit times.
+        jackknife_weights = np.where(present, plan.base / plan.unit, 0.0)
+    results: dict[str, BootstrapResult] = {}
+    accelerations: dict[str, float] = {}
+    for name in wanted:
+        estimate = estimates[name]
+        assert estimate is not None
+        results[name] = _interval(
+            estimate,
+            replicates[name],
+            None if jackknife is None else jackknife[name],
+            jackknife_weights,
+            options,
+        )
+    quantile_results = []
+    for i, estimate in enumerate(quantile_estimates):
+        if estimate is None:
+            quantile_results.append(BootstrapResult(None, None, "the quantile itself is undefined"))
+            continue
+        name = f"quantile:{i}"
+        quantile_results.append(
+            _interval(estimate, replicates[name], None if jackknife is None else jackknife[name], jackknife_weights, options)
+        )
+    if jackknife is not None:
+        for name in wanted:
+            jk = jackknife[name]
+            if np.all(np.isfinite(jk)):
+                centre = np.sum(jackknife_weights * jk) / np.sum(jackknife_weights)
+                gap = centre - jk
+                denominator = np.sum(jackknife_weights * gap**2) ** 1.5
+                if denominator > 0:
+                    accelerations[name] = float(np.sum(jackknife_weights * gap**3) / (6.0 * denominator))
+    scheme = (
+        f"multinomial counts over {k} distinct values" if plan.multinomial else f"uniform draws of {k} weighted entries"
+    )
+    return BootstrapOutcome(results, quantile_results, options.resamples, scheme, notes, accelerations)

@@ -1,0 +1,68 @@
+"""The README's examples are run as written, and the numbers it quotes are the numbers served."""
+
+import json
+import pathlib
+import re
+
+import pytest
+from litestar.testing import TestClient
+
+from service.api import create_app
+from service.settings import Settings
+
+README = (pathlib.Path(__file__).resolve().parents[1] / "README.md").read_text()
+CURL = re.compile(r"curl -s http://127\.0\.0\.1:8000(?P<path>/\S+).*?-d '(?P<body>.*?)'", re.DOTALL)
+
+
+def _examples() -> dict[str, dict]:
+    found = {}
+    for match in CURL.finditer(README):
+        found[match["path"]] = json.loads(match["body"])
+    return found
+
+
+@pytest.fixture(scope="module")
+def answers():
+    examples = _examples()
+    assert set(examples) == {"/v1/descriptors/samples", "/v1/descriptors/table", "/v1/descriptors/bins"}
+    with TestClient(create_app(Settings())) as client:
+        return {path: client.post(path, json=body).json() for path, body in examples.items()}
+
+
+def test_the_two_commands_are_the_makefile_targets():
+    assert "make serve" in README and "make test" in README
+    makefile = (pathlib.Path(__file__).resolve().parents[1] / "Makefile").read_text()
+    assert re.search(r"^serve:", makefile, re.M) and re.search(r"^test:", makefile, re.M)
+    ci = (pathlib.Path(__file__).resolve().parents[1] / ".ci" / "run").read_text()
+    assert "make test" in ci
+
+
+def test_bag_weight_example_quotes_served_numbers(answers):
+    result = answers["/v1/descriptors/samples"]
+    d = result["descriptors"]
+    for quoted in (d["mean"]["value"], d["standard_deviation"]["value"], d["skewness"]["value"]):
+        assert repr(quoted) in README
+    assert result["size"] == {**result["size"], "n": 11, "omitted": 1}
+    assert [q["value"] for q in result["quantiles"]] == [249.2, 250.3, 252.05]
+    assert result["modes"]["values"] == [250.3]
+    assert result["warnings"][0]["code"] == "missing_values_omitted"
+
+
+def test_loss_table_example_quotes_served_numbers(answers):
+    result = answers["/v1/descriptors/table"]
+    assert result["descriptors"]["mean"]["value"] == pytest.approx(2100.0, rel=1e-12)
+    assert round(result["descriptors"]["skewness"]["value"], 2) == 5.08
+    top = result["tail_contributions"]["outcomes"][-1]
+    assert top["value"] == 40000.0
+    assert round(top["third"], 2) == 5.09 and round(top["fourth"], 2) == 28.15
+    assert round(result["tail_contributions"]["standardized_fourth"], 2) == 28.16
+
+
+def test_delivery_histogram_example_quotes_served_numbers(answers):
+    result = answers["/v1/descriptors/bins"]
+    assert result["descriptors"]["mean"]["value"] is None
+    assert "open_bin_holds_data" in {w["code"] for w in result["warnings"]}
+    assert result["descriptors"]["median"]["value"] == pytest.approx(30.0, abs=1e-12)
+    assert round(result["modes"]["values"][0], 2) == 25.95
+    assert result["grouping"]["bin_width"] is None
+    assert result["grouping"]["modal_classes"][0]["lower"] == 15.0
