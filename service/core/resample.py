@@ -20,7 +20,6 @@ from __future__ import annotations
 
 import math
 import time
-from collections.abc import Callable
 from concurrent.futures import ThreadPoolExecutor
 from dataclasses import dataclass
 
@@ -490,13 +489,6 @@ def _bca_fractions(estimate, replicates, jackknife, weights, tails):
     if not np.all(np.isfinite(adjusted)):
         return None, "the BCa adjustment is undefined for these data"
     return adjusted, None
-
-
-def acceleration(values: np.ndarray, statistic: Callable[[np.ndarray], float]) -> float:
-    """Plain leave-one-out jackknife acceleration (O(n) calls); a reference for the tests."""
-    leave_out = np.array([statistic(np.delete(values, i)) for i in range(values.size)])
-    gap = leave_out.mean() - leave_out
-    return float(np.sum(gap**3) / (6.0 * np.sum(gap**2) ** 1.5))
 
 
 @dataclass(frozen=True)
