@@ -36,6 +36,10 @@ class Settings:
     max_resample_work: int = 1_000_000_000
     # Wall-clock limit of one request's computation, in seconds (422 beyond).
     max_request_seconds: int = 30
+    # Above this many support rows the bag of little bootstraps replaces the ordinary bootstrap.
+    bootstrap_subset_rows: int = 100_000
+    # Threads one request's resampling may use (numpy releases the GIL in its loops).
+    resample_threads: int = 2
 
     _BOUNDS = {
         "max_body_bytes": (1024, 1024**3),
@@ -46,6 +50,8 @@ class Settings:
         "max_contributions_listed": (1, 100_000),
         "max_resample_work": (1_000, 10**12),
         "max_request_seconds": (1, 3600),
+        "bootstrap_subset_rows": (1_000, 100_000_000),
+        "resample_threads": (1, 64),
     }
 
     def __post_init__(self) -> None:

@@ -79,6 +79,8 @@ def _describe_options(options: DescriptorOptions, settings: Settings) -> Describ
     return DescribeOptions(
         interval=interval,
         max_resample_work=float(settings.max_resample_work),
+        subset_rows=settings.bootstrap_subset_rows,
+        resample_threads=settings.resample_threads,
         deadline=time.monotonic() + settings.max_request_seconds,
         convention=options.convention,
         skewness_estimator=options.skewness_estimator,

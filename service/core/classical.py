@@ -33,7 +33,7 @@ class ClassicalInterval:
 
 
 def mean_interval(mean: float, sd: float, n: float, level: float) -> ClassicalInterval:
-    half = stats.t.ppf(0.5 + level / 2.0, n - 1.0) * sd / math.sqrt(n)
+    half = float(stats.t.ppf(0.5 + level / 2.0, n - 1.0)) * sd / math.sqrt(n)
     return ClassicalInterval(
         mean - half, mean + half, level, "student_t", None, "normal data, or n large enough for the mean to be normal"
     )
@@ -43,8 +43,8 @@ def variance_interval(variance: float, n: float, level: float) -> ClassicalInter
     alpha = 1.0 - level
     dof = n - 1.0
     return ClassicalInterval(
-        dof * variance / stats.chi2.ppf(1.0 - alpha / 2.0, dof),
-        dof * variance / stats.chi2.ppf(alpha / 2.0, dof),
+        dof * variance / float(stats.chi2.ppf(1.0 - alpha / 2.0, dof)),
+        dof * variance / float(stats.chi2.ppf(alpha / 2.0, dof)),
         level,
         "chi_square",
         None,

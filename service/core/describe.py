@@ -85,6 +85,8 @@ class DescribeOptions:
     interval: resample.IntervalOptions | None = None
     max_resample_work: float = 1e9
     deadline: float | None = None
+    subset_rows: int = 100_000
+    resample_threads: int = 2
 
 
 @dataclass
@@ -443,7 +445,9 @@ def describe(data: WeightedData, options: DescribeOptions, *, kind: str) -> Desc
 
     resampling = None
     if options.interval is not None:
-        resampling = _intervals(data, sums, basis, options, descriptors, quantile_list, probabilities, notes)
+        resampling = _intervals(
+            data, sums, midpoint_sums, sheppard_applied, basis, options, descriptors, quantile_list, probabilities, notes
+        )
 
     modes, modal = _modes(data, options.modes_limit, notes)
     return Description(
@@ -494,6 +498,8 @@ _NO_BOOTSTRAP = {
 def _intervals(
     data: WeightedData,
     sums: CentralSums | None,
+    midpoint_sums: CentralSums | None,
+    sheppard_applied: bool,
     basis: _Basis,
     options: DescribeOptions,
     descriptors: dict[str, Descriptor],
@@ -512,16 +518,16 @@ def _intervals(
     if basis.single:
         raise _reject("$.options.interval", "a single observation cannot be resampled")
     # Open bins leave the moments undefined; the plan still needs a finite scaling of the values.
-    plan_sums = sums if sums is not None else central_sums(data.values, data.weights, 4)
+    plan_sums = midpoint_sums if midpoint_sums is not None else central_sums(data.values, data.weights, 4)
+    sheppard_width = None
+    if sheppard_applied:
+        width = grouped.equal_width(data)
+        assert width is not None
+        sheppard_width = math.ldexp(width, -plan_sums.scale_exponent)
     families = (
         (basis.skewness_family, basis.kurtosis_family) if basis.bias_correctable else ("g1", "g2")
     )
     factor_rule = "population" if basis.population else "reliability" if basis.reliability else "sample"
-    sheppard_width = None
-    if data.binned and sums is not None and descriptors["variance"].estimator and options.sheppard_correction:
-        width = grouped.equal_width(data)
-        if width is not None and sums is not plan_sums:
-            sheppard_width = width
     outcome = resample.bootstrap(
         data,
         plan_sums,
@@ -534,6 +540,9 @@ def _intervals(
         options=interval,
         max_work=options.max_resample_work,
         deadline=options.deadline,
+        threads=options.resample_threads,
+        subset_rows=options.subset_rows,
+        sheppard_width=sheppard_width,
     )
     fallbacks: dict[str, list[str]] = {}
     undefined: dict[str, list[str]] = {}

@@ -37,6 +37,10 @@ _BATCH_ELEMENTS = 1 << 21
 SMALL_SAMPLE = 20
 # Fewer distinct values than this make the bootstrap distribution of order statistics lumpy.
 FEW_DISTINCT = 20
+# Bag of little bootstraps (Kleiner, Talwalkar, Sarkar & Jordan, JRSS-B 76, 2014): subsets of
+# size n**0.7, 20 of them (the paper's experiments find s = 10-20 and r = 50-100 enough).
+SUBSET_EXPONENT = 0.7
+SUBSETS = 20
 
 
 @dataclass(frozen=True)
@@ -67,9 +71,11 @@ class BootstrapResult:
 class _Rows:
     """Weights of b resamples over the k support rows, seen through what statistics need."""
 
-    def __init__(self, weights: np.ndarray, powers: np.ndarray, whole: bool) -> None:
+    def __init__(self, weights: np.ndarray, powers: np.ndarray | None, whole: bool) -> None:
         self.weights = weights
-        self.sums = weights @ powers
+        self.whole = whole
+        if powers is not None:
+            self.sums = weights @ powers
         if whole:
             # Integer prefix sums vectorise; floating ones cannot (they must keep their order).
             self.cumulative = np.cumsum(weights.astype(np.int64), axis=1).astype(np.float64)
@@ -99,32 +105,81 @@ class _Rows:
     def sum_squared_weights(self) -> np.ndarray:
         return np.sum(self.weights * self.weights, axis=1)
 
+    def reordered(self, rows: np.ndarray, order: np.ndarray) -> _Rows:
+        """The given rows with the support permuted into ``order`` (for sorted deviations)."""
+        return _Rows(self.weights[np.ix_(rows, order)], None, self.whole)
+
 
 class _LeaveOneOut:
-    """The k jackknife rows: the full data with one observation of support row i removed."""
+    """Jackknife rows: the full data with one observation removed from one support position each.
 
-    def __init__(self, base: np.ndarray, removed: np.ndarray, powers: np.ndarray) -> None:
-        self.base = base  # original weight per support row
-        self.removed = removed  # weight of one observation of each row
-        self.sums = (base @ powers)[None, :] - removed[:, None] * powers
+    Row r removes weight ``removed[r]`` at support position ``positions[r]`` (default: row r
+    removes from position r); nothing k x k is ever built.
+    """
+
+    def __init__(
+        self,
+        base: np.ndarray,
+        removed: np.ndarray,
+        powers: np.ndarray | None = None,
+        positions: np.ndarray | None = None,
+    ) -> None:
+        self.base = base  # original weight per support position
+        self.removed = removed  # weight of one observation, per row
+        self.positions = np.arange(base.size) if positions is None else positions
+        if powers is not None:
+            self.sums = (base @ powers)[None, :] - removed[:, None] * powers[self.positions]
         self._cumulative = np.cumsum(base)
         self.total = self._cumulative[-1] - removed
-        self._rows = np.arange(base.size)
 
     def first_reaching(self, target: np.ndarray) -> np.ndarray:
-        rows = self._rows[:, None]
+        position = self.positions[:, None]
         before = np.searchsorted(self._cumulative, target, side="left")
-        after = np.maximum(np.searchsorted(self._cumulative, target + self.removed[:, None], side="left"), rows)
-        return np.minimum(np.where(before < rows, before, after), self.base.size - 1)
+        after = np.maximum(np.searchsorted(self._cumulative, target + self.removed[:, None], side="left"), position)
+        return np.minimum(np.where(before < position, before, after), self.base.size - 1)
 
     def cumulative_at(self, index: np.ndarray) -> np.ndarray:
-        rows = self._rows[:, None]
-        return self._cumulative[index] - np.where(index >= rows, self.removed[:, None], 0.0)
+        return self._cumulative[index] - np.where(index >= self.positions[:, None], self.removed[:, None], 0.0)
 
     def sum_squared_weights(self) -> np.ndarray:
         squares = float(np.sum(self.base * self.base))
-        remaining = self.base - self.removed
-        return squares - self.base * self.base + remaining * remaining
+        own = self.base[self.positions]
+        remaining = own - self.removed
+        return squares - own * own + remaining * remaining
+
+    @property
+    def cumulative(self) -> np.ndarray:
+        """Dense rows x k cumulative weights; only binned data (k = bins) ask for it."""
+        dense = np.broadcast_to(self._cumulative, (self.positions.size, self.base.size)).copy()
+        dense -= np.where(np.arange(self.base.size)[None, :] >= self.positions[:, None], self.removed[:, None], 0.0)
+        return dense
+
+    def reordered(self, rows: np.ndarray, order: np.ndarray) -> _LeaveOneOut:
+        inverse = np.empty_like(order)
+        inverse[order] = np.arange(order.size)
+        return _LeaveOneOut(self.base[order], self.removed[rows], positions=inverse[self.positions[rows]])
+
+
+def _deviation_order(values: np.ndarray, centre: float) -> tuple[np.ndarray, np.ndarray]:
+    """Permutation of sorted ``values`` that sorts ``|values - centre|``, and those deviations.
+
+    The deviations below and above the centre are two sorted runs, merged by binary search.
+    """
+    split = int(np.searchsorted(values, centre, side="left"))
+    below_index = np.arange(split - 1, -1, -1)
+    above_index = np.arange(split, values.size)
+    with np.errstate(over="ignore"):
+        below = centre - values[below_index]
+        above = values[above_index] - centre
+    merged = np.empty(values.size, dtype=np.intp)
+    below_at = np.arange(below.size) + np.searchsorted(above, below, side="left")
+    above_at = np.arange(above.size) + np.searchsorted(below, above, side="right")
+    merged[below_at] = below_index
+    merged[above_at] = above_index
+    deviations = np.empty(values.size)
+    deviations[below_at] = below
+    deviations[above_at] = above
+    return merged, deviations
 
 
 @dataclass(frozen=True)
@@ -205,8 +260,16 @@ def _grouped_quantiles(view, edges: np.ndarray, p: np.ndarray) -> np.ndarray:
 class _Statistics:
     """Every descriptor of a batch of weight rows, by the same rules as ``describe``."""
 
-    def __init__(self, plan: _Plan, families: tuple[str, str], quantile_type: int | None, factor_rule: str):
+    def __init__(
+        self,
+        plan: _Plan,
+        families: tuple[str, str],
+        quantile_type: int | None,
+        factor_rule: str,
+        sheppard_width: float | None = None,
+    ):
         self.plan = plan
+        self.sheppard_width = sheppard_width  # in the scaled units of the plan's deviations
         self.skewness_family, self.kurtosis_family = families
         self.quantile_type = quantile_type
         self.factor_rule = factor_rule  # "sample", "population" or "reliability"
@@ -223,24 +286,51 @@ class _Statistics:
         plan = self.plan
         if plan.edges is not None:
             return _grouped_quantiles(view, plan.edges, np.array([0.5]))[:, 0]
-        if plan.integer:
+        return self._median_of(view, plan.values)
+
+    def _median_of(self, view, values: np.ndarray) -> np.ndarray:
+        """Median of each row over the sorted ``values``, by the rule of ``order.median``."""
+        if self.plan.integer:
             n = view.total[:, None]
             ranks = np.concatenate((np.floor((n + 1.0) / 2.0), np.ceil((n + 1.0) / 2.0)), axis=1)
-            pair = _order_statistic(view, plan.values, ranks)
+            pair = _order_statistic(view, values, ranks)
             return 0.5 * pair[:, 0] + 0.5 * pair[:, 1]
-        return _cdf_quantiles(view, plan.values, np.array([0.5]), average=True)[:, 0]
+        return _cdf_quantiles(view, values, np.array([0.5]), average=True)[:, 0]
 
     def mad(self, view, median: np.ndarray) -> np.ndarray:
-        """Median absolute deviation by bisection on the bit pattern of the deviation (exact)."""
+        """Median absolute deviation of each row.
+
+        Rows sharing a median share the order of the deviations, and resampled medians take
+        few distinct values, so the deviations are sorted once per distinct median (by merging
+        the two sorted runs around it) and each row's median is read from its cumulative
+        weights in that order.
+        """
         plan = self.plan
-        total = view.total
         if plan.edges is not None:
             return self._grouped_mad(view, median)
+        centres = np.unique(median)
+        if centres.size * 8 > median.size:
+            return self._bisected_mad(view, median)
+        result = np.empty(median.size)
+        for centre in centres:
+            rows = np.flatnonzero(median == centre)
+            permutation, deviations = _deviation_order(plan.values, float(centre))
+            result[rows] = self._median_of(view.reordered(rows, permutation), deviations)
+        return result
+
+    def _bisected_mad(self, view, median: np.ndarray) -> np.ndarray:
+        """The same median absolute deviation, by bisection on the bit pattern of the deviation.
+
+        For rows with many different medians: about 64 vectorised steps, each counting the
+        weight within ``[median - t, median + t]`` of every row at once.
+        """
+        plan = self.plan
+        total = view.total
 
         def within(t: np.ndarray) -> np.ndarray:
-            """Weight of support values in [median - t, median + t]."""
-            high = np.searchsorted(plan.values, median + t, side="right") - 1
-            low = np.searchsorted(plan.values, median - t, side="left") - 1
+            with np.errstate(over="ignore"):
+                high = np.searchsorted(plan.values, median + t, side="right") - 1
+                low = np.searchsorted(plan.values, median - t, side="left") - 1
             above = np.where(high >= 0, view.cumulative_at(np.maximum(high, 0)[:, None])[:, 0], 0.0)
             below = np.where(low >= 0, view.cumulative_at(np.maximum(low, 0)[:, None])[:, 0], 0.0)
             return above - below
@@ -313,6 +403,8 @@ class _Statistics:
             for j in range(k + 1):
                 total = total + math.comb(k, j) * sums[:, j] * (-delta) ** (k - j)
             m[k] = total / weight
+        if self.sheppard_width is not None:
+            m[2], m[4] = grouped.sheppard_corrected(m[2], m[4], self.sheppard_width)
         exponent = plan.sums.scale_exponent
         mean = plan.sums.mean + np.ldexp(delta, exponent)
         if self.factor_rule == "population":
@@ -331,8 +423,9 @@ class _Statistics:
             out["coefficient_of_variation"] = sd / mean
             g1 = m[3] / m[2] ** 1.5
             g2 = m[4] / (m[2] * m[2]) - 3.0
-            # Observations per row: the draws of a resample, one fewer in a jackknife row.
-            n = weight if plan.integer else np.full_like(weight, float(plan.draws))
+            # n of the bias corrections: each row's total weight (one fewer observation in a
+            # jackknife row); reliability weights use the plug-in g1/g2, which need only n >= 3 entries.
+            n = np.full_like(weight, float(plan.draws)) if plan.reliability else weight
             skew = np.where(n >= 3, shape.skewness(g1, n, self.skewness_family).value, np.nan)
             kurt = np.where(n >= 4, shape.excess_kurtosis(g2, n, self.kurtosis_family).value, np.nan)
             out["skewness"] = skew
@@ -516,6 +609,111 @@ INTERVAL_DESCRIPTORS = (
 )
 
 
+def _deadline_check(deadline: float | None) -> None:
+    if deadline is not None and time.monotonic() > deadline:
+        raise LimitExceeded(
+            detail="the resampling did not finish within this server's time limit; lower options.interval.resamples",
+            locations=[Location("$.options.interval.resamples", "lower it")],
+        )
+
+
+def _over_budget(work: float, max_work: float, allowed: int, description: str) -> LimitExceeded:
+    return LimitExceeded(
+        detail=(
+            f"{description} = {work:.3g} exceeds this server's resampling budget of {max_work:.3g}; "
+            f"lower options.interval.resamples to at most {allowed}"
+        ),
+        locations=[Location("$.options.interval.resamples", f"at most {allowed} for these data")],
+    )
+
+
+def _little_bootstraps(
+    plan: _Plan,
+    notes: list[str],
+    estimates: dict[str, float | None],
+    quantile_estimates: list[float | None],
+    probabilities: np.ndarray,
+    full: _Statistics,
+    options: IntervalOptions,
+    max_work: float,
+    deadline: float | None,
+) -> BootstrapOutcome:
+    """Bag of little bootstraps: intervals averaged over resamples of size n drawn from small subsets.
+
+    Each of ``SUBSETS`` subsets holds ``m = n**0.7`` observations drawn without replacement; each
+    resample puts multinomial(n, 1/m) weights on its observations, so every statistic is computed
+    at the full sample size at a cost of O(m) per resample (Kleiner et al. 2014, algorithm 1).
+    """
+    observations = plan.draws
+    m = int(math.ceil(observations**SUBSET_EXPONENT))
+    per_subset = int(math.ceil(options.resamples / SUBSETS))
+    work = float(SUBSETS * per_subset) * m
+    if work > max_work:
+        raise _over_budget(work, max_work, int(max_work // m), f"{SUBSETS * per_subset} resamples x {m} subset rows")
+    wanted = tuple(name for name in INTERVAL_DESCRIPTORS if estimates.get(name) is not None)
+    names = wanted + tuple(f"quantile:{i}" for i, q in enumerate(quantile_estimates) if q is not None)
+    method = "basic" if options.method == "basic" else "percentile"
+    cumulative = np.cumsum(np.round(plan.base / plan.unit))
+    lows: dict[str, list[float]] = {name: [] for name in names}
+    highs: dict[str, list[float]] = {name: [] for name in names}
+    errors: dict[str, list[float]] = {name: [] for name in names}
+    undefined: set[str] = set()
+    children = np.random.SeedSequence(options.seed).spawn(SUBSETS)
+    for child in children:
+        _deadline_check(deadline)
+        rng = np.random.default_rng(child)
+        chosen = rng.choice(observations, size=m, replace=False)
+        rows, counts = np.unique(np.searchsorted(cumulative, chosen, side="right"), return_counts=True)
+        subset = _Plan(
+            values=plan.values[rows],
+            base=counts * plan.unit[rows],
+            unit=plan.unit[rows],
+            powers=plan.powers[rows],
+            sums=plan.sums,
+            draws=observations,
+            multinomial=True,
+            integer=plan.integer,
+            reliability=plan.reliability,
+            edges=None,
+            row_of_draw=None,
+            unit_weights=bool(np.all(plan.unit[rows] == 1.0)),
+        )
+        statistics = _Statistics(subset, (full.skewness_family, full.kurtosis_family), full.quantile_type, full.factor_rule)
+        weights = rng.multinomial(observations, counts / m, size=per_subset).astype(np.float64) * subset.unit[None, :]
+        replicates = statistics.evaluate(_Rows(weights, subset.powers, subset.integer), probabilities, wanted)
+        alpha = 1.0 - options.level
+        for name in names:
+            values = replicates[name]
+            if not np.all(np.isfinite(values)):
+                undefined.add(name)
+                continue
+            low, high = _percentile(values, np.array([alpha / 2.0, 1.0 - alpha / 2.0]))
+            estimate = estimates[name] if name in estimates else quantile_estimates[int(name.split(":")[1])]
+            if method == "basic":
+                low, high = 2.0 * estimate - high, 2.0 * estimate - low
+            lows[name].append(float(low))
+            highs[name].append(float(high))
+            errors[name].append(float(np.std(values, ddof=1)))
+
+    def averaged(name: str) -> BootstrapResult:
+        if name in undefined:
+            return BootstrapResult(None, None, "some resamples leave this descriptor undefined")
+        reason = "BCa is not defined for the bag of little bootstraps" if options.method == "bca" else None
+        interval = Interval(float(np.mean(lows[name])), float(np.mean(highs[name])), options.level, method)
+        return BootstrapResult(interval, float(np.mean(errors[name])), reason)
+
+    results = {name: averaged(name) for name in wanted}
+    quantiles = [
+        averaged(f"quantile:{i}") if q is not None else BootstrapResult(None, None, "the quantile itself is undefined")
+        for i, q in enumerate(quantile_estimates)
+    ]
+    scheme = (
+        f"bag of little bootstraps (Kleiner et al. 2014): {SUBSETS} subsets of {m} = n^{SUBSET_EXPONENT} "
+        f"observations, {per_subset} multinomial resamples of size {observations} each"
+    )
+    return BootstrapOutcome(results, quantiles, SUBSETS * per_subset, scheme, notes, {})
+
+
 def bootstrap(
     data: WeightedData,
     sums: CentralSums,
@@ -530,8 +728,13 @@ def bootstrap(
     max_work: float,
     deadline: float | None,
     threads: int = 2,
+    subset_rows: int = 100_000,
+    sheppard_width: float | None = None,
 ) -> BootstrapOutcome:
     """Bootstrap every defined scalar descriptor and requested quantile of ``data`` in one pass.
+
+    With more than ``subset_rows`` support rows the bag of little bootstraps replaces the
+    ordinary bootstrap (percentile or basic intervals; BCa falls back to percentile).
 
     ``estimates`` are the point estimates from ``describe``; a descriptor whose estimate is
     ``None`` gets no interval. Raises :class:`LimitExceeded` when resamples x support rows exceed
@@ -539,24 +742,19 @@ def bootstrap(
     """
     plan, notes = _plan(data, sums)
     k = plan.values.size
+    if k > subset_rows and plan.edges is None:
+        return _little_bootstraps(
+            plan, notes, estimates, quantile_estimates, probabilities,
+            _Statistics(plan, families, quantile_type, factor_rule), options, max_work, deadline,
+        )
     work = float(options.resamples) * float(k)
     if work > max_work:
-        raise LimitExceeded(
-            detail=(
-                f"{options.resamples} resamples x {k} support rows = {work:.3g} exceeds this server's "
-                f"resampling budget of {max_work:.3g}; lower options.interval.resamples to at most "
-                f"{int(max_work // k)}"
-            ),
-            locations=[Location("$.options.interval.resamples", f"at most {int(max_work // k)} for these data")],
-        )
-    statistics = _Statistics(plan, families, quantile_type, factor_rule)
+        raise _over_budget(work, max_work, int(max_work // k), f"{options.resamples} resamples x {k} support rows")
+    statistics = _Statistics(plan, families, quantile_type, factor_rule, sheppard_width)
     wanted = tuple(name for name in INTERVAL_DESCRIPTORS if estimates.get(name) is not None)
+
     def run(batch: tuple[np.random.Generator, int]) -> dict[str, np.ndarray]:
-        if deadline is not None and time.monotonic() > deadline:
-            raise LimitExceeded(
-                detail="the resampling did not finish within this server's time limit; lower options.interval.resamples",
-                locations=[Location("$.options.interval.resamples", "lower it")],
-            )
+        _deadline_check(deadline)
         weights = _draw(plan, *batch)
         return statistics.evaluate(_Rows(weights, plan.powers, plan.integer), probabilities, wanted)
 
