@@ -14,19 +14,32 @@ README = (pathlib.Path(__file__).resolve().parents[1] / "README.md").read_text()
 CURL = re.compile(r"curl -s http://127\.0\.0\.1:8000(?P<path>/\S+).*?-d '(?P<body>.*?)'", re.DOTALL)
 
 
-def _examples() -> dict[str, dict]:
-    found = {}
-    for match in CURL.finditer(README):
-        found[match["path"]] = json.loads(match["body"])
-    return found
+def _examples() -> list[tuple[str, dict]]:
+    return [(match["path"], json.loads(match["body"])) for match in CURL.finditer(README)]
 
 
 @pytest.fixture(scope="module")
 def answers():
+    """Each example's answer, keyed by path; a second example of a path gets the suffix '#2'."""
     examples = _examples()
-    assert set(examples) == {"/v1/descriptors/samples", "/v1/descriptors/table", "/v1/descriptors/bins"}
+    assert {path for path, _ in examples} == {"/v1/descriptors/samples", "/v1/descriptors/table", "/v1/descriptors/bins"}
+    found = {}
     with TestClient(create_app(Settings())) as client:
-        return {path: client.post(path, json=body).json() for path, body in examples.items()}
+        for path, body in examples:
+            key = path if path not in found else f"{path}#2"
+            response = client.post(path, json=body)
+            assert response.status_code == 200, response.text
+            found[key] = response.json()
+    return found
+
+
+def test_interval_example_quotes_served_numbers(answers):
+    result = answers["/v1/descriptors/samples#2"]
+    mean = result["descriptors"]["mean"]
+    assert round(mean["value"], 2) == 250.43
+    assert mean["interval"]["method"] == "bca" and mean["interval"]["low"] < mean["value"] < mean["interval"]["high"]
+    assert mean["classical_interval"]["method"] == "student_t"
+    assert result["resampling"]["seed"] == 12345
 
 
 def test_the_two_commands_are_the_makefile_targets():
