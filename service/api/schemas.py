@@ -47,13 +47,9 @@ class IntervalRequest(Message):
         int, Meta(ge=100, le=1_000_000, description="Bootstrap resamples (the server's budget may allow fewer).")
     ] = 9999
     seed: Annotated[
-        int | None,
+        Annotated[int, Meta(ge=0, le=MAX_SEED)] | None,
         Meta(description="Seed of the resampling (0 to 2^53 - 1); null draws one, echoed in resampling.seed."),
     ] = None
-
-    def __post_init__(self) -> None:
-        if self.seed is not None and not 0 <= self.seed <= MAX_SEED:
-            raise ValueError(f"seed must be an integer in [0, {MAX_SEED}] - at `$.options.interval.seed`")
 
 
 class DescriptorOptions(Message):
@@ -250,6 +246,16 @@ class Descriptors(Message):
     median_absolute_deviation: DescriptorValue
     median_absolute_deviation_normal: DescriptorValue
     lag1_autocorrelation: DescriptorValue
+    quartile_skewness: DescriptorValue
+    octile_kurtosis: DescriptorValue
+    octile_excess_kurtosis: DescriptorValue
+    medcouple: DescriptorValue
+    half_sample_mode: DescriptorValue
+    mean_median_gap: DescriptorValue
+    l_location: DescriptorValue
+    l_scale: DescriptorValue
+    l_skewness: DescriptorValue
+    l_kurtosis: DescriptorValue
 
 
 class Size(Message):
@@ -281,6 +287,20 @@ class Quantile(Message):
     interval: Interval | None = None
     standard_error: float | None = None
     classical_interval: ClassicalInterval | None = None
+
+
+class NormalityTest(Message):
+    test: Annotated[
+        Literal["skewness_test", "kurtosis_test", "omnibus_k2", "jarque_bera"],
+        Meta(description="D'Agostino skewness z, Anscombe & Glynn kurtosis z, D'Agostino & Pearson K^2, Jarque & Bera."),
+    ]
+    statistic: MaybeNumber
+    p_value: Annotated[
+        float | None, Meta(description="Two-sided p-value: evidence against normality, not a verdict.")
+    ]
+    minimum_n: int
+    reference: str
+    reason: Annotated[str | None, Meta(description="Why the test could not be computed.")]
 
 
 class Resampling(Message):
@@ -381,6 +401,9 @@ class DescriptionResponse(Message):
         ),
     ]
     grouping: Annotated[Grouping | None, Meta(description="Bin facts; null unless the input was bins.")]
+    normality: Annotated[
+        list[NormalityTest], Meta(description="Normality tests from skewness and kurtosis (samples and count tables).")
+    ]
     conventions: Conventions
     warnings: list[ResultWarning]
     resampling: Annotated[

@@ -15,9 +15,9 @@ from dataclasses import dataclass, field
 import numpy as np
 from scipy import stats
 
-from service.core import classical, grouped, order, resample, shape, tail
+from service.core import classical, grouped, lmoments, normality, order, resample, robust, shape, tail
 from service.core.errors import Location, UncomputableInput
-from service.core.moments import CentralSums, central_sums
+from service.core.moments import CentralSums, central_sums, scale_by_power_of_two
 from service.core.serial import lag1_autocorrelation
 from service.core.weighted import WeightedData, WeightMeaning
 
@@ -38,7 +38,38 @@ SCALAR_DESCRIPTORS = (
     "median_absolute_deviation",
     "median_absolute_deviation_normal",
     "lag1_autocorrelation",
+    "quartile_skewness",
+    "octile_kurtosis",
+    "octile_excess_kurtosis",
+    "medcouple",
+    "half_sample_mode",
+    "mean_median_gap",
+    "l_location",
+    "l_scale",
+    "l_skewness",
+    "l_kurtosis",
 )
+ROBUST_SHAPE_DESCRIPTORS = (
+    "quartile_skewness",
+    "octile_kurtosis",
+    "octile_excess_kurtosis",
+    "medcouple",
+    "mean_median_gap",
+    "l_scale",
+    "l_skewness",
+    "l_kurtosis",
+)
+# Probabilities behind quartile skewness (Q1, Q2, Q3) and octile kurtosis (E1 .. E7).
+_ROBUST_PROBABILITIES = np.array([0.25, 0.5, 0.75, 1 / 8, 2 / 8, 3 / 8, 5 / 8, 6 / 8, 7 / 8])
+
+
+def _normal_octile_kurtosis() -> float:
+    e = stats.norm.ppf(np.arange(1, 8) / 8.0)
+    return float(((e[6] - e[4]) + (e[2] - e[0])) / (e[5] - e[1]))
+
+
+# Moors (1988): the octile kurtosis of any normal distribution, 1.2330951...
+NORMAL_OCTILE_KURTOSIS = _normal_octile_kurtosis()
 SPREAD_DESCRIPTORS = (
     "variance",
     "standard_deviation",
@@ -131,6 +162,16 @@ class Quantile:
     interval: resample.Interval | None = None
     standard_error: float | None = None
     classical_interval: classical.ClassicalInterval | None = None
+
+
+@dataclass
+class NormalityTest:
+    test: str
+    statistic: float | None
+    p_value: float | None
+    minimum_n: int
+    reference: str
+    reason: str | None
 
 
 @dataclass
@@ -227,6 +268,7 @@ class Description:
     shape_estimators: ShapeEstimators
     tail_contributions: TailContributions | None
     grouping: Grouping | None
+    normality: list[NormalityTest]
     conventions: Conventions
     warnings: list[Note]
     resampling: Resampling | None = None
@@ -410,19 +452,22 @@ def describe(data: WeightedData, options: DescribeOptions, *, kind: str) -> Desc
         notes.add(
             "single_observation",
             "a single observation carries no information on spread or shape",
-            SPREAD_DESCRIPTORS + SHAPE_DESCRIPTORS + ("lag1_autocorrelation",),
+            SPREAD_DESCRIPTORS + SHAPE_DESCRIPTORS + ROBUST_SHAPE_DESCRIPTORS + ("lag1_autocorrelation",),
         )
     elif constant:
         notes.add(
             "constant_data",
             "all values are equal: the spread is zero, so shape (skewness, kurtosis), "
             "standardized moments and autocorrelation are undefined",
-            SHAPE_DESCRIPTORS + ("lag1_autocorrelation", "tail_contributions"),
+            SHAPE_DESCRIPTORS
+            + ("quartile_skewness", "octile_kurtosis", "octile_excess_kurtosis", "medcouple")
+            + ("mean_median_gap", "l_skewness", "l_kurtosis", "lag1_autocorrelation", "tail_contributions"),
         )
 
     descriptors: dict[str, Descriptor] = {}
     _moment_descriptors(descriptors, data, sums, basis, options, constant, notes)
-    quantile_values = _order_descriptors(descriptors, data, basis, options, notes)
+    quantile_values, robust_quantiles = _order_descriptors(descriptors, data, basis, options, notes)
+    _robust_descriptors(descriptors, data, sums, basis, robust_quantiles, constant, notes)
     descriptors["lag1_autocorrelation"] = Descriptor(
         _lag1(data, sums, basis.single, constant, notes),
         "r(1) = sum (x_i - mean)(x_i+1 - mean) / sum (x_i - mean)^2",
@@ -450,6 +495,7 @@ def describe(data: WeightedData, options: DescribeOptions, *, kind: str) -> Desc
         )
 
     modes, modal = _modes(data, options.modes_limit, notes)
+    _explain_remaining_nulls(descriptors, notes)
     return Description(
         kind=kind,
         size=Size(
@@ -467,6 +513,7 @@ def describe(data: WeightedData, options: DescribeOptions, *, kind: str) -> Desc
         shape_estimators=_shape_estimators(sums, basis, constant),
         tail_contributions=_tail(data, midpoint_sums, basis.single or constant, options, kind),
         grouping=_grouping(data, modal, sheppard_applied) if data.binned else None,
+        normality=_normality(data, midpoint_sums, basis, constant, notes),
         conventions=Conventions(
             convention="population" if basis.population else "sample",
             variance_divisor=basis.divisor_label,
@@ -484,6 +531,19 @@ def describe(data: WeightedData, options: DescribeOptions, *, kind: str) -> Desc
         warnings=notes.items,
         resampling=resampling,
     )
+
+
+def _explain_remaining_nulls(descriptors: dict[str, Descriptor], notes: _Notes) -> None:
+    """Safety net of the contract "every null has a reason": name any null no warning covers."""
+    covered = {name for note in notes.items for name in note.descriptors}
+    silent = [name for name, d in descriptors.items() if d.value is None and name not in covered]
+    if silent:
+        notes.add(
+            "undefined_for_these_data",
+            "these descriptors cannot be computed for these data (a quantity they divide by is zero "
+            "or outside float64's range)",
+            silent,
+        )
 
 
 # Descriptors for which the ordinary bootstrap is known to fail, and why.
@@ -551,7 +611,11 @@ def _intervals(
         descriptors[name].standard_error = _finite_or_none(result.standard_error) if result.standard_error is not None else None
         if result.reason is not None:
             (fallbacks if result.interval is not None else undefined).setdefault(result.reason, []).append(name)
+    extremes = []
     for i, result in enumerate(outcome.quantiles):
+        if quantiles[i].probability in (0.0, 1.0) and quantiles[i].value is not None:
+            extremes.append(f"quantiles[{i}]")  # the minimum or maximum again: see _NO_BOOTSTRAP
+            continue
         quantiles[i].interval = result.interval
         quantiles[i].standard_error = result.standard_error
         if result.reason is not None and quantiles[i].value is not None:
@@ -562,8 +626,13 @@ def _intervals(
     for reason, names in undefined.items():
         notes.add("interval_undefined", f"no bootstrap interval: {reason}", names)
     skipped = [name for name in _NO_BOOTSTRAP if descriptors[name].value is not None]
-    for reason in sorted({_NO_BOOTSTRAP[name] for name in skipped}):
-        notes.add("interval_not_offered", f"no bootstrap interval: {reason}", [n for n in skipped if _NO_BOOTSTRAP[n] == reason])
+    skipped += extremes
+
+    def why(name: str) -> str:
+        return _NO_BOOTSTRAP["minimum" if name in extremes else name]
+
+    for reason in sorted({why(name) for name in skipped}):
+        notes.add("interval_not_offered", f"no bootstrap interval: {reason}", [n for n in skipped if why(n) == reason])
     for text in outcome.notes:
         notes.add("resampling_scheme", text)
     n = basis.sample_size or 0.0
@@ -710,14 +779,19 @@ def _order_descriptors(
     basis: _Basis,
     options: DescribeOptions,
     notes: _Notes,
-) -> np.ndarray:
-    """Median, extremes, IQR, MAD and the requested quantiles, all from one sort of the data."""
+) -> tuple[np.ndarray, np.ndarray]:
+    """Median, extremes, IQR, MAD and the requested quantiles, all from one sort of the data.
+
+    Returns the requested quantiles and those behind the robust shape measures
+    (``_ROBUST_PROBABILITIES``), computed by the same rule in the same call.
+    """
     probabilities = np.array(options.probabilities, dtype=np.float64)
-    quartiles_and_requested = np.concatenate(([0.25, 0.75], probabilities))
+    quartiles_and_requested = np.concatenate(([0.25, 0.75], _ROBUST_PROBABILITIES, probabilities))
     if data.binned:
         values = grouped.quantiles(data, np.concatenate(([0.5], quartiles_and_requested)))
         median = _finite_or_none(float(values[0]))
         quartiles, requested = values[1:3], values[3:]
+        robust_values, requested = requested[: _ROBUST_PROBABILITIES.size], requested[_ROBUST_PROBABILITIES.size :]
         if median is None:
             notes.add("quantile_in_open_bin", "the median falls inside an open-ended bin", ["median"])
         mad = None
@@ -739,6 +813,7 @@ def _order_descriptors(
     else:
         median = order.median(data)
         quartiles, requested = _sample_quantiles(data, quartiles_and_requested, basis, notes)
+        robust_values, requested = requested[: _ROBUST_PROBABILITIES.size], requested[_ROBUST_PROBABILITIES.size :]
         mad = None if basis.single else order.median_absolute_deviation(data, median)
         minimum = float(data.sorted_values[0])
         maximum = float(data.sorted_values[-1])
@@ -762,7 +837,175 @@ def _order_descriptors(
         None if mad is None else notes.finite(mad * order.NORMAL_MAD_FACTOR, "median_absolute_deviation_normal"),
         f"{order.NORMAL_MAD_FACTOR} x median of |x - median| (consistent for the normal sigma)",
     )
-    return requested
+    return requested, robust_values
+
+
+def _robust_descriptors(
+    descriptors: dict[str, Descriptor],
+    data: WeightedData,
+    sums: CentralSums | None,
+    basis: _Basis,
+    quantiles: np.ndarray,
+    constant: bool,
+    notes: _Notes,
+) -> None:
+    """Quartile skewness, octile kurtosis, medcouple, half-sample mode, mean-median gap, L-moments."""
+    q1, q2, q3, e1, e2, e3, e5, e6, e7 = np.asarray(quantiles, dtype=np.float64)  # numpy scalars: no ZeroDivisionError
+    method = "grouped quantiles" if data.binned else f"quantiles type {basis.quantile_type}"
+    undefined = "single" if basis.single else "constant" if constant else None
+    with np.errstate(over="ignore", invalid="ignore", divide="ignore"):
+        # Halves first, so quantiles near +-1.8e308 do not overflow before the ratio.
+        bowley = (0.5 * q3 + 0.5 * q1 - q2) / (0.5 * q3 - 0.5 * q1)
+        moors = ((0.5 * e7 - 0.5 * e5) + (0.5 * e3 - 0.5 * e1)) / (0.5 * e6 - 0.5 * e2)
+    defined_bowley = undefined is None and math.isfinite(bowley)
+    defined_moors = undefined is None and math.isfinite(moors)
+    descriptors["quartile_skewness"] = Descriptor(
+        float(bowley) if defined_bowley else None, f"(Q3 + Q1 - 2 Q2) / (Q3 - Q1), {method} (Bowley)"
+    )
+    descriptors["octile_kurtosis"] = Descriptor(
+        float(moors) if defined_moors else None, f"((E7 - E5) + (E3 - E1)) / (E6 - E2), {method} (Moors 1988)"
+    )
+    descriptors["octile_excess_kurtosis"] = Descriptor(
+        float(moors - NORMAL_OCTILE_KURTOSIS) if defined_moors else None,
+        f"octile kurtosis - {NORMAL_OCTILE_KURTOSIS!r} (its normal value)",
+    )
+    if undefined is None and not (defined_bowley and defined_moors):
+        affected = [n for n, ok in (("quartile_skewness", defined_bowley), ("octile_kurtosis", defined_moors)) if not ok]
+        if "octile_kurtosis" in affected:
+            affected.append("octile_excess_kurtosis")
+        notes.add(
+            "quantile_spread_zero",
+            "the quantiles in the denominator coincide (or fall in an open bin), so the ratio is undefined",
+            affected,
+        )
+
+    mc = hsm = None
+    if data.binned:
+        notes.add(
+            "needs_values",
+            "the medcouple and the half-sample mode need observed values; bins give only intervals",
+            ["medcouple", "half_sample_mode"],
+        )
+    else:
+        if undefined is None:
+            support = data.support
+            median = descriptors["median"].value
+            if data.weights is None:
+                mc = robust.medcouple(data.sorted_values, None, median)
+            else:
+                mc = robust.medcouple(support.values, support.weights, median)
+            mc = _finite_or_none(mc)
+        if data.meaning is WeightMeaning.UNIT:
+            hsm = robust.half_sample_mode(data.sorted_values)
+        elif data.integer_weights:
+            hsm = robust.half_sample_mode(data.support.values, data.support.weights)
+        else:
+            notes.add(
+                "needs_values",
+                "the half-sample mode is defined for observations with whole counts; see modes",
+                ["half_sample_mode"],
+            )
+    descriptors["medcouple"] = Descriptor(mc, "median of h(x_i, x_j) over x_i <= median <= x_j (Brys et al. 2004)")
+    descriptors["half_sample_mode"] = Descriptor(hsm, "half-sample mode (Bickel & Fruhwirth 2006)")
+
+    mean, median, sd = descriptors["mean"].value, descriptors["median"].value, descriptors["standard_deviation"].value
+    gap = None
+    if mean is not None and median is not None and sd:
+        gap = _finite_or_none((0.5 * mean - 0.5 * median) / (0.5 * sd))
+    descriptors["mean_median_gap"] = Descriptor(gap, "(mean - median) / standard deviation")
+
+    _l_moments(descriptors, data, sums, basis, undefined, notes)
+
+
+def _l_moments(
+    descriptors: dict[str, Descriptor],
+    data: WeightedData,
+    sums: CentralSums | None,
+    basis: _Basis,
+    undefined: str | None,
+    notes: _Notes,
+) -> None:
+    # L-moments are linear in the data: compute them on data scaled by a power of two (exact),
+    # so nothing overflows near float64's limit, and scale l1 and l2 back.
+    points = data.edges[np.isfinite(data.edges)] if data.binned else data.support.values
+    largest = float(np.max(np.abs(points)))
+    exponent = -math.frexp(largest)[1] if largest > 0.0 else 0
+    values = None
+    if data.binned:
+        if data.open_bin_weight == 0.0:
+            assert data.edges is not None and data.weights is not None
+            values = lmoments.binned_lmoments(np.ldexp(data.edges, exponent), data.weights)
+            label = "population L-moments of even spread within bins (approximation)"
+    elif data.meaning is WeightMeaning.PROBABILITY:
+        support = data.support
+        values = lmoments.population_lmoments(np.ldexp(support.values, exponent), support.weights)
+        label = "population L-moments (Hosking 1990)"
+    elif data.integer_weights and data.meaning is not WeightMeaning.RELIABILITY:
+        support = data.support
+        if data.total_weight >= 4:
+            values = lmoments.sample_lmoments(np.ldexp(support.values, exponent), support.weights)
+            label = "unbiased, from probability-weighted moments (Hosking 1990)"
+        elif not basis.single:
+            notes.add(
+                "too_few_observations",
+                f"the unbiased L-moments up to order 4 need at least 4 observations; n = {data.total_weight:g}",
+                ["l_location", "l_scale", "l_skewness", "l_kurtosis"],
+            )
+    else:
+        support = data.support
+        values = lmoments.population_lmoments(np.ldexp(support.values, exponent), support.weights)
+        label = "plug-in L-moments of the weighted distribution (no unbiased form for these weights)"
+    if values is None:
+        for name in ("l_location", "l_scale", "l_skewness", "l_kurtosis"):
+            descriptors[name] = Descriptor(None, "L-moments (Hosking 1990)")
+        return
+    l1, l2, l3, l4 = values
+    ratios_defined = l2 > 0.0 and undefined is None
+    location = notes.finite(scale_by_power_of_two(l1, -exponent), "l_location")
+    scale = None if undefined == "single" else notes.finite(scale_by_power_of_two(l2, -exponent), "l_scale")
+    descriptors["l_location"] = Descriptor(location, f"l1, {label}")
+    descriptors["l_scale"] = Descriptor(scale, f"l2, {label}")
+    descriptors["l_skewness"] = Descriptor(_finite_or_none(l3 / l2) if ratios_defined else None, f"t3 = l3 / l2, {label}")
+    descriptors["l_kurtosis"] = Descriptor(_finite_or_none(l4 / l2) if ratios_defined else None, f"t4 = l4 / l2, {label}")
+
+
+def _normality(
+    data: WeightedData, sums: CentralSums | None, basis: _Basis, constant: bool, notes: _Notes
+) -> list[NormalityTest]:
+    """The four tests; a p-value is evidence against normality, not a verdict."""
+    reason = None
+    if data.meaning is WeightMeaning.PROBABILITY:
+        reason = "a probability table is a distribution, not a sample"
+    elif data.binned:
+        reason = "binned counts give only grouped values; the tests need observations"
+    elif not data.integer_weights or data.meaning is WeightMeaning.RELIABILITY:
+        reason = "the tests need observations with whole counts"
+    elif sums is None or basis.single or constant:
+        reason = "the tests need data with spread (at least two distinct values)"
+    results = {}
+    if reason is None:
+        assert sums is not None
+        results = normality.tests(sums.standardized_moment(3), sums.standardized_moment(4), data.total_weight)
+        if data.total_weight < normality.SMALL_SAMPLE_KURTOSIS:
+            notes.add(
+                "normality_small_sample",
+                f"with n = {data.total_weight:g} (< {normality.SMALL_SAMPLE_KURTOSIS}) the kurtosis test's normal "
+                "approximation is poor, and so is the omnibus test built on it",
+                ["normality"],
+            )
+    out = []
+    for name, minimum in normality.MINIMUM_N.items():
+        result = results.get(name, reason)
+        if isinstance(result, normality.TestResult):
+            out.append(
+                NormalityTest(
+                    name, _finite_or_none(result.statistic), _finite_or_none(result.p_value), minimum,
+                    normality.REFERENCES[name], None,
+                )
+            )
+        else:
+            out.append(NormalityTest(name, None, None, minimum, normality.REFERENCES[name], result))
+    return out
 
 
 def _sample_quantiles(

@@ -28,7 +28,7 @@ from scipy import special
 
 from service.core import grouped, order, shape
 from service.core.errors import LimitExceeded, Location
-from service.core.moments import CentralSums
+from service.core.moments import CentralSums, scale_by_power_of_two
 from service.core.weighted import WeightedData, WeightMeaning
 
 # Elements of one b x k weight matrix: bounds memory (about 32 MB per matrix) whatever the request.
@@ -407,14 +407,15 @@ class _Statistics:
             m[2], m[4] = grouped.sheppard_corrected(m[2], m[4], self.sheppard_width)
         exponent = plan.sums.scale_exponent
         mean = plan.sums.mean + np.ldexp(delta, exponent)
-        if self.factor_rule == "population":
-            factor = np.ones_like(weight)
-        elif self.factor_rule == "reliability":
-            factor = 1.0 / (1.0 - view.sum_squared_weights() / (weight * weight))
-        else:
-            factor = weight / (weight - 1.0)
         out: dict[str, np.ndarray] = {}
         with np.errstate(invalid="ignore", divide="ignore", over="ignore"):
+            # A jackknife row of a two-point sample has weight 1: its variance is undefined (inf/NaN).
+            if self.factor_rule == "population":
+                factor = np.ones_like(weight)
+            elif self.factor_rule == "reliability":
+                factor = 1.0 / (1.0 - view.sum_squared_weights() / (weight * weight))
+            else:
+                factor = weight / (weight - 1.0)
             variance_scaled = m[2] * factor
             out["mean"] = mean
             out["variance"] = np.ldexp(variance_scaled, 2 * exponent)
@@ -542,21 +543,37 @@ def _interval(
 ) -> BootstrapResult:
     if not np.all(np.isfinite(replicates)):
         return BootstrapResult(None, None, "some resamples leave this descriptor undefined")
+    # Work in units of a power of two near the largest magnitude: exact, and neither the
+    # squared deviations of the standard error nor the cubes of the acceleration can overflow.
+    largest = float(np.max(np.abs(replicates)))
+    largest = max(largest, abs(estimate))
+    exponent = math.frexp(largest)[1] if largest > 0.0 else 0
+    scaled = np.ldexp(replicates, -exponent)
+    scaled_estimate = math.ldexp(estimate, -exponent)
+    scaled_jackknife = None if jackknife is None else np.ldexp(jackknife, -exponent)
     alpha = 1.0 - options.level
-    se = float(np.std(replicates, ddof=1)) if replicates.size > 1 else None
+    se = None
+    if replicates.size > 1:
+        se = scale_by_power_of_two(float(np.std(scaled, ddof=1)), exponent)
+        se = None if math.isnan(se) else se
     tails = np.array([alpha / 2.0, 1.0 - alpha / 2.0])
     method, reason = options.method, None
     if method == "bca":
-        fractions, reason = _bca_fractions(estimate, replicates, jackknife, jackknife_weights, tails)
+        fractions, reason = _bca_fractions(scaled_estimate, scaled, scaled_jackknife, jackknife_weights, tails)
         if fractions is None:
             method = "percentile"
             fractions = tails
     else:
         fractions = tails
-    low, high = _percentile(replicates, fractions)
+    low, high = _percentile(scaled, fractions)
     if method == "basic":
-        low, high = 2.0 * estimate - high, 2.0 * estimate - low
-    return BootstrapResult(Interval(float(low), float(high), options.level, method), se, reason)
+        low, high = 2.0 * scaled_estimate - high, 2.0 * scaled_estimate - low
+    low, high = scale_by_power_of_two(float(low), exponent), scale_by_power_of_two(float(high), exponent)
+    return BootstrapResult(
+        Interval(None if math.isnan(low) else low, None if math.isnan(high) else high, options.level, method),
+        se,
+        reason,
+    )
 
 
 def _bca_fractions(estimate, replicates, jackknife, weights, tails):

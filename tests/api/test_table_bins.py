@@ -39,6 +39,17 @@ DESCRIPTOR_NAMES = {
     "median_absolute_deviation",
     "median_absolute_deviation_normal",
     "lag1_autocorrelation",
+    # robust shape and L-moments (names fixed by the robust-shape issue), plus our own extras
+    "quartile_skewness",
+    "octile_kurtosis",
+    "octile_excess_kurtosis",
+    "medcouple",
+    "half_sample_mode",
+    "mean_median_gap",
+    "l_location",
+    "l_scale",
+    "l_skewness",
+    "l_kurtosis",
 }
 
 

@@ -1,0 +1,148 @@
+"""Shape measures a single outlier cannot swing: medcouple and the half-sample mode.
+
+Quartile skewness and octile kurtosis are ratios of quantiles and are assembled in
+``describe`` from the same quantile rule as every other quantile.
+
+References
+----------
+G. Brys, M. Hubert and A. Struyf, "A robust measure of skewness", Journal of Computational and
+Graphical Statistics 13(4), 996-1017, 2004 (the medcouple and its kernel at ties).
+D. R. Bickel and R. Frühwirth, "On a fast, robust estimator of the mode", Computational
+Statistics & Data Analysis 50(12), 3500-3530, 2006 (the half-sample mode).
+J. J. A. Moors, "A quantile alternative for kurtosis", The Statistician 37, 25-32, 1988.
+A. L. Bowley, *Elements of Statistics*, 1901 (quartile skewness).
+"""
+
+from __future__ import annotations
+
+import math
+
+import numpy as np
+
+def medcouple(values: np.ndarray, weights: np.ndarray | None, median: float) -> float:
+    """The medcouple of sorted ``values`` (support values with ``weights``, or raw with ``None``).
+
+    ``MC = median of h(u, l) = ((u - m) + (l - m)) / (u - l)`` over pairs ``l <= m <= u``; for
+    pairs where both equal the median ``m`` (T tied observations) the kernel is replaced by the
+    signs of Brys et al. (2004, definition 2): T(T-1)/2 values +1, T values 0, T(T-1)/2 values -1.
+    The median of an even number of kernel values is the average of the two middle ones.
+
+    O(n log n) per step: the number of kernel values at or below a threshold ``t`` is counted
+    with one vectorised binary search (``h(u, l) <= t`` iff ``l - m <= (u - m)(t - 1)/(t + 1)``);
+    the threshold is bisected until few candidates remain, which are then enumerated exactly.
+    """
+    # The kernel is scale-free: scale by a power of two first so no difference overflows.
+    largest = float(np.max(np.abs(values)))
+    exponent = -math.frexp(largest)[1] if largest > 0.0 else 0
+    z = np.ldexp(values, exponent) - math.ldexp(median, exponent)
+    w = np.ones_like(z) if weights is None else weights
+    whole = weights is None or bool(np.all(w == np.floor(w)))
+    ties = float(np.sum(w[z == 0.0]))
+    upper, upper_w = z[z > 0.0], w[z > 0.0]  # ascending
+    lower, lower_w = z[z < 0.0], w[z < 0.0]  # ascending (most negative first)
+    lower_cum = np.concatenate(([0.0], np.cumsum(lower_w)))
+    total_lower, total_upper = float(lower_cum[-1]), float(np.sum(upper_w))
+    total = (total_upper + ties) * (total_lower + ties)
+    if total == 0.0:
+        return math.nan
+    # Whole counts: T(T-1)/2 signs each way and T zeros; other weights (a distribution): the
+    # tie block's weight T^2 splits evenly between -1 and +1, its diagonal having no mass.
+    tie_signs = ties * (ties - 1.0) / 2.0 if whole else ties * ties / 2.0
+    tie_zeros = ties if whole else 0.0
+    minus_ones = ties * total_lower + tie_signs  # ties x lower, and the -1 signs among ties
+    plus_ones = total_upper * ties + tie_signs
+    limit = 4 * max(upper.size, 16)
+
+    def bounds(t: float) -> np.ndarray:
+        """Per upper value, how many lower values give a kernel <= t (every kernel is in (-1, 1))."""
+        if t <= -1.0:
+            return np.zeros(upper.size, dtype=np.intp)
+        if t >= 1.0:
+            return np.full(upper.size, lower.size, dtype=np.intp)
+        return np.searchsorted(lower, upper * ((t - 1.0) / (t + 1.0)), side="right")
+
+    def at_most(t: float) -> float:
+        count = minus_ones + (tie_zeros if t >= 0.0 else 0.0)
+        return count + float(np.dot(upper_w, lower_cum[bounds(t)]))
+
+    def select(low: float, high: float, rank: float) -> float:
+        """The rank-th (by weight) kernel value in (low, high], enumerated exactly."""
+        start, stop = bounds(low), bounds(high)
+        counts = stop - start
+        rows = np.repeat(np.arange(upper.size), counts)
+        offsets = np.arange(int(counts.sum())) - np.repeat(np.cumsum(counts) - counts, counts)
+        columns = offsets + np.repeat(start, counts)
+        u, l = upper[rows], lower[columns]
+        kernel = (u + l) / (u - l)
+        pair_weight = upper_w[rows] * lower_w[columns]
+        if low < 0.0 <= high and tie_zeros > 0.0:
+            kernel = np.append(kernel, 0.0)
+            pair_weight = np.append(pair_weight, tie_zeros)
+        order = np.argsort(kernel, kind="stable")
+        cumulative = np.cumsum(pair_weight[order])
+        slack = 0.0 if whole else 1e-12 * total
+        reached = int(np.searchsorted(cumulative, rank - slack, side="left"))
+        return high if reached >= order.size else float(kernel[order[reached]])
+
+    def kth(rank: float) -> float:
+        if rank <= minus_ones:
+            return -1.0
+        if rank > total - plus_ones:
+            return 1.0
+        low, high = -1.0, 1.0  # at_most(low) < rank <= at_most(high)
+        while int(np.sum(bounds(high) - bounds(low))) > limit:
+            middle = 0.5 * (low + high)
+            if middle in (low, high):
+                # Adjacent doubles: every remaining candidate equals the upper end.
+                return high
+            if at_most(middle) >= rank:
+                high = middle
+            else:
+                low = middle
+        return select(low, high, rank - at_most(low))
+
+    if whole:
+        return 0.5 * kth(math.floor((total + 1.0) / 2.0)) + 0.5 * kth(math.ceil((total + 1.0) / 2.0))
+    return kth(0.5 * total)  # the smallest kernel value with at least half the pair weight at or below it
+
+
+def half_sample_mode(values: np.ndarray, counts: np.ndarray | None = None) -> float:
+    """Bickel & Frühwirth's half-sample mode of sorted observations (or distinct values with whole counts).
+
+    Repeatedly keep the ``ceil(n/2)`` consecutive observations spanning the shortest interval
+    (the first such window on ties) until at most three remain; then two give their mean,
+    three give the mean of the closer pair (the middle value when both gaps are equal).
+
+    With counts, the windows are found on the cumulative counts without expanding: the shortest
+    window starting inside a run of equal values starts at the run's first observation, so only
+    run starts are candidates, and the kept window may cut the runs at its two ends.
+    """
+    x = values
+    c = np.ones(values.size, dtype=np.int64) if counts is None else np.asarray(counts, dtype=np.int64)
+    n = int(c.sum())
+    while n > 3:
+        half = (n + 1) // 2
+        cumulative = np.cumsum(c)
+        starts = cumulative - c  # observations before each run
+        candidates = np.flatnonzero(starts + half <= n)
+        ends = np.searchsorted(cumulative, starts[candidates] + half, side="left")  # run of the last one kept
+        with np.errstate(over="ignore"):
+            # A width beyond float64 is inf and never the shortest.
+            widths = x[ends] - x[candidates]
+        best = int(np.argmin(widths))
+        first, last = int(candidates[best]), int(ends[best])
+        kept = c[first : last + 1].copy()
+        kept[-1] = starts[first] + half - (cumulative[last] - c[last])
+        x, c, n = x[first : last + 1], kept, half
+    remaining = np.repeat(x, c)
+    if remaining.size == 1:
+        return float(remaining[0])
+    if remaining.size == 2:
+        return float(0.5 * remaining[0] + 0.5 * remaining[1])
+    with np.errstate(over="ignore"):
+        left, right = remaining[1] - remaining[0], remaining[2] - remaining[1]
+    if left < right:
+        return float(0.5 * remaining[0] + 0.5 * remaining[1])
+    if left > right:
+        return float(0.5 * remaining[1] + 0.5 * remaining[2])
+    return float(remaining[1])
