@@ -24,6 +24,7 @@ def create_app(settings: Settings | None = None) -> Litestar:
     return Litestar(
         route_handlers=[
             *routes.COMPUTE_HANDLERS,
+            *routes.INFO_HANDLERS,
             *routes.HEALTH_HANDLERS,
             openapi_document,
             schema_page,

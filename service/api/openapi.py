@@ -78,6 +78,17 @@ OPERATIONS = (
     ),
     Operation(
         method="get",
+        path="/v1/catalog",
+        operation_id="catalog",
+        summary="Every descriptor: definition, conventions, when undefined, reference",
+        description="The meaning of every name a descriptor response can carry, and every warning code.",
+        request=None,
+        response=schemas.Catalog,
+        problems=(406,),
+        tag="catalog",
+    ),
+    Operation(
+        method="get",
         path="/health/live",
         operation_id="live",
         summary="Liveness",

@@ -7,9 +7,12 @@ from functools import partial
 import anyio.to_thread
 from litestar import Request, Response, get, post
 
-from service.api import compute
+import msgspec
+
+from service.api import compute, schemas
 from service.api.problems import ApiProblem
 from service.api.schemas import ProblemLocation
+from service.core import catalog
 
 JSON = "application/json"
 
@@ -68,5 +71,28 @@ def ready() -> Response[bytes]:
     return Response(b'{"status":"ok"}', media_type=JSON)
 
 
+_CATALOG = msgspec.json.encode(
+    msgspec.convert(
+        {
+            "descriptors": [vars(entry) for entry in catalog.DESCRIPTORS],
+            "members": [vars(entry) for entry in catalog.MEMBERS],
+            "warnings": [{"code": code, "meaning": meaning} for code, meaning in catalog.WARNINGS.items()],
+            "note": (
+                "Descriptors summarise data; they do not certify a process. A p-value is evidence against "
+                "normality, not a verdict."
+            ),
+        },
+        schemas.Catalog,
+    )
+)
+
+
+@get("/v1/catalog", include_in_schema=False, sync_to_thread=False)
+def describe_catalog(request: Request) -> Response[bytes]:
+    _require_json_accepted(request)
+    return Response(_CATALOG, media_type=JSON)
+
+
 COMPUTE_HANDLERS = [describe_samples, describe_table, describe_bins]
+INFO_HANDLERS = [describe_catalog]
 HEALTH_HANDLERS = [live, ready]
