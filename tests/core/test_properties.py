@@ -33,7 +33,9 @@ samples = st.lists(
     max_size=60,
 ).filter(lambda xs: len(set(xs)) >= 3)
 
-PROPERTY_SETTINGS = settings(max_examples=150, deadline=None, suppress_health_check=[HealthCheck.filter_too_much])
+PROPERTY_SETTINGS = settings(
+    max_examples=150, deadline=None, derandomize=True, suppress_health_check=[HealthCheck.filter_too_much]
+)
 
 
 def values_of(x: np.ndarray) -> dict[str, float | None]:
@@ -87,9 +89,9 @@ def test_shift_moves_location_only(quarters, shift):
 
 
 @PROPERTY_SETTINGS
-@given(samples, st.integers(min_value=-60, max_value=60))
-def test_power_of_two_scaling_scales_location_and_spread(xs, power):
-    x = np.array(xs)
+@given(grid_samples, st.integers(min_value=-60, max_value=60))
+def test_power_of_two_scaling_scales_location_and_spread(quarters, power):
+    x = np.array(quarters, dtype=np.float64) / 4.0  # normal doubles: scaling by 2**power is exact
     factor = 2.0**power
     before, after = values_of(x), values_of(x * factor)
     for name in LOCATION + ("standard_deviation", "range", "interquartile_range", "median_absolute_deviation"):
