@@ -121,11 +121,13 @@ def invalid_body(error: msgspec.MsgspecError, body: bytes = b"") -> ApiProblem:
     return ApiProblem("invalid-body", f"The request body {kind}: {location.message}", [location])
 
 
-def _response(slug: str, detail: str, errors: list[ProblemLocation]) -> Response:
+def _response(
+    slug: str, detail: str, errors: list[ProblemLocation], headers: dict[str, str] | None = None
+) -> Response:
     status, title = PROBLEM_TYPES[slug]
     problem = Problem(type=_TYPE_PREFIX + slug, title=title, status=status, detail=detail, errors=errors)
     return Response(
-        content=msgspec.json.encode(problem), status_code=status, media_type=PROBLEM_MEDIA_TYPE
+        content=msgspec.json.encode(problem), status_code=status, media_type=PROBLEM_MEDIA_TYPE, headers=headers
     )
 
 
@@ -144,7 +146,8 @@ def handle_http_exception(_: Request, exc: HTTPException) -> Response:
     if slug is None:
         slug = "internal-error" if exc.status_code >= 500 else "invalid-body"
     detail = exc.detail if isinstance(exc.detail, str) and exc.detail else PROBLEM_TYPES[slug][1]
-    return _response(slug, detail, [])
+    # Keep the exception's headers: a 405 must say which methods are allowed (RFC 9110).
+    return _response(slug, detail, [], headers=dict(exc.headers or {}))
 
 
 def handle_unexpected(request: Request, exc: Exception) -> Response:

@@ -511,7 +511,7 @@ def describe(data: WeightedData, options: DescribeOptions, *, kind: str) -> Desc
         quantiles=quantile_list,
         modes=modes,
         shape_estimators=_shape_estimators(sums, basis, constant),
-        tail_contributions=_tail(data, midpoint_sums, basis.single or constant, options, kind),
+        tail_contributions=_tail(data, midpoint_sums, basis.single or constant, options, kind, notes),
         grouping=_grouping(data, modal, sheppard_applied) if data.binned else None,
         normality=_normality(data, midpoint_sums, basis, constant, notes),
         conventions=Conventions(
@@ -1239,7 +1239,12 @@ def _moments(sums: CentralSums, top: int, single: bool, constant: bool, notes: _
 
 
 def _tail(
-    data: WeightedData, sums: CentralSums | None, undefined: bool, options: DescribeOptions, kind: str
+    data: WeightedData,
+    sums: CentralSums | None,
+    undefined: bool,
+    options: DescribeOptions,
+    kind: str,
+    notes: _Notes,
 ) -> TailContributions | None:
     if sums is None or undefined:
         return None
@@ -1255,9 +1260,13 @@ def _tail(
         limit=SAMPLE_CONTRIBUTORS if kind == "samples" else options.contributions_limit,
         largest_only=kind == "samples",
     )
+    third, fourth = sums.standardized_moment(3), sums.standardized_moment(4)
+    if not (math.isfinite(third) and math.isfinite(fourth) and np.all(np.isfinite(found.fourth))):
+        notes.add("not_representable", "the tail contributions are outside float64's range", ["tail_contributions"])
+        return None
     return TailContributions(
-        standardized_third=float(sums.standardized_moment(3)),
-        standardized_fourth=float(sums.standardized_moment(4)),
+        standardized_third=float(third),
+        standardized_fourth=float(fourth),
         complete=found.complete,
         outcomes=[
             Contribution(float(v), float(w), float(t), float(f))

@@ -62,6 +62,7 @@ class CentralSums:
 
     @property
     def total_weight(self) -> float:
+        """The total weight the sums were taken with (rescaled by a power of two when extreme)."""
         return float(self.sums[0])
 
     @property
@@ -94,7 +95,13 @@ class CentralSums:
         m2 = self.scaled_central_moment(2)
         if m2 <= 0.0:
             return math.nan
-        return self.scaled_central_moment(order) / m2 ** (order / 2)
+        # Divide by sigma one factor at a time: m2**(order/2) alone can underflow to zero when a
+        # rare value far out dominates the higher moments (the ratio itself is representable).
+        sigma = math.sqrt(m2)
+        result = self.scaled_central_moment(order)
+        for _ in range(order):
+            result /= sigma
+        return result
 
     def raw_moment(self, order: int) -> float:
         """Plug-in raw moment ``E[x**order]``, from the central moments by the binomial theorem.
@@ -253,6 +260,12 @@ def central_sums(values: np.ndarray, weights: np.ndarray | None, order: int) -> 
     """
     order = max(order, 2)
     pre = post = 0
+    if weights is not None:
+        total = float(np.sum(weights))
+        if not 2.0**-512 < total < 2.0**512:
+            # Only relative weights matter: rescale them by a power of two (exact) so the power
+            # sums, which grow with the total weight, stay far from float64's limits.
+            weights = np.ldexp(weights, -math.frexp(total)[1])
     with np.errstate(over="ignore", invalid="ignore", under="ignore"):
         shift = _shift_estimate(values, weights)
         sums = None

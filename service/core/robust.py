@@ -36,7 +36,10 @@ def medcouple(values: np.ndarray, weights: np.ndarray | None, median: float) -> 
     exponent = -math.frexp(largest)[1] if largest > 0.0 else 0
     z = np.ldexp(values, exponent) - math.ldexp(median, exponent)
     w = np.ones_like(z) if weights is None else weights
-    whole = weights is None or bool(np.all(w == np.floor(w)))
+    whole = weights is None or (bool(np.all(w == np.floor(w))) and float(np.sum(w)) < 2.0**53)
+    if not whole:
+        # Only ratios of pair weights matter; rescale so products of weights cannot overflow.
+        w = w / float(np.max(w))
     ties = float(np.sum(w[z == 0.0]))
     upper, upper_w = z[z > 0.0], w[z > 0.0]  # ascending
     lower, lower_w = z[z < 0.0], w[z < 0.0]  # ascending (most negative first)

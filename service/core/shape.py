@@ -45,25 +45,29 @@ def _skewness_factor(family: str, n: float) -> float:
     if family == "g1":
         return 1.0
     if family == "G1":
-        return np.sqrt(n * (n - 1.0)) / (n - 2.0)
+        return np.sqrt(n) * np.sqrt(n - 1.0) / (n - 2.0)
     return ((n - 1.0) / n) ** 1.5
+
+
+# The formulas are written as products of ratios so that no power of n overflows, whatever the
+# total weight of a count table.
 
 
 def skewness(g1: float, n: float, family: str) -> Estimate:
     """Skewness of ``family`` from the plug-in ``g1`` of a sample of size ``n`` (n >= 3)."""
     factor = _skewness_factor(family, n)
-    variance_g1 = 6.0 * (n - 2.0) / ((n + 1.0) * (n + 3.0))
+    variance_g1 = 6.0 * ((n - 2.0) / (n + 1.0)) / (n + 3.0)
     return Estimate(value=factor * g1, standard_error=factor * np.sqrt(variance_g1))
 
 
 def excess_kurtosis(g2: float, n: float, family: str) -> Estimate:
     """Excess kurtosis of ``family`` from the plug-in ``g2`` of a sample of size ``n`` (n >= 4)."""
-    variance_g2 = 24.0 * n * (n - 2.0) * (n - 3.0) / ((n + 1.0) ** 2 * (n + 3.0) * (n + 5.0))
+    variance_g2 = 24.0 * (n / (n + 1.0)) * ((n - 2.0) / (n + 1.0)) * ((n - 3.0) / (n + 3.0)) / (n + 5.0)
     if family == "g2":
         value, factor = g2, 1.0
     elif family == "G2":
-        factor = (n - 1.0) * (n + 1.0) / ((n - 2.0) * (n - 3.0))
-        value = (n - 1.0) / ((n - 2.0) * (n - 3.0)) * ((n + 1.0) * g2 + 6.0)
+        factor = ((n - 1.0) / (n - 2.0)) * ((n + 1.0) / (n - 3.0))
+        value = ((n - 1.0) / (n - 2.0)) * (((n + 1.0) / (n - 3.0)) * g2 + 6.0 / (n - 3.0))
     else:
         factor = ((n - 1.0) / n) ** 2
         value = (g2 + 3.0) * factor - 3.0

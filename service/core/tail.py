@@ -33,17 +33,22 @@ def contributions(
 ) -> Contributions:
     """Contributions of each support value, all of them in value order or the ``limit`` largest.
 
-    The largest are ranked by ``fourth`` (the tail weight), ties broken by ``|third|``; they are
-    listed when ``largest_only`` or when there are more than ``limit`` values.
+    The largest by ``fourth`` (the tail weight) are kept, in value order, when ``largest_only``
+    or when there are more than ``limit`` values.
     """
     m2 = sums.scaled_central_moment(2)
-    total = sums.total_weight
+    total = float(np.sum(weights))
     standardized = sums.scaled_deviations(values) / np.sqrt(m2)
     squared = standardized * standardized
-    third = weights * squared * standardized / total
-    fourth = weights * squared * squared / total
+    share = weights / total  # proportions first: huge counts cannot overflow the products
+    third = share * squared * standardized
+    fourth = share * squared * squared
     if largest_only or values.size > limit:
-        ranked = np.lexsort((-np.abs(third), -fourth))[:limit]
-        keep = np.sort(ranked)
+        if values.size > limit:
+            # Select the largest by the tail weight in linear time; only those few are ordered.
+            chosen = np.argpartition(-fourth, limit - 1)[:limit]
+        else:
+            chosen = np.arange(values.size)
+        keep = np.sort(chosen)  # back into value order (indices of at most `limit` entries)
         return Contributions(values[keep], weights[keep], third[keep], fourth[keep], complete=keep.size == values.size)
     return Contributions(values, weights, third, fourth, complete=True)
