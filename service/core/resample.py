@@ -66,6 +66,7 @@ class BootstrapResult:
     interval: Interval | None
     standard_error: float | None
     reason: str | None = None  # why the interval is missing, or why the method fell back
+    acceleration: float | None = None  # BCa's jackknife acceleration, when computed
 
 
 class _Rows:
@@ -557,9 +558,11 @@ def _interval(
         se = scale_by_power_of_two(float(np.std(scaled, ddof=1)), exponent)
         se = None if math.isnan(se) else se
     tails = np.array([alpha / 2.0, 1.0 - alpha / 2.0])
-    method, reason = options.method, None
+    method, reason, acceleration = options.method, None, None
     if method == "bca":
-        fractions, reason = _bca_fractions(scaled_estimate, scaled, scaled_jackknife, jackknife_weights, tails)
+        fractions, reason, acceleration = _bca_fractions(
+            scaled_estimate, scaled, scaled_jackknife, jackknife_weights, tails
+        )
         if fractions is None:
             method = "percentile"
             fractions = tails
@@ -573,32 +576,35 @@ def _interval(
         Interval(None if math.isnan(low) else low, None if math.isnan(high) else high, options.level, method),
         se,
         reason,
+        acceleration,
     )
 
 
 def _bca_fractions(estimate, replicates, jackknife, weights, tails):
-    """Adjusted tail fractions of BCa (Efron & Tibshirani 1993, eq. 14.10), or None and why."""
+    """Adjusted tail fractions of BCa (Efron & Tibshirani 1993, eq. 14.10) and the acceleration,
+    or None, why, None. The acceleration is eq. 14.15 with each support row's leave-one-out value
+    counted once per observation it stands for."""
     below = np.count_nonzero(replicates < estimate)
     equal = np.count_nonzero(replicates == estimate)
     if equal == replicates.size:
-        return None, "every resample gives the estimate itself"
+        return None, "every resample gives the estimate itself", None
     proportion = (below + 0.5 * equal) / replicates.size
     if not 0.0 < proportion < 1.0:
-        return None, "the estimate lies outside the bootstrap distribution"
+        return None, "the estimate lies outside the bootstrap distribution", None
     z0 = special.ndtri(proportion)
     if jackknife is None or not np.all(np.isfinite(jackknife)):
-        return None, "the jackknife is undefined for some left-out observation"
+        return None, "the jackknife is undefined for some left-out observation", None
     centre = np.sum(weights * jackknife) / np.sum(weights)
     gap = centre - jackknife
     denominator = np.sum(weights * gap**2) ** 1.5
     if denominator == 0.0 or not np.isfinite(denominator):
-        return None, "the jackknife shows no variation, so the acceleration is undefined"
-    acceleration = np.sum(weights * gap**3) / (6.0 * denominator)
+        return None, "the jackknife shows no variation, so the acceleration is undefined", None
+    acceleration = float(np.sum(weights * gap**3) / (6.0 * denominator))
     z = special.ndtri(tails)
     adjusted = special.ndtr(z0 + (z0 + z) / (1.0 - acceleration * (z0 + z)))
     if not np.all(np.isfinite(adjusted)):
-        return None, "the BCa adjustment is undefined for these data"
-    return adjusted, None
+        return None, "the BCa adjustment is undefined for these data", acceleration
+    return adjusted, None, acceleration
 
 
 @dataclass(frozen=True)
@@ -790,7 +796,6 @@ def bootstrap(
         # Each row stands for its observations: row i's leave-one-out value counts base/unit times.
         jackknife_weights = np.where(present, plan.base / plan.unit, 0.0)
     results: dict[str, BootstrapResult] = {}
-    accelerations: dict[str, float] = {}
     for name in wanted:
         estimate = estimates[name]
         assert estimate is not None
@@ -810,15 +815,7 @@ def bootstrap(
         quantile_results.append(
             _interval(estimate, replicates[name], None if jackknife is None else jackknife[name], jackknife_weights, options)
         )
-    if jackknife is not None:
-        for name in wanted:
-            jk = jackknife[name]
-            if np.all(np.isfinite(jk)):
-                centre = np.sum(jackknife_weights * jk) / np.sum(jackknife_weights)
-                gap = centre - jk
-                denominator = np.sum(jackknife_weights * gap**2) ** 1.5
-                if denominator > 0:
-                    accelerations[name] = float(np.sum(jackknife_weights * gap**3) / (6.0 * denominator))
+    accelerations = {name: r.acceleration for name, r in results.items() if r.acceleration is not None}
     scheme = (
         f"multinomial counts over {k} distinct values" if plan.multinomial else f"uniform draws of {k} weighted entries"
     )
