@@ -54,7 +54,8 @@ def medcouple(values: np.ndarray, weights: np.ndarray | None, median: float) -> 
     tie_zeros = ties if whole else 0.0
     minus_ones = ties * total_lower + tie_signs  # ties x lower, and the -1 signs among ties
     plus_ones = total_upper * ties + tie_signs
-    limit = 4 * max(upper.size, 16)
+    # Few enough candidates to enumerate (bounded memory: at most ~1e6 pairs at once).
+    limit = max(min(upper.size, 1 << 20), 64)
 
     def bounds(t: float) -> np.ndarray:
         """Per upper value, how many lower values give a kernel <= t (every kernel is in (-1, 1))."""
@@ -64,13 +65,12 @@ def medcouple(values: np.ndarray, weights: np.ndarray | None, median: float) -> 
             return np.full(upper.size, lower.size, dtype=np.intp)
         return np.searchsorted(lower, upper * ((t - 1.0) / (t + 1.0)), side="right")
 
-    def at_most(t: float) -> float:
+    def at_most(t: float, found: np.ndarray) -> float:
         count = minus_ones + (tie_zeros if t >= 0.0 else 0.0)
-        return count + float(np.dot(upper_w, lower_cum[bounds(t)]))
+        return count + float(np.dot(upper_w, lower_cum[found]))
 
-    def select(low: float, high: float, rank: float) -> float:
+    def select(low: float, high: float, start: np.ndarray, stop: np.ndarray, rank: float) -> float:
         """The rank-th (by weight) kernel value in (low, high], enumerated exactly."""
-        start, stop = bounds(low), bounds(high)
         counts = stop - start
         rows = np.repeat(np.arange(upper.size), counts)
         offsets = np.arange(int(counts.sum())) - np.repeat(np.cumsum(counts) - counts, counts)
@@ -92,20 +92,25 @@ def medcouple(values: np.ndarray, weights: np.ndarray | None, median: float) -> 
             return -1.0
         if rank > total - plus_ones:
             return 1.0
-        low, high = -1.0, 1.0  # at_most(low) < rank <= at_most(high)
-        while int(np.sum(bounds(high) - bounds(low))) > limit:
+        # Invariant: at_most(low) < rank <= at_most(high); each step costs one binary search.
+        low, high = -1.0, 1.0
+        low_bounds, high_bounds = bounds(low), bounds(high)
+        while int(np.sum(high_bounds - low_bounds)) > limit:
             middle = 0.5 * (low + high)
             if middle in (low, high):
                 # Adjacent doubles: every remaining candidate equals the upper end.
                 return high
-            if at_most(middle) >= rank:
-                high = middle
+            middle_bounds = bounds(middle)
+            if at_most(middle, middle_bounds) >= rank:
+                high, high_bounds = middle, middle_bounds
             else:
-                low = middle
-        return select(low, high, rank - at_most(low))
+                low, low_bounds = middle, middle_bounds
+        return select(low, high, low_bounds, high_bounds, rank - at_most(low, low_bounds))
 
     if whole:
-        return 0.5 * kth(math.floor((total + 1.0) / 2.0)) + 0.5 * kth(math.ceil((total + 1.0) / 2.0))
+        lower_rank, upper_rank = math.floor((total + 1.0) / 2.0), math.ceil((total + 1.0) / 2.0)
+        first = kth(lower_rank)
+        return first if upper_rank == lower_rank else 0.5 * first + 0.5 * kth(upper_rank)
     return kth(0.5 * total)  # the smallest kernel value with at least half the pair weight at or below it
 
 

@@ -141,7 +141,53 @@ def bench_intervals() -> None:
         print(f"  table k = 50, total count {int(counts.sum()):>11,}: every descriptor with intervals {t_table * 1e3:7.1f} ms (target <= 50 ms, flat)")
 
 
-SECTIONS = {"moments": bench_moments, "tables": bench_tables, "intervals": bench_intervals}
+def bench_order_statistics() -> None:
+    """Issue 5: every order-statistic descriptor from one sort, against one np.sort of the array."""
+    import statsmodels.stats.stattools as stattools
+
+    from service.core import DescribeOptions, from_array
+    from service.core import order, robust
+    from service.core.describe import _ROBUST_PROBABILITIES
+
+    rng = np.random.default_rng(20261204)
+    print("order statistics: median, quantiles, IQR, MAD, quartile/octile shape, L-moments, medcouple")
+    for n in (1_000_000, 10_000_000):
+        x = rng.lognormal(0.0, 0.6, n)
+        probabilities = np.concatenate(([0.25, 0.75], _ROBUST_PROBABILITIES, DescribeOptions().probabilities))
+
+        def without_medcouple():
+            data = from_array(x)
+            median = order.median(data)
+            order.quantiles(data, probabilities, 7)
+            order.median_absolute_deviation(data, median)
+            from service.core import lmoments
+
+            support = data.support
+            lmoments.sample_lmoments(support.values, support.weights)
+            robust.half_sample_mode(data.sorted_values)
+            return data, median
+
+        t_sort = best_of(lambda: np.sort(x), repeats=3)
+        t_order = best_of(without_medcouple, repeats=3)
+        data, median = without_medcouple()
+        t_medcouple = best_of(lambda: robust.medcouple(data.sorted_values, None, median), repeats=1)
+        print(
+            f"  n = {n:>10,}: one np.sort {t_sort:6.3f} s; order statistics without medcouple "
+            f"{t_order:6.3f} s ({t_order / t_sort:4.2f}x, target <= 1.5x); medcouple alone {t_medcouple:6.2f} s"
+            f" ({(t_order + t_medcouple) / t_sort:4.1f}x with it)"
+        )
+    y = rng.lognormal(0.0, 0.6, 100_000)
+    t_ours = best_of(lambda: robust.medcouple(np.sort(y), None, float(np.median(y))), repeats=3)
+    t_fast = best_of(lambda: stattools.medcouple(y, use_fast=True), repeats=1)
+    print(f"  medcouple n = 100,000: ours {t_ours:6.3f} s; statsmodels use_fast=True {t_fast:6.3f} s ({t_fast / t_ours:5.1f}x)")
+
+
+SECTIONS = {
+    "moments": bench_moments,
+    "tables": bench_tables,
+    "intervals": bench_intervals,
+    "order": bench_order_statistics,
+}
 
 
 def main(argv: list[str]) -> None:
