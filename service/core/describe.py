@@ -941,9 +941,12 @@ def _l_moments(
         values = lmoments.population_lmoments(np.ldexp(support.values, exponent), support.weights)
         label = "population L-moments (Hosking 1990)"
     elif data.integer_weights and data.meaning is not WeightMeaning.RELIABILITY:
-        support = data.support
         if data.total_weight >= 4:
-            values = lmoments.sample_lmoments(np.ldexp(support.values, exponent), support.weights)
+            if data.weights is None:
+                values = lmoments.sample_lmoments(np.ldexp(data.sorted_values, exponent), None)
+            else:
+                support = data.support
+                values = lmoments.sample_lmoments(np.ldexp(support.values, exponent), support.weights)
             label = "unbiased, from probability-weighted moments (Hosking 1990)"
         elif not basis.single:
             notes.add(

@@ -126,7 +126,15 @@ def half_sample_mode(values: np.ndarray, counts: np.ndarray | None = None) -> fl
     run starts are candidates, and the kept window may cut the runs at its two ends.
     """
     x = values
-    c = np.ones(values.size, dtype=np.int64) if counts is None else np.asarray(counts, dtype=np.int64)
+    if counts is None:
+        while x.size > 3:
+            half = (x.size + 1) // 2
+            with np.errstate(over="ignore"):
+                widths = x[half - 1 :] - x[: x.size - half + 1]
+            start = int(np.argmin(widths))
+            x = x[start : start + half]
+        counts = np.ones(x.size, dtype=np.int64)
+    c = np.asarray(counts, dtype=np.int64)
     n = int(c.sum())
     while n > 3:
         half = (n + 1) // 2

@@ -93,6 +93,15 @@ def assert_same_description(got, expected) -> None:
         mine, theirs = got.descriptors[name], expected.descriptors[name]
         if name in ORDER_DESCRIPTORS:
             assert mine.value == theirs.value, name
+        elif name.startswith("l_") and mine.value is not None and theirs.value is not None:
+            # L-moments come from probability-weighted moments whose weights sum to zero, so
+            # digits cancel in proportion to (spread of the data) / l2, up to ~1e4 for these
+            # tables with one dominant count: the table and raw paths (both exact in theory)
+            # then agree to about 1e4 * eps. Accuracy itself is pinned in test_lmoments.py.
+            spread = float(expected.descriptors["maximum"].value - expected.descriptors["minimum"].value)
+            l2 = expected.descriptors["l_scale"].value or 1.0
+            tolerance = max(RTOL, 64 * np.finfo(float).eps * spread / l2)
+            assert math.isclose(mine.value, theirs.value, rel_tol=tolerance, abs_tol=tolerance), (name, mine.value, theirs.value)
         else:
             scale = {"mean": sd, "variance": sd * sd, "standard_deviation": sd}.get(name, 1.0)
             assert close(mine.value, theirs.value, scale), (name, mine.value, theirs.value)
