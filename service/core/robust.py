@@ -81,11 +81,8 @@ def medcouple(values: np.ndarray, weights: np.ndarray | None, median: float) -> 
         if low < 0.0 <= high and tie_zeros > 0.0:
             kernel = np.append(kernel, 0.0)
             pair_weight = np.append(pair_weight, tie_zeros)
-        order = np.argsort(kernel, kind="stable")
-        cumulative = np.cumsum(pair_weight[order])
         slack = 0.0 if whole else 1e-12 * total
-        reached = int(np.searchsorted(cumulative, rank - slack, side="left"))
-        return high if reached >= order.size else float(kernel[order[reached]])
+        return _weighted_select(kernel, pair_weight, rank - slack, high)
 
     def kth(rank: float) -> float:
         if rank <= minus_ones:
@@ -112,6 +109,27 @@ def medcouple(values: np.ndarray, weights: np.ndarray | None, median: float) -> 
         first = kth(lower_rank)
         return first if upper_rank == lower_rank else 0.5 * first + 0.5 * kth(upper_rank)
     return kth(0.5 * total)  # the smallest kernel value with at least half the pair weight at or below it
+
+
+def _weighted_select(values: np.ndarray, weights: np.ndarray, rank: float, default: float) -> float:
+    """The smallest value whose cumulative weight (in increasing value order) reaches ``rank``.
+
+    Quickselect by weight with ``np.partition`` pivots: linear expected time and no sort, so the
+    data's single sort stays the only one.
+    """
+    while values.size:
+        pivot = np.partition(values, values.size // 2)[values.size // 2]
+        below, equal = values < pivot, values == pivot
+        weight_below = float(np.sum(weights[below]))
+        if rank <= weight_below:
+            values, weights = values[below], weights[below]
+            continue
+        if rank <= weight_below + float(np.sum(weights[equal])):
+            return float(pivot)
+        rank -= weight_below + float(np.sum(weights[equal]))
+        above = values > pivot
+        values, weights = values[above], weights[above]
+    return default
 
 
 def half_sample_mode(values: np.ndarray, counts: np.ndarray | None = None) -> float:

@@ -49,6 +49,8 @@ def contributions(
             chosen = np.argpartition(-fourth, limit - 1)[:limit]
         else:
             chosen = np.arange(values.size)
-        keep = np.sort(chosen)  # back into value order (indices of at most `limit` entries)
+        mask = np.zeros(values.size, dtype=bool)
+        mask[chosen] = True
+        keep = np.flatnonzero(mask)  # back into value order, without sorting anything
         return Contributions(values[keep], weights[keep], third[keep], fourth[keep], complete=keep.size == values.size)
     return Contributions(values, weights, third, fourth, complete=True)
