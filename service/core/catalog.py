@@ -132,6 +132,7 @@ WARNINGS = {
     "zero_weights_dropped": "entries of weight zero were left out",
     "probabilities_normalized": "probabilities not summing to 1 were divided by their sum on request",
     "single_observation": "one observation: spread and shape are undefined",
+    "single_bin": "every count in one bin: the spread within it is unknown",
     "constant_data": "all values equal: shape and standardized quantities are undefined",
     "too_few_observations": "n below what an estimator needs",
     "coefficient_of_variation_undefined": "negative values, a zero mean, or an unrepresentable spread",

@@ -448,7 +448,17 @@ def describe(data: WeightedData, options: DescribeOptions, *, kind: str) -> Desc
             MOMENT_DESCRIPTORS + ("moments", "shape_estimators", "tail_contributions"),
         )
     constant = sums is not None and sums.scaled_central_moment(2) == 0.0
-    if basis.single:
+    if data.binned and int(np.count_nonzero(data.weights)) == 1:
+        # All counts in one bin: the midpoint would report zero spread, but the spread within
+        # the bin is unknown, so spread and shape are undefined rather than zero.
+        basis = dataclasses.replace(basis, single=True)
+        constant = False
+        notes.add(
+            "single_bin",
+            "every count lies in one bin, so the spread and shape within it are unknown",
+            SPREAD_DESCRIPTORS + SHAPE_DESCRIPTORS + ROBUST_SHAPE_DESCRIPTORS + ("lag1_autocorrelation",),
+        )
+    elif basis.single:
         notes.add(
             "single_observation",
             "a single observation carries no information on spread or shape",
@@ -576,7 +586,9 @@ def _intervals(
             "a probability table is a whole population: its descriptors are exact and have no sampling interval",
         )
     if basis.single:
-        raise _reject("$.options.interval", "a single observation cannot be resampled")
+        raise _reject(
+            "$.options.interval", "the data have no spread to resample (a single observation, or every count in one bin)"
+        )
     # Open bins leave the moments undefined; the plan still needs a finite scaling of the values.
     plan_sums = midpoint_sums if midpoint_sums is not None else central_sums(data.values, data.weights, 4)
     sheppard_width = None

@@ -304,3 +304,14 @@ def test_all_counts_in_open_bins_are_rejected():
     with pytest.raises(UncomputableInput) as raised:
         from_bins([None, 0.0, 1.0, None], [3.0, 0.0, 4.0])
     assert raised.value.locations[0].path == "$.counts"
+
+
+def test_all_counts_in_one_bin_give_unknown_spread_not_zero():
+    """Regression: one occupied bin used to report variance 0 from its midpoint (a made-up zero)."""
+    from service.core import DescribeOptions, describe, from_bins
+
+    result = describe(from_bins([0.0, 1.0, 2.0], [5.0, 0.0]), DescribeOptions(), kind="bins")
+    assert result.descriptors["variance"].value is None
+    assert result.descriptors["median"].value == 0.5  # grouped median: half way through the bin
+    single_bin = [w for w in result.warnings if w.code == "single_bin"]
+    assert single_bin and "variance" in single_bin[0].descriptors
