@@ -16,7 +16,7 @@ import math
 from dataclasses import dataclass
 
 import numpy as np
-from scipy import stats
+from scipy import special, stats
 
 from service.core import order
 from service.core.weighted import WeightedData
@@ -52,6 +52,21 @@ def variance_interval(variance: float, n: float, level: float) -> ClassicalInter
     )
 
 
+def _smallest_reaching(n: int, p: float, target: float) -> int:
+    """Smallest k in 0..n with P(B <= k) >= target, B ~ Binomial(n, p) (n + 1 if none).
+
+    A continuous inverse gives a first guess; the exact CDF around it decides.
+    """
+    guess = special.bdtrik(target, n, p)
+    centre = int(math.floor(guess)) if math.isfinite(guess) else int(stats.binom.ppf(target, n, p))
+    for width in (3, 50, n + 1):
+        ks = np.arange(max(centre - width, 0), min(centre + width, n) + 1)
+        reached = np.flatnonzero(special.bdtr(ks, n, p) >= target)
+        if reached.size and (reached[0] > 0 or ks[0] == 0):
+            return int(ks[reached[0]])
+    return n + 1
+
+
 def order_statistic_ranks(n: int, p: float, level: float) -> tuple[int, int, float] | None:
     """Ranks ``(l, u)`` and achieved coverage of the distribution-free quantile interval.
 
@@ -59,15 +74,15 @@ def order_statistic_ranks(n: int, p: float, level: float) -> tuple[int, int, flo
     ``P(B <= u - 1) >= 1 - alpha/2``; ``None`` when n is too small for the level.
     """
     alpha = 1.0 - level
-    distribution = stats.binom(n, p)
-    below = int(distribution.ppf(alpha / 2.0))  # smallest k with CDF(k) >= alpha / 2
-    if distribution.cdf(below) > alpha / 2.0 * (1.0 + 1e-12):
-        below -= 1
+    smallest = _smallest_reaching(n, p, alpha / 2.0)  # the binomial alpha/2 quantile
+    # l - 1 is the largest k with P(B <= k) <= alpha/2: that quantile itself when its CDF equals
+    # alpha/2 exactly (within rounding), otherwise the one below it.
+    below = smallest if special.bdtr(smallest, n, p) <= alpha / 2.0 * (1.0 + 1e-12) else smallest - 1
     lower = below + 1
-    upper = int(distribution.ppf(1.0 - alpha / 2.0)) + 1
+    upper = _smallest_reaching(n, p, 1.0 - alpha / 2.0) + 1
     if lower < 1 or upper > n:
         return None
-    coverage = float(distribution.cdf(upper - 1) - distribution.cdf(lower - 1))
+    coverage = float(special.bdtr(upper - 1, n, p) - special.bdtr(lower - 1, n, p))
     return lower, upper, coverage
 
 

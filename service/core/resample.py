@@ -507,6 +507,10 @@ def _batches(plan: _Plan, seed: int, resamples: int) -> list[tuple[np.random.Gen
     """
     k = plan.values.size
     batch = max(1, min(resamples, _BATCH_ELEMENTS // max(k, 1)))
+    # At least two batches for big requests, so two cores share the work (numpy releases the
+    # GIL in its generators and loops); fixed by k and the resample count alone, never by threads.
+    if resamples >= 2000:
+        batch = min(batch, -(-resamples // 2))
     sizes = [min(batch, resamples - start) for start in range(0, resamples, batch)]
     children = np.random.SeedSequence(seed).spawn(len(sizes))
     return [(np.random.default_rng(child), size) for child, size in zip(children, sizes)]
