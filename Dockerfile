@@ -1,0 +1,42 @@
+# Tailgauge service image: gunicorn with uvicorn workers, as a non-root user, on a read-only root
+# filesystem with a writable /tmp (a tmpfs or an emptyDir volume).
+#
+# The base is a build argument so that any Debian-like image with python3 and its venv module
+# can stand in for the official one (deploy/check-container.sh builds on a base made by
+# debootstrap). Both stages use the same base: the virtual environment built in the first
+# stage refers to its interpreter by path, which must exist in the second.
+ARG BASE_IMAGE=docker.io/library/python:3.11-slim-bookworm
+
+FROM ${BASE_IMAGE} AS build
+ENV PIP_DISABLE_PIP_VERSION_CHECK=1 \
+    PIP_NO_CACHE_DIR=1
+WORKDIR /src
+RUN python3 -m venv /opt/venv
+COPY pyproject.toml requirements.lock ./
+COPY service ./service
+# Non-editable, no test extras; requirements.lock pins every transitive version.
+RUN /opt/venv/bin/pip install --no-cache-dir -c requirements.lock .
+
+FROM ${BASE_IMAGE} AS runtime
+# PROMETHEUS_MULTIPROC_DIR lives under /tmp because the root filesystem is read-only;
+# deploy/gunicorn.conf.py creates it at start.
+ENV PATH=/opt/venv/bin:$PATH \
+    PYTHONDONTWRITEBYTECODE=1 \
+    PYTHONUNBUFFERED=1 \
+    BIND=0.0.0.0:8000 \
+    WORKER_TMP_DIR=/tmp \
+    PROMETHEUS_MULTIPROC_DIR=/tmp/tailgauge-metrics
+RUN groupadd --system --gid 10001 tailgauge \
+    && useradd --system --uid 10001 --gid 10001 --no-create-home --home-dir /nonexistent \
+       --shell /usr/sbin/nologin tailgauge
+COPY --from=build /opt/venv /opt/venv
+COPY deploy/gunicorn.conf.py /app/deploy/gunicorn.conf.py
+WORKDIR /app
+# Numeric, so that Kubernetes can verify runAsNonRoot without reading /etc/passwd.
+USER 10001:10001
+EXPOSE 8000
+# gunicorn drains on SIGTERM within its graceful_timeout (30 s); give `docker stop -t` more.
+STOPSIGNAL SIGTERM
+HEALTHCHECK --interval=30s --timeout=5s --start-period=30s --retries=3 \
+    CMD ["python", "-c", "import urllib.request; urllib.request.urlopen('http://127.0.0.1:8000/health/ready', timeout=4)"]
+CMD ["gunicorn", "--config", "deploy/gunicorn.conf.py", "service.asgi:app"]
