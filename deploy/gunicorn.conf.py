@@ -1,10 +1,14 @@
 """gunicorn settings for Tailgauge: uvicorn workers, one per CPU unless WEB_CONCURRENCY says otherwise.
 
-Environment: BIND (default 127.0.0.1:8000), WEB_CONCURRENCY (worker count). Service limits are
-read by the app itself from TAILGAUGE_* variables (service/settings.py).
+Environment: BIND (default 127.0.0.1:8000), WEB_CONCURRENCY (worker count), WORKER_TMP_DIR
+(default /tmp: must be writable, also under a read-only root filesystem), and
+PROMETHEUS_MULTIPROC_DIR (default: a fresh directory per server under the temporary directory).
+Service limits are read by the app itself from TAILGAUGE_* variables (service/settings.py).
 """
 
 import os
+import shutil as _shutil
+import tempfile as _tempfile
 
 
 def _cpu_count() -> int:
@@ -16,7 +20,8 @@ def _cpu_count() -> int:
 
 bind = os.environ.get("BIND", "127.0.0.1:8000")
 workers = int(os.environ.get("WEB_CONCURRENCY", _cpu_count()))
-worker_class = "uvicorn_worker.UvicornWorker"
+# uvicorn_worker.UvicornWorker, plus readiness that answers 503 while the worker drains.
+worker_class = "service.worker.Worker"
 # A request may compute for a while; the per-request budget lives in the app.
 timeout = 60
 graceful_timeout = 30
@@ -27,5 +32,47 @@ max_requests_jitter = 2000
 # gunicorn 27 opens a control socket under $HOME by default; containers have no such home.
 control_socket_disable = True
 worker_tmp_dir = os.environ.get("WORKER_TMP_DIR", "/tmp")
-accesslog = "-"
+# The app writes one JSON line per request (with its request id); gunicorn's access log would
+# repeat it in another format, so it is off, and gunicorn's own messages are JSON lines too.
+accesslog = None
 errorlog = "-"
+logconfig_dict = {
+    "version": 1,
+    "disable_existing_loggers": False,
+    "formatters": {"json": {"()": "service.logs.JsonFormatter"}},
+    "handlers": {"stderr": {"class": "logging.StreamHandler", "formatter": "json", "stream": "ext://sys.stderr"}},
+    "root": {"level": "INFO", "handlers": ["stderr"]},
+    "loggers": {
+        "gunicorn.error": {"handlers": ["stderr"], "level": "INFO", "propagate": False},
+        "gunicorn.access": {"handlers": [], "level": "WARNING", "propagate": False},
+    },
+}
+
+_created_metrics_dir = []
+
+
+def on_starting(server):
+    """Give the workers one metrics directory of this server's own, empty at start.
+
+    prometheus-client's multiprocess mode keeps each worker's values in files there and sums
+    them at scrape time; stale files from an earlier run would be summed too, so they go.
+    """
+    path = os.environ.get("PROMETHEUS_MULTIPROC_DIR")
+    if not path:
+        base = os.environ.get("WORKER_TMP_DIR") or _tempfile.gettempdir()
+        path = os.path.join(base, f"tailgauge-metrics-{os.getpid()}")
+        _created_metrics_dir.append(path)
+    _shutil.rmtree(path, ignore_errors=True)
+    os.makedirs(path, exist_ok=True)
+    os.environ["PROMETHEUS_MULTIPROC_DIR"] = path
+
+
+def child_exit(server, worker):
+    from prometheus_client import multiprocess
+
+    multiprocess.mark_process_dead(worker.pid)
+
+
+def on_exit(server):
+    for path in _created_metrics_dir:
+        _shutil.rmtree(path, ignore_errors=True)

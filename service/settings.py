@@ -3,10 +3,14 @@
 from __future__ import annotations
 
 import os
+import re
 from collections.abc import Mapping
-from dataclasses import dataclass, fields
+from dataclasses import dataclass, field, fields
 
 PREFIX = "TAILGAUGE_"
+MIN_TOKEN_LENGTH = 16
+_TOKEN = re.compile(r"[A-Za-z0-9\-._~+/]+=*")
+_ORIGIN = re.compile(r"https?://[A-Za-z0-9.\-]+(:[0-9]{1,5})?")
 
 
 class SettingsError(ValueError):
@@ -40,6 +44,15 @@ class Settings:
     bootstrap_subset_rows: int = 100_000
     # Threads one request's resampling may use (numpy releases the GIL in its loops).
     resample_threads: int = 2
+    # Bearer tokens accepted on /v1/* (comma-separated in the environment). Empty: no token
+    # is asked for (local use). Health endpoints, /docs and /openapi.json are always open.
+    api_tokens: tuple[str, ...] = field(default=(), repr=False)
+    # Whether GET /metrics also asks for one of api_tokens (when any are set).
+    metrics_require_token: bool = False
+    # Origins allowed by CORS (comma-separated). Empty: no CORS headers at all.
+    cors_origins: tuple[str, ...] = ()
+    # One JSON log line per request on stderr (with its request id).
+    request_log: bool = True
 
     _BOUNDS = {
         "max_body_bytes": (1024, 1024**3),
@@ -59,21 +72,47 @@ class Settings:
             value = getattr(self, name)
             if not isinstance(value, int) or isinstance(value, bool) or not low <= value <= high:
                 raise SettingsError(f"{name} must be an integer in [{low}, {high}], got {value!r}")
+        for token in self.api_tokens:
+            if not isinstance(token, str) or len(token) < MIN_TOKEN_LENGTH or not _TOKEN.fullmatch(token):
+                raise SettingsError(
+                    f"each api token must be at least {MIN_TOKEN_LENGTH} characters of A-Z a-z 0-9 - . _ ~ + /"
+                )
+        for origin in self.cors_origins:
+            if origin != "*" and not _ORIGIN.fullmatch(origin):
+                raise SettingsError(f"cors origin {origin!r} must look like https://host[:port], or be *")
+        for name in ("metrics_require_token", "request_log"):
+            if not isinstance(getattr(self, name), bool):
+                raise SettingsError(f"{name} must be true or false")
 
     @classmethod
     def from_env(cls, environ: Mapping[str, str] | None = None) -> Settings:
         """Settings from ``environ`` (default ``os.environ``); unknown TAILGAUGE_ names are errors."""
         environ = os.environ if environ is None else environ
         known = {f.name for f in fields(cls)}
-        values: dict[str, int] = {}
+        values: dict[str, object] = {}
         for key, raw in environ.items():
             if not key.startswith(PREFIX):
                 continue
             name = key[len(PREFIX) :].lower()
             if name not in known:
                 raise SettingsError(f"unknown setting {key}")
-            try:
-                values[name] = int(raw.replace("_", ""))
-            except ValueError:
-                raise SettingsError(f"{key} must be an integer, got {raw!r}") from None
+            values[name] = _parse(key, name, raw)
         return cls(**values)
+
+
+def _parse(key: str, name: str, raw: str) -> object:
+    default = next(f.default for f in fields(Settings) if f.name == name)
+    if isinstance(default, bool):
+        lowered = raw.strip().lower()
+        if lowered in ("1", "true", "yes", "on"):
+            return True
+        if lowered in ("0", "false", "no", "off"):
+            return False
+        raise SettingsError(f"{key} must be true or false, got {raw!r}")
+    if isinstance(default, tuple):
+        # Values are never echoed: a token must not reach a log through an error message.
+        return tuple(part.strip() for part in raw.split(",") if part.strip())
+    try:
+        return int(raw.replace("_", ""))
+    except ValueError:
+        raise SettingsError(f"{key} must be an integer, got {raw!r}") from None

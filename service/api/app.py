@@ -2,40 +2,113 @@
 
 from __future__ import annotations
 
-from litestar import Litestar, Response, get
+import hmac
+
+from litestar import Litestar, Request, Response, get
+from litestar.config.cors import CORSConfig
+from litestar.connection import ASGIConnection
 from litestar.datastructures import State
 from litestar.exceptions import HTTPException
+from litestar.handlers.base import BaseRouteHandler
 
+from service import logs
 from service.api import openapi, problems, routes
 from service.api.docs import assets_router, schema_page
+from service.api.observe import REQUEST_ID_HEADER, observe
+from service.api.problems import ApiProblem
+from service.api.schemas import ProblemLocation
 from service.core.errors import DescriptorError
 from service.settings import Settings
+
+# Paths that never ask for a token: probes must work without secrets, and the schema page
+# and document describe the API without exposing any data.
+_OPEN_PREFIXES = ("/health/", "/docs", "/openapi.json")
+
+
+def token_matches(presented: str, tokens: tuple[str, ...]) -> bool:
+    """Whether ``presented`` equals one of ``tokens``, compared in constant time.
+
+    Every token is compared (no early exit), so the time taken does not say which one, or how
+    much of one, matched.
+    """
+    given = presented.encode()
+    found = False
+    for token in tokens:
+        found |= hmac.compare_digest(given, token.encode())
+    return found
+
+
+def _require_token(connection: ASGIConnection, _: BaseRouteHandler) -> None:
+    settings: Settings = connection.app.state.settings
+    if not settings.api_tokens or connection.scope.get("method") == "OPTIONS":
+        return
+    path = connection.url.path
+    if path.startswith(_OPEN_PREFIXES) or (path == "/metrics" and not settings.metrics_require_token):
+        return
+    scheme, _, presented = connection.headers.get("authorization", "").partition(" ")
+    if scheme.lower() == "bearer" and presented and token_matches(presented.strip(), settings.api_tokens):
+        return
+    challenge = 'Bearer realm="tailgauge"'
+    detail = "send a bearer token: Authorization: Bearer <token>"
+    if presented:
+        challenge += ', error="invalid_token"'
+        detail = "the bearer token is not valid for this server"
+    raise ApiProblem(
+        "unauthorized",
+        detail,
+        [ProblemLocation(path="header.authorization", message="a valid bearer token is required")],
+        headers={"WWW-Authenticate": challenge},
+    )
+
+
+class _ObservedLitestar(Litestar):
+    """Litestar with request ids, metrics and the request log wrapped around every request."""
+
+    async def __call__(self, scope, receive, send) -> None:
+        if scope["type"] != "http":
+            await super().__call__(scope, receive, send)
+            return
+        await observe(scope, receive, send, super().__call__, log=self.state.settings.request_log)
 
 
 def create_app(settings: Settings | None = None) -> Litestar:
     """Build the ASGI app for ``settings`` (defaults when ``None``); nothing is read at import."""
     settings = settings or Settings()
+    if settings.request_log:
+        logs.configure()
     document = openapi.document_bytes()
 
     @get("/openapi.json", include_in_schema=False, sync_to_thread=False)
     def openapi_document() -> Response[bytes]:
         return Response(document, media_type="application/json")
 
-    return Litestar(
+    cors = None
+    if settings.cors_origins:
+        cors = CORSConfig(
+            allow_origins=list(settings.cors_origins),
+            allow_methods=["GET", "POST"],
+            allow_headers=["Accept", "Authorization", "Content-Type", REQUEST_ID_HEADER],
+            expose_headers=[REQUEST_ID_HEADER],
+        )
+
+    return _ObservedLitestar(
         route_handlers=[
             *routes.COMPUTE_HANDLERS,
             *routes.INFO_HANDLERS,
             *routes.HEALTH_HANDLERS,
+            *routes.METRICS_HANDLERS,
             openapi_document,
             schema_page,
             assets_router,
         ],
+        guards=[_require_token],
         exception_handlers={
             problems.ApiProblem: problems.handle_api_problem,
             DescriptorError: problems.handle_descriptor_error,
             HTTPException: problems.handle_http_exception,
             Exception: problems.handle_unexpected,
         },
+        cors_config=cors,
         openapi_config=None,
         request_max_body_size=settings.max_body_bytes,
         state=State({"settings": settings}),
@@ -43,4 +116,4 @@ def create_app(settings: Settings | None = None) -> Litestar:
     )
 
 
-__all__ = ["create_app"]
+__all__ = ["create_app", "token_matches"]

@@ -7,11 +7,13 @@ from __future__ import annotations
 
 import secrets
 import time
+from dataclasses import dataclass
 from typing import TypeVar
 
 import msgspec
 import numpy as np
 
+from service.api.media import Codec
 from service.api.problems import ApiProblem, invalid_body
 from service.api.schemas import (
     BinsRequest,
@@ -36,15 +38,53 @@ from service.settings import Settings
 
 Request = TypeVar("Request", SamplesRequest, TableRequest, BinsRequest)
 
-_decoders = {kind: msgspec.json.Decoder(kind) for kind in (SamplesRequest, TableRequest, BinsRequest)}
-_encoder = msgspec.json.Encoder()
+
+@dataclass(frozen=True)
+class Computed:
+    """An encoded answer, with what the metrics and the request log record of it."""
+
+    body: bytes
+    values: int
+    resamples: int
 
 
-def _decode(body: bytes, kind: type[Request]) -> Request:
+def _decode(body: bytes, kind: type[Request], codec: Codec) -> Request:
     try:
-        return _decoders[kind].decode(body)
+        return codec.decode(body, kind)
     except msgspec.MsgspecError as error:
-        raise invalid_body(error, body) from None
+        raise invalid_body(error, body, codec) from None
+
+
+def _float64s(raw: list | bytes, path: str, *, missing: bool) -> np.ndarray | list:
+    """A list as sent, or float64 bytes as an array checked like the list form would be.
+
+    In bytes, NaN marks a missing value where nulls are allowed (``missing``); infinities,
+    and NaN or negative numbers where only weights >= 0 are allowed, are located errors.
+    """
+    if not isinstance(raw, bytes):
+        return raw
+    if len(raw) % 8:
+        raise ApiProblem(
+            "invalid-body",
+            f"{path} holds {len(raw)} bytes, not a whole number of 8-byte float64 values",
+            [ProblemLocation(path=path, message="length must be a multiple of 8 bytes")],
+        )
+    array = np.frombuffer(raw, dtype="<f8").astype(np.float64, copy=False)
+    if missing:
+        bad = np.flatnonzero(np.isinf(array))
+        why = "infinite; only finite numbers (or NaN for a missing value) are accepted"
+    else:
+        bad = np.flatnonzero(~(np.isfinite(array) & (array >= 0.0)))
+        why = "must be a finite number >= 0"
+    if bad.size:
+        first = int(bad[0])
+        raise ApiProblem(
+            "invalid-body",
+            f"{bad.size} of the {array.size} float64 values in {path} are not accepted; the first is "
+            f"{path}[{first}] = {float(array[first])!r}",
+            [ProblemLocation(path=f"{path}[{int(i)}]", message=why) for i in bad[:10]],
+        )
+    return array
 
 
 def _check_count(count: int, path: str, settings: Settings) -> None:
@@ -94,25 +134,29 @@ def _describe_options(options: DescriptorOptions, settings: Settings) -> Describ
     )
 
 
-def _encode(description) -> bytes:
-    return _encoder.encode(msgspec.convert(description, DescriptionResponse, from_attributes=True))
+def _answer(description, count: int, codec: Codec) -> Computed:
+    message = msgspec.convert(description, DescriptionResponse, from_attributes=True)
+    resamples = description.resampling.resamples if description.resampling is not None else 0
+    return Computed(codec.encode(message), count, resamples)
 
 
-def describe_samples(body: bytes, settings: Settings) -> bytes:
-    request = _decode(body, SamplesRequest)
-    _check_count(len(request.values), "$.values", settings)
+def describe_samples(body: bytes, codec: Codec, answer: Codec, settings: Settings) -> Computed:
+    request = _decode(body, SamplesRequest, codec)
+    values = _float64s(request.values, "$.values", missing=True)
+    _check_count(len(values), "$.values", settings)
+    weights = None if request.weights is None else _float64s(request.weights, "$.weights", missing=False)
     options = _describe_options(request.options, settings)
     data = from_samples(
-        request.values,
+        values,
         omit_missing=request.options.missing == "omit",
-        weights=request.weights,
+        weights=weights,
         meaning=WeightMeaning.RELIABILITY if request.weight_kind == "reliability" else WeightMeaning.FREQUENCY,
     )
-    return _encode(describe(data, options, kind="samples"))
+    return _answer(describe(data, options, kind="samples"), len(values), answer)
 
 
-def describe_table(body: bytes, settings: Settings) -> bytes:
-    request = _decode(body, TableRequest)
+def describe_table(body: bytes, codec: Codec, answer: Codec, settings: Settings) -> Computed:
+    request = _decode(body, TableRequest, codec)
     _check_count(len(request.outcomes), "$.outcomes", settings)
     options = _describe_options(request.options, settings)
     values = np.fromiter((o.value for o in request.outcomes), dtype=np.float64, count=len(request.outcomes))
@@ -123,12 +167,13 @@ def describe_table(body: bytes, settings: Settings) -> bytes:
         probabilities=request.weight_kind == "probabilities",
         normalise=request.options.normalize,
     )
-    return _encode(describe(data, options, kind="table"))
+    return _answer(describe(data, options, kind="table"), len(request.outcomes), answer)
 
 
-def describe_bins(body: bytes, settings: Settings) -> bytes:
-    request = _decode(body, BinsRequest)
-    _check_count(len(request.counts), "$.counts", settings)
+def describe_bins(body: bytes, codec: Codec, answer: Codec, settings: Settings) -> Computed:
+    request = _decode(body, BinsRequest, codec)
+    counts = _float64s(request.counts, "$.counts", missing=False)
+    _check_count(len(counts), "$.counts", settings)
     options = _describe_options(request.options, settings)
-    data = from_bins(request.edges, request.counts)
-    return _encode(describe(data, options, kind="bins"))
+    data = from_bins(request.edges, counts)
+    return _answer(describe(data, options, kind="bins"), len(counts), answer)

@@ -13,7 +13,10 @@ import msgspec
 
 import service
 from service.api import schemas
-from service.api.problems import PROBLEM_MEDIA_TYPE, PROBLEM_TYPES
+from service.api.media import JSON, MSGPACK, PROBLEM_JSON, PROBLEM_MSGPACK
+from service.api.problems import PROBLEM_TYPES
+
+BODY_MEDIA_TYPES = (JSON, MSGPACK)
 
 
 @dataclass(frozen=True)
@@ -24,9 +27,11 @@ class Operation:
     summary: str
     description: str
     request: type | None
-    response: type
+    response: type | None  # None: a text/plain answer (the metrics exposition)
     problems: tuple[int, ...]
     tag: str
+    # Whether the operation asks for a bearer token when the server is configured with tokens.
+    protected: bool = True
 
 
 OPERATIONS = (
@@ -43,7 +48,7 @@ OPERATIONS = (
         ),
         request=schemas.SamplesRequest,
         response=schemas.DescriptionResponse,
-        problems=(400, 406, 413, 415, 422),
+        problems=(400, 401, 406, 413, 415, 422),
         tag="descriptors",
     ),
     Operation(
@@ -58,7 +63,7 @@ OPERATIONS = (
         ),
         request=schemas.TableRequest,
         response=schemas.DescriptionResponse,
-        problems=(400, 406, 413, 415, 422),
+        problems=(400, 401, 406, 413, 415, 422),
         tag="descriptors",
     ),
     Operation(
@@ -73,7 +78,7 @@ OPERATIONS = (
         ),
         request=schemas.BinsRequest,
         response=schemas.DescriptionResponse,
-        problems=(400, 406, 413, 415, 422),
+        problems=(400, 401, 406, 413, 415, 422),
         tag="descriptors",
     ),
     Operation(
@@ -84,8 +89,24 @@ OPERATIONS = (
         description="The meaning of every name a descriptor response can carry, and every warning code.",
         request=None,
         response=schemas.Catalog,
-        problems=(406,),
+        problems=(401, 406),
         tag="catalog",
+    ),
+    Operation(
+        method="get",
+        path="/metrics",
+        operation_id="metrics",
+        summary="Prometheus metrics",
+        description=(
+            "Request counts and latencies by route and status, values per request, resamples computed "
+            "and budget rejections, summed over all workers of the server. Asks for a token only when "
+            "TAILGAUGE_METRICS_REQUIRE_TOKEN is set."
+        ),
+        request=None,
+        response=None,
+        problems=(),
+        tag="operations",
+        protected=False,
     ),
     Operation(
         method="get",
@@ -97,28 +118,35 @@ OPERATIONS = (
         response=schemas.Health,
         problems=(),
         tag="health",
+        protected=False,
     ),
     Operation(
         method="get",
         path="/health/ready",
         operation_id="ready",
         summary="Readiness",
-        description="200 while this worker accepts new work.",
+        description="200 while this worker accepts new work; 503 with status draining once it is stopping.",
         request=None,
         response=schemas.Health,
         problems=(),
         tag="health",
+        protected=False,
     ),
 )
 
 _REF = "#/components/schemas/{name}"
 
 
+def _content(schema: dict, media_types: tuple[str, ...]) -> dict:
+    return {media: {"schema": schema} for media in media_types}
+
+
 def build_document() -> dict:
     """The complete OpenAPI 3.1 document as a JSON-ready dict."""
     types = [schemas.Problem]
     for op in OPERATIONS:
-        types.append(op.response)
+        if op.response is not None:
+            types.append(op.response)
         if op.request is not None:
             types.append(op.request)
     refs, components = msgspec.json.schema_components(types, ref_template=_REF)
@@ -127,17 +155,26 @@ def build_document() -> dict:
 
     paths: dict[str, dict] = {}
     for op in OPERATIONS:
-        responses = {
-            "200": {
-                "description": "Success.",
-                "content": {"application/json": {"schema": ref_of[op.response]}},
+        if op.response is None:
+            success = {"text/plain": {"schema": {"type": "string"}}}
+        elif op.tag == "health":
+            success = _content(ref_of[op.response], (JSON,))
+        else:
+            success = _content(ref_of[op.response], BODY_MEDIA_TYPES)
+        responses = {"200": {"description": "Success.", "content": success}}
+        if op.path == "/health/ready":
+            responses["503"] = {
+                "description": "This worker is draining (stopping); send new work elsewhere.",
+                "content": _content(ref_of[op.response], (JSON,)),
             }
-        }
         for status in op.problems:
             titles = sorted({title for code, title in PROBLEM_TYPES.values() if code == status})
+            description = "; ".join(titles) + " (RFC 9457 problem details)."
+            if status == 401:
+                description += " Only when the server is configured with bearer tokens."
             responses[str(status)] = {
-                "description": "; ".join(titles) + " (RFC 9457 problem details).",
-                "content": {PROBLEM_MEDIA_TYPE: {"schema": problem_ref}},
+                "description": description,
+                "content": _content(problem_ref, (PROBLEM_JSON, PROBLEM_MSGPACK)),
             }
         entry = {
             "operationId": op.operation_id,
@@ -146,10 +183,13 @@ def build_document() -> dict:
             "tags": [op.tag],
             "responses": responses,
         }
+        if op.protected:
+            # Either no token (an open server) or a bearer token.
+            entry["security"] = [{}, {"bearerToken": []}]
         if op.request is not None:
             entry["requestBody"] = {
                 "required": True,
-                "content": {"application/json": {"schema": ref_of[op.request]}},
+                "content": _content(ref_of[op.request], BODY_MEDIA_TYPES),
             }
         paths.setdefault(op.path, {})[op.method] = entry
 
@@ -160,11 +200,22 @@ def build_document() -> dict:
             "version": service.__version__,
             "description": (
                 "Descriptors of a distribution with named estimator conventions. "
-                "Descriptors summarise data; they do not certify a process."
+                "Descriptors summarise data; they do not certify a process. Bodies may be JSON or "
+                "MessagePack (by Content-Type) and answers either (by Accept); large arrays may be "
+                "sent as little-endian float64 bytes."
             ),
         },
         "paths": paths,
-        "components": {"schemas": components},
+        "components": {
+            "schemas": components,
+            "securitySchemes": {
+                "bearerToken": {
+                    "type": "http",
+                    "scheme": "bearer",
+                    "description": "Asked for only when the server is configured with TAILGAUGE_API_TOKENS.",
+                }
+            },
+        },
     }
 
 

@@ -18,10 +18,12 @@ import msgspec
 from litestar import Request, Response
 from litestar.exceptions import HTTPException
 
+from service.api import metrics
+from service.api.media import JSON_CODEC, PROBLEM_JSON, Codec, problem_codec
 from service.api.schemas import Problem, ProblemLocation
 from service.core.errors import DescriptorError, LimitExceeded
 
-PROBLEM_MEDIA_TYPE = "application/problem+json"
+PROBLEM_MEDIA_TYPE = PROBLEM_JSON
 _TYPE_PREFIX = "urn:tailgauge:problem:"
 
 # slug -> (status, title). Slugs are part of the API: never rename one.
@@ -40,6 +42,8 @@ PROBLEM_TYPES: dict[str, tuple[int, str]] = {
 _SLUG_BY_STATUS = {status: slug for slug, (status, _) in PROBLEM_TYPES.items()}
 _LOCATION = re.compile(r"^(?P<message>.*?) - at `(?P<path>\$[^`]*)`$", re.DOTALL)
 _NAMED_FIELD = re.compile(r"^Object (?:contains unknown|missing required) field `(?P<field>[^`]*)`")
+# The bounds of schemas.Finite, as msgspec words a NaN or an infinity that breaks them.
+_FINITE_BOUND = re.compile(r"^Expected `float` [<>]= -?1\.7976931348623157e\+308$")
 _BYTE = re.compile(r"\(byte (?P<offset>\d+)\)")
 
 logger = logging.getLogger("service.api")
@@ -48,11 +52,18 @@ logger = logging.getLogger("service.api")
 class ApiProblem(Exception):
     """An error detected by the HTTP layer, already located."""
 
-    def __init__(self, slug: str, detail: str, errors: list[ProblemLocation] | None = None) -> None:
+    def __init__(
+        self,
+        slug: str,
+        detail: str,
+        errors: list[ProblemLocation] | None = None,
+        headers: dict[str, str] | None = None,
+    ) -> None:
         super().__init__(detail)
         self.slug = slug
         self.detail = detail
         self.errors = errors or []
+        self.headers = headers
 
 
 def json_path_at(body: bytes, offset: int) -> str:
@@ -105,6 +116,8 @@ def locate_msgspec_error(error: msgspec.MsgspecError, body: bytes = b"") -> Prob
     text = str(error)
     match = _LOCATION.match(text)
     message, path = (match["message"], match["path"]) if match else (text, "$")
+    if _FINITE_BOUND.match(message):
+        message = "must be a finite number (NaN and Infinity are not accepted; null marks a missing value)"
     named = _NAMED_FIELD.match(message)
     if named:
         path = f"{path}.{named['field']}"
@@ -115,41 +128,53 @@ def locate_msgspec_error(error: msgspec.MsgspecError, body: bytes = b"") -> Prob
     return ProblemLocation(path=path, message=message)
 
 
-def invalid_body(error: msgspec.MsgspecError, body: bytes = b"") -> ApiProblem:
-    location = locate_msgspec_error(error, body)
-    kind = "does not match the schema" if isinstance(error, msgspec.ValidationError) else "is not valid JSON"
+def invalid_body(error: msgspec.MsgspecError, body: bytes = b"", codec: Codec = JSON_CODEC) -> ApiProblem:
+    # Byte offsets are turned into paths for JSON only; MessagePack errors name their path already.
+    location = locate_msgspec_error(error, body if codec is JSON_CODEC else b"")
+    if isinstance(error, msgspec.ValidationError):
+        kind = "does not match the schema"
+    else:
+        kind = f"is not valid {codec.name}"
     return ApiProblem("invalid-body", f"The request body {kind}: {location.message}", [location])
 
 
-def _response(
-    slug: str, detail: str, errors: list[ProblemLocation], headers: dict[str, str] | None = None
+def problem_response(
+    slug: str,
+    detail: str,
+    errors: list[ProblemLocation],
+    headers: dict[str, str] | None = None,
+    codec: Codec = JSON_CODEC,
 ) -> Response:
     status, title = PROBLEM_TYPES[slug]
     problem = Problem(type=_TYPE_PREFIX + slug, title=title, status=status, detail=detail, errors=errors)
     return Response(
-        content=msgspec.json.encode(problem), status_code=status, media_type=PROBLEM_MEDIA_TYPE, headers=headers
+        content=codec.encode(problem), status_code=status, media_type=codec.problem_media_type, headers=headers
     )
 
 
-def handle_api_problem(_: Request, exc: ApiProblem) -> Response:
-    return _response(exc.slug, exc.detail, exc.errors)
+def handle_api_problem(request: Request, exc: ApiProblem) -> Response:
+    return problem_response(exc.slug, exc.detail, exc.errors, exc.headers, problem_codec(request))
 
 
-def handle_descriptor_error(_: Request, exc: DescriptorError) -> Response:
+def handle_descriptor_error(request: Request, exc: DescriptorError) -> Response:
     slug = "limit-exceeded" if isinstance(exc, LimitExceeded) else "uncomputable-input"
+    if slug == "limit-exceeded":
+        metrics.BUDGET_REJECTIONS.inc()
     errors = [ProblemLocation(path=loc.path, message=loc.message) for loc in exc.locations]
-    return _response(slug, exc.detail, errors)
+    return problem_response(slug, exc.detail, errors, codec=problem_codec(request))
 
 
-def handle_http_exception(_: Request, exc: HTTPException) -> Response:
+def handle_http_exception(request: Request, exc: HTTPException) -> Response:
     slug = _SLUG_BY_STATUS.get(exc.status_code)
     if slug is None:
         slug = "internal-error" if exc.status_code >= 500 else "invalid-body"
     detail = exc.detail if isinstance(exc.detail, str) and exc.detail else PROBLEM_TYPES[slug][1]
     # Keep the exception's headers: a 405 must say which methods are allowed (RFC 9110).
-    return _response(slug, detail, [], headers=dict(exc.headers or {}))
+    return problem_response(slug, detail, [], headers=dict(exc.headers or {}), codec=problem_codec(request))
 
 
 def handle_unexpected(request: Request, exc: Exception) -> Response:
     logger.exception("unhandled error on %s %s", request.method, request.url.path)
-    return _response("internal-error", "The service failed to handle this request.", [])
+    return problem_response(
+        "internal-error", "The service failed to handle this request.", [], codec=problem_codec(request)
+    )

@@ -1,4 +1,4 @@
-"""HTTP handlers: check media types, hand the bytes to a worker thread, return the bytes."""
+"""HTTP handlers: negotiate media types, hand the bytes to a worker thread, return the bytes."""
 
 from __future__ import annotations
 
@@ -9,66 +9,78 @@ from litestar import Request, Response, get, post
 
 import msgspec
 
-from service.api import compute, schemas
+from service.api import compute, media, metrics, schemas
+from service.api.media import MediaTypeError
 from service.api.problems import ApiProblem
 from service.api.schemas import ProblemLocation
 from service.core import catalog
+from service.lifecycle import draining
 
-JSON = "application/json"
-
-
-def _require_json_body(request: Request) -> None:
-    media = request.headers.get("content-type", "").split(";")[0].strip().lower()
-    if media != JSON:
-        shown = media or "no Content-Type"
-        raise ApiProblem(
-            "unsupported-media-type",
-            f"send the request body as {JSON} (got {shown})",
-            [ProblemLocation(path="header.content-type", message=f"expected {JSON}")],
-        )
+_STATUS_SLUG = {415: "unsupported-media-type", 406: "not-acceptable"}
 
 
-def _require_json_accepted(request: Request) -> None:
-    if "accept" in request.headers and request.accept.best_match([JSON]) is None:
-        raise ApiProblem(
-            "not-acceptable",
-            f"this endpoint answers with {JSON}; the Accept header excludes it",
-            [ProblemLocation(path="header.accept", message=f"accept {JSON}")],
-        )
+def _problem(error: MediaTypeError) -> ApiProblem:
+    return ApiProblem(
+        _STATUS_SLUG[error.status], error.detail, [ProblemLocation(path=error.header, message=error.message)]
+    )
 
 
-async def _compute(request: Request, work) -> Response[bytes]:
-    _require_json_body(request)
-    _require_json_accepted(request)
+def _answer(request: Request) -> tuple[media.Codec, str]:
+    try:
+        return media.answer_codec(request)
+    except MediaTypeError as error:
+        raise _problem(error) from None
+
+
+async def _compute(request: Request, work, endpoint: str) -> Response[bytes]:
+    try:
+        body_codec = media.body_codec(request)
+    except MediaTypeError as error:
+        raise _problem(error) from None
+    answer_codec, answer_type = _answer(request)
     body = await request.body()
-    # CPU-bound work (decoding included) runs off the event loop, so health checks stay live.
-    encoded = await anyio.to_thread.run_sync(partial(work, body, request.app.state.settings))
-    return Response(encoded, media_type=JSON)
+    # CPU-bound work (decoding and encoding included) runs off the event loop, so health stays live.
+    result = await anyio.to_thread.run_sync(
+        partial(work, body, body_codec, answer_codec, request.app.state.settings)
+    )
+    request.state.values = result.values
+    metrics.VALUES.labels(endpoint).observe(result.values)
+    if result.resamples:
+        request.state.resamples = result.resamples
+        metrics.RESAMPLES.labels(endpoint).inc(result.resamples)
+    return Response(result.body, media_type=answer_type)
 
 
 @post("/v1/descriptors/samples", status_code=200, include_in_schema=False)
 async def describe_samples(request: Request) -> Response[bytes]:
-    return await _compute(request, compute.describe_samples)
+    return await _compute(request, compute.describe_samples, "samples")
 
 
 @post("/v1/descriptors/table", status_code=200, include_in_schema=False)
 async def describe_table(request: Request) -> Response[bytes]:
-    return await _compute(request, compute.describe_table)
+    return await _compute(request, compute.describe_table, "table")
 
 
 @post("/v1/descriptors/bins", status_code=200, include_in_schema=False)
 async def describe_bins(request: Request) -> Response[bytes]:
-    return await _compute(request, compute.describe_bins)
+    return await _compute(request, compute.describe_bins, "bins")
 
 
 @get("/health/live", include_in_schema=False, sync_to_thread=False)
 def live() -> Response[bytes]:
-    return Response(b'{"status":"ok"}', media_type=JSON)
+    return Response(b'{"status":"ok"}', media_type=media.JSON)
 
 
 @get("/health/ready", include_in_schema=False, sync_to_thread=False)
 def ready() -> Response[bytes]:
-    return Response(b'{"status":"ok"}', media_type=JSON)
+    if draining.is_set():
+        return Response(b'{"status":"draining"}', status_code=503, media_type=media.JSON)
+    return Response(b'{"status":"ok"}', media_type=media.JSON)
+
+
+@get("/metrics", include_in_schema=False, sync_to_thread=False)
+def metrics_exposition() -> Response[bytes]:
+    return Response(metrics.exposition(), media_type=metrics.CONTENT_TYPE)
 
 
 _CATALOG = msgspec.json.encode(
@@ -87,12 +99,16 @@ _CATALOG = msgspec.json.encode(
 )
 
 
+_CATALOG_MSGPACK = msgspec.msgpack.encode(msgspec.json.decode(_CATALOG))
+
+
 @get("/v1/catalog", include_in_schema=False, sync_to_thread=False)
 def describe_catalog(request: Request) -> Response[bytes]:
-    _require_json_accepted(request)
-    return Response(_CATALOG, media_type=JSON)
+    codec, answer_type = _answer(request)
+    return Response(_CATALOG if codec is media.JSON_CODEC else _CATALOG_MSGPACK, media_type=answer_type)
 
 
 COMPUTE_HANDLERS = [describe_samples, describe_table, describe_bins]
 INFO_HANDLERS = [describe_catalog]
 HEALTH_HANDLERS = [live, ready]
+METRICS_HANDLERS = [metrics_exposition]

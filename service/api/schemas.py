@@ -1,6 +1,7 @@
 """Wire messages: one msgspec Struct per request and response, which is also the published schema.
 
-API-change rules: a new field always has a default; a field's type never changes; names are
+API-change rules: a new field always has a default; a field's type is only ever widened (a list
+may also come as float64 bytes), never changed; names are
 snake_case plain statistical terms. Constraints are named aliases defined once below.
 """
 
@@ -18,9 +19,23 @@ SCHEMA_MAX_MOMENT_ORDER = 12
 SCHEMA_MAX_PROBABILITIES = 1000
 
 Probability = Annotated[float, Meta(ge=0.0, le=1.0, description="A probability in [0, 1].")]
+# Every number a caller sends must be finite: JSON cannot carry NaN or Infinity, and the bounds
+# below make MessagePack's native NaN and Infinity errors too (named by their path).
+LARGEST = 1.7976931348623157e308
+Finite = Annotated[float, Meta(ge=-LARGEST, le=LARGEST, description="A finite number.")]
 Observation = Annotated[
-    float | None,
+    Finite | None,
     Meta(description="One observation; null marks a missing value (see options.missing)."),
+]
+Float64Bytes = Annotated[
+    bytes,
+    Meta(
+        min_length=8,
+        description=(
+            "Fast path for large arrays: IEEE 754 float64 values, little-endian, packed end to end "
+            "(8 bytes each) - a MessagePack bin, or a base64 string in JSON."
+        ),
+    ),
 ]
 MaybeNumber = Annotated[
     float | None, Meta(description="A number, or null when undefined (a warning says why).")
@@ -31,7 +46,7 @@ class Message(msgspec.Struct, forbid_unknown_fields=True, kw_only=True):
     """Base of every wire message: unknown fields are errors, never silently ignored."""
 
 
-NonNegative = Annotated[float, Meta(ge=0.0, description="A finite number >= 0.")]
+NonNegative = Annotated[float, Meta(ge=0.0, le=LARGEST, description="A finite number >= 0.")]
 
 
 MAX_SEED = 2**53 - 1
@@ -141,12 +156,17 @@ class BinOptions(DescriptorOptions):
 
 class SamplesRequest(Message):
     values: Annotated[
-        list[Observation],
-        Meta(min_length=1, description="Raw observations in observation order."),
+        Annotated[list[Observation], Meta(min_length=1)] | Float64Bytes,
+        Meta(
+            description=(
+                "Raw observations in observation order: a list, or float64 bytes (NaN marks a "
+                "missing value there)."
+            )
+        ),
     ]
     weights: Annotated[
-        list[NonNegative] | None,
-        Meta(description="Optional weight per value (same length as values); see weight_kind."),
+        list[NonNegative] | Float64Bytes | None,
+        Meta(description="Optional weight per value (same length as values), a list or float64 bytes; see weight_kind."),
     ] = None
     weight_kind: Annotated[
         Literal["frequency", "reliability"],
@@ -161,7 +181,7 @@ class SamplesRequest(Message):
 
 
 class Outcome(Message):
-    value: Annotated[float, Meta(description="An outcome; repeated outcomes are merged.")]
+    value: Annotated[Finite, Meta(description="An outcome; repeated outcomes are merged.")]
     weight: Annotated[NonNegative, Meta(description="Its count or probability (>= 0).")]
 
 
@@ -182,7 +202,7 @@ class TableRequest(Message):
 
 class BinsRequest(Message):
     edges: Annotated[
-        list[float | None],
+        list[Finite | None],
         Meta(
             min_length=2,
             description=(
@@ -191,7 +211,10 @@ class BinsRequest(Message):
             ),
         ),
     ]
-    counts: Annotated[list[NonNegative], Meta(min_length=1, description="Count in each bin (>= 0).")]
+    counts: Annotated[
+        Annotated[list[NonNegative], Meta(min_length=1)] | Float64Bytes,
+        Meta(description="Count in each bin (>= 0): a list, or float64 bytes."),
+    ]
     options: BinOptions = msgspec.field(default_factory=BinOptions)
 
 

@@ -129,7 +129,9 @@ def test_request_schema_keeps_the_decoder_constraints(document):
     assert request["additionalProperties"] is False
     assert options["additionalProperties"] is False
     assert "values" in request["required"]
-    assert request["properties"]["values"]["minItems"] == 1
+    values = request["properties"]["values"]["anyOf"]
+    assert [v["minItems"] for v in values if v.get("type") == "array"] == [1]
+    assert [v["contentEncoding"] for v in values if v.get("type") == "string"] == ["base64"]
     probability = options["properties"]["probabilities"]["items"]
     assert probability["minimum"] == 0.0 and probability["maximum"] == 1.0
     assert _bounds(options["properties"]["quantile_type"]) == (1, 9)

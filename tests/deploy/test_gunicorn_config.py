@@ -20,6 +20,7 @@ def _load(monkeypatch, **env) -> tuple[Config, dict]:
     namespace = runpy.run_path(str(CONFIG))
     config = Config()
     settings = {k: v for k, v in namespace.items() if not k.startswith("_") and k != "os"}
+    assert {"on_starting", "child_exit", "on_exit"} <= set(settings)
     for key, value in settings.items():
         assert key in config.settings, f"{key} is not a gunicorn setting"
         config.set(key, value)
@@ -28,8 +29,10 @@ def _load(monkeypatch, **env) -> tuple[Config, dict]:
 
 def test_every_name_is_a_gunicorn_setting_and_the_worker_class_loads(monkeypatch):
     config, _ = _load(monkeypatch)
-    worker = config.worker_class  # imports uvicorn_worker.UvicornWorker
-    assert worker.__name__ == "UvicornWorker"
+    worker = config.worker_class  # imports service.worker.Worker
+    from uvicorn_worker import UvicornWorker
+
+    assert issubclass(worker, UvicornWorker) and worker is not UvicornWorker
     assert config.control_socket_disable is True
     assert config.bind == ["127.0.0.1:8000"]
     assert config.workers >= 1

@@ -1,0 +1,49 @@
+"""Structured logs: one JSON object per line, for the app and for gunicorn's own messages.
+
+Kept free of the web stack so gunicorn's master can load the formatter from its configuration.
+"""
+
+from __future__ import annotations
+
+import json
+import logging
+import sys
+import time
+
+# Attributes every LogRecord has; anything else passed in ``extra=`` becomes a field of the line.
+_STANDARD = set(vars(logging.LogRecord("", 0, "", 0, "", None, None))) | {"message", "asctime", "taskName"}
+
+
+class JsonFormatter(logging.Formatter):
+    """``{"time", "level", "logger", "message", ...extra fields}``; exceptions as one string field."""
+
+    def format(self, record: logging.LogRecord) -> str:
+        line = {
+            "time": time.strftime("%Y-%m-%dT%H:%M:%S", time.gmtime(record.created))
+            + f".{int(record.msecs):03d}Z",
+            "level": record.levelname.lower(),
+            "logger": record.name,
+            "message": record.getMessage(),
+        }
+        for key, value in vars(record).items():
+            if key not in _STANDARD and not key.startswith("_"):
+                line[key] = value
+        if record.exc_info:
+            line["exception"] = self.formatException(record.exc_info)
+        return json.dumps(line, default=str, ensure_ascii=False)
+
+
+def configure(level: int = logging.INFO) -> None:
+    """Send the ``service`` loggers to stderr as JSON lines (idempotent)."""
+    logger = logging.getLogger("service")
+    if any(getattr(handler, "_tailgauge", False) for handler in logger.handlers):
+        return
+    handler = logging.StreamHandler(sys.stderr)
+    handler.setFormatter(JsonFormatter())
+    handler._tailgauge = True  # type: ignore[attr-defined]
+    logger.addHandler(handler)
+    logger.setLevel(level)
+    logger.propagate = False
+
+
+__all__ = ["JsonFormatter", "configure"]
