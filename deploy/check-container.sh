@@ -1,0 +1,279 @@
+#!/usr/bin/env bash
+# Container checks: lint the Dockerfile and validate the Kubernetes manifests, then build the
+# image with podman on a Debian base made by debootstrap, run it read-only and stop it, and
+# play the Deployment with `podman kube play`. Installs what it needs (apt, pip); needs root.
+#
+# Usage: deploy/check-container.sh   (from anywhere; .ci/run calls it after `make test`)
+# Environment:
+#   TAILGAUGE_BASE_CACHE  where the debootstrap root filesystem is cached between runs
+#                         (default /var/tmp/tailgauge-pybase; delete it to refresh the base)
+#   DEBIAN_MIRROR         mirror for debootstrap (default http://deb.debian.org/debian)
+# The image stays as localhost/tailgauge:check; the containers and the pod it starts are removed.
+set -euo pipefail
+cd "$(dirname "$0")/.."
+ROOT=$PWD
+
+export CONTAINERS_CONF="$ROOT/deploy/containers.conf"
+CACHE_DIR=${TAILGAUGE_BASE_CACHE:-/var/tmp/tailgauge-pybase}
+MIRROR=${DEBIAN_MIRROR:-http://deb.debian.org/debian}
+BASE_TARBALL="$CACHE_DIR/bookworm-python3-rootfs.tar"
+BASE_IMAGE=localhost/tailgauge-pybase:bookworm
+IMAGE=localhost/tailgauge:check
+HOST_CA=/etc/ssl/certs/ca-certificates.crt
+RUN_NAME="tailgauge-check-$$"
+KUBE_NAME="tailgauge-check-$$"
+# gunicorn's graceful_timeout (deploy/gunicorn.conf.py); a stop must finish well inside it.
+GRACEFUL_SECONDS=30
+SAMPLE_BODY='{"values":[1,2,3,4,10]}'
+
+WORK=$(mktemp -d /tmp/tailgauge-check.XXXXXX)
+ROOTFS=""
+RUN_STARTED=0
+KUBE_PLAYED=0
+STEP_NAMES=()
+STEP_SECONDS=()
+STEP_NAME=""
+STEP_START=""
+SCRIPT_START=$EPOCHREALTIME
+
+log() { printf '== %s\n' "$*"; }
+fail() {
+    printf 'FAIL: %s\n' "$*" >&2
+    exit 1
+}
+elapsed_since() { awk -v a="$1" -v b="$EPOCHREALTIME" 'BEGIN { printf "%.1f", b - a }'; }
+step() {
+    end_step
+    STEP_NAME=$1
+    STEP_START=$EPOCHREALTIME
+    log "$STEP_NAME"
+}
+end_step() {
+    if [[ -n $STEP_NAME ]]; then
+        STEP_NAMES+=("$STEP_NAME")
+        STEP_SECONDS+=("$(elapsed_since "$STEP_START")")
+        STEP_NAME=""
+    fi
+}
+# Run a noisy command with its output in a log file, shown (the end of it) only on failure.
+quietly() {
+    local name=$1
+    shift
+    if ! "$@" >"$WORK/$name.log" 2>&1; then
+        tail -n 60 "$WORK/$name.log" >&2
+        fail "$name: '$*' failed (log above)"
+    fi
+}
+
+cleanup() {
+    local status=$?
+    set +e
+    if [[ -n $STEP_NAME ]]; then
+        [[ $status -ne 0 ]] && STEP_NAME="$STEP_NAME (failed)"
+        end_step
+    fi
+    if [[ $RUN_STARTED -eq 1 ]]; then
+        podman rm --force --time 0 "$RUN_NAME" >/dev/null 2>&1
+    fi
+    if [[ $KUBE_PLAYED -eq 1 ]]; then
+        podman kube down "$WORK/deployment.yaml" >/dev/null 2>&1
+    fi
+    [[ -n $ROOTFS ]] && rm -rf "$ROOTFS" "$BASE_TARBALL.partial"
+    rm -rf "$WORK"
+    printf '\n== timing (seconds)\n'
+    local i
+    for i in "${!STEP_NAMES[@]}"; do
+        printf '%8s  %s\n' "${STEP_SECONDS[$i]}" "${STEP_NAMES[$i]}"
+    done
+    printf '%8s  total\n' "$(elapsed_since "$SCRIPT_START")"
+    if [[ $status -eq 0 ]]; then
+        printf '== container checks passed\n'
+    else
+        printf '== container checks FAILED (exit %s)\n' "$status" >&2
+    fi
+    exit "$status"
+}
+trap cleanup EXIT
+trap 'exit 130' INT TERM
+
+free_port() {
+    python3 -c 'import socket; s = socket.socket(); s.bind(("127.0.0.1", 0)); print(s.getsockname()[1])'
+}
+
+# Wait until GET $1 answers 200, or fail after $2 seconds; $3 names a container whose exit
+# (or whose logs, on a timeout) explains a failure.
+wait_for_http() {
+    local url=$1 limit=$2 container=$3 deadline=$((SECONDS + $2))
+    until curl -fsS --max-time 2 "$url" >/dev/null 2>&1; do
+        if [[ -n $container ]] && [[ $(podman inspect --format '{{.State.Running}}' "$container" 2>/dev/null) != true ]]; then
+            podman logs "$container" 2>&1 | tail -n 40 >&2
+            fail "$container stopped before $url answered"
+        fi
+        if ((SECONDS >= deadline)); then
+            [[ -n $container ]] && podman logs "$container" 2>&1 | tail -n 40 >&2
+            fail "$url did not answer 200 within ${limit}s"
+        fi
+        sleep 0.5
+    done
+}
+
+# POST the sample to $1 and check the answer. The expected values are hand arithmetic on
+# 1, 2, 3, 4, 10: sum 20 so mean 4; middle value 3; squared deviations 9+4+1+0+36 = 50,
+# divided by n - 1 = 4 gives the sample variance 12.5.
+check_sample_request() {
+    local url=$1 answer="$WORK/answer.json"
+    curl -fsS --max-time 20 -H 'Content-Type: application/json' -d "$SAMPLE_BODY" -o "$answer" "$url" \
+        || fail "POST $url failed"
+    python3 - "$answer" <<'EOF' || fail "unexpected answer from $url: $(head -c 400 "$answer")"
+import json, sys
+
+d = json.load(open(sys.argv[1]))["descriptors"]
+assert d["mean"]["value"] == 4.0, d["mean"]
+assert d["median"]["value"] == 3.0, d["median"]
+assert abs(d["variance"]["value"] - 12.5) <= 1e-12, d["variance"]
+EOF
+}
+
+[[ $(id -u) -eq 0 ]] || fail "needs root (debootstrap, rootful podman)"
+
+step "install tools (apt, pip)"
+missing=()
+for tool in podman:podman runc:runc debootstrap:debootstrap curl:curl iptables:iptables python3:python3; do
+    command -v "${tool%%:*}" >/dev/null || missing+=("${tool#*:}")
+done
+if ((${#missing[@]})); then
+    log "apt-get install ${missing[*]}"
+    quietly apt-update apt-get update -qq
+    quietly apt-install env DEBIAN_FRONTEND=noninteractive apt-get install -y -qq "${missing[@]}"
+fi
+[[ -x .venv/bin/python ]] || quietly make-install make install
+# The container-checks extra of pyproject.toml, pinned by requirements.lock.
+mapfile -t check_requirements < <(.venv/bin/python -c 'import tomllib
+print("\n".join(tomllib.load(open("pyproject.toml", "rb"))["project"]["optional-dependencies"]["container-checks"]))')
+quietly pip-install .venv/bin/pip install -c requirements.lock "${check_requirements[@]}"
+
+step "hadolint Dockerfile"
+.venv/bin/hadolint --failure-threshold warning Dockerfile || fail "hadolint found warnings or errors"
+
+step "kubernetes-validate deploy/k8s"
+.venv/bin/kubernetes-validate --strict -k 1.29.0 deploy/k8s/*.yaml 2>&1 | tee "$WORK/validate.log"
+[[ ${PIPESTATUS[0]} -eq 0 ]] || fail "kubernetes-validate rejected a manifest"
+if grep -q WARN "$WORK/validate.log"; then fail "kubernetes-validate printed a warning"; fi
+
+step "base image $BASE_IMAGE"
+if podman image exists "$BASE_IMAGE"; then
+    log "present in podman storage"
+else
+    if [[ ! -s $BASE_TARBALL ]]; then
+        log "debootstrap bookworm from $MIRROR (cached in $BASE_TARBALL)"
+        mkdir -p "$CACHE_DIR"
+        ROOTFS=$(mktemp -d "$CACHE_DIR/rootfs.XXXXXX")
+        quietly debootstrap debootstrap --variant=minbase --include=python3,python3-venv,ca-certificates \
+            bookworm "$ROOTFS" "$MIRROR"
+        # Nothing of the host's and no package downloads in the image.
+        rm -rf "$ROOTFS"/var/cache/apt/archives/*.deb "$ROOTFS"/var/lib/apt/lists/*
+        rm -f "$ROOTFS/etc/resolv.conf" "$ROOTFS/etc/hostname"
+        tar -C "$ROOTFS" -cf "$BASE_TARBALL.partial" .
+        mv "$BASE_TARBALL.partial" "$BASE_TARBALL"
+        rm -rf "$ROOTFS"
+        ROOTFS=""
+    fi
+    quietly import podman import "$BASE_TARBALL" "$BASE_IMAGE"
+fi
+
+step "podman build $IMAGE"
+previous_image=$(podman image inspect --format '{{.Id}}' "$IMAGE" 2>/dev/null || true)
+build_volumes=()
+# pip in the build verifies PyPI with the host's CA bundle (mounted for the build only).
+[[ -r $HOST_CA ]] && build_volumes=(-v "$HOST_CA:/etc/ssl/certs/ca-certificates.crt:ro")
+# --layers=false: no intermediate images are left behind to pile up from run to run.
+quietly build podman build --format docker --layers=false --pull=never --build-arg "BASE_IMAGE=$BASE_IMAGE" \
+    "${build_volumes[@]}" -t "$IMAGE" .
+new_image=$(podman image inspect --format '{{.Id}}' "$IMAGE")
+# The image this script built last time, now untagged; nothing else is pruned.
+if [[ -n $previous_image && $previous_image != "$new_image" ]]; then
+    podman rmi "$previous_image" >/dev/null 2>&1 || true
+fi
+[[ -n $(podman image inspect --format '{{.Config.Healthcheck}}' "$IMAGE") ]] \
+    || fail "the image has no HEALTHCHECK"
+[[ $(podman image inspect --format '{{.Config.User}}' "$IMAGE") == 10001:10001 ]] \
+    || fail "the image does not run as user 10001"
+
+step "run read-only on 127.0.0.1, POST a sample"
+port=$(free_port)
+RUN_STARTED=1
+quietly start podman run --detach --name "$RUN_NAME" --read-only --read-only-tmpfs=false \
+    --tmpfs /tmp:rw,size=64m,mode=1777 --cap-drop=ALL --security-opt=no-new-privileges \
+    --health-interval=disable --env WEB_CONCURRENCY=2 --publish "127.0.0.1:$port:8000" "$IMAGE"
+wait_for_http "http://127.0.0.1:$port/health/ready" 60 "$RUN_NAME"
+curl -fsS --max-time 2 "http://127.0.0.1:$port/health/live" >/dev/null || fail "/health/live did not answer"
+check_sample_request "http://127.0.0.1:$port/v1/descriptors/samples"
+quietly healthcheck podman healthcheck run "$RUN_NAME"
+
+step "graceful stop (SIGTERM) with a request in flight"
+# A bootstrap request that computes for a second or more, sent just before the SIGTERM: the
+# drain must let it finish with 200.
+python3 -c 'import json
+values = [(i * 7919) % 2003 / 10 for i in range(2000)]
+interval = {"method": "bca", "level": 0.95, "resamples": 9999, "seed": 1}
+print(json.dumps({"values": values, "options": {"interval": interval}}))' >"$WORK/slow.json"
+curl -sS --max-time $((GRACEFUL_SECONDS + 10)) -H 'Content-Type: application/json' --data-binary "@$WORK/slow.json" \
+    -o "$WORK/slow-answer.json" -w '%{http_code}' "http://127.0.0.1:$port/v1/descriptors/samples" \
+    >"$WORK/slow-status" 2>"$WORK/slow-error" &
+slow_request=$!
+sleep 1
+stop_start=$SECONDS
+# Without systemd podman reports that it has no healthcheck timer to remove: kept in a log.
+quietly stop podman stop --time $((GRACEFUL_SECONDS + 10)) "$RUN_NAME"
+stop_seconds=$((SECONDS - stop_start))
+wait "$slow_request" || true
+exit_code=$(podman inspect --format '{{.State.ExitCode}}' "$RUN_NAME")
+podman logs "$RUN_NAME" >"$WORK/run.log" 2>&1
+if [[ $exit_code -ne 0 ]]; then
+    tail -n 40 "$WORK/run.log" >&2
+    fail "the container exited with $exit_code after SIGTERM (137 means it was killed)"
+fi
+((stop_seconds < GRACEFUL_SECONDS)) || fail "stopping took ${stop_seconds}s, not under ${GRACEFUL_SECONDS}s"
+grep -q "Handling signal: term" "$WORK/run.log" || fail "gunicorn did not log the SIGTERM it handled"
+[[ $(cat "$WORK/slow-status") == 200 ]] \
+    || fail "the request in flight at SIGTERM got '$(cat "$WORK/slow-status")' $(cat "$WORK/slow-error")"
+python3 -c 'import json, sys
+assert json.load(open(sys.argv[1]))["descriptors"]["mean"]["interval"] is not None' "$WORK/slow-answer.json" \
+    || fail "the request in flight at SIGTERM has no interval"
+log "the request in flight finished with 200; exit code 0 after ${stop_seconds}s"
+quietly rm podman rm "$RUN_NAME"
+RUN_STARTED=0
+
+step "podman kube play deploy/k8s/deployment.yaml"
+kube_port=$(free_port)
+# A copy with the local image, a name of its own, and the port published on 127.0.0.1 only.
+.venv/bin/python - deploy/k8s/deployment.yaml "$WORK/deployment.yaml" "$IMAGE" "$KUBE_NAME" "$kube_port" <<'EOF'
+import sys
+
+import yaml
+
+source, target, image, name, port = sys.argv[1:]
+deployment = yaml.safe_load(open(source))
+assert deployment["kind"] == "Deployment", deployment["kind"]
+deployment["metadata"]["name"] = name
+(container,) = deployment["spec"]["template"]["spec"]["containers"]
+container["image"] = image
+(http,) = [p for p in container["ports"] if p["name"] == "http"]
+http.update(hostIP="127.0.0.1", hostPort=int(port))
+yaml.safe_dump(deployment, open(target, "w"), sort_keys=False)
+EOF
+KUBE_PLAYED=1
+quietly kube-play podman kube play "$WORK/deployment.yaml"
+# `podman kube play` prints the pod's id, then "Container:" and the application containers' ids.
+pod_container=$(awk 'found { print; exit } /^Container/ { found = 1 }' "$WORK/kube-play.log")
+[[ -n $pod_container ]] || fail "kube play started no application container: $(cat "$WORK/kube-play.log")"
+wait_for_http "http://127.0.0.1:$kube_port/health/ready" 60 "$pod_container"
+curl -fsS --max-time 2 "http://127.0.0.1:$kube_port/health/live" >/dev/null || fail "/health/live did not answer in the pod"
+check_sample_request "http://127.0.0.1:$kube_port/v1/descriptors/samples"
+[[ $(podman inspect --format '{{.HostConfig.ReadonlyRootfs}}' "$pod_container") == true ]] \
+    || fail "the pod's root filesystem is writable (readOnlyRootFilesystem not applied)"
+[[ $(podman exec "$pod_container" python -c 'import os; print(os.getuid())') == 10001 ]] \
+    || fail "the pod's container does not run as uid 10001"
+quietly kube-down podman kube down "$WORK/deployment.yaml"
+KUBE_PLAYED=0
+end_step
