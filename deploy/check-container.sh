@@ -134,6 +134,21 @@ assert abs(d["variance"]["value"] - 12.5) <= 1e-12, d["variance"]
 EOF
 }
 
+# After exactly one POST to the samples route: /metrics, answered by whichever worker, counts
+# it once (the workers' values are summed from files under PROMETHEUS_MULTIPROC_DIR).
+check_metrics() {
+    local url=$1
+    curl -fsS --max-time 5 -o "$WORK/metrics.txt" "$url" || fail "GET $url failed"
+    python3 - "$WORK/metrics.txt" <<'EOF' || fail "$url does not count the one sample request"
+import re, sys
+
+pattern = re.compile(r'^tailgauge_http_requests_total\{(?=[^}]*route="/v1/descriptors/samples")'
+                     r'(?=[^}]*method="POST")(?=[^}]*status="200")[^}]*\} (\S+)$', re.M)
+counts = [float(c) for c in pattern.findall(open(sys.argv[1]).read())]
+assert counts == [1.0], counts
+EOF
+}
+
 [[ $(id -u) -eq 0 ]] || fail "needs root (debootstrap, rootful podman)"
 
 step "install tools (apt, pip)"
@@ -209,6 +224,7 @@ wait_for_http "http://127.0.0.1:$port/health/ready" 60 "$RUN_NAME"
 curl -fsS --max-time 2 "http://127.0.0.1:$port/health/live" >/dev/null || fail "/health/live did not answer"
 check_sample_request "http://127.0.0.1:$port/v1/descriptors/samples"
 quietly healthcheck podman healthcheck run "$RUN_NAME"
+check_metrics "http://127.0.0.1:$port/metrics"
 
 step "graceful stop (SIGTERM) with a request in flight"
 # A bootstrap request that computes for a second or more, sent just before the SIGTERM: the
@@ -270,6 +286,7 @@ pod_container=$(awk 'found { print; exit } /^Container/ { found = 1 }' "$WORK/ku
 wait_for_http "http://127.0.0.1:$kube_port/health/ready" 60 "$pod_container"
 curl -fsS --max-time 2 "http://127.0.0.1:$kube_port/health/live" >/dev/null || fail "/health/live did not answer in the pod"
 check_sample_request "http://127.0.0.1:$kube_port/v1/descriptors/samples"
+check_metrics "http://127.0.0.1:$kube_port/metrics"
 [[ $(podman inspect --format '{{.HostConfig.ReadonlyRootfs}}' "$pod_container") == true ]] \
     || fail "the pod's root filesystem is writable (readOnlyRootFilesystem not applied)"
 [[ $(podman exec "$pod_container" python -c 'import os; print(os.getuid())') == 10001 ]] \
