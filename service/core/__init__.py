@@ -3,7 +3,17 @@
 from service.core.describe import DEFAULT_PROBABILITIES, Description, DescribeOptions, describe
 from service.core.errors import DescriptorError, LimitExceeded, Location, UncomputableInput
 from service.core.moments import CentralSums, central_sums
+from service.core.partial import (
+    PartialState,
+    check_states,
+    describe_state,
+    merge,
+    merge_states,
+    partial_state,
+    state_of,
+)
 from service.core.resample import IntervalOptions
+from service.core.sketches import SketchUnion, combine_sketches, kll_sketch_bytes
 from service.core.weighted import (
     PROBABILITY_TOLERANCE,
     WeightedData,
@@ -24,13 +34,23 @@ __all__ = [
     "IntervalOptions",
     "LimitExceeded",
     "Location",
+    "PartialState",
+    "SketchUnion",
     "UncomputableInput",
     "WeightMeaning",
     "WeightedData",
     "central_sums",
+    "check_states",
+    "combine_sketches",
     "describe",
+    "describe_state",
     "from_array",
     "from_bins",
     "from_samples",
     "from_table",
+    "kll_sketch_bytes",
+    "merge",
+    "merge_states",
+    "partial_state",
+    "state_of",
 ]

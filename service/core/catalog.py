@@ -158,4 +158,8 @@ WARNINGS = {
     "resampling_scheme": "how fractional weights were resampled",
     "bootstrap_small_sample": "n < 20: intervals may cover less than their level",
     "bootstrap_discrete": "few distinct values: order-statistic intervals are coarse",
+    "not_available_from_states": "merged partial states carry no values: order statistics, L-moments and "
+    "resampling are undefined",
+    "approximate_quantiles": "quantiles from KLL sketches: within the stated normalized rank error, not exact",
+    "beyond_state_order": "a moment above the highest order the partial states carry",
 }

@@ -142,7 +142,7 @@ class Size:
     n: float | None
     total_weight: float
     omitted: int
-    distinct_values: int
+    distinct_values: int | None  # None only for merged partial states, which carry no values
     zero_weight: int
     effective_n: float | None
 
@@ -258,13 +258,26 @@ class Conventions:
 
 
 @dataclass
+class QuantileSketches:
+    """Where approximate quantiles came from: the union of caller-sent KLL sketches."""
+
+    method: str
+    sketches: int
+    n: int
+    k: int  # the smallest k among the sketches, which sets the error
+    retained: int
+    normalized_rank_error: float
+    item_types: list[str]
+
+
+@dataclass
 class Description:
     kind: str
     size: Size
     descriptors: dict[str, Descriptor]
     moments: Moments | None
     quantiles: list[Quantile]
-    modes: Modes
+    modes: Modes | None  # None only for merged partial states
     shape_estimators: ShapeEstimators
     tail_contributions: TailContributions | None
     grouping: Grouping | None
@@ -272,6 +285,7 @@ class Description:
     conventions: Conventions
     warnings: list[Note]
     resampling: Resampling | None = None
+    sketches: QuantileSketches | None = None
 
 
 class _Notes:
@@ -325,8 +339,30 @@ def _reject(path: str, message: str) -> UncomputableInput:
 
 
 def _basis(data: WeightedData, options: DescribeOptions) -> _Basis:
-    probability = data.meaning is WeightMeaning.PROBABILITY
-    reliability = data.meaning is WeightMeaning.RELIABILITY
+    return _basis_of(
+        data.meaning,
+        total=data.total_weight,
+        effective=data.effective_size,
+        entries=data.count,
+        integer=data.integer_weights,
+        binned=data.binned,
+        options=options,
+    )
+
+
+def _basis_of(
+    meaning: WeightMeaning,
+    *,
+    total: float,
+    effective: float,
+    entries: int,
+    integer: bool,
+    binned: bool,
+    options: DescribeOptions,
+) -> _Basis:
+    """The estimator basis from what the weights mean, the total and effective sizes and the support."""
+    probability = meaning is WeightMeaning.PROBABILITY
+    reliability = meaning is WeightMeaning.RELIABILITY
     if probability:
         if options.convention == "sample":
             raise _reject(
@@ -345,8 +381,6 @@ def _basis(data: WeightedData, options: DescribeOptions) -> _Basis:
                 "population quantiles come from the distribution function: use type 1 or 2",
             )
     population = probability or options.convention == "population"
-    total = data.total_weight
-    effective = data.effective_size
 
     if population:
         factor, divisor = 1.0, "total weight (population)"
@@ -364,12 +398,11 @@ def _basis(data: WeightedData, options: DescribeOptions) -> _Basis:
     if population:
         single = False
     elif reliability:
-        single = data.count <= 1 or effective <= 1.0
+        single = entries <= 1 or effective <= 1.0
     else:
         single = total <= 1.0
 
-    integer = data.integer_weights
-    if data.binned:
+    if binned:
         quantile_type = None
         definition = "grouped: linear interpolation within the bin holding p N (values spread evenly in bins)"
         median_rule = "grouped: interpolated within the bin holding N / 2"
@@ -393,7 +426,7 @@ def _basis(data: WeightedData, options: DescribeOptions) -> _Basis:
         )
 
     # Bias corrections need a sample size in whole observations: raw samples and counts.
-    bias_correctable = data.meaning in (WeightMeaning.UNIT, WeightMeaning.FREQUENCY)
+    bias_correctable = meaning in (WeightMeaning.UNIT, WeightMeaning.FREQUENCY)
     sample_defaults = bias_correctable and not population
     skewness_family = options.skewness_estimator or ("G1" if sample_defaults else "g1")
     kurtosis_family = options.kurtosis_estimator or ("G2" if sample_defaults else "g2")
@@ -458,24 +491,22 @@ def describe(data: WeightedData, options: DescribeOptions, *, kind: str) -> Desc
             "every count lies in one bin, so the spread and shape within it are unknown",
             SPREAD_DESCRIPTORS + SHAPE_DESCRIPTORS + ROBUST_SHAPE_DESCRIPTORS + ("lag1_autocorrelation",),
         )
-    elif basis.single:
-        notes.add(
-            "single_observation",
-            "a single observation carries no information on spread or shape",
-            SPREAD_DESCRIPTORS + SHAPE_DESCRIPTORS + ROBUST_SHAPE_DESCRIPTORS + ("lag1_autocorrelation",),
-        )
-    elif constant:
-        notes.add(
-            "constant_data",
-            "all values are equal: the spread is zero, so shape (skewness, kurtosis), "
-            "standardized moments and autocorrelation are undefined",
-            SHAPE_DESCRIPTORS
-            + ("quartile_skewness", "octile_kurtosis", "octile_excess_kurtosis", "medcouple")
-            + ("mean_median_gap", "l_skewness", "l_kurtosis", "lag1_autocorrelation", "tail_contributions"),
-        )
+    else:
+        _note_degenerate(basis, constant, notes)
 
     descriptors: dict[str, Descriptor] = {}
-    _moment_descriptors(descriptors, data, sums, basis, options, constant, notes)
+    weighted = data.weights is not None
+    _moment_descriptors(
+        descriptors,
+        sums,
+        basis,
+        constant,
+        notes,
+        mean_label=(
+            "mean of bin midpoints" if data.binned else "weighted arithmetic mean" if weighted else "arithmetic mean"
+        ),
+        lowest=_lowest_value(data),
+    )
     quantile_values, robust_quantiles = _order_descriptors(descriptors, data, basis, options, notes)
     _robust_descriptors(descriptors, data, sums, basis, robust_quantiles, constant, notes)
     descriptors["lag1_autocorrelation"] = Descriptor(
@@ -541,6 +572,25 @@ def describe(data: WeightedData, options: DescribeOptions, *, kind: str) -> Desc
         warnings=notes.items,
         resampling=resampling,
     )
+
+
+def _note_degenerate(basis: _Basis, constant: bool, notes: _Notes) -> None:
+    """Say why spread or shape is undefined: one observation, or no spread at all."""
+    if basis.single:
+        notes.add(
+            "single_observation",
+            "a single observation carries no information on spread or shape",
+            SPREAD_DESCRIPTORS + SHAPE_DESCRIPTORS + ROBUST_SHAPE_DESCRIPTORS + ("lag1_autocorrelation",),
+        )
+    elif constant:
+        notes.add(
+            "constant_data",
+            "all values are equal: the spread is zero, so shape (skewness, kurtosis), "
+            "standardized moments and autocorrelation are undefined",
+            SHAPE_DESCRIPTORS
+            + ("quartile_skewness", "octile_kurtosis", "octile_excess_kurtosis", "medcouple")
+            + ("mean_median_gap", "l_skewness", "l_kurtosis", "lag1_autocorrelation", "tail_contributions"),
+        )
 
 
 def _explain_remaining_nulls(descriptors: dict[str, Descriptor], notes: _Notes) -> None:
@@ -758,19 +808,21 @@ def _sheppard(data: WeightedData, sums: CentralSums, notes: _Notes) -> tuple[Cen
 
 def _moment_descriptors(
     descriptors: dict[str, Descriptor],
-    data: WeightedData,
     sums: CentralSums | None,
     basis: _Basis,
-    options: DescribeOptions,
     constant: bool,
     notes: _Notes,
+    *,
+    mean_label: str,
+    lowest: float,
 ) -> None:
-    weighted = data.weights is not None
+    """Mean, variance, standard deviation, coefficient of variation, skewness and kurtosis from ``sums``.
+
+    ``lowest`` is the smallest value (for bins, the lower edge of the lowest occupied bin): the
+    coefficient of variation is defined only on a ratio scale.
+    """
     mean = None if sums is None else notes.finite(sums.mean, "mean")
-    descriptors["mean"] = Descriptor(
-        mean,
-        ("mean of bin midpoints" if data.binned else "weighted arithmetic mean" if weighted else "arithmetic mean"),
-    )
+    descriptors["mean"] = Descriptor(mean, mean_label)
     variance = sd = None
     if sums is not None and not basis.single:
         variance = notes.finite(sums.central_moment(2) * basis.variance_factor, "variance")
@@ -779,7 +831,7 @@ def _moment_descriptors(
     descriptors["variance"] = Descriptor(variance, basis.variance_label)
     descriptors["standard_deviation"] = Descriptor(sd, f"square root of the {basis.variance_label} variance")
     descriptors["coefficient_of_variation"] = Descriptor(
-        _coefficient_of_variation(data, sums, sd, basis, notes),
+        _coefficient_of_variation(lowest, sums, sd, basis, notes),
         f"standard deviation ({basis.variance_label}) / mean",
     )
     _shape(descriptors, sums, basis, basis.single or constant, notes)
@@ -862,34 +914,9 @@ def _robust_descriptors(
     notes: _Notes,
 ) -> None:
     """Quartile skewness, octile kurtosis, medcouple, half-sample mode, mean-median gap, L-moments."""
-    q1, q2, q3, e1, e2, e3, e5, e6, e7 = np.asarray(quantiles, dtype=np.float64)  # numpy scalars: no ZeroDivisionError
     method = "grouped quantiles" if data.binned else f"quantiles type {basis.quantile_type}"
     undefined = "single" if basis.single else "constant" if constant else None
-    with np.errstate(over="ignore", invalid="ignore", divide="ignore"):
-        # Halves first, so quantiles near +-1.8e308 do not overflow before the ratio.
-        bowley = (0.5 * q3 + 0.5 * q1 - q2) / (0.5 * q3 - 0.5 * q1)
-        moors = ((0.5 * e7 - 0.5 * e5) + (0.5 * e3 - 0.5 * e1)) / (0.5 * e6 - 0.5 * e2)
-    defined_bowley = undefined is None and math.isfinite(bowley)
-    defined_moors = undefined is None and math.isfinite(moors)
-    descriptors["quartile_skewness"] = Descriptor(
-        float(bowley) if defined_bowley else None, f"(Q3 + Q1 - 2 Q2) / (Q3 - Q1), {method} (Bowley)"
-    )
-    descriptors["octile_kurtosis"] = Descriptor(
-        float(moors) if defined_moors else None, f"((E7 - E5) + (E3 - E1)) / (E6 - E2), {method} (Moors 1988)"
-    )
-    descriptors["octile_excess_kurtosis"] = Descriptor(
-        float(moors - NORMAL_OCTILE_KURTOSIS) if defined_moors else None,
-        f"octile kurtosis - {NORMAL_OCTILE_KURTOSIS!r} (its normal value)",
-    )
-    if undefined is None and not (defined_bowley and defined_moors):
-        affected = [n for n, ok in (("quartile_skewness", defined_bowley), ("octile_kurtosis", defined_moors)) if not ok]
-        if "octile_kurtosis" in affected:
-            affected.append("octile_excess_kurtosis")
-        notes.add(
-            "quantile_spread_zero",
-            "the quantiles in the denominator coincide (or fall in an open bin), so the ratio is undefined",
-            affected,
-        )
+    _quantile_shape(descriptors, quantiles, method, undefined, notes)
 
     mc = hsm = None
     if data.binned:
@@ -920,13 +947,53 @@ def _robust_descriptors(
     descriptors["medcouple"] = Descriptor(mc, "median of h(x_i, x_j) over x_i <= median <= x_j (Brys et al. 2004)")
     descriptors["half_sample_mode"] = Descriptor(hsm, "half-sample mode (Bickel & Fruhwirth 2006)")
 
+    _mean_median_gap(descriptors)
+
+    _l_moments(descriptors, data, sums, basis, undefined, notes)
+
+
+def _quantile_shape(
+    descriptors: dict[str, Descriptor],
+    quantiles: np.ndarray,
+    method: str,
+    undefined: str | None,
+    notes: _Notes,
+) -> None:
+    """Quartile skewness and octile kurtosis from the quantiles at ``_ROBUST_PROBABILITIES``."""
+    q1, q2, q3, e1, e2, e3, e5, e6, e7 = np.asarray(quantiles, dtype=np.float64)  # numpy scalars: no ZeroDivisionError
+    with np.errstate(over="ignore", invalid="ignore", divide="ignore"):
+        # Halves first, so quantiles near +-1.8e308 do not overflow before the ratio.
+        bowley = (0.5 * q3 + 0.5 * q1 - q2) / (0.5 * q3 - 0.5 * q1)
+        moors = ((0.5 * e7 - 0.5 * e5) + (0.5 * e3 - 0.5 * e1)) / (0.5 * e6 - 0.5 * e2)
+    defined_bowley = undefined is None and math.isfinite(bowley)
+    defined_moors = undefined is None and math.isfinite(moors)
+    descriptors["quartile_skewness"] = Descriptor(
+        float(bowley) if defined_bowley else None, f"(Q3 + Q1 - 2 Q2) / (Q3 - Q1), {method} (Bowley)"
+    )
+    descriptors["octile_kurtosis"] = Descriptor(
+        float(moors) if defined_moors else None, f"((E7 - E5) + (E3 - E1)) / (E6 - E2), {method} (Moors 1988)"
+    )
+    descriptors["octile_excess_kurtosis"] = Descriptor(
+        float(moors - NORMAL_OCTILE_KURTOSIS) if defined_moors else None,
+        f"octile kurtosis - {NORMAL_OCTILE_KURTOSIS!r} (its normal value)",
+    )
+    if undefined is None and not (defined_bowley and defined_moors):
+        affected = [n for n, ok in (("quartile_skewness", defined_bowley), ("octile_kurtosis", defined_moors)) if not ok]
+        if "octile_kurtosis" in affected:
+            affected.append("octile_excess_kurtosis")
+        notes.add(
+            "quantile_spread_zero",
+            "the quantiles in the denominator coincide (or fall in an open bin), so the ratio is undefined",
+            affected,
+        )
+
+
+def _mean_median_gap(descriptors: dict[str, Descriptor]) -> None:
     mean, median, sd = descriptors["mean"].value, descriptors["median"].value, descriptors["standard_deviation"].value
     gap = None
     if mean is not None and median is not None and sd:
         gap = _finite_or_none((0.5 * mean - 0.5 * median) / (0.5 * sd))
     descriptors["mean_median_gap"] = Descriptor(gap, "(mean - median) / standard deviation")
-
-    _l_moments(descriptors, data, sums, basis, undefined, notes)
 
 
 def _l_moments(
@@ -995,16 +1062,23 @@ def _normality(
         reason = "binned counts give only grouped values; the tests need observations"
     elif not data.integer_weights or data.meaning is WeightMeaning.RELIABILITY:
         reason = "the tests need observations with whole counts"
-    elif sums is None or basis.single or constant:
+    return _normality_tests(reason, sums, basis, constant, data.total_weight, notes)
+
+
+def _normality_tests(
+    reason: str | None, sums: CentralSums | None, basis: _Basis, constant: bool, n: float, notes: _Notes
+) -> list[NormalityTest]:
+    """The tests from g1 and b2 of a sample of ``n`` whole observations, unless ``reason`` says why not."""
+    if reason is None and (sums is None or basis.single or constant):
         reason = "the tests need data with spread (at least two distinct values)"
     results = {}
     if reason is None:
         assert sums is not None
-        results = normality.tests(sums.standardized_moment(3), sums.standardized_moment(4), data.total_weight)
-        if data.total_weight < normality.SMALL_SAMPLE_KURTOSIS:
+        results = normality.tests(sums.standardized_moment(3), sums.standardized_moment(4), n)
+        if n < normality.SMALL_SAMPLE_KURTOSIS:
             notes.add(
                 "normality_small_sample",
-                f"with n = {data.total_weight:g} (< {normality.SMALL_SAMPLE_KURTOSIS}) the kurtosis test's normal "
+                f"with n = {n:g} (< {normality.SMALL_SAMPLE_KURTOSIS}) the kurtosis test's normal "
                 "approximation is poor, and so is the omnibus test built on it",
                 ["normality"],
             )
@@ -1046,8 +1120,16 @@ def _sample_quantiles(
     return values[:2], values[2:]
 
 
+def _lowest_value(data: WeightedData) -> float:
+    """The smallest value; for bins the lower edge of the lowest bin holding data."""
+    if data.binned:
+        assert data.edges is not None and data.weights is not None
+        return float(data.edges[int(np.flatnonzero(data.weights > 0)[0])])
+    return float(data.sorted_values[0])
+
+
 def _coefficient_of_variation(
-    data: WeightedData, sums: CentralSums | None, sd: float | None, basis: _Basis, notes: _Notes
+    lowest: float, sums: CentralSums | None, sd: float | None, basis: _Basis, notes: _Notes
 ) -> float | None:
     """``sd / mean`` for data on a ratio scale (no negative values) with a non-zero mean.
 
@@ -1057,11 +1139,6 @@ def _coefficient_of_variation(
     if sums is None or basis.single:
         return None
     reason = None
-    if data.binned:
-        assert data.edges is not None and data.weights is not None
-        lowest = data.edges[int(np.flatnonzero(data.weights > 0)[0])]
-    else:
-        lowest = data.sorted_values[0]
     if lowest < 0.0:
         reason = "the data include negative values, so they are not on a ratio scale"
     elif sums.mean == 0.0:
@@ -1193,16 +1270,33 @@ def _check_symmetry(
     descriptors: dict[str, Descriptor], data: WeightedData, basis: _Basis, notes: _Notes
 ) -> None:
     """Warn when skewness is near zero while quartiles or the mean-median gap show asymmetry."""
-    skew = descriptors["skewness"].value
-    mean, median, sd = descriptors["mean"].value, descriptors["median"].value, descriptors["standard_deviation"].value
-    if skew is None or mean is None or median is None or not sd:
+    if not _symmetry_checkable(descriptors):
         return
     probabilities = np.array([0.25, 0.5, 0.75])
     if data.binned:
-        q1, q2, q3 = grouped.quantiles(data, probabilities)
+        quartiles = grouped.quantiles(data, probabilities)
     else:
         support = data.support
-        q1, q2, q3 = order.cdf_quantiles(support.values, support.cumulative, probabilities, average_at_steps=True)
+        quartiles = order.cdf_quantiles(support.values, support.cumulative, probabilities, average_at_steps=True)
+    _note_asymmetry(descriptors, quartiles, basis, notes)
+
+
+def _symmetry_checkable(descriptors: dict[str, Descriptor]) -> bool:
+    """Whether skewness, mean, median and a non-zero standard deviation are all defined."""
+    values = [descriptors[name].value for name in ("skewness", "mean", "median")]
+    return all(v is not None for v in values) and bool(descriptors["standard_deviation"].value)
+
+
+def _note_asymmetry(
+    descriptors: dict[str, Descriptor], quartiles: np.ndarray, basis: _Basis, notes: _Notes
+) -> None:
+    """The comparison behind ``_check_symmetry``, given Q1, Q2, Q3 by whatever rule the data allow."""
+    if not _symmetry_checkable(descriptors):
+        return
+    skew = descriptors["skewness"].value
+    mean, sd = descriptors["mean"].value, descriptors["standard_deviation"].value
+    assert skew is not None and mean is not None and sd is not None
+    q1, q2, q3 = np.asarray(quartiles, dtype=np.float64)  # numpy scalars: no ZeroDivisionError or OverflowError
     if not (math.isfinite(q1) and math.isfinite(q3)) or q3 == q1:
         return
     with np.errstate(over="ignore", invalid="ignore"):

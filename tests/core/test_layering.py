@@ -5,6 +5,9 @@ import pathlib
 
 CORE = pathlib.Path(__file__).resolve().parents[2] / "service" / "core"
 ALLOWED_TOP_LEVEL = {"numpy", "scipy", "service", "__future__"}
+# Third-party imports allowed in one module only: the KLL sketches sent by Spark, Druid or Dask
+# jobs are decoded by the library that defines their format.
+ALLOWED_IN = {"sketches.py": {"datasketches"}}
 
 
 def _imports(path: pathlib.Path) -> set[str]:
@@ -28,7 +31,10 @@ def test_core_imports_only_numpy_scipy_and_stdlib():
     files = sorted(CORE.rglob("*.py"))
     assert files, "service/core has no modules"
     allowed = ALLOWED_TOP_LEVEL | _stdlib()
-    offenders = {str(f.relative_to(CORE)): sorted(_imports(f) - allowed) for f in files}
+    offenders = {
+        str(f.relative_to(CORE)): sorted(_imports(f) - allowed - ALLOWED_IN.get(str(f.relative_to(CORE)), set()))
+        for f in files
+    }
     offenders = {f: names for f, names in offenders.items() if names}
     assert offenders == {}, f"service/core must not import these: {offenders}"
 
