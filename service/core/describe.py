@@ -181,6 +181,8 @@ class Resampling:
     resamples: int
     seed: int
     scheme: str
+    # The resamples behind the intervals, for contrasting two inputs (compare.py); not a response member.
+    replicates: resample.Replicates | None = field(default=None, repr=False, compare=False)
 
 
 @dataclass
@@ -719,6 +721,7 @@ def _intervals(
         resamples=outcome.resamples,
         seed=interval.seed,
         scheme=outcome.scheme,
+        replicates=outcome.replicates,
     )
 
 

@@ -28,7 +28,7 @@ from scipy import special
 
 from service.core import grouped, order, shape
 from service.core.errors import LimitExceeded, Location
-from service.core.moments import CentralSums, scale_by_power_of_two
+from service.core.moments import CentralSums, central_sums, scale_by_power_of_two
 from service.core.weighted import WeightedData, WeightMeaning
 
 # Elements of one b x k weight matrix: bounds memory (about 32 MB per matrix) whatever the request.
@@ -539,13 +539,20 @@ def _percentile(samples: np.ndarray, fractions: np.ndarray) -> np.ndarray:
     return np.quantile(samples, fractions, method="linear")
 
 
-def _interval(
+def interval_from_replicates(
     estimate: float,
     replicates: np.ndarray,
-    jackknife: np.ndarray | None,
-    jackknife_weights: np.ndarray | None,
+    jackknives: list[tuple[np.ndarray, np.ndarray]] | None,
     options: IntervalOptions,
 ) -> BootstrapResult:
+    """Interval and standard error of one statistic from its bootstrap replicates.
+
+    ``jackknives`` (BCa only) holds, for each independently resampled input, the statistic's
+    leave-one-out values over that input's support rows and how many observations each row
+    stands for; with one input this is the ordinary jackknife of eq. 14.15, with two it is the
+    two-sample acceleration (see :func:`acceleration`). ``None`` makes BCa fall back to the
+    percentile interval, with the reason.
+    """
     if not np.all(np.isfinite(replicates)):
         return BootstrapResult(None, None, "some resamples leave this descriptor undefined")
     # Work in units of a power of two near the largest magnitude: exact, and neither the
@@ -555,18 +562,18 @@ def _interval(
     exponent = math.frexp(largest)[1] if largest > 0.0 else 0
     scaled = np.ldexp(replicates, -exponent)
     scaled_estimate = math.ldexp(estimate, -exponent)
-    scaled_jackknife = None if jackknife is None else np.ldexp(jackknife, -exponent)
+    scaled_jackknives = None
+    if jackknives is not None:
+        scaled_jackknives = [(np.ldexp(values, -exponent), weights) for values, weights in jackknives]
     alpha = 1.0 - options.level
     se = None
     if replicates.size > 1:
         se = scale_by_power_of_two(float(np.std(scaled, ddof=1)), exponent)
         se = None if math.isnan(se) else se
     tails = np.array([alpha / 2.0, 1.0 - alpha / 2.0])
-    method, reason, acceleration = options.method, None, None
+    method, reason, accel = options.method, None, None
     if method == "bca":
-        fractions, reason, acceleration = _bca_fractions(
-            scaled_estimate, scaled, scaled_jackknife, jackknife_weights, tails
-        )
+        fractions, reason, accel = _bca_fractions(scaled_estimate, scaled, scaled_jackknives, tails)
         if fractions is None:
             method = "percentile"
             fractions = tails
@@ -580,14 +587,39 @@ def _interval(
         Interval(None if math.isnan(low) else low, None if math.isnan(high) else high, options.level, method),
         se,
         reason,
-        acceleration,
+        accel,
     )
 
 
-def _bca_fractions(estimate, replicates, jackknife, weights, tails):
+def acceleration(jackknives: list[tuple[np.ndarray, np.ndarray]]) -> float | None:
+    """BCa's acceleration from the jackknife of each independently resampled input.
+
+    For input i with n_i observations and leave-one-out values theta_(ij) (row j counted
+    ``weights[j]`` times), U_ij = (n_i - 1)(mean_j theta_(ij) - theta_(ij)) and
+
+        a = sum_i sum_j U_ij^3 / n_i^3 / (6 [sum_i sum_j U_ij^2 / n_i^2]^(3/2)).
+
+    With one input the factors (n - 1) / n cancel and this is Efron & Tibshirani (1993),
+    eq. 14.15; with several it is the multi-sample form scipy.stats.bootstrap (1.17.1) uses,
+    whose source cites the same book (sections 14.3 and 15.4). ``None`` when every left-out
+    observation gives the same value (no acceleration can be estimated).
+    """
+    numerator = denominator = 0.0
+    for values, weights in jackknives:
+        n = float(np.sum(weights))
+        centre = np.sum(weights * values) / n
+        influence = (n - 1.0) / n * (centre - values)
+        numerator += float(np.sum(weights * influence**3))
+        denominator += float(np.sum(weights * influence**2))
+    spread = denominator**1.5
+    if spread == 0.0 or not math.isfinite(spread):
+        return None
+    return numerator / (6.0 * spread)
+
+
+def _bca_fractions(estimate, replicates, jackknives, tails):
     """Adjusted tail fractions of BCa (Efron & Tibshirani 1993, eq. 14.10) and the acceleration,
-    or None, why, None. The acceleration is eq. 14.15 with each support row's leave-one-out value
-    counted once per observation it stands for."""
+    or None, why, None."""
     below = np.count_nonzero(replicates < estimate)
     equal = np.count_nonzero(replicates == estimate)
     if equal == replicates.size:
@@ -596,19 +628,33 @@ def _bca_fractions(estimate, replicates, jackknife, weights, tails):
     if not 0.0 < proportion < 1.0:
         return None, "the estimate lies outside the bootstrap distribution", None
     z0 = special.ndtri(proportion)
-    if jackknife is None or not np.all(np.isfinite(jackknife)):
+    if jackknives is None or not all(np.all(np.isfinite(values)) for values, _ in jackknives):
         return None, "the jackknife is undefined for some left-out observation", None
-    centre = np.sum(weights * jackknife) / np.sum(weights)
-    gap = centre - jackknife
-    denominator = np.sum(weights * gap**2) ** 1.5
-    if denominator == 0.0 or not np.isfinite(denominator):
+    accel = acceleration(jackknives)
+    if accel is None:
         return None, "the jackknife shows no variation, so the acceleration is undefined", None
-    acceleration = float(np.sum(weights * gap**3) / (6.0 * denominator))
     z = special.ndtri(tails)
-    adjusted = special.ndtr(z0 + (z0 + z) / (1.0 - acceleration * (z0 + z)))
+    adjusted = special.ndtr(z0 + (z0 + z) / (1.0 - accel * (z0 + z)))
     if not np.all(np.isfinite(adjusted)):
-        return None, "the BCa adjustment is undefined for these data", acceleration
-    return adjusted, None, acceleration
+        return None, "the BCa adjustment is undefined for these data", accel
+    return adjusted, None, accel
+
+
+@dataclass(frozen=True, eq=False)
+class Replicates:
+    """Every statistic of every resample of one input, kept so two inputs can be contrasted.
+
+    ``values[name]`` is a rounds x resamples array: one round for the ordinary bootstrap, one
+    round per subset for the bag of little bootstraps (``subsets``). Names are those of
+    ``_Statistics.evaluate`` (``quantile:i`` for the i-th requested probability).
+    ``jackknife[name]`` holds the leave-one-out value of each support row and
+    ``jackknife_weights`` how many observations each row stands for (BCa only; else ``None``).
+    """
+
+    values: dict[str, np.ndarray]
+    jackknife: dict[str, np.ndarray] | None
+    jackknife_weights: np.ndarray | None
+    subsets: bool
 
 
 @dataclass(frozen=True)
@@ -619,6 +665,7 @@ class BootstrapOutcome:
     scheme: str
     notes: list[str]
     accelerations: dict[str, float]
+    replicates: Replicates | None = None
 
 
 INTERVAL_DESCRIPTORS = (
@@ -654,6 +701,29 @@ def _over_budget(work: float, max_work: float, allowed: int, description: str) -
     )
 
 
+def _uses_subsets(plan: _Plan, subset_rows: int) -> bool:
+    """Whether the bag of little bootstraps replaces the ordinary bootstrap for this plan."""
+    return plan.values.size > subset_rows and plan.edges is None
+
+
+def _cost(plan: _Plan, resamples: int, subset_rows: int) -> tuple[float, float, str]:
+    """The work ``bootstrap`` spends (rows touched), the work per resample, and how it was counted."""
+    if _uses_subsets(plan, subset_rows):
+        m = int(math.ceil(plan.draws**SUBSET_EXPONENT))
+        drawn = SUBSETS * int(math.ceil(resamples / SUBSETS))
+        return float(drawn) * m, float(m), f"{drawn} resamples x {m} subset rows"
+    k = plan.values.size
+    return float(resamples) * float(k), float(k), f"{resamples} resamples x {k} support rows"
+
+
+def resampling_work(data: WeightedData, resamples: int, subset_rows: int) -> tuple[float, float]:
+    """(work, work per resample) that ``bootstrap`` would spend on ``data``: the measure its budget
+    ``max_work`` is compared with, so a caller resampling several inputs can budget them together."""
+    plan, _ = _plan(data, central_sums(data.values, data.weights, 4))
+    work, per_resample, _ = _cost(plan, resamples, subset_rows)
+    return work, per_resample
+
+
 def _little_bootstraps(
     plan: _Plan,
     notes: list[str],
@@ -662,7 +732,6 @@ def _little_bootstraps(
     probabilities: np.ndarray,
     full: _Statistics,
     options: IntervalOptions,
-    max_work: float,
     deadline: float | None,
 ) -> BootstrapOutcome:
     """Bag of little bootstraps: intervals averaged over resamples of size n drawn from small subsets.
@@ -674,9 +743,6 @@ def _little_bootstraps(
     observations = plan.draws
     m = int(math.ceil(observations**SUBSET_EXPONENT))
     per_subset = int(math.ceil(options.resamples / SUBSETS))
-    work = float(SUBSETS * per_subset) * m
-    if work > max_work:
-        raise _over_budget(work, max_work, int(max_work // m), f"{SUBSETS * per_subset} resamples x {m} subset rows")
     wanted = tuple(name for name in INTERVAL_DESCRIPTORS if estimates.get(name) is not None)
     names = wanted + tuple(f"quantile:{i}" for i, q in enumerate(quantile_estimates) if q is not None)
     method = "basic" if options.method == "basic" else "percentile"
@@ -686,6 +752,7 @@ def _little_bootstraps(
     errors: dict[str, list[float]] = {name: [] for name in names}
     undefined: set[str] = set()
     children = np.random.SeedSequence(options.seed).spawn(SUBSETS)
+    rounds: list[dict[str, np.ndarray]] = []
     for child in children:
         _deadline_check(deadline)
         rng = np.random.default_rng(child)
@@ -708,6 +775,7 @@ def _little_bootstraps(
         statistics = _Statistics(subset, (full.skewness_family, full.kurtosis_family), full.quantile_type, full.factor_rule)
         weights = rng.multinomial(observations, counts / m, size=per_subset).astype(np.float64) * subset.unit[None, :]
         replicates = statistics.evaluate(_Rows(weights, subset.powers, subset.integer), probabilities, wanted)
+        rounds.append(replicates)
         alpha = 1.0 - options.level
         for name in names:
             values = replicates[name]
@@ -738,7 +806,8 @@ def _little_bootstraps(
         f"bag of little bootstraps (Kleiner et al. 2014): {SUBSETS} subsets of {m} = n^{SUBSET_EXPONENT} "
         f"observations, {per_subset} multinomial resamples of size {observations} each"
     )
-    return BootstrapOutcome(results, quantiles, SUBSETS * per_subset, scheme, notes, {})
+    kept = Replicates({name: np.stack([r[name] for r in rounds]) for name in rounds[0]}, None, None, True)
+    return BootstrapOutcome(results, quantiles, SUBSETS * per_subset, scheme, notes, {}, kept)
 
 
 def bootstrap(
@@ -769,14 +838,14 @@ def bootstrap(
     """
     plan, notes = _plan(data, sums)
     k = plan.values.size
-    if k > subset_rows and plan.edges is None:
+    work, per_resample, counted = _cost(plan, options.resamples, subset_rows)
+    if work > max_work:
+        raise _over_budget(work, max_work, int(max_work // per_resample), counted)
+    if _uses_subsets(plan, subset_rows):
         return _little_bootstraps(
             plan, notes, estimates, quantile_estimates, probabilities,
-            _Statistics(plan, families, quantile_type, factor_rule), options, max_work, deadline,
+            _Statistics(plan, families, quantile_type, factor_rule), options, deadline,
         )
-    work = float(options.resamples) * float(k)
-    if work > max_work:
-        raise _over_budget(work, max_work, int(max_work // k), f"{options.resamples} resamples x {k} support rows")
     statistics = _Statistics(plan, families, quantile_type, factor_rule, sheppard_width)
     wanted = tuple(name for name in INTERVAL_DESCRIPTORS if estimates.get(name) is not None)
 
@@ -803,12 +872,8 @@ def bootstrap(
     for name in wanted:
         estimate = estimates[name]
         assert estimate is not None
-        results[name] = _interval(
-            estimate,
-            replicates[name],
-            None if jackknife is None else jackknife[name],
-            jackknife_weights,
-            options,
+        results[name] = interval_from_replicates(
+            estimate, replicates[name], None if jackknife is None else [(jackknife[name], jackknife_weights)], options
         )
     quantile_results = []
     for i, estimate in enumerate(quantile_estimates):
@@ -817,10 +882,13 @@ def bootstrap(
             continue
         name = f"quantile:{i}"
         quantile_results.append(
-            _interval(estimate, replicates[name], None if jackknife is None else jackknife[name], jackknife_weights, options)
+            interval_from_replicates(
+                estimate, replicates[name], None if jackknife is None else [(jackknife[name], jackknife_weights)], options
+            )
         )
     accelerations = {name: r.acceleration for name, r in results.items() if r.acceleration is not None}
     scheme = (
         f"multinomial counts over {k} distinct values" if plan.multinomial else f"uniform draws of {k} weighted entries"
     )
-    return BootstrapOutcome(results, quantile_results, options.resamples, scheme, notes, accelerations)
+    kept = Replicates({name: values[None, :] for name, values in replicates.items()}, jackknife, jackknife_weights, False)
+    return BootstrapOutcome(results, quantile_results, options.resamples, scheme, notes, accelerations, kept)
