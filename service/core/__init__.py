@@ -1,5 +1,6 @@
 """The numeric core: pure numpy/scipy functions on the one weighted form; no HTTP here."""
 
+from service.core.compare import Comparison, Scores, compare, standardize
 from service.core.describe import DEFAULT_PROBABILITIES, Description, DescribeOptions, describe
 from service.core.errors import DescriptorError, LimitExceeded, Location, UncomputableInput
 from service.core.moments import CentralSums, central_sums
@@ -28,6 +29,7 @@ __all__ = [
     "DEFAULT_PROBABILITIES",
     "PROBABILITY_TOLERANCE",
     "CentralSums",
+    "Comparison",
     "DescribeOptions",
     "Description",
     "DescriptorError",
@@ -35,6 +37,7 @@ __all__ = [
     "LimitExceeded",
     "Location",
     "PartialState",
+    "Scores",
     "SketchUnion",
     "UncomputableInput",
     "WeightMeaning",
@@ -42,6 +45,7 @@ __all__ = [
     "central_sums",
     "check_states",
     "combine_sketches",
+    "compare",
     "describe",
     "describe_state",
     "from_array",
@@ -52,5 +56,6 @@ __all__ = [
     "merge",
     "merge_states",
     "partial_state",
+    "standardize",
     "state_of",
 ]

@@ -125,6 +125,32 @@ MEMBERS = (
           "coverage P(l <= Binomial(n, p) <= u - 1) (median, quantiles)", ("interval",),
           ("no options.interval", "weights that are not whole counts", "n too small for the level"),
           "Conover, Practical Nonparametric Statistics, 3rd ed., section 3.2"),
+    Entry("differences", "comparison",
+          "second minus first, for every scalar descriptor; interval from independent resampling of both inputs "
+          "(replicate k: stat(second*_k) - stat(first*_k)); Welch's t interval for the mean", ("interval",),
+          ("either input leaves the descriptor undefined",),
+          "Efron & Tibshirani 1993, ch. 8 (two-sample bootstrap); Welch, Biometrika 34, 1947"),
+    Entry("ratios", "comparison", "second / first, for the scale descriptors (variance, sd, range, IQR, MAD, "
+          "l_scale)", ("interval",), ("the first input's value is zero", "either input leaves it undefined"),
+          "Efron & Tibshirani 1993, ch. 8"),
+    Entry("standardized_mean_difference", "comparison",
+          "Hedges' g = J(m) (mean2 - mean1) / s_pooled, J(m) = Gamma(m/2) / (sqrt(m/2) Gamma((m-1)/2)), "
+          "m = n1 + n2 - 2; Cohen's d without J; n = counts, Kish's effective n for reliability weights",
+          ("interval",), ("a probability table (no sample size)", "no spread in either input", "m <= 1"),
+          "Hedges & Olkin, Statistical Methods for Meta-Analysis, 1985, ch. 5; Borenstein et al. 2009, ch. 4"),
+    Entry("quantile_shifts", "comparison", "q2(p) - q1(p) at each requested probability", ("probabilities",),
+          ("a quantile of either input is undefined",), "Doksum, Annals of Statistics 2, 1974 (shift function)"),
+    Entry("standardized_quantiles", "comparison",
+          "each input's quantiles as (q - mean) / sd and (q - median) / normal-consistent MAD, and second minus "
+          "first: shapes compared free of location and scale", ("probabilities",),
+          ("zero or undefined spread",), "standardization; Hampel 1974 for the MAD"),
+    Entry("distribution_test", "comparison",
+          "two-sample Kolmogorov-Smirnov (whole counts; exact up to 10000 per input, else asymptotic) or Pearson's "
+          "chi-square test of homogeneity (bins on the same edges)", (),
+          ("probabilities, reliability or fractional weights", "bins against other kinds or other edges"),
+          "scipy.stats.ks_2samp, scipy.stats.chi2_contingency; Hodges, Arkiv for Matematik 3, 1958"),
+    Entry("scores", "scores", "z = (x - mean) / sd and robust z = (x - median) / normal-consistent MAD",
+          ("convention",), ("zero or undefined spread",), "standard scores; Hampel 1974 for the MAD"),
 )
 
 WARNINGS = {
@@ -154,7 +180,8 @@ WARNINGS = {
     "normality_small_sample": "n < 20: the kurtosis test's approximation is poor",
     "bca_fallback": "BCa could not be computed; the percentile interval is given",
     "interval_undefined": "some resamples leave the descriptor undefined",
-    "interval_not_offered": "the bootstrap fails for this descriptor (extremes, serial order)",
+    "interval_not_offered": "the bootstrap fails for this descriptor (extremes, serial order), or the engine does "
+    "not resample it (comparisons)",
     "resampling_scheme": "how fractional weights were resampled",
     "bootstrap_small_sample": "n < 20: intervals may cover less than their level",
     "bootstrap_discrete": "few distinct values: order-statistic intervals are coarse",
@@ -162,4 +189,11 @@ WARNINGS = {
     "resampling are undefined",
     "approximate_quantiles": "quantiles from KLL sketches: within the stated normalized rank error, not exact",
     "beyond_state_order": "a moment above the highest order the partial states carry",
+    "difference_undefined": "a contrast of two inputs is undefined because an input leaves its descriptor undefined",
+    "ratio_undefined": "the first input's value is zero: the ratio second / first is undefined",
+    "effect_size_undefined": "no sample sizes (probabilities) or no spread: no standardized mean difference",
+    "conventions_differ": "the two inputs are described by different estimators",
+    "distribution_test_ties": "ties in the pooled data: the Kolmogorov-Smirnov p-value is conservative",
+    "chi_square_small_expected": "expected counts below 5: the chi-square approximation may be poor",
+    "score_undefined": "the reference's spread is zero or undefined: no z-score",
 }
