@@ -33,14 +33,28 @@ class JsonFormatter(logging.Formatter):
         return json.dumps(line, default=str, ensure_ascii=False)
 
 
+class _StderrHandler(logging.StreamHandler):
+    """Writes to whatever ``sys.stderr`` is at the time of each record (test runners swap it)."""
+
+    def __init__(self) -> None:
+        super().__init__()
+
+    @property
+    def stream(self):
+        return sys.stderr
+
+    @stream.setter
+    def stream(self, _value) -> None:
+        pass
+
+
 def configure(level: int = logging.INFO) -> None:
     """Send the ``service`` loggers to stderr as JSON lines (idempotent)."""
     logger = logging.getLogger("service")
-    if any(getattr(handler, "_tailgauge", False) for handler in logger.handlers):
+    if any(isinstance(handler, _StderrHandler) for handler in logger.handlers):
         return
-    handler = logging.StreamHandler(sys.stderr)
+    handler = _StderrHandler()
     handler.setFormatter(JsonFormatter())
-    handler._tailgauge = True  # type: ignore[attr-defined]
     logger.addHandler(handler)
     logger.setLevel(level)
     logger.propagate = False

@@ -110,6 +110,9 @@ def create_app(settings: Settings | None = None) -> Litestar:
         },
         cors_config=cors,
         openapi_config=None,
+        # Logging is ours (service/logs.py, and gunicorn's config); litestar's default would
+        # reconfigure the root logger of the process.
+        logging_config=None,
         request_max_body_size=settings.max_body_bytes,
         state=State({"settings": settings}),
         debug=False,

@@ -13,6 +13,7 @@ from schemathesis.specs.openapi.checks import positive_data_acceptance
 
 from service.api import create_app
 from service.settings import Settings
+from tests.fuzz import hooks  # noqa: F401  (registers the MessagePack serializer and deserializer)
 
 # A small resampling budget keeps generated interval requests quick; over it is a 422.
 schema = schemathesis.openapi.from_asgi("/openapi.json", create_app(Settings(max_resample_work=2_000_000)))
