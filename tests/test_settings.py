@@ -113,3 +113,39 @@ def test_direct_construction_checks_types(value):
 
 def test_settings_error_is_a_value_error():
     assert issubclass(SettingsError, ValueError)
+
+
+def test_tokens_origins_and_switches_are_parsed():
+    settings = Settings.from_env(
+        {
+            "TAILGAUGE_API_TOKENS": " roastery-token-0123456789 , courier-token-9876543210,",
+            "TAILGAUGE_METRICS_REQUIRE_TOKEN": "yes",
+            "TAILGAUGE_CORS_ORIGINS": "https://dash.kestrel-hill.example,http://127.0.0.1:8080",
+            "TAILGAUGE_REQUEST_LOG": "0",
+        }
+    )
+    assert settings.api_tokens == ("roastery-token-0123456789", "courier-token-9876543210")
+    assert settings.metrics_require_token is True and settings.request_log is False
+    assert settings.cors_origins == ("https://dash.kestrel-hill.example", "http://127.0.0.1:8080")
+
+
+def test_tokens_never_appear_in_the_settings_repr():
+    settings = Settings(api_tokens=("roastery-token-0123456789",))
+    assert "roastery-token" not in repr(settings)
+
+
+@pytest.mark.parametrize(
+    ("key", "raw"),
+    [
+        ("TAILGAUGE_API_TOKENS", "short"),
+        ("TAILGAUGE_API_TOKENS", "has spaces inside it ok"),
+        ("TAILGAUGE_METRICS_REQUIRE_TOKEN", "maybe"),
+        ("TAILGAUGE_CORS_ORIGINS", "dash.example"),
+        ("TAILGAUGE_REQUEST_LOG", "2"),
+    ],
+)
+def test_bad_tokens_origins_and_switches_are_rejected(key, raw):
+    with pytest.raises(SettingsError) as caught:
+        Settings.from_env({key: raw})
+    if key == "TAILGAUGE_API_TOKENS":
+        assert raw not in str(caught.value)  # a token (even a bad one) is never echoed
