@@ -390,65 +390,70 @@ def check_states(states: Sequence[PartialState], path: str = "$.states") -> None
     minimum)**j`` (each deviation is at most the range), with even-order sums >= 0. The
     bounds allow rounding of ``2**-30`` relative to the magnitude of the extremes.
     """
-    problems: list[Location] = []
-
-    def add(i: int, field: str, message: str) -> None:
-        problems.append(Location(f"{path}[{i}].{field}", message))
-
+    k = len(states)
+    lengths = np.fromiter((len(s.central_sums) for s in states), dtype=np.int64, count=k)
+    # Checked together as arrays (one state at a time costs more than the merge itself).
+    width = MAX_ORDER - 1
+    sums = np.zeros((k, width))
     for i, s in enumerate(states):
-        if not MIN_ORDER - 1 <= len(s.central_sums) <= MAX_ORDER - 1:
-            add(i, "central_sums", f"give M2 .. Mp for an order p from {MIN_ORDER} to {MAX_ORDER}")
-            continue
-        sums = np.asarray(s.central_sums, dtype=np.float64)
-        if not math.isfinite(s.count) or s.count < 0.0:
-            add(i, "count", "must be a finite number >= 0")
-            continue
-        if not math.isfinite(s.mean):
-            add(i, "mean", "must be a finite number")
-            continue
-        if not np.all(np.isfinite(sums)):
-            add(i, "central_sums", "every central sum must be a finite number")
-            continue
-        if s.count == 0.0:
-            if s.mean != 0.0:
-                add(i, "mean", "an empty state (count 0) has mean 0")
-            if np.any(sums != 0.0):
-                add(i, "central_sums", "an empty state (count 0) has every central sum 0")
-            for field, value in (("minimum", s.minimum), ("maximum", s.maximum)):
-                if value not in (None, 0.0):
-                    add(i, field, "an empty state (count 0) has no extremes: null")
-            continue
-        if s.minimum is None or s.maximum is None or not (math.isfinite(s.minimum) and math.isfinite(s.maximum)):
-            add(i, "minimum" if s.minimum is None or not math.isfinite(s.minimum) else "maximum",
-                "a non-empty state needs finite extremes")
-            continue
-        if s.minimum > s.maximum:
-            add(i, "maximum", "is below minimum")
-            continue
-        slack = _CONSISTENCY_TOLERANCE * max(abs(s.minimum), abs(s.maximum))
-        if not s.minimum - slack <= s.mean <= s.maximum + slack:
-            add(i, "mean", "lies outside [minimum, maximum]")
-            continue
-        even = sums[0::2]  # M2, M4, ...
-        if np.any(even < 0.0):
-            add(i, "central_sums", "central sums of even order (M2, M4, ...) cannot be negative")
-            continue
-        # |Mj| <= count * r**j, in units of 2**e >= r so neither side overflows.
-        radius = 0.5 * s.maximum - 0.5 * s.minimum + slack
-        exponent = math.frexp(radius)[1] if radius > 0.0 else 0
-        unit = math.ldexp(radius, -exponent)
-        orders = np.arange(2, sums.size + 2)
-        with np.errstate(under="ignore", over="ignore"):
-            scaled = np.abs(np.ldexp(sums, -(exponent + 1) * orders))
-        bound = s.count * unit**orders * (1.0 + 1e-9)
-        if np.any(scaled > bound):
-            j = int(orders[np.flatnonzero(scaled > bound)[0]])
-            add(i, "central_sums", f"M{j} is larger than values between minimum and maximum allow")
+        if lengths[i] <= width:
+            sums[i, : lengths[i]] = s.central_sums
+    count = np.fromiter((s.count for s in states), dtype=np.float64, count=k)
+    mean = np.fromiter((s.mean for s in states), dtype=np.float64, count=k)
+    minimum = np.fromiter((math.nan if s.minimum is None else s.minimum for s in states), np.float64, k)
+    maximum = np.fromiter((math.nan if s.maximum is None else s.maximum for s in states), np.float64, k)
+    no_minimum = np.fromiter((s.minimum is None for s in states), dtype=bool, count=k)
+    no_maximum = np.fromiter((s.maximum is None for s in states), dtype=bool, count=k)
+
+    problems: dict[int, list[Location]] = {}
+    settled = np.zeros(k, dtype=bool)
+
+    def flag(mask: np.ndarray, field: str, message, *, final: bool = True) -> None:
+        """Record ``field`` of every state in ``mask`` not already settled; ``message`` may depend on i."""
+        for i in np.flatnonzero(mask & ~settled):
+            text = message(i) if callable(message) else message
+            problems.setdefault(int(i), []).append(Location(f"{path}[{i}].{field}", text))
+        if final:
+            settled[mask] = True
+
+    with np.errstate(invalid="ignore", over="ignore", under="ignore"):
+        flag((lengths < MIN_ORDER - 1) | (lengths > width), "central_sums",
+             f"give M2 .. Mp for an order p from {MIN_ORDER} to {MAX_ORDER}")
+        flag(~(np.isfinite(count) & (count >= 0.0)), "count", "must be a finite number >= 0")
+        flag(~np.isfinite(mean), "mean", "must be a finite number")
+        flag(~np.all(np.isfinite(sums), axis=1), "central_sums", "every central sum must be a finite number")
+        empty = count == 0.0
+        flag(empty & (mean != 0.0), "mean", "an empty state (count 0) has mean 0", final=False)
+        flag(empty & np.any(sums != 0.0, axis=1), "central_sums", "an empty state (count 0) has every central sum 0",
+             final=False)
+        for field, values, absent in (("minimum", minimum, no_minimum), ("maximum", maximum, no_maximum)):
+            flag(empty & ~absent & (values != 0.0), field, "an empty state (count 0) has no extremes: null",
+                 final=False)
+        settled |= empty
+        flag(~np.isfinite(minimum), "minimum", "a non-empty state needs finite extremes")
+        flag(~np.isfinite(maximum), "maximum", "a non-empty state needs finite extremes")
+        flag(minimum > maximum, "maximum", "is below minimum")
+        slack = _CONSISTENCY_TOLERANCE * np.maximum(np.abs(minimum), np.abs(maximum))
+        flag(~((minimum - slack <= mean) & (mean <= maximum + slack)), "mean", "lies outside [minimum, maximum]")
+        flag(np.any(sums[:, 0::2] < 0.0, axis=1), "central_sums",
+             "central sums of even order (M2, M4, ...) cannot be negative")
+        # |Mj| <= count * r**j with r the range (plus slack), compared in units of 2**e >= r so
+        # neither side overflows.
+        radius = np.nan_to_num(0.5 * maximum - 0.5 * minimum + slack)
+        unit, exponent = np.frexp(radius)
+        orders = np.arange(2, width + 2)
+        scaled = np.abs(np.ldexp(sums, -(exponent[:, None] + 1) * orders[None, :]))
+        bound = count[:, None] * unit[:, None] ** orders[None, :] * (1.0 + 1e-9)
+        too_large = scaled > bound
+        flag(np.any(too_large, axis=1), "central_sums",
+             lambda i: f"M{int(np.flatnonzero(too_large[i])[0]) + 2} is larger than values between minimum and "
+             "maximum allow")
     if problems:
-        first = problems[0]
+        found = [location for i in sorted(problems) for location in problems[i]]
+        first = found[0]
         raise UncomputableInput(
-            detail=f"{len(problems)} inconsistent partial state field(s); first {first.path}: {first.message}",
-            locations=problems[:10],
+            detail=f"{len(found)} inconsistent partial state field(s); first {first.path}: {first.message}",
+            locations=found[:10],
         )
 
 

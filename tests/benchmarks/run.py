@@ -2,6 +2,7 @@
 
 Usage: make bench            (all sections)
        python tests/benchmarks/run.py moments
+       python tests/benchmarks/run.py merge=1e7     (a section's size, where it takes one)
 """
 
 from __future__ import annotations
@@ -182,18 +183,94 @@ def bench_order_statistics() -> None:
     print(f"  medcouple n = 100,000: ours {t_ours:6.3f} s; statsmodels use_fast=True {t_fast:6.3f} s ({t_fast / t_ours:5.1f}x)")
 
 
+def _merge_recipe_run(variant: str, n: int, chunks: int) -> None:
+    """One variant of the recipe benchmark, in a fresh process; prints seconds and peak RSS growth."""
+    import json
+    import resource
+
+    import dask.array as da
+
+    from service.core import DescribeOptions, combine_sketches, describe_state, kll_sketch_bytes, merge_states
+    from service.core import partial_state
+    from service.recipes.dask_states import chunk_summaries
+
+    baseline = resource.getrusage(resource.RUSAGE_SELF).ru_maxrss  # KiB on Linux
+    start = time.perf_counter()
+    if variant == "dask":
+        x = da.random.default_rng(20261206).normal(250.0, 4.0, size=n, chunks=n // chunks)
+        states, sketches = chunk_summaries(x, scheduler="threads")
+        state, union = merge_states(states), combine_sketches(sketches)
+    else:
+        x = np.random.default_rng(20261206).normal(250.0, 4.0, size=n)
+        state, union = partial_state(x), combine_sketches([kll_sketch_bytes(x)])
+    describe_state(state, DescribeOptions(), union)
+    elapsed = time.perf_counter() - start
+    peak = resource.getrusage(resource.RUSAGE_SELF).ru_maxrss
+    print(json.dumps({"seconds": elapsed, "peak_mb": (peak - baseline) / 1024}))
+
+
+def bench_merge(size: str = "1e8") -> None:
+    """Issue 6: merging 10,000 partial states; the Dask recipe against one in-memory computation."""
+    import json
+    import pathlib
+    import subprocess
+
+    from service.core import merge, merge_states, partial_state
+
+    rng = np.random.default_rng(20261205)
+    x = rng.gamma(2.0, 3.0, 1_000_000)
+    pieces = np.split(x, 10_000)
+    states = [partial_state(p) for p in pieces]
+    print("merge: partial states and the Dask recipe")
+
+    def fold():
+        state = states[0]
+        for other in states[1:]:
+            state = merge(state, other)
+        return state
+
+    t_direct = best_of(lambda: partial_state(x), repeats=5)
+    t_tree = best_of(lambda: merge_states(states), repeats=5)
+    t_fold = best_of(fold, repeats=1)
+    print(
+        f"  10,000 states of 100 values: merge_states (checks + tree) {t_tree * 1e3:7.1f} ms;"
+        f" one-by-one merge() {t_fold * 1e3:7.1f} ms ({t_fold / t_tree:4.1f}x);"
+        f" partial_state of the 1e6 values themselves {t_direct * 1e3:6.1f} ms ({t_tree / t_direct:4.2f}x)"
+    )
+
+    n, chunks = int(float(size)), 100
+    here = pathlib.Path(__file__).resolve()
+    results = {}
+    for variant in ("dask", "memory"):
+        code = f"import sys; sys.path.insert(0, {str(here.parent)!r}); import run; run._merge_recipe_run({variant!r}, {n}, {chunks})"
+        done = subprocess.run(
+            [sys.executable, "-c", code], cwd=here.parents[2], capture_output=True, text=True, check=True
+        )
+        results[variant] = json.loads(done.stdout.strip().splitlines()[-1])
+    dask_run, memory_run = results["dask"], results["memory"]
+    print(
+        f"  {n:.0e} values, {chunks} chunks (generate, state + KLL sketch per chunk, merge, describe):"
+        f" dask threads {dask_run['seconds']:6.1f} s, peak RSS +{dask_run['peak_mb']:7.1f} MB;"
+        f" in memory {memory_run['seconds']:6.1f} s, +{memory_run['peak_mb']:7.1f} MB;"
+        f" time {dask_run['seconds'] / memory_run['seconds']:4.2f}x, memory"
+        + (f" {memory_run['peak_mb'] / dask_run['peak_mb']:5.1f}x less" if dask_run["peak_mb"] > 0 else " (dask: no growth)")
+    )
+
+
 SECTIONS = {
     "moments": bench_moments,
     "tables": bench_tables,
     "intervals": bench_intervals,
     "order": bench_order_statistics,
+    "merge": bench_merge,
 }
 
 
 def main(argv: list[str]) -> None:
     chosen = argv or list(SECTIONS)
-    for name in chosen:
-        SECTIONS[name]()
+    for token in chosen:
+        name, _, size = token.partition("=")
+        SECTIONS[name](size) if size else SECTIONS[name]()
 
 
 if __name__ == "__main__":

@@ -462,3 +462,10 @@ def test_extreme_magnitudes_are_described_like_the_concatenation():
         _moment_view(describe(from_array(x), DescribeOptions(), kind="samples")),
         rel=1e-11,
     )
+
+
+def test_every_inconsistent_state_is_named_in_order():
+    states = [_state(), _state(count=-2.0), _state(), _state(), _state(mean=0.5), _state()]
+    with pytest.raises(UncomputableInput) as error:
+        merge_states(states)
+    assert [loc.path for loc in error.value.locations] == ["$.states[1].count", "$.states[4].mean"]
