@@ -499,11 +499,15 @@ def describe_state(
     Degenerate states follow ``describe``: a count of at most 1 has no spread
     (``single_observation``), zero ``M2`` is constant data (``constant_data``).
 
+    The state is trusted: pass callers' states through ``merge_states`` (which checks them),
+    even a single one.
+
     Raises
     ------
     UncomputableInput
         An empty state; ``options.interval`` or ``options.quantile_type`` (resampling and
-        quantile rules need the values); sketches that do not hold ``count`` values.
+        quantile rules need the values); sketches of other data (not ``count`` values, or other
+        extremes than the state's).
     """
     if state.count == 0.0:
         raise _reject("$.states", "every state is empty (count 0), so there is nothing to describe")
@@ -534,11 +538,8 @@ def describe_state(
     _note_degenerate(basis, constant, notes)
 
     sketch = quantiles_from
-    if sketch is not None and sketch.n != count:
-        raise _reject(
-            "$.sketches",
-            f"the sketches summarise {sketch.n} values but the states count {count:g}; send sketches of the same data",
-        )
+    if sketch is not None:
+        _check_sketches_match(sketch, state)
     if sketch is None:
         quantile_rule = median_rule = "not available: partial states carry no order statistics"
     else:
@@ -675,6 +676,25 @@ def describe_state(
             item_types=list(sketch.item_types),
         ),
     )
+
+
+def _check_sketches_match(sketch: SketchUnion, state: PartialState) -> None:
+    """The sketches must hold the states' values: the same count and the same extremes."""
+    if sketch.n != state.count:
+        raise _reject(
+            "$.sketches",
+            f"the sketches summarise {sketch.n} values but the states count {state.count:g}; "
+            "send sketches of the same data",
+        )
+    for name, ours, theirs in (("minimum", state.minimum, sketch.minimum), ("maximum", state.maximum, sketch.maximum)):
+        # A float sketch holds its extreme rounded to float32.
+        with np.errstate(over="ignore"):
+            rounded = float(np.float32(ours))
+        if theirs not in (ours, rounded):
+            raise _reject(
+                "$.sketches",
+                f"the sketches' {name} {theirs!r} differs from the states' {ours!r}; send sketches of the same data",
+            )
 
 
 def _sketch_quantiles(sketch: SketchUnion, state: PartialState, probabilities: np.ndarray) -> np.ndarray:

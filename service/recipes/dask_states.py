@@ -1,16 +1,18 @@
 """Recipe: a partial state and a KLL sketch of every chunk of a Dask array, for the merge endpoint.
 
-Each chunk is summarised by the task that holds it, so only a few hundred bytes per chunk travel;
-the states merge exactly (mean, variance, skewness, kurtosis, moments, extremes) and the sketches
+Each chunk is summarised by the task that holds it, so only a state (a few numbers) and a sketch
+(a few kilobytes) per chunk travel; the states merge exactly (mean, variance, skewness, kurtosis, moments, extremes) and the sketches
 give quantiles within their stated rank error::
 
     import dask.array as da
     from service.core import combine_sketches, describe_state, merge_states, DescribeOptions
     from service.recipes.dask_states import chunk_summaries
 
-    fill_weights = da.random.default_rng(7).normal(250.0, 4.0, size=10_000_000, chunks=100_000)
+    fill_weights = da.random.default_rng(7).normal(250.0, 4.0, size=1_000_000, chunks=50_000)
     states, sketches = chunk_summaries(fill_weights)
     summary = describe_state(merge_states(states), DescribeOptions(), combine_sketches(sketches))
+
+(tests/core/test_dask_recipe.py runs this example as written.)
 
 Every element of a chunk is one value, whatever the array's shape. Missing values are rejected
 by ``partial_state``: mask them first (``x[~da.isnan(x)]``) if the data have any. Needs ``dask``

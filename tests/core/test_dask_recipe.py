@@ -7,6 +7,9 @@ whose bound is the ``normalized_rank_error`` of Apache DataSketches 5.2.0 (pinne
 
 from __future__ import annotations
 
+import math
+import textwrap
+
 import dask.array as da
 import numpy as np
 import pytest
@@ -21,6 +24,7 @@ from service.core import (
     partial_state,
 )
 from service.core.describe import MOMENT_DESCRIPTORS
+from service.recipes import dask_states
 from service.recipes.dask_states import chunk_summaries
 
 
@@ -67,3 +71,16 @@ def test_every_element_of_a_two_dimensional_array_is_one_value():
     assert merged.mean == 29.5
     assert merged.central_sums[0] == pytest.approx(60 * (60**2 - 1) / 12, rel=1e-15)
     assert combine_sketches(sketches).n == 60
+
+
+def test_the_documented_example_runs_as_written():
+    doc = dask_states.__doc__
+    example = textwrap.dedent(doc.split("::\n", 1)[1].split("\n\n(", 1)[0])
+    namespace: dict = {}
+    exec(compile(example, "dask_states docstring", "exec"), namespace)
+    summary = namespace["summary"]
+    assert summary.size.n == 1_000_000 and len(namespace["states"]) == 20
+    # Normal(250, 4): the merged mean and sd are within a few standard errors of the parameters.
+    assert abs(summary.descriptors["mean"].value - 250.0) < 5 * 4.0 / 1000.0
+    assert abs(summary.descriptors["standard_deviation"].value - 4.0) < 5 * 4.0 / math.sqrt(2 * 1_000_000)
+    assert {w.code for w in summary.warnings} >= {"approximate_quantiles", "not_available_from_states"}

@@ -170,8 +170,18 @@ def test_describe_state_takes_quantiles_from_the_sketches():
         assert name in codes["not_available_from_states"].descriptors
 
 
-def test_sketches_of_other_data_are_refused():
+@pytest.mark.parametrize("other", [np.arange(60.0), np.arange(100.0) + 0.5, np.arange(-1.0, 99.0)])
+def test_sketches_of_other_data_are_refused(other):
     x = np.arange(100.0)
     with pytest.raises(UncomputableInput) as error:
-        describe_state(partial_state(x), DescribeOptions(), combine_sketches([kll_sketch_bytes(x[:60])]))
+        describe_state(partial_state(x), DescribeOptions(), combine_sketches([kll_sketch_bytes(other)]))
     assert error.value.locations[0].path == "$.sketches"
+
+
+def test_a_float_sketch_matches_its_state_up_to_float32_rounding():
+    x = np.random.default_rng(20260707).normal(0.1, 1.0, 3000)
+    floats = datasketches.kll_floats_sketch(200)
+    floats.update(x.astype(np.float32))
+    described = describe_state(partial_state(x), DescribeOptions(), combine_sketches([floats.serialize()]))
+    assert described.descriptors["median"].value is not None
+    assert "float32" in {w.code: w for w in described.warnings}["approximate_quantiles"].message
