@@ -16,27 +16,38 @@ import numpy as np
 from service.api.media import Codec
 from service.api.problems import ApiProblem, invalid_body
 from service.api.schemas import (
+    BinsInput,
     BinsRequest,
+    ComparisonRequest,
+    ComparisonResponse,
+    ComparisonWarning,
     DescriptionResponse,
     DescriptorOptions,
     ProblemLocation,
+    ResultWarning,
+    SamplesInput,
     SamplesRequest,
+    Scores,
+    TableInput,
     TableRequest,
 )
 from service.core import (
     DescribeOptions,
+    DescriptorError,
     IntervalOptions,
     LimitExceeded,
     Location,
     WeightMeaning,
+    compare,
     describe,
     from_bins,
     from_samples,
     from_table,
+    standardize,
 )
 from service.settings import Settings
 
-Request = TypeVar("Request", SamplesRequest, TableRequest, BinsRequest)
+Request = TypeVar("Request", SamplesRequest, TableRequest, BinsRequest, ComparisonRequest)
 
 
 @dataclass(frozen=True)
@@ -134,46 +145,119 @@ def _describe_options(options: DescriptorOptions, settings: Settings) -> Describ
     )
 
 
-def _answer(description, count: int, codec: Codec) -> Computed:
+def _with_scores(message: DescriptionResponse | ComparisonResponse, description, points: list[float]):
+    """Add ``scores`` (and their warnings) for ``options.score`` relative to ``description``."""
+    if not points:
+        return message
+    scores = standardize(description, points)
+    message.scores = msgspec.convert(scores, Scores, from_attributes=True)
+    if isinstance(message, ComparisonResponse):
+        message.warnings.extend(
+            ComparisonWarning(side="comparison", code=n.code, message=n.message, descriptors=list(n.descriptors))
+            for n in scores.warnings
+        )
+    else:
+        message.warnings.extend(
+            ResultWarning(code=n.code, message=n.message, descriptors=list(n.descriptors)) for n in scores.warnings
+        )
+    return message
+
+
+def _answer(description, count: int, codec: Codec, points: list[float]) -> Computed:
     message = msgspec.convert(description, DescriptionResponse, from_attributes=True)
+    message = _with_scores(message, description, points)
     resamples = description.resampling.resamples if description.resampling is not None else 0
     return Computed(codec.encode(message), count, resamples)
 
 
+def _relocated(error: DescriptorError, prefix: str) -> DescriptorError:
+    """The same error with its paths under ``prefix`` (``$.values`` -> ``$.first.values``)."""
+    if prefix == "$":
+        return error
+    return type(error)(
+        detail=error.detail,
+        locations=[Location(prefix + loc.path[1:] if loc.path.startswith("$") else loc.path, loc.message)
+                   for loc in error.locations],
+    )
+
+
+def _samples_data(message: SamplesRequest | SamplesInput, missing: str, settings: Settings, prefix: str = "$"):
+    values = _float64s(message.values, f"{prefix}.values", missing=True)
+    _check_count(len(values), f"{prefix}.values", settings)
+    weights = None if message.weights is None else _float64s(message.weights, f"{prefix}.weights", missing=False)
+    try:
+        data = from_samples(
+            values,
+            omit_missing=missing == "omit",
+            weights=weights,
+            meaning=WeightMeaning.RELIABILITY if message.weight_kind == "reliability" else WeightMeaning.FREQUENCY,
+        )
+    except DescriptorError as error:
+        raise _relocated(error, prefix) from None
+    return data, len(values)
+
+
+def _table_data(message: TableRequest | TableInput, normalize: bool, settings: Settings, prefix: str = "$"):
+    _check_count(len(message.outcomes), f"{prefix}.outcomes", settings)
+    count = len(message.outcomes)
+    values = np.fromiter((o.value for o in message.outcomes), dtype=np.float64, count=count)
+    weights = np.fromiter((o.weight for o in message.outcomes), dtype=np.float64, count=count)
+    try:
+        data = from_table(
+            values, weights, probabilities=message.weight_kind == "probabilities", normalise=normalize
+        )
+    except DescriptorError as error:
+        raise _relocated(error, prefix) from None
+    return data, count
+
+
+def _bins_data(message: BinsRequest | BinsInput, settings: Settings, prefix: str = "$"):
+    counts = _float64s(message.counts, f"{prefix}.counts", missing=False)
+    _check_count(len(counts), f"{prefix}.counts", settings)
+    try:
+        data = from_bins(message.edges, counts)
+    except DescriptorError as error:
+        raise _relocated(error, prefix) from None
+    return data, len(counts)
+
+
 def describe_samples(body: bytes, codec: Codec, answer: Codec, settings: Settings) -> Computed:
     request = _decode(body, SamplesRequest, codec)
-    values = _float64s(request.values, "$.values", missing=True)
-    _check_count(len(values), "$.values", settings)
-    weights = None if request.weights is None else _float64s(request.weights, "$.weights", missing=False)
+    data, count = _samples_data(request, request.options.missing, settings)
     options = _describe_options(request.options, settings)
-    data = from_samples(
-        values,
-        omit_missing=request.options.missing == "omit",
-        weights=weights,
-        meaning=WeightMeaning.RELIABILITY if request.weight_kind == "reliability" else WeightMeaning.FREQUENCY,
-    )
-    return _answer(describe(data, options, kind="samples"), len(values), answer)
+    return _answer(describe(data, options, kind="samples"), count, answer, request.options.score)
 
 
 def describe_table(body: bytes, codec: Codec, answer: Codec, settings: Settings) -> Computed:
     request = _decode(body, TableRequest, codec)
-    _check_count(len(request.outcomes), "$.outcomes", settings)
+    data, count = _table_data(request, request.options.normalize, settings)
     options = _describe_options(request.options, settings)
-    values = np.fromiter((o.value for o in request.outcomes), dtype=np.float64, count=len(request.outcomes))
-    weights = np.fromiter((o.weight for o in request.outcomes), dtype=np.float64, count=len(request.outcomes))
-    data = from_table(
-        values,
-        weights,
-        probabilities=request.weight_kind == "probabilities",
-        normalise=request.options.normalize,
-    )
-    return _answer(describe(data, options, kind="table"), len(request.outcomes), answer)
+    return _answer(describe(data, options, kind="table"), count, answer, request.options.score)
 
 
 def describe_bins(body: bytes, codec: Codec, answer: Codec, settings: Settings) -> Computed:
     request = _decode(body, BinsRequest, codec)
-    counts = _float64s(request.counts, "$.counts", missing=False)
-    _check_count(len(counts), "$.counts", settings)
+    data, count = _bins_data(request, settings)
     options = _describe_options(request.options, settings)
-    data = from_bins(request.edges, counts)
-    return _answer(describe(data, options, kind="bins"), len(counts), answer)
+    return _answer(describe(data, options, kind="bins"), count, answer, request.options.score)
+
+
+def _input_data(message, settings: Settings, prefix: str):
+    if isinstance(message, SamplesInput):
+        return (*_samples_data(message, message.options.missing, settings, prefix), "samples")
+    if isinstance(message, TableInput):
+        return (*_table_data(message, message.options.normalize, settings, prefix), "table")
+    return (*_bins_data(message, settings, prefix), "bins")
+
+
+def compare_inputs(body: bytes, codec: Codec, answer: Codec, settings: Settings) -> Computed:
+    request = _decode(body, ComparisonRequest, codec)
+    first, first_count, first_kind = _input_data(request.first, settings, "$.first")
+    second, second_count, second_kind = _input_data(request.second, settings, "$.second")
+    _check_count(first_count + second_count, "$.second", settings)
+    options = _describe_options(request.options, settings)
+    comparison = compare(first, second, options, kinds=(first_kind, second_kind))
+    message = msgspec.convert(comparison, ComparisonResponse, from_attributes=True)
+    message = _with_scores(message, comparison.first, request.options.score)
+    resamples = 0 if comparison.resampling is None else 2 * comparison.resampling.resamples
+    return Computed(answer.encode(message), first_count + second_count, resamples)

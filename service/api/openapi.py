@@ -82,6 +82,23 @@ OPERATIONS = (
         tag="descriptors",
     ),
     Operation(
+        method="post",
+        path="/v1/comparisons",
+        operation_id="compare",
+        summary="Compare two inputs of any kind, second against first",
+        description=(
+            "Both descriptor sets, the difference (second minus first) of every descriptor, ratios of "
+            "the scale descriptors, Hedges' g, quantile shifts, both inputs' quantiles on the z scale, "
+            "and a two-sample test (Kolmogorov-Smirnov, or chi-square homogeneity for bins on the same "
+            "edges). With options.interval every contrast gets a bootstrap interval from independent "
+            "resampling of the two inputs."
+        ),
+        request=schemas.ComparisonRequest,
+        response=schemas.ComparisonResponse,
+        problems=(400, 401, 406, 413, 415, 422),
+        tag="comparisons",
+    ),
+    Operation(
         method="get",
         path="/v1/catalog",
         operation_id="catalog",

@@ -66,6 +66,11 @@ async def describe_bins(request: Request) -> Response[bytes]:
     return await _compute(request, compute.describe_bins, "bins")
 
 
+@post("/v1/comparisons", status_code=200, include_in_schema=False)
+async def compare_inputs(request: Request) -> Response[bytes]:
+    return await _compute(request, compute.compare_inputs, "comparisons")
+
+
 @get("/health/live", include_in_schema=False, sync_to_thread=False)
 def live() -> Response[bytes]:
     return Response(b'{"status":"ok"}', media_type=media.JSON)
@@ -108,7 +113,7 @@ def describe_catalog(request: Request) -> Response[bytes]:
     return Response(_CATALOG if codec is media.JSON_CODEC else _CATALOG_MSGPACK, media_type=answer_type)
 
 
-COMPUTE_HANDLERS = [describe_samples, describe_table, describe_bins]
+COMPUTE_HANDLERS = [describe_samples, describe_table, describe_bins, compare_inputs]
 INFO_HANDLERS = [describe_catalog]
 HEALTH_HANDLERS = [live, ready]
 METRICS_HANDLERS = [metrics_exposition]

@@ -17,6 +17,7 @@ from service.core.describe import DEFAULT_PROBABILITIES
 # Hard ceilings of the published schema; settings may only lower them.
 SCHEMA_MAX_MOMENT_ORDER = 12
 SCHEMA_MAX_PROBABILITIES = 1000
+SCHEMA_MAX_SCORES = 10_000
 
 Probability = Annotated[float, Meta(ge=0.0, le=1.0, description="A probability in [0, 1].")]
 # Every number a caller sends must be finite: JSON cannot carry NaN or Infinity, and the bounds
@@ -108,6 +109,16 @@ class DescriptorOptions(Message):
             description="Highest order of the raw, central and standardized moments reported.",
         ),
     ] = 4
+    score: Annotated[
+        list[Finite],
+        Meta(
+            max_length=SCHEMA_MAX_SCORES,
+            description=(
+                "Values to score against the described distribution: z = (x - mean) / sd and "
+                "robust_z = (x - median) / normal-consistent MAD, in member scores."
+            ),
+        ),
+    ] = msgspec.field(default_factory=list)
 
 
 QuantileType = Annotated[
@@ -400,6 +411,20 @@ class Conventions(Message):
     weights: str
 
 
+class Score(Message):
+    value: float
+    z: Annotated[MaybeNumber, Meta(description="(value - mean) / standard deviation.")]
+    robust_z: Annotated[MaybeNumber, Meta(description="(value - median) / normal-consistent MAD.")]
+
+
+class Scores(Message):
+    mean: MaybeNumber
+    standard_deviation: MaybeNumber
+    median: MaybeNumber
+    median_absolute_deviation_normal: MaybeNumber
+    points: Annotated[list[Score], Meta(description="One entry per value of options.score, in order.")]
+
+
 class ResultWarning(Message):
     code: Annotated[str, Meta(description="Stable machine-readable reason.")]
     message: str
@@ -431,6 +456,9 @@ class DescriptionResponse(Message):
     warnings: list[ResultWarning]
     resampling: Annotated[
         Resampling | None, Meta(description="The resampling performed; null without options.interval.")
+    ] = None
+    scores: Annotated[
+        Scores | None, Meta(description="Standard scores of options.score; null when none were asked for.")
     ] = None
 
 
@@ -472,3 +500,158 @@ class Catalog(Message):
     members: list[CatalogEntry]
     warnings: list[WarningCode]
     note: str
+
+
+# ---- Comparisons: two inputs of any kind, contrasted second against first ----
+
+
+class SamplesInputOptions(Message):
+    missing: Annotated[
+        Literal["reject", "omit"],
+        Meta(description="reject: a null value is an error (422); omit: nulls are dropped and counted."),
+    ] = "reject"
+
+
+class TableInputOptions(Message):
+    normalize: Annotated[
+        bool, Meta(description="Divide probabilities that do not sum to 1 by their sum (with a warning).")
+    ] = False
+
+
+class SamplesInput(Message, tag_field="kind", tag="samples"):
+    values: Annotated[
+        Annotated[list[Observation], Meta(min_length=1)] | Float64Bytes,
+        Meta(description="Raw observations: a list, or float64 bytes."),
+    ]
+    weights: Annotated[
+        list[NonNegative] | Float64Bytes | None, Meta(description="Optional weight per value.")
+    ] = None
+    weight_kind: Literal["frequency", "reliability"] = "frequency"
+    options: SamplesInputOptions = msgspec.field(default_factory=SamplesInputOptions)
+
+
+class TableInput(Message, tag_field="kind", tag="table"):
+    outcomes: Annotated[list[Outcome], Meta(min_length=1)]
+    weight_kind: Literal["counts", "probabilities"]
+    options: TableInputOptions = msgspec.field(default_factory=TableInputOptions)
+
+
+class BinsInput(Message, tag_field="kind", tag="bins"):
+    edges: Annotated[list[Finite | None], Meta(min_length=2, description="k + 1 strictly increasing edges.")]
+    counts: Annotated[
+        Annotated[list[NonNegative], Meta(min_length=1)] | Float64Bytes,
+        Meta(description="Count in each bin: a list, or float64 bytes."),
+    ]
+
+
+ComparisonInput = Annotated[
+    SamplesInput | TableInput | BinsInput,
+    Meta(description='One input, tagged by "kind", with the fields of its own descriptor endpoint.'),
+]
+
+
+class ComparisonOptions(DescriptorOptions):
+    """Options for both inputs; the descriptors of each are computed exactly as by its endpoint."""
+
+    quantile_type: QuantileType = None
+    sheppard_correction: Annotated[
+        bool, Meta(description="Sheppard's corrections for an input of bins of equal width.")
+    ] = False
+
+
+class ComparisonRequest(Message):
+    first: ComparisonInput
+    second: ComparisonInput
+    options: Annotated[
+        ComparisonOptions,
+        Meta(description="score values are scored against the first input."),
+    ] = msgspec.field(default_factory=ComparisonOptions)
+
+
+class Contrast(Message):
+    value: MaybeNumber
+    interval: Annotated[
+        Interval | None, Meta(description="Bootstrap interval from independent resampling of both inputs.")
+    ] = None
+    standard_error: Annotated[float | None, Meta(description="Bootstrap standard error.")] = None
+    classical_interval: Annotated[
+        ClassicalInterval | None, Meta(description="Welch's t interval (for the mean difference only).")
+    ] = None
+    classical_standard_error: Annotated[
+        float | None, Meta(description="Welch's standard error (for the mean difference only).")
+    ] = None
+
+
+class QuantileShift(Message):
+    probability: float
+    value: Annotated[MaybeNumber, Meta(description="Quantile of the second minus that of the first.")]
+    interval: Interval | None = None
+    standard_error: float | None = None
+
+
+class StandardizedPair(Message):
+    first: MaybeNumber
+    second: MaybeNumber
+    difference: MaybeNumber
+    interval: Annotated[Interval | None, Meta(description="Bootstrap interval of the difference.")] = None
+
+
+class StandardizedQuantile(Message):
+    probability: float
+    z: Annotated[StandardizedPair, Meta(description="(quantile - mean) / standard deviation, per input.")]
+    robust_z: Annotated[
+        StandardizedPair, Meta(description="(quantile - median) / normal-consistent MAD, per input.")
+    ]
+
+
+class StandardizedMeanDifference(Message):
+    value: Annotated[MaybeNumber, Meta(description="Hedges' g: J x Cohen's d.")]
+    uncorrected: Annotated[MaybeNumber, Meta(description="Cohen's d with the pooled standard deviation.")]
+    correction_factor: Annotated[
+        MaybeNumber, Meta(description="J = Gamma(m/2) / (sqrt(m/2) Gamma((m-1)/2)), m = n1 + n2 - 2.")
+    ]
+    pooled_standard_deviation: MaybeNumber
+    degrees_of_freedom: MaybeNumber
+    first_n: MaybeNumber
+    second_n: MaybeNumber
+    standard_error_under_normality: MaybeNumber
+    estimator: str
+    interval: Interval | None = None
+    standard_error: float | None = None
+
+
+class DistributionTest(Message):
+    test: Annotated[str, Meta(description="kolmogorov_smirnov or chi_square_homogeneity.")]
+    statistic: MaybeNumber
+    p_value: Annotated[MaybeNumber, Meta(description="Evidence against equal distributions, not a verdict.")]
+    method: str | None
+    degrees_of_freedom: int | None
+    reference: str
+    reason: Annotated[str | None, Meta(description="Why the test could not be computed.")]
+
+
+class ComparisonWarning(Message):
+    side: Literal["first", "second", "comparison"]
+    code: Annotated[str, Meta(description="Stable machine-readable reason (see GET /v1/catalog).")]
+    message: str
+    descriptors: list[str]
+
+
+class ComparisonResponse(Message):
+    first: DescriptionResponse
+    second: DescriptionResponse
+    differences: Annotated[
+        dict[str, Contrast], Meta(description="Descriptor name -> second minus first, with its interval.")
+    ]
+    ratios: Annotated[
+        dict[str, Contrast], Meta(description="Scale descriptor name -> second / first, with its interval.")
+    ]
+    standardized_mean_difference: StandardizedMeanDifference
+    quantile_shifts: list[QuantileShift]
+    standardized_quantiles: list[StandardizedQuantile]
+    distribution_test: DistributionTest
+    warnings: list[ComparisonWarning]
+    resampling: Resampling | None = None
+    scores: Annotated[
+        Scores | None, Meta(description="options.score scored against the first input.")
+    ] = None
