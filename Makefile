@@ -22,6 +22,12 @@ test: $(STAMP)
 bench: $(STAMP)
 	$(PY) tests/benchmarks/run.py
 
+# Mixed load against gunicorn (2 workers, own port): req/s, p50/p99 per class, ratio to /health/live.
+.PHONY: load
+LOAD_SECONDS ?= 30
+load: $(STAMP)
+	$(PY) -m tests.system.load --seconds $(LOAD_SECONDS) --concurrency 8 --output test-artifacts/load.json
+
 openapi: $(STAMP)
 	$(PY) -c 'import sys; from service.api.openapi import document_bytes; sys.stdout.buffer.write(document_bytes())' > openapi/openapi.json
 
