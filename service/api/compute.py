@@ -15,6 +15,7 @@ import numpy as np
 
 from service.api.media import Codec
 from service.api.problems import ApiProblem, invalid_body
+from service.api.schemas import PartialState as PartialStateMessage
 from service.api.schemas import (
     BinsInput,
     BinsRequest,
@@ -23,6 +24,9 @@ from service.api.schemas import (
     ComparisonWarning,
     DescriptionResponse,
     DescriptorOptions,
+    MergedDescriptionResponse,
+    MergeOptions,
+    MergeRequest,
     ProblemLocation,
     ResultWarning,
     SamplesInput,
@@ -45,6 +49,8 @@ from service.core import (
     from_table,
     standardize,
 )
+from service.core.partial import MIN_ORDER, PartialState, describe_state, merge_states, state_of
+from service.core.sketches import combine_sketches
 from service.settings import Settings
 
 Request = TypeVar("Request", SamplesRequest, TableRequest, BinsRequest, ComparisonRequest)
@@ -107,7 +113,7 @@ def _check_count(count: int, path: str, settings: Settings) -> None:
         )
 
 
-def _describe_options(options: DescriptorOptions, settings: Settings) -> DescribeOptions:
+def _describe_options(options: DescriptorOptions | MergeOptions, settings: Settings) -> DescribeOptions:
     if options.moment_order > settings.max_moment_order:
         raise LimitExceeded(
             detail=f"moment_order may be at most {settings.max_moment_order} on this server",
@@ -119,12 +125,13 @@ def _describe_options(options: DescriptorOptions, settings: Settings) -> Describ
             locations=[Location("$.options.probabilities", "too many probabilities; send fewer")],
         )
     interval = None
-    if options.interval is not None:
-        seed = options.interval.seed
+    requested = getattr(options, "interval", None)
+    if requested is not None:
+        seed = requested.seed
         interval = IntervalOptions(
-            method=options.interval.method,
-            level=options.interval.level,
-            resamples=options.interval.resamples,
+            method=requested.method,
+            level=requested.level,
+            resamples=requested.resamples,
             seed=secrets.randbelow(2**53) if seed is None else seed,
         )
     return DescribeOptions(
@@ -221,11 +228,49 @@ def _bins_data(message: BinsRequest | BinsInput, settings: Settings, prefix: str
     return data, len(counts)
 
 
+def _state_message(state: PartialState) -> PartialStateMessage:
+    return PartialStateMessage(
+        count=state.count,
+        mean=state.mean,
+        central_sums=list(state.central_sums),
+        minimum=state.minimum,
+        maximum=state.maximum,
+    )
+
+
 def describe_samples(body: bytes, codec: Codec, answer: Codec, settings: Settings) -> Computed:
     request = _decode(body, SamplesRequest, codec)
     data, count = _samples_data(request, request.options.missing, settings)
     options = _describe_options(request.options, settings)
-    return _answer(describe(data, options, kind="samples"), count, answer, request.options.score)
+    description = describe(data, options, kind="samples")
+    if not request.options.partial_state:
+        return _answer(description, count, answer, request.options.score)
+    state = state_of(data, order=max(MIN_ORDER, request.options.moment_order))
+    message = msgspec.convert(description, DescriptionResponse, from_attributes=True)
+    message = _with_scores(message, description, request.options.score)
+    message.partial_state = _state_message(state)
+    resamples = description.resampling.resamples if description.resampling is not None else 0
+    return Computed(answer.encode(message), count, resamples)
+
+
+def merge_states_request(body: bytes, codec: Codec, answer: Codec, settings: Settings) -> Computed:
+    request = _decode(body, MergeRequest, codec)
+    states = [
+        PartialState(
+            count=s.count, mean=s.mean, central_sums=tuple(s.central_sums), minimum=s.minimum, maximum=s.maximum
+        )
+        for s in request.states
+    ]
+    sketches = None
+    if request.sketches:
+        sketches = combine_sketches(request.sketches, path="$.sketches")
+    merged = merge_states(states, path="$.states")
+    options = _describe_options(request.options, settings)
+    description = describe_state(merged, options, quantiles_from=sketches)
+    message = msgspec.convert(description, MergedDescriptionResponse, from_attributes=True)
+    message = _with_scores(message, description, request.options.score)
+    message.partial_state = _state_message(merged)
+    return Computed(answer.encode(message), len(states), 0)
 
 
 def describe_table(body: bytes, codec: Codec, answer: Codec, settings: Settings) -> Computed:

@@ -83,6 +83,23 @@ OPERATIONS = (
     ),
     Operation(
         method="post",
+        path="/v1/descriptors/merge",
+        operation_id="mergeStates",
+        summary="Describe the union of partial states computed where the data live",
+        description=(
+            "Exact moment descriptors of the union of many parts of one sample from their partial "
+            "states (Pebay 2008 pairwise formulas, merged as a tree), minimum and maximum; with KLL "
+            "sketches of the same parts, approximate quantiles with the sketches' rank error. The "
+            "merged state is returned too, so merges can be merged again. States come from "
+            "options.partial_state on /v1/descriptors/samples or from service.core.partial_state."
+        ),
+        request=schemas.MergeRequest,
+        response=schemas.MergedDescriptionResponse,
+        problems=(400, 401, 406, 413, 415, 422),
+        tag="descriptors",
+    ),
+    Operation(
+        method="post",
         path="/v1/comparisons",
         operation_id="compare",
         summary="Compare two inputs of any kind, second against first",

@@ -66,6 +66,11 @@ async def describe_bins(request: Request) -> Response[bytes]:
     return await _compute(request, compute.describe_bins, "bins")
 
 
+@post("/v1/descriptors/merge", status_code=200, include_in_schema=False)
+async def merge_states(request: Request) -> Response[bytes]:
+    return await _compute(request, compute.merge_states_request, "merge")
+
+
 @post("/v1/comparisons", status_code=200, include_in_schema=False)
 async def compare_inputs(request: Request) -> Response[bytes]:
     return await _compute(request, compute.compare_inputs, "comparisons")
@@ -113,7 +118,7 @@ def describe_catalog(request: Request) -> Response[bytes]:
     return Response(_CATALOG if codec is media.JSON_CODEC else _CATALOG_MSGPACK, media_type=answer_type)
 
 
-COMPUTE_HANDLERS = [describe_samples, describe_table, describe_bins, compare_inputs]
+COMPUTE_HANDLERS = [describe_samples, describe_table, describe_bins, merge_states, compare_inputs]
 INFO_HANDLERS = [describe_catalog]
 HEALTH_HANDLERS = [live, ready]
 METRICS_HANDLERS = [metrics_exposition]

@@ -138,6 +138,15 @@ class SampleOptions(DescriptorOptions):
         Literal["reject", "omit"],
         Meta(description="reject: a null value is an error (422); omit: nulls are dropped and counted."),
     ] = "reject"
+    partial_state: Annotated[
+        bool,
+        Meta(
+            description=(
+                "Add member partial_state: count, mean, central sums M2..Mp (p = max(4, moment_order)), "
+                "minimum and maximum, which POST /v1/descriptors/merge combines exactly with others."
+            )
+        ),
+    ] = False
 
 
 class TableOptions(DescriptorOptions):
@@ -425,6 +434,23 @@ class Scores(Message):
     points: Annotated[list[Score], Meta(description="One entry per value of options.score, in order.")]
 
 
+class PartialState(Message):
+    """A mergeable summary of one part of a sample (Pebay 2008): enough for every moment of the union."""
+
+    count: Annotated[NonNegative, Meta(description="Observations (or total frequency weight); 0 for an empty part.")]
+    mean: Finite
+    central_sums: Annotated[
+        list[Finite],
+        Meta(
+            min_length=3,
+            max_length=SCHEMA_MAX_MOMENT_ORDER - 1,
+            description="M2, M3, ..., Mp: sums of (x - mean)^j, j = 2..p, with 4 <= p <= 12.",
+        ),
+    ]
+    minimum: Annotated[Finite | None, Meta(description="Smallest value; null for an empty part.")]
+    maximum: Annotated[Finite | None, Meta(description="Largest value; null for an empty part.")]
+
+
 class ResultWarning(Message):
     code: Annotated[str, Meta(description="Stable machine-readable reason.")]
     message: str
@@ -459,6 +485,10 @@ class DescriptionResponse(Message):
     ] = None
     scores: Annotated[
         Scores | None, Meta(description="Standard scores of options.score; null when none were asked for.")
+    ] = None
+    partial_state: Annotated[
+        PartialState | None,
+        Meta(description="The mergeable summary asked for by options.partial_state (samples only)."),
     ] = None
 
 
@@ -654,4 +684,93 @@ class ComparisonResponse(Message):
     resampling: Resampling | None = None
     scores: Annotated[
         Scores | None, Meta(description="options.score scored against the first input.")
+    ] = None
+
+
+# ---- Merging partial states (and KLL sketches) computed where the data live ----
+
+SCHEMA_MAX_STATES = 100_000
+KllSketch = Annotated[
+    bytes,
+    Meta(
+        min_length=8,
+        max_length=16 * 1024 * 1024,
+        description=(
+            "A serialized Apache DataSketches KLL sketch (doubles or floats), as produced by the "
+            "Python, Java or C++ libraries: a MessagePack bin, or base64 in JSON."
+        ),
+    ),
+]
+
+
+class MergeOptions(Message):
+    """The options of a descriptor endpoint that a merged state can honour (no resampling)."""
+
+    convention: Annotated[
+        Literal["sample", "population"] | None,
+        Meta(description="sample: divisor n - 1 and G1/G2; population: divisor n and g1/g2. null: sample."),
+    ] = None
+    skewness_estimator: Annotated[
+        Literal["g1", "G1", "b1"] | None,
+        Meta(description="Joanes & Gill (1998) skewness family; null follows the convention."),
+    ] = None
+    kurtosis_estimator: Annotated[
+        Literal["g2", "G2", "b2"] | None,
+        Meta(description="Joanes & Gill (1998) kurtosis family; null follows the convention."),
+    ] = None
+    probabilities: Annotated[
+        list[Probability],
+        Meta(max_length=SCHEMA_MAX_PROBABILITIES, description="Probabilities for quantiles (from sketches)."),
+    ] = msgspec.field(default_factory=lambda: list(DEFAULT_PROBABILITIES))
+    moment_order: Annotated[
+        int,
+        Meta(ge=1, le=SCHEMA_MAX_MOMENT_ORDER, description="Highest moment order reported (at most the states' order)."),
+    ] = 4
+    score: Annotated[
+        list[Finite],
+        Meta(max_length=SCHEMA_MAX_SCORES, description="Values to score against the merged distribution."),
+    ] = msgspec.field(default_factory=list)
+
+
+class MergeRequest(Message):
+    states: Annotated[
+        list[PartialState],
+        Meta(min_length=1, max_length=SCHEMA_MAX_STATES, description="Partial states of disjoint parts of one sample."),
+    ]
+    sketches: Annotated[
+        Annotated[list[KllSketch], Meta(max_length=SCHEMA_MAX_STATES)] | None,
+        Meta(
+            description=(
+                "Optional KLL sketches of the same parts (together: the same values as the states), "
+                "for approximate quantiles with the sketches' rank error."
+            ),
+        ),
+    ] = None
+    options: MergeOptions = msgspec.field(default_factory=MergeOptions)
+
+
+class MergedSize(Size):
+    distinct_values: Annotated[int | None, Meta(description="null: partial states carry no values.")]
+
+
+class QuantileSketches(Message):
+    method: Annotated[str, Meta(description="How the quantiles were read from the pooled sketches.")]
+    sketches: int
+    n: int
+    k: Annotated[int, Meta(description="The smallest k among the sketches, which sets the error.")]
+    retained: Annotated[int, Meta(description="Items retained by all sketches together.")]
+    normalized_rank_error: Annotated[
+        float, Meta(description="Rank error of any quantile, as a fraction of n (datasketches' bound, 99% confidence).")
+    ]
+    item_types: list[str]
+
+
+class MergedDescriptionResponse(DescriptionResponse):
+    """A descriptor response for the union of merged partial states (same members, kind states)."""
+
+    kind: Literal["states"]
+    size: MergedSize
+    modes: Annotated[Modes | None, Meta(description="null: partial states carry no values.")]
+    sketches: Annotated[
+        QuantileSketches | None, Meta(description="Where approximate quantiles came from; null without sketches.")
     ] = None

@@ -151,6 +151,17 @@ MEMBERS = (
           "scipy.stats.ks_2samp, scipy.stats.chi2_contingency; Hodges, Arkiv for Matematik 3, 1958"),
     Entry("scores", "scores", "z = (x - mean) / sd and robust z = (x - median) / normal-consistent MAD",
           ("convention",), ("zero or undefined spread",), "standard scores; Hampel 1974 for the MAD"),
+    Entry("partial_state", "partial_state",
+          "count n, mean, central sums M_j = sum (x - mean)^j for j = 2 .. p (p = max(4, moment_order)), minimum, "
+          "maximum; two states merge by M_p = M_p,a + M_p,b + sum_{k=1}^{p-2} C(p,k) [(-n_b/n)^k M_{p-k},a + "
+          "(n_a/n)^k M_{p-k},b] d^k + (n_a n_b d / n)^p [n_b^(1-p) - (-n_a)^(1-p)], d = mean_b - mean_a", ("partial_state", "moment_order"),
+          ("reliability weights, probability tables or bins (no count of observations)",),
+          "Chan, Golub & LeVeque 1979; Pebay, Sandia report SAND2008-6212, 2008"),
+    Entry("sketches", "sketches",
+          "quantiles of the pooled KLL sketches by the inclusive rank rule; rank error at most "
+          "normalized_rank_error x n with 99% confidence", ("probabilities",),
+          ("no sketches sent with the states",),
+          "Karnin, Lang & Liberty, FOCS 2016; Apache DataSketches KLL"),
 )
 
 WARNINGS = {
