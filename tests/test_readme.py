@@ -22,7 +22,13 @@ def _examples() -> list[tuple[str, dict]]:
 def answers():
     """Each example's answer, keyed by path; a second example of a path gets the suffix '#2'."""
     examples = _examples()
-    assert {path for path, _ in examples} == {"/v1/descriptors/samples", "/v1/descriptors/table", "/v1/descriptors/bins"}
+    assert {path for path, _ in examples} == {
+        "/v1/descriptors/samples",
+        "/v1/descriptors/table",
+        "/v1/descriptors/bins",
+        "/v1/comparisons",
+        "/v1/descriptors/merge",
+    }
     found = {}
     with TestClient(create_app(Settings())) as client:
         for path, body in examples:
@@ -79,3 +85,58 @@ def test_delivery_histogram_example_quotes_served_numbers(answers):
     assert round(result["modes"]["values"][0], 2) == 25.95
     assert result["grouping"]["bin_width"] is None
     assert result["grouping"]["modal_classes"][0]["lower"] == 15.0
+
+
+def test_comparison_example_quotes_served_numbers(answers):
+    result = answers["/v1/comparisons"]
+    for quoted in (
+        result["differences"]["mean"]["value"],
+        result["ratios"]["standard_deviation"]["value"],
+        result["standardized_mean_difference"]["value"],
+    ):
+        assert repr(quoted) in README
+    assert [s["value"] for s in result["quantile_shifts"]][0] == -6.0
+    assert result["distribution_test"]["statistic"] == 0.5
+    assert round(result["distribution_test"]["p_value"], 4) == 0.0995
+    assert result["differences"]["mean"]["interval"]["low"] < 0 < result["differences"]["mean"]["interval"]["high"]
+    ratio = result["ratios"]["standard_deviation"]["interval"]
+    assert ratio["low"] < 1 < ratio["high"]  # as the README says: "no change" is still inside
+
+
+def test_merge_example_quotes_served_numbers(answers):
+    state = answers["/v1/descriptors/merge"]["partial_state"]
+    assert repr(state["mean"]) in README
+    for quoted in state["central_sums"]:
+        assert repr(quoted) in README
+
+
+def test_score_example_quotes_served_numbers():
+    values = [34, 41, 38, 45, 52, 39, 36, 48, 61, 40, 37, 44]
+    with TestClient(create_app(Settings(request_log=False))) as client:
+        body = client.post("/v1/descriptors/samples", json={"values": values, "options": {"score": [47, 75]}}).json()
+    late = body["scores"]["points"][1]
+    assert round(late["z"], 2) == 4.16 and round(late["robust_z"], 2) == 5.82
+
+
+PYTHON_BLOCK = re.compile(r"```python\n(?P<code>.*?)```", re.DOTALL)
+
+
+@pytest.mark.parametrize("marker", ["chunk_summaries", "msgspec.msgpack.encode", 'json={"values": weights'])
+def test_python_examples_run_as_written(marker, capsys):
+    """Each Python example runs against the app in process (sizes shrunk for test time)."""
+    blocks = [m["code"] for m in PYTHON_BLOCK.finditer(README) if marker in m["code"]]
+    assert len(blocks) == 1, marker
+    code = (
+        blocks[0]
+        .replace("import httpx\n", "")
+        .replace("import httpx, ", "import ")
+        .replace('httpx.post(\n    "http://127.0.0.1:8000', 'client.post(\n    "')
+        .replace('httpx.post("http://127.0.0.1:8000', 'client.post("')
+        .replace("size=10_000_000, chunks=500_000", "size=200_000, chunks=20_000")
+        .replace("size=1_000_000)", "size=20_000)")
+    )
+    assert "client.post(" in code and "127.0.0.1" not in code
+    with TestClient(create_app(Settings(request_log=False))) as client:
+        exec(compile(code, f"README:{marker}", "exec"), {"client": client})
+    printed = capsys.readouterr().out
+    assert printed.strip() and "None" not in printed.split()[0]

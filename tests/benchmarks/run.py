@@ -257,12 +257,21 @@ def bench_merge(size: str = "1e8") -> None:
     )
 
 
+def bench_transport(size: str = "1e6") -> None:
+    """Issue 7: 1e6 values through gunicorn by body format (tests/benchmarks/transport.py)."""
+    import transport  # same directory; run.py is started as a script
+
+    print("\n== transport: round trip through gunicorn on loopback ==")
+    transport.main(int(float(size)))
+
+
 SECTIONS = {
     "moments": bench_moments,
     "tables": bench_tables,
     "intervals": bench_intervals,
     "order": bench_order_statistics,
     "merge": bench_merge,
+    "transport": bench_transport,
 }
 
 
