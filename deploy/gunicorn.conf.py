@@ -62,8 +62,11 @@ def on_starting(server):
         base = os.environ.get("WORKER_TMP_DIR") or _tempfile.gettempdir()
         path = os.path.join(base, f"tailgauge-metrics-{os.getpid()}")
         _created_metrics_dir.append(path)
-    _shutil.rmtree(path, ignore_errors=True)
     os.makedirs(path, exist_ok=True)
+    # Only prometheus-client's own files: a directory given by the operator may hold others.
+    for name in os.listdir(path):
+        if name.endswith(".db"):
+            os.remove(os.path.join(path, name))
     os.environ["PROMETHEUS_MULTIPROC_DIR"] = path
 
 
