@@ -34,6 +34,33 @@ class Operation:
     protected: bool = True
 
 
+# A valid body per compute operation (invented scenarios), shown by the schema page's "Try it
+# out"; a test sends each one and expects a 200.
+EXAMPLES = {
+    "/v1/descriptors/samples": {
+        "values": [251.2, 249.8, 250.4, 252.9, 250.1, 249.5, 250.7, 251.0, 248.9, 250.3, 250.3],
+        "options": {"probabilities": [0.05, 0.5, 0.95]},
+    },
+    "/v1/descriptors/table": {
+        "outcomes": [{"value": 0, "weight": 412}, {"value": 1, "weight": 187}, {"value": 2, "weight": 61},
+                     {"value": 3, "weight": 17}, {"value": 4, "weight": 3}],
+        "weight_kind": "counts",
+    },
+    "/v1/descriptors/bins": {"edges": [0, 15, 30, 45, 60, None], "counts": [18, 64, 41, 12, 5]},
+    "/v1/descriptors/merge": {
+        "states": [
+            {"count": 4, "mean": 2.5, "central_sums": [5.0, 0.0, 10.25], "minimum": 1, "maximum": 4},
+            {"count": 2, "mean": 15.0, "central_sums": [50.0, 0.0, 1250.0], "minimum": 10, "maximum": 20},
+        ]
+    },
+    "/v1/comparisons": {
+        "first": {"kind": "samples", "values": [34, 41, 38, 45, 52, 39, 36, 48, 61, 40, 37, 44]},
+        "second": {"kind": "samples", "values": [31, 35, 33, 40, 58, 30, 34, 36, 29, 38, 33, 71]},
+        "options": {"probabilities": [0.5, 0.9]},
+    },
+}
+
+
 OPERATIONS = (
     Operation(
         method="post",
@@ -221,10 +248,10 @@ def build_document() -> dict:
             # Either no token (an open server) or a bearer token.
             entry["security"] = [{}, {"bearerToken": []}]
         if op.request is not None:
-            entry["requestBody"] = {
-                "required": True,
-                "content": _content(ref_of[op.request], BODY_MEDIA_TYPES),
-            }
+            content = _content(ref_of[op.request], BODY_MEDIA_TYPES)
+            if op.path in EXAMPLES:
+                content[JSON]["example"] = EXAMPLES[op.path]
+            entry["requestBody"] = {"required": True, "content": content}
         paths.setdefault(op.path, {})[op.method] = entry
 
     return {

@@ -205,3 +205,14 @@ def test_docs_page_is_offline(client):
         assert asset.status_code == 200, f"{url} -> {asset.status_code}"
         assert asset.content, f"{url} is empty"
     assert '"/openapi.json"' in page
+
+
+def test_every_compute_operation_has_an_example_that_the_server_accepts(client, document):
+    from service.api.openapi import EXAMPLES
+
+    posts = [path for path, item in document["paths"].items() if "post" in item]
+    assert sorted(posts) == sorted(EXAMPLES)
+    for path in posts:
+        example = document["paths"][path]["post"]["requestBody"]["content"]["application/json"]["example"]
+        response = client.post(path, content=json.dumps(example), headers={"content-type": "application/json"})
+        assert response.status_code == 200, (path, response.text)
