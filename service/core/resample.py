@@ -633,8 +633,11 @@ def _bca_fractions(estimate, replicates, jackknives, tails):
     accel = acceleration(jackknives)
     if accel is None:
         return None, "the jackknife shows no variation, so the acceleration is undefined", None
-    z = special.ndtri(tails)
-    adjusted = special.ndtr(z0 + (z0 + z) / (1.0 - accel * (z0 + z)))
+    # A level within rounding of 1 puts a tail at 0 or 1 (z infinite): the adjustment is then
+    # undefined, which the check below reports, not a floating-point warning.
+    with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
+        z = special.ndtri(tails)
+        adjusted = special.ndtr(z0 + (z0 + z) / (1.0 - accel * (z0 + z)))
     if not np.all(np.isfinite(adjusted)):
         return None, "the BCa adjustment is undefined for these data", accel
     return adjusted, None, accel

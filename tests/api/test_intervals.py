@@ -315,3 +315,19 @@ def test_bins_with_the_same_seed_are_identical(api):
     _, first = ok(api, BINS, request)
     _, second = ok(api, BINS, request)
     assert first == second
+
+
+@pytest.mark.parametrize("level", [0.9999999999999999, 1e-16])
+def test_levels_at_the_edge_of_float_precision_fall_back_with_a_warning(level):
+    """Found by schema fuzzing: a level within rounding of 1 made BCa's tail z infinite."""
+    body = {"values": [251.2, 249.8, 250.4, 252.9, 250.1, 249.5, 250.7, 251, 248.9, 250.3, 250.3],
+            "options": {"interval": {"level": level, "method": "bca", "resamples": 999, "seed": 3}}}
+    with TestClient(create_app(Settings(request_log=False))) as client:
+        response = client.post(SAMPLES, json=body)
+    assert response.status_code == 200
+    parsed = response.json()
+    mean = parsed["descriptors"]["mean"]
+    assert mean["interval"]["level"] == level
+    if level > 0.5:
+        assert mean["interval"]["method"] == "percentile"
+        assert "bca_fallback" in [w["code"] for w in parsed["warnings"]]
