@@ -33,3 +33,12 @@ openapi: $(STAMP)
 
 clean:
 	rm -rf $(VENV) .pytest_cache .hypothesis
+
+# Long schemathesis CLI run against gunicorn (2 workers, own port), JSON and MessagePack answers;
+# reports and a summary in test-artifacts/fuzz. Bounded by examples per operation and seconds per pass.
+.PHONY: fuzz
+FUZZ_SEED ?= 8
+FUZZ_EXAMPLES ?= 500
+FUZZ_SECONDS ?= 300
+fuzz: $(STAMP)
+	$(PY) -m tests.fuzz.long_run --seed $(FUZZ_SEED) --max-examples $(FUZZ_EXAMPLES) --max-seconds $(FUZZ_SECONDS)
