@@ -827,6 +827,10 @@ def hedges_correction(m: float) -> float:
     ratio is Pochhammer's symbol (x)_(1/2) = Gamma(x + 1/2) / Gamma(x), x = (m - 1)/2, which
     stays accurate for large m (a difference of log-gammas loses the factor's closeness to 1).
     """
+    if m > 1e8:
+        # The approximation's error is O(m^-2): below float64's resolution here, where the
+        # gamma ratio itself would overflow for m near float64's limit.
+        return 1.0 - 3.0 / (4.0 * m - 1.0)
     return float(special.poch((m - 1.0) / 2.0, 0.5)) / math.sqrt(m / 2.0)
 
 
@@ -872,6 +876,10 @@ def _standardized_mean_difference(
     if n1 is None or n2 is None:
         return undefined("a probability table is a population and has no sample size for the pooled variance")
     m = n1 + n2 - 2.0
+    if not math.isfinite(m):
+        notes.add("not_representable", "n1 + n2 is beyond float64's range, so the standardized mean "
+                  "difference is not computed", ["standardized_mean_difference"])
+        return StandardizedMeanDifference(None, None, None, None, None, n1, n2, None, _EFFECT_ESTIMATOR)
     if m <= 1.0:
         return undefined(f"Hedges' correction needs n1 + n2 - 2 > 1; here it is {m:g}")
     first, second = estimates
@@ -908,7 +916,14 @@ def _standardized_mean_difference(
         )
     g = correction * d
     total = sizes[0] + sizes[1]
-    error = correction * math.sqrt(total / (sizes[0] * sizes[1]) + d * d / (2.0 * total))
+    # 1/n1 + 1/n2 and (d / sqrt(2 total))^2: neither n1 n2 nor d^2 is formed, so huge counts
+    # or a huge d cannot overflow into inf / inf.
+    q = d / math.sqrt(2.0 * total)
+    error = correction * math.sqrt(1.0 / sizes[0] + 1.0 / sizes[1] + q * q)
+    if not math.isfinite(error):
+        notes.add("not_representable", "the standard error of the standardized mean difference is outside "
+                  "float64's range", ["standardized_mean_difference"])
+        error = None
     result = StandardizedMeanDifference(g, d, correction, spread, m, n1, n2, error, _EFFECT_ESTIMATOR)
     if resampled is not None:
         bootstrapped = resampled.interval(hedges_g, g)

@@ -714,7 +714,7 @@ def _intervals(
             "quantiles, IQR, MAD) is lumpy and their intervals are coarse",
             ["median", "interquartile_range", "median_absolute_deviation", "quantiles"],
         )
-    _classical_intervals(data, sums, basis, interval.level, descriptors, quantiles, probabilities)
+    _classical_intervals(data, sums, basis, interval.level, descriptors, quantiles, probabilities, notes)
     return Resampling(
         method=interval.method,
         level=interval.level,
@@ -733,20 +733,32 @@ def _classical_intervals(
     descriptors: dict[str, Descriptor],
     quantiles: list[Quantile],
     probabilities: np.ndarray,
+    notes: _Notes,
 ) -> None:
     counted = data.meaning in (WeightMeaning.UNIT, WeightMeaning.FREQUENCY)
     n = data.total_weight
     if sums is not None and counted and n >= 2 and descriptors["mean"].value is not None:
         sample_variance = sums.central_moment(2) * n / (n - 1.0)
         if math.isfinite(sample_variance) and sample_variance > 0.0:
-            descriptors["mean"].classical_interval = classical.mean_interval(
-                descriptors["mean"].value, math.sqrt(sample_variance), n, level
-            )
-            chi = classical.variance_interval(sample_variance, n, level)
-            descriptors["variance"].classical_interval = chi
-            descriptors["standard_deviation"].classical_interval = dataclasses.replace(
-                chi, low=math.sqrt(chi.low), high=math.sqrt(chi.high)
-            )
+            with np.errstate(all="ignore"):
+                t = classical.mean_interval(descriptors["mean"].value, math.sqrt(sample_variance), n, level)
+                chi = classical.variance_interval(sample_variance, n, level)
+            # A level within rounding of 1 (or 0) puts a quantile of t or chi-square at infinity
+            # or zero: no finite interval exists, so none is given (a warning says so).
+            unbounded = []
+            if math.isfinite(t.low) and math.isfinite(t.high):
+                descriptors["mean"].classical_interval = t
+            else:
+                unbounded.append("mean")
+            if all(math.isfinite(b) and b >= 0.0 for b in (chi.low, chi.high)):
+                descriptors["variance"].classical_interval = chi
+                descriptors["standard_deviation"].classical_interval = dataclasses.replace(
+                    chi, low=math.sqrt(chi.low), high=math.sqrt(chi.high)
+                )
+            else:
+                unbounded += ["variance", "standard_deviation"]
+            if unbounded:
+                notes.add("interval_undefined", f"no finite classical interval at level {level!r}", unbounded)
     if counted and data.integer_weights and not data.binned:
         if descriptors["median"].value is not None:
             descriptors["median"].classical_interval = classical.quantile_interval(data, 0.5, level)

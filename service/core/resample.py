@@ -583,12 +583,11 @@ def interval_from_replicates(
     if method == "basic":
         low, high = 2.0 * scaled_estimate - high, 2.0 * scaled_estimate - low
     low, high = scale_by_power_of_two(float(low), exponent), scale_by_power_of_two(float(high), exponent)
-    return BootstrapResult(
-        Interval(None if math.isnan(low) else low, None if math.isnan(high) else high, options.level, method),
-        se,
-        reason,
-        accel,
-    )
+    if se is not None and not math.isfinite(se):
+        se = None
+    if not (math.isfinite(low) and math.isfinite(high)):
+        return BootstrapResult(None, se, "the interval's bounds lie beyond float64's range", accel)
+    return BootstrapResult(Interval(low, high, options.level, method), se, reason, accel)
 
 
 def acceleration(jackknives: list[tuple[np.ndarray, np.ndarray]]) -> float | None:
@@ -604,15 +603,25 @@ def acceleration(jackknives: list[tuple[np.ndarray, np.ndarray]]) -> float | Non
     whose source cites the same book (sections 14.3 and 15.4). ``None`` when every left-out
     observation gives the same value (no acceleration can be estimated).
     """
+    parts = []
+    with np.errstate(all="ignore"):
+        for values, weights in jackknives:
+            n = float(np.sum(weights))
+            centre = np.sum(weights * values) / n
+            parts.append((weights, (n - 1.0) / n * (centre - values)))
+    # a is scale-free (cubes over the 3/2 power of squares), so the influences are divided by
+    # their largest magnitude first: cubes of influences near 1e300 cannot overflow.
+    largest = max(float(np.max(np.abs(influence))) if influence.size else 0.0 for _, influence in parts)
+    if largest == 0.0 or not math.isfinite(largest):
+        return None
     numerator = denominator = 0.0
-    for values, weights in jackknives:
-        n = float(np.sum(weights))
-        centre = np.sum(weights * values) / n
-        influence = (n - 1.0) / n * (centre - values)
-        numerator += float(np.sum(weights * influence**3))
-        denominator += float(np.sum(weights * influence**2))
+    with np.errstate(all="ignore"):
+        for weights, influence in parts:
+            scaled = influence / largest
+            numerator += float(np.sum(weights * scaled**3))
+            denominator += float(np.sum(weights * scaled**2))
     spread = denominator**1.5
-    if spread == 0.0 or not math.isfinite(spread):
+    if spread == 0.0 or not math.isfinite(spread) or not math.isfinite(numerator):
         return None
     return numerator / (6.0 * spread)
 
@@ -776,8 +785,9 @@ def _little_bootstraps(
             unit_weights=bool(np.all(plan.unit[rows] == 1.0)),
         )
         statistics = _Statistics(subset, (full.skewness_family, full.kurtosis_family), full.quantile_type, full.factor_rule)
-        weights = rng.multinomial(observations, counts / m, size=per_subset).astype(np.float64) * subset.unit[None, :]
-        replicates = statistics.evaluate(_Rows(weights, subset.powers, subset.integer), probabilities, wanted)
+        with np.errstate(all="ignore"):  # non-finite replicates are reported as undefined below
+            weights = rng.multinomial(observations, counts / m, size=per_subset).astype(np.float64) * subset.unit[None, :]
+            replicates = statistics.evaluate(_Rows(weights, subset.powers, subset.integer), probabilities, wanted)
         rounds.append(replicates)
         alpha = 1.0 - options.level
         for name in names:
@@ -854,8 +864,12 @@ def bootstrap(
 
     def run(batch: tuple[np.random.Generator, int]) -> dict[str, np.ndarray]:
         _deadline_check(deadline)
-        weights = _draw(plan, *batch)
-        return statistics.evaluate(_Rows(weights, plan.powers, plan.integer), probabilities, wanted)
+        # Weights near float64's limit can overflow in a resample; such replicates are non-finite
+        # and reported as undefined below, so the floating-point flags carry no news. (errstate
+        # is per thread: it must be set here, in the worker.)
+        with np.errstate(all="ignore"):
+            weights = _draw(plan, *batch)
+            return statistics.evaluate(_Rows(weights, plan.powers, plan.integer), probabilities, wanted)
 
     # numpy releases the GIL in the heavy loops, so batches overlap on the cores; each batch has
     # its own generator, so the result does not depend on which thread ran it.
@@ -868,7 +882,10 @@ def bootstrap(
         present = plan.base > 0
         removed = np.where(present, plan.unit, 0.0)
         view = _LeaveOneOut(plan.base, removed, plan.powers)
-        jackknife = statistics.evaluate(view, probabilities, wanted)
+        # A row whose removal leaves a total that rounds to 0 (weights 1e17 and 0.5) has no
+        # leave-one-out value: non-finite, which makes BCa fall back with its reason.
+        with np.errstate(all="ignore"):
+            jackknife = statistics.evaluate(view, probabilities, wanted)
         # Each row stands for its observations: row i's leave-one-out value counts base/unit times.
         jackknife_weights = np.where(present, plan.base / plan.unit, 0.0)
     results: dict[str, BootstrapResult] = {}

@@ -39,10 +39,18 @@ def contributions(
     m2 = sums.scaled_central_moment(2)
     total = float(np.sum(weights))
     standardized = sums.scaled_deviations(values) / np.sqrt(m2)
-    squared = standardized * standardized
     share = weights / total  # proportions first: huge counts cannot overflow the products
-    third = share * squared * standardized
-    fourth = share * squared * squared
+    with np.errstate(over="ignore", invalid="ignore"):
+        squared = standardized * standardized
+        third = share * squared * standardized
+        fourth = share * squared * squared
+        far = ~(np.isfinite(third) & np.isfinite(fourth))
+        if far.any():
+            # A tiny share far out (2.5e-318 of the weight at 1e159 sd) overflows z^3 although
+            # share z^3 is representable: take the roots of the share first. What is still
+            # infinite is beyond float64, and describe reports it as not representable.
+            third[far] = (np.cbrt(share[far]) * standardized[far]) ** 3
+            fourth[far] = (np.sqrt(np.sqrt(share[far])) * standardized[far]) ** 4
     if largest_only or values.size > limit:
         if values.size > limit:
             # Select the largest by the tail weight in linear time; only those few are ordered.

@@ -16,11 +16,11 @@ about the content of a string: float64 bytes must decode from base64 to a whole 
 Those bodies get a documented 400 or 422 problem naming the field, which is the intended
 answer; `hooks.problem_names_the_field`, added to the checks, makes sure it names one.
 
-Known bugs found by the fuzz runs are listed in hooks.KNOWN_WARNINGS and hooks.KNOWN_ANSWERS with
-the exact signature that identifies each (the service function where a numpy RuntimeWarning
-escaped, or the answer member that carried a NaN or infinity). A case showing such a signature
-is rejected (not counted) and tallied; anything else fails. Each bug is pinned by a strict xfail
-below: when one starts passing, remove its entry and its test.
+Bugs a fuzz run finds are listed in hooks.KNOWN_WARNINGS and hooks.KNOWN_ANSWERS, with the
+exact signature that identifies each (the service function where a numpy RuntimeWarning
+escaped, or the answer member that carried a NaN or infinity), while they are open: a case
+showing such a signature is rejected (not counted) and tallied; anything else fails. Both are
+empty now: the seven bugs found so far are fixed and their cases are regression tests below.
 """
 
 from __future__ import annotations
@@ -159,7 +159,7 @@ def test_the_run_reached_every_operation_in_both_formats(request, fuzz_summary):
     assert total >= MINIMUM_CASES, f"only {total} calls"
 
 
-# ---- Known bugs found by this run, pinned until fixed (see hooks.KNOWN_WARNINGS and KNOWN_ANSWERS) ----
+# ---- Bugs this run found, now fixed: each case is kept as a regression test ----
 
 
 def _answer(path: str, body: dict, accept: str = "application/json"):
@@ -167,8 +167,7 @@ def _answer(path: str, body: dict, accept: str = "application/json"):
         return client.post(path, json=body, headers={"accept": accept})
 
 
-@pytest.mark.xfail(strict=True, raises=AssertionError, reason="known bug 1: resample._draw overflows (RuntimeWarning, 500 here)")
-def test_known_bug_1_bootstrap_weights_near_the_float64_limit():
+def test_fixed_bug_1_bootstrap_weights_near_the_float64_limit():
     """Weights 1e308 and 0.5 are not whole counts, so entries are resampled uniformly keeping
     their weights; a resample drawing the 1e308 entry twice weighs 2e308. Any answer but a
     crash will do: a 200 (intervals null with a reason) or a 422 naming the weights."""
@@ -181,8 +180,7 @@ def test_known_bug_1_bootstrap_weights_near_the_float64_limit():
     assert response.status_code in (200, 422), response.text
 
 
-@pytest.mark.xfail(strict=True, raises=AssertionError, reason="known bug 3: tail.contributions squares before describe's finiteness check")
-def test_known_bug_3_tail_contributions_of_a_tiny_weight_far_out():
+def test_fixed_bug_3_tail_contributions_of_a_tiny_weight_far_out():
     """An outcome holding a share of 2.5e-318 of the weight lies ~1e159 standard deviations out;
     its square overflows (describe then reports not_representable, but the warning escapes)."""
     body = {
@@ -197,8 +195,7 @@ def test_known_bug_3_tail_contributions_of_a_tiny_weight_far_out():
     assert response.status_code == 200, response.text
 
 
-@pytest.mark.xfail(strict=True, raises=AssertionError, reason="known bug 4: compare._standardized_mean_difference lets a NaN through")
-def test_known_bug_4_standard_error_of_hedges_g_is_never_nan():
+def test_fixed_bug_4_standard_error_of_hedges_g_is_never_nan():
     """n2 = 1.8e308 makes d about -2.2e154, so d * d is inf and sqrt(inf / inf) is NaN; JSON
     shows null with no warning naming it, MessagePack shows the NaN."""
     body = {
@@ -211,8 +208,7 @@ def test_known_bug_4_standard_error_of_hedges_g_is_never_nan():
     assert hooks.non_finite_paths(msgspec.msgpack.decode(response.content)) == []
 
 
-@pytest.mark.xfail(strict=True, raises=AssertionError, reason="known bug 5: compare._standardized_mean_difference lets inf and NaN through")
-def test_known_bug_5_hedges_g_when_n1_plus_n2_overflows():
+def test_fixed_bug_5_hedges_g_when_n1_plus_n2_overflows():
     """Two tables of total weight 1e308 each: m = n1 + n2 - 2 is inf, J(inf) is NaN, and both go
     out as degrees_of_freedom and correction_factor (null in JSON with no warning naming them)."""
     side = {"kind": "table", "weight_kind": "counts", "outcomes": [{"value": 0.0, "weight": 5e307}, {"value": 1.0, "weight": 5e307}]}
@@ -221,8 +217,7 @@ def test_known_bug_5_hedges_g_when_n1_plus_n2_overflows():
     assert hooks.non_finite_paths(msgspec.msgpack.decode(response.content)) == []
 
 
-@pytest.mark.xfail(strict=True, raises=AssertionError, reason="known bug 6: resample.acceleration cubes overflow")
-def test_known_bug_6_bca_acceleration_of_values_spanning_300_decades():
+def test_fixed_bug_6_bca_acceleration_of_values_spanning_300_decades():
     """Found by the long run (tests/fuzz/long_run.py): values [-1, 0, 1e-300] with a BCa interval.
     Some descriptor's jackknife influences reach ~1e300 relative to the replicates' scale, so
     influence**3 overflows in acceleration() (RuntimeWarning; a 500 here)."""
@@ -230,8 +225,7 @@ def test_known_bug_6_bca_acceleration_of_values_spanning_300_decades():
     assert response.status_code == 200, response.text
 
 
-@pytest.mark.xfail(strict=True, raises=AssertionError, reason="known bug 7: resample._Statistics.evaluate divides by a zero jackknife weight")
-def test_known_bug_7_jackknife_of_weights_with_a_wide_range():
+def test_fixed_bug_7_jackknife_of_weights_with_a_wide_range():
     """Found by the long run: weights [1e17, 0.5, 0.5, 0.5] with a BCa interval. Leaving out the
     1e17 entry, total - 1e17 rounds to 0 (the 1.5 is below 1e17's spacing of 16), so the
     jackknife row's mean is 0 / 0, computed outside evaluate()'s errstate (a 500 here; in
@@ -241,8 +235,7 @@ def test_known_bug_7_jackknife_of_weights_with_a_wide_range():
     assert response.status_code == 200, response.text
 
 
-@pytest.mark.xfail(strict=True, raises=AssertionError, reason="known bug 8: classical t interval infinite at a level of 1 - 2**-53")
-def test_known_bug_8_classical_interval_at_a_level_within_rounding_of_one():
+def test_fixed_bug_8_classical_interval_at_a_level_within_rounding_of_one():
     """Found by this run after BCa's fallback at such levels was fixed (b19ac94): the student_t
     interval of the mean is (-inf, inf), written as null in JSON where the schema says number."""
     body = {"values": [251.2, 249.8, 250.4, 252.9, 250.1], "options": {"interval": {"level": 0.9999999999999999, "resamples": 200, "seed": 3}}}
