@@ -169,8 +169,14 @@ def handle_http_exception(request: Request, exc: HTTPException) -> Response:
     if slug is None:
         slug = "internal-error" if exc.status_code >= 500 else "invalid-body"
     detail = exc.detail if isinstance(exc.detail, str) and exc.detail else PROBLEM_TYPES[slug][1]
+    errors = []
+    if slug == "body-too-large":
+        # litestar's body-size limit (request_max_body_size): the offending field is the whole body.
+        limit = request.app.state.settings.max_body_bytes
+        detail = f"the request body is larger than this server's limit of {limit} bytes"
+        errors = [ProblemLocation(path="$", message=f"at most {limit} bytes")]
     # Keep the exception's headers: a 405 must say which methods are allowed (RFC 9110).
-    return problem_response(slug, detail, [], headers=dict(exc.headers or {}), codec=problem_codec(request))
+    return problem_response(slug, detail, errors, headers=dict(exc.headers or {}), codec=problem_codec(request))
 
 
 def handle_unexpected(request: Request, exc: Exception) -> Response:
