@@ -235,6 +235,8 @@ def build() -> Corpus:
                400, "invalid-body", ["$.outcomes[0].weight"], "a weight beyond float64")
     c.raw_json("bins", "edge-beyond-float64", '{"edges": [490, 1e309, 500], "counts": [1, 2]}', 400, "invalid-body",
                ["$.edges[1]"], "an edge beyond float64")
+    c.both("bins", "moment-order-13", with_changes("bins", options={"moment_order": 13}), *bad,
+           ["$.options.moment_order"], "above the schema's 12")
     c.raw_msgpack("samples", "seed-uint64", msgspec.msgpack.encode(with_changes("samples", options={"interval": {"seed": 2**64 - 1}})),
                   400, "invalid-body", ["$.options.interval.seed"], "a MessagePack uint64 seed of 2**64 - 1")
     c.both("samples", "moment-order-13", with_changes("samples", options={"moment_order": 13}), *bad,
