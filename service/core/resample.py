@@ -478,7 +478,10 @@ def _plan(data: WeightedData, sums: CentralSums) -> tuple[_Plan, list[str]]:
             "the weights are not whole counts, so entries are resampled uniformly and keep their weights"
         )
     deviations = sums.scaled_deviations(values)
-    powers = np.vander(deviations, 5, increasing=True)
+    # A far outlier's fourth power may overflow: the replicates that use it are then
+    # non-finite, and reported as undefined, rather than a floating-point warning here.
+    with np.errstate(over="ignore"):
+        powers = np.vander(deviations, 5, increasing=True)
     row_of_draw = None
     if not np.all(base == unit) and not (multinomial and draws > 8 * values.size):
         row_of_draw = np.repeat(np.arange(values.size, dtype=np.int64), np.round(base / unit).astype(np.int64))

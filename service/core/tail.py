@@ -38,9 +38,11 @@ def contributions(
     """
     m2 = sums.scaled_central_moment(2)
     total = float(np.sum(weights))
-    standardized = sums.scaled_deviations(values) / np.sqrt(m2)
     share = weights / total  # proportions first: huge counts cannot overflow the products
     with np.errstate(over="ignore", invalid="ignore"):
+        # An outlier whose share underflows can lie beyond float64 standard deviations out:
+        # its contributions are then infinite, which describe reports as not representable.
+        standardized = sums.scaled_deviations(values) / np.sqrt(m2)
         squared = standardized * standardized
         third = share * squared * standardized
         fourth = share * squared * squared
