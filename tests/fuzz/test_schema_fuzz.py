@@ -19,21 +19,26 @@ answer; `hooks.problem_names_the_field`, added to the checks, makes sure it name
 Bugs a fuzz run finds are listed in hooks.KNOWN_WARNINGS and hooks.KNOWN_ANSWERS, with the
 exact signature that identifies each (the service function where a numpy RuntimeWarning
 escaped, or the answer member that carried a NaN or infinity), while they are open: a case
-showing such a signature is rejected (not counted) and tallied; anything else fails. Both are
-empty now: the seven bugs found so far are fixed and their cases are regression tests below.
+showing such a signature is rejected (not counted) and tallied; anything else fails. Open bugs
+are pinned below by strict xfails; when one passes, remove its entry in hooks and keep its case
+as a regression test. The ten found so far are fixed (d160901, cfd3554) and are regression tests.
+
+hooks.filter_body leaves out one kind of generated body, for a reason the schema cannot express:
+an integer beyond +-1.7976931348623157e308 that float64 reading rounds onto that bound.
 """
 
 from __future__ import annotations
 
 import collections
 import logging
+import traceback
 import zlib
 from pathlib import Path
 
 import msgspec
 import pytest
 import schemathesis
-from hypothesis import HealthCheck, reject, settings
+from hypothesis import HealthCheck, note, reject, settings
 from litestar.testing import TestClient
 from schemathesis.specs.openapi.checks import positive_data_acceptance
 
@@ -76,6 +81,21 @@ def accept_for(case) -> str | None:
     return ACCEPT[zlib.crc32(repr(seen).encode()) % len(ACCEPT)]
 
 
+def with_fixed_seeds(case) -> None:
+    """Give every interval request without a seed one derived from the case.
+
+    A null seed makes the server draw one (service/api/compute.py), so the same generated case
+    could resample differently on a replay and a failure found once could not be reproduced.
+    Null seeds themselves are covered by tests/api/test_intervals.py.
+    """
+    body = case.body
+    if not isinstance(body, dict) or not isinstance(body.get("options"), dict):
+        return
+    interval = body["options"].get("interval")
+    if isinstance(interval, dict) and interval.get("seed") is None:
+        interval["seed"] = zlib.crc32(repr(body).encode())
+
+
 def warning_site(error: BaseException | None) -> tuple[str, str] | None:
     """(file, function) of the innermost service frame where a RuntimeWarning was raised."""
     if not isinstance(error, RuntimeWarning):
@@ -111,9 +131,12 @@ def known_bug(response) -> str | None:
 def test_every_operation_answers_as_documented(case):
     accept = accept_for(case)
     headers = {"Accept": accept} if accept else None
+    with_fixed_seeds(case)
     UNHANDLED.error = None
     response = case.call(headers=headers)
     bug = known_bug(response)
+    if response.status_code == 500 and bug is None and UNHANDLED.error is not None:
+        note("server traceback:\n" + "".join(traceback.format_exception(UNHANDLED.error)))
     if bug is not None:
         KNOWN_HITS[bug] += 1
         reject()
@@ -242,3 +265,29 @@ def test_fixed_bug_8_classical_interval_at_a_level_within_rounding_of_one():
     response = _answer("/v1/descriptors/samples", body, accept="application/msgpack")
     assert response.status_code == 200, response.text
     assert hooks.non_finite_paths(msgspec.msgpack.decode(response.content)) == []
+
+
+def test_fixed_bug_9_an_outlier_beyond_float64_standard_deviations():
+    """Found by the long run (make fuzz, seed 8) after bug 3's fix: a weight of 1e-38 at -1e308
+    beside 1e308 counts at 0 and 1. Its share of the weight underflows, so the standard deviation
+    is that of the bulk (0.5) and the outlier lies 2e308 standard deviations out: the division
+    in tail.contributions overflows (a RuntimeWarning; a 500 here)."""
+    body = {
+        "outcomes": [{"value": -1e308, "weight": 1e-38}, {"value": 0.0, "weight": 5e307}, {"value": 1.0, "weight": 5e307}],
+        "weight_kind": "counts",
+    }
+    response = _answer("/v1/descriptors/table", body)
+    assert response.status_code == 200, response.text
+
+
+def test_fixed_bug_10_resampling_plan_of_a_far_outlier():
+    """Found by the long run: one observation at -1e100 beside 1e308 counts at 0 and 1e307 at 1,
+    with a percentile interval. In the plan's scaled units the outlier's deviation is about 1e100
+    times the spread, and its fourth power in np.vander(deviations, 5) overflows."""
+    body = {
+        "outcomes": [{"value": -1e100, "weight": 1.0}, {"value": 0.0, "weight": 1e308}, {"value": 1.0, "weight": 1e307}],
+        "weight_kind": "counts",
+        "options": {"interval": {"method": "percentile", "resamples": 200, "seed": 1}},
+    }
+    response = _answer("/v1/descriptors/table", body)
+    assert response.status_code == 200, response.text
