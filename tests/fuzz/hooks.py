@@ -59,43 +59,6 @@ def _representable(value):
     return value
 
 
-_LARGEST_INTEGER = int(1.7976931348623157e308)
-
-
-def _rounds_onto_the_largest_double(value) -> bool:
-    """An integer literal beyond +-1.7976931348623157e308 that float64 reading rounds onto it."""
-    if isinstance(value, bool) or not isinstance(value, int) or abs(value) <= _LARGEST_INTEGER:
-        return False
-    try:
-        return math.isfinite(float(value))
-    except OverflowError:
-        return False
-
-
-def _holds(value, predicate) -> bool:
-    if isinstance(value, dict):
-        return any(_holds(item, predicate) for item in value.values())
-    if isinstance(value, list):
-        return any(_holds(item, predicate) for item in value)
-    return predicate(value)
-
-
-@schemathesis.hook
-def filter_body(ctx, body) -> bool:
-    """Leave out bodies holding an integer that is beyond the schema's bound only before rounding.
-
-    The service reads numbers as IEEE float64, rounding to nearest: an integer beyond
-    +-1.7976931348623157e308 by less than half a unit in the last place (2**970) is read as that
-    largest double, which the bound allows, while JSON Schema compares the literal exactly.
-    schemathesis' negative cases "just over the maximum" are such integers, and
-    negative_data_rejection then reports them accepted. The schema cannot say "after rounding to
-    float64", so only those bodies are left out; a literal that rounds to infinity is still sent
-    and must be refused. (In MessagePack such an integer cannot travel at all: _representable
-    sends it as the float it rounds to.)
-    """
-    return not _holds(body, _rounds_onto_the_largest_double)
-
-
 @schemathesis.serializer(*MSGPACK_TYPES)
 def to_msgpack(ctx, value) -> bytes:
     # A generated body is any JSON-like value (negative tests send wrong types on purpose).
@@ -112,7 +75,9 @@ def from_msgpack(ctx, response):
 # (file, function) of the service code where a numpy RuntimeWarning escaped: a 500 where
 # warnings are errors (the test suite; the long run's server), a warning in production.
 # Bugs 1-10 are fixed (d160901, cfd3554); their cases are regression tests in test_schema_fuzz.py.
-KNOWN_WARNINGS: dict = {}
+KNOWN_WARNINGS: dict = {
+    ("resample.py", "__init__"): "11: power sums of resampled or jackknife rows overflow (weights near 1.8e308)",
+}
 # Answer members (dotted paths, list indexes left out; * matches any prefix) that carried a NaN
 # or infinity: MessagePack shows it, JSON writes null. True where the schema says number, so
 # that a JSON null there is the same bug; False where null is allowed (a warning must say why).

@@ -22,6 +22,15 @@ hooks.KNOWN_WARNINGS where it is a known bug. The server is stopped by its pid.
 
 Reports (JUnit and NDJSON events per pass) and a summary go to --output-dir. The exit status
 is 0 only when both passes found nothing.
+
+One failure kind is expected and is not a bug: ST201 (negative_data_rejection) for an integer
+just beyond +-1.7976931348623157e308, such as -1797693134862315700...0001 (309 digits).
+schemathesis builds "just over the maximum" that way and JSON Schema compares the literal
+exactly, while the service reads numbers as IEEE float64, which rounds it onto the largest
+double, inside the bound. (In MessagePack such an integer cannot travel; hooks._representable
+sends the float it rounds to.) The schema cannot say "after rounding to float64", and leaving
+out negative_data_rejection would lose every other negative check, so such reports are read
+by hand: the summary lists each failure with the body's constraint.
 """
 
 from __future__ import annotations
@@ -34,6 +43,7 @@ import re
 import subprocess
 import sys
 import time
+import xml.etree.ElementTree as ElementTree
 from pathlib import Path
 
 from tests.fuzz import hooks
@@ -70,6 +80,25 @@ def count_cases(ndjson: Path) -> tuple[int, collections.Counter]:
         label = recorder.get("label") or "?"
         per_operation[label] += len(recorder.get("cases") or {})
     return sum(per_operation.values()), per_operation
+
+
+_FAILURE_CODE = re.compile(r"^- (ST\d+ [^\n]+)", re.MULTILINE)
+_DETAIL = re.compile(r"Invalid component: [^\n]+|NaN or infinity at [^\n]+|names no field[^\n]*|Schema at [^\n]+")
+
+
+def junit_failures(junit: Path) -> list[str]:
+    """One line per failing operation of a schemathesis JUnit report: its failure codes and details."""
+    if not junit.exists() or not junit.stat().st_size:
+        return []
+    lines = []
+    for case in ElementTree.parse(junit).iter("testcase"):
+        for outcome in case:
+            if outcome.tag in ("failure", "error"):
+                text = outcome.text or outcome.get("message") or ""
+                codes = "; ".join(dict.fromkeys(_FAILURE_CODE.findall(text)))
+                details = "; ".join(dict.fromkeys(m.group(0) for m in _DETAIL.finditer(text)))
+                lines.append(f"{case.get('name')}: {codes}" + (f" ({details})" if details else ""))
+    return lines
 
 
 def server_errors(log: str) -> collections.Counter:
@@ -147,6 +176,7 @@ def main(argv: list[str] | None = None) -> int:
     for name, (code, cases, per_operation) in results.items():
         lines.append(f"pass {name}: exit {code}, {cases} cases")
         lines += [f"  {label}: {n}" for label, n in sorted(per_operation.items())]
+        lines += [f"  failure: {line}" for line in junit_failures(out / f"{name}.junit.xml")]
     lines.append(f"total cases: {sum(cases for _, cases, _ in results.values())}")
     lines.append(f"server still ready at the end: {alive}")
     lines.append(f"unhandled errors in the server log: {sum(errors.values())}")
