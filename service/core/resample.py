@@ -884,10 +884,11 @@ def bootstrap(
     if options.method == "bca":
         present = plan.base > 0
         removed = np.where(present, plan.unit, 0.0)
-        view = _LeaveOneOut(plan.base, removed, plan.powers)
-        # A row whose removal leaves a total that rounds to 0 (weights 1e17 and 0.5) has no
-        # leave-one-out value: non-finite, which makes BCa fall back with its reason.
+        # A row whose removal leaves a total that rounds to 0 (weights 1e17 and 0.5), or power
+        # sums that overflow (weights near 1.8e308), has no finite leave-one-out value, which
+        # makes BCa fall back with its reason.
         with np.errstate(all="ignore"):
+            view = _LeaveOneOut(plan.base, removed, plan.powers)
             jackknife = statistics.evaluate(view, probabilities, wanted)
         # Each row stands for its observations: row i's leave-one-out value counts base/unit times.
         jackknife_weights = np.where(present, plan.base / plan.unit, 0.0)

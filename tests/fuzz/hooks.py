@@ -75,9 +75,7 @@ def from_msgpack(ctx, response):
 # (file, function) of the service code where a numpy RuntimeWarning escaped: a 500 where
 # warnings are errors (the test suite; the long run's server), a warning in production.
 # Bugs 1-10 are fixed (d160901, cfd3554); their cases are regression tests in test_schema_fuzz.py.
-KNOWN_WARNINGS: dict = {
-    ("resample.py", "__init__"): "11: power sums of resampled or jackknife rows overflow (weights near 1.8e308)",
-}
+KNOWN_WARNINGS: dict = {}  # bugs 1-11 are fixed; their cases are regression tests in test_schema_fuzz.py
 # Answer members (dotted paths, list indexes left out; * matches any prefix) that carried a NaN
 # or infinity: MessagePack shows it, JSON writes null. True where the schema says number, so
 # that a JSON null there is the same bug; False where null is allowed (a warning must say why).

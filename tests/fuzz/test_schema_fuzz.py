@@ -291,11 +291,10 @@ def test_fixed_bug_10_resampling_plan_of_a_far_outlier():
     assert response.status_code == 200, response.text
 
 
-# ---- Known bugs, open: pinned until fixed (see hooks.KNOWN_WARNINGS) ----
+# ---- Bug 11, found by make fuzz after bugs 9 and 10 were fixed; fixed too ----
 
 
-@pytest.mark.xfail(strict=True, raises=AssertionError, reason="known bug 11: resample row power sums overflow")
-def test_known_bug_11_jackknife_power_sums_of_weights_near_the_float64_limit():
+def test_fixed_bug_11_jackknife_power_sums_of_weights_near_the_float64_limit():
     """Found by the long run (make fuzz, seed 8) after bugs 9 and 10 were fixed: counts 1e308 at 0
     and 1e306 at 10 with a BCa interval. The jackknife's power sums (_LeaveOneOut.__init__,
     base @ powers) weigh scaled deviations above 1 by weights summing to ~1e308 and overflow (a
