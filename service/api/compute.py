@@ -23,15 +23,14 @@ from service.api.schemas import (
     ComparisonResponse,
     ComparisonWarning,
     DescriptionResponse,
-    DescriptorOptions,
     MergedDescriptionResponse,
-    MergeOptions,
     MergeRequest,
     ProblemLocation,
     ResultWarning,
     SamplesInput,
     SamplesRequest,
     Scores,
+    SummaryOptions,
     TableInput,
     TableRequest,
 )
@@ -113,7 +112,7 @@ def _check_count(count: int, path: str, settings: Settings) -> None:
         )
 
 
-def _describe_options(options: DescriptorOptions | MergeOptions, settings: Settings) -> DescribeOptions:
+def _describe_options(options: SummaryOptions, settings: Settings) -> DescribeOptions:
     if options.moment_order > settings.max_moment_order:
         raise LimitExceeded(
             detail=f"moment_order may be at most {settings.max_moment_order} on this server",
@@ -170,9 +169,13 @@ def _with_scores(message: DescriptionResponse | ComparisonResponse, description,
     return message
 
 
-def _answer(description, count: int, codec: Codec, points: list[float]) -> Computed:
+def _answer(
+    description, count: int, codec: Codec, points: list[float], state: PartialState | None = None
+) -> Computed:
     message = msgspec.convert(description, DescriptionResponse, from_attributes=True)
     message = _with_scores(message, description, points)
+    if state is not None:
+        message.partial_state = _state_message(state)
     resamples = description.resampling.resamples if description.resampling is not None else 0
     return Computed(codec.encode(message), count, resamples)
 
@@ -243,14 +246,10 @@ def describe_samples(body: bytes, codec: Codec, answer: Codec, settings: Setting
     data, count = _samples_data(request, request.options.missing, settings)
     options = _describe_options(request.options, settings)
     description = describe(data, options, kind="samples")
-    if not request.options.partial_state:
-        return _answer(description, count, answer, request.options.score)
-    state = state_of(data, order=max(MIN_ORDER, request.options.moment_order))
-    message = msgspec.convert(description, DescriptionResponse, from_attributes=True)
-    message = _with_scores(message, description, request.options.score)
-    message.partial_state = _state_message(state)
-    resamples = description.resampling.resamples if description.resampling is not None else 0
-    return Computed(answer.encode(message), count, resamples)
+    state = None
+    if request.options.partial_state:
+        state = state_of(data, order=max(MIN_ORDER, request.options.moment_order))
+    return _answer(description, count, answer, request.options.score, state)
 
 
 def merge_states_request(body: bytes, codec: Codec, answer: Codec, settings: Settings) -> Computed:

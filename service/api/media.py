@@ -82,8 +82,8 @@ def answer_codec(request: Request) -> tuple[Codec, str]:
             "header.accept",
             f"accept {JSON} or {MSGPACK}",
         )
-    # best_match answers with the offer itself, or the first offer for a wildcard.
-    return _BY_MEDIA_TYPE.get(chosen, JSON_CODEC), chosen if chosen in _BY_MEDIA_TYPE else JSON
+    # best_match answers with one of the offers (the first one for a wildcard).
+    return _BY_MEDIA_TYPE[chosen], chosen
 
 
 def problem_codec(request: Request) -> Codec:

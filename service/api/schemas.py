@@ -68,13 +68,8 @@ class IntervalRequest(Message):
     ] = None
 
 
-class DescriptorOptions(Message):
-    """Options shared by every descriptor endpoint."""
-
-    interval: Annotated[
-        IntervalRequest | None,
-        Meta(description="Ask for bootstrap and classical intervals of every descriptor; null: none."),
-    ] = None
+class SummaryOptions(Message):
+    """Options of every endpoint that reports descriptors, merged states included."""
 
     convention: Annotated[
         Literal["sample", "population"] | None,
@@ -119,6 +114,15 @@ class DescriptorOptions(Message):
             ),
         ),
     ] = msgspec.field(default_factory=list)
+
+
+class DescriptorOptions(SummaryOptions):
+    """Options shared by every descriptor endpoint."""
+
+    interval: Annotated[
+        IntervalRequest | None,
+        Meta(description="Ask for bootstrap and classical intervals of every descriptor; null: none."),
+    ] = None
 
 
 QuantileType = Annotated[
@@ -703,33 +707,12 @@ KllSketch = Annotated[
 ]
 
 
-class MergeOptions(Message):
-    """The options of a descriptor endpoint that a merged state can honour (no resampling)."""
+class MergeOptions(SummaryOptions):
+    """The options of a descriptor endpoint that a merged state can honour (no resampling).
 
-    convention: Annotated[
-        Literal["sample", "population"] | None,
-        Meta(description="sample: divisor n - 1 and G1/G2; population: divisor n and g1/g2. null: sample."),
-    ] = None
-    skewness_estimator: Annotated[
-        Literal["g1", "G1", "b1"] | None,
-        Meta(description="Joanes & Gill (1998) skewness family; null follows the convention."),
-    ] = None
-    kurtosis_estimator: Annotated[
-        Literal["g2", "G2", "b2"] | None,
-        Meta(description="Joanes & Gill (1998) kurtosis family; null follows the convention."),
-    ] = None
-    probabilities: Annotated[
-        list[Probability],
-        Meta(max_length=SCHEMA_MAX_PROBABILITIES, description="Probabilities for quantiles (from sketches)."),
-    ] = msgspec.field(default_factory=lambda: list(DEFAULT_PROBABILITIES))
-    moment_order: Annotated[
-        int,
-        Meta(ge=1, le=SCHEMA_MAX_MOMENT_ORDER, description="Highest moment order reported (at most the states' order)."),
-    ] = 4
-    score: Annotated[
-        list[Finite],
-        Meta(max_length=SCHEMA_MAX_SCORES, description="Values to score against the merged distribution."),
-    ] = msgspec.field(default_factory=list)
+    Quantiles at options.probabilities come from sketches, when sent; moments stop at the
+    states' order.
+    """
 
 
 class MergeRequest(Message):
