@@ -41,6 +41,8 @@ FEW_DISTINCT = 20
 # size n**0.7, 20 of them (the paper's experiments find s = 10-20 and r = 50-100 enough).
 SUBSET_EXPONENT = 0.7
 SUBSETS = 20
+# Resamples of at least this many draws are counted row by row (cheaper than one flat count).
+_ROW_BY_ROW_DRAWS = 2048
 
 
 @dataclass(frozen=True)
@@ -70,45 +72,65 @@ class BootstrapResult:
 
 
 class _Rows:
-    """Weights of b resamples over the k support rows, seen through what statistics need."""
+    """Weights of b resamples over the k support rows, seen through what statistics need.
 
-    def __init__(self, weights: np.ndarray, powers: np.ndarray | None, whole: bool) -> None:
+    Whole counts keep their prefix sums as integers, running on across the rows (row r's
+    cumulative counts plus everything drawn in rows before it): one increasing array, so a
+    single binary search finds an order statistic of every row at once, exactly.
+    """
+
+    def __init__(
+        self, weights: np.ndarray, powers: np.ndarray | None, whole: bool, counts: np.ndarray | None = None
+    ) -> None:
         self.weights = weights
         self.whole = whole
         if powers is not None:
             self.sums = weights @ powers
+        rows, k = weights.shape
+        self._running = None
         if whole:
-            # Integer prefix sums vectorise; floating ones cannot (they must keep their order).
-            self.cumulative = np.cumsum(weights.astype(np.int64), axis=1).astype(np.float64)
+            counts = weights.astype(np.int64) if counts is None else counts
+            totals = counts.sum(axis=1)
+            self.total = totals.astype(np.float64)
+            if float(np.sum(self.total)) < 2.0**62:
+                self._running = np.cumsum(counts, axis=None).reshape(rows, k)
+                self._start = np.concatenate(([0], np.cumsum(totals)[:-1]))
+                self._integer = self._running
+            else:
+                self._integer = np.cumsum(counts, axis=1)
+                self._start = np.zeros(rows, dtype=np.int64)
         else:
-            self.cumulative = np.cumsum(weights, axis=1)
-        self.total = self.cumulative[:, -1]
-        # One search over all rows at once: each row shifted past the previous one. Exact only
-        # while every shifted cumulative count is a whole number below 2**53.
-        spacing = 2.0 * float(np.max(self.total)) + 1.0
-        self._flat = None
-        if whole and spacing * weights.shape[0] < 2.0**52:
-            self._offsets = (np.arange(weights.shape[0]) * spacing)[:, None]
-            self._flat = (self.cumulative + self._offsets).ravel()
+            self._cumulative = np.cumsum(weights, axis=1)
+            self.total = self._cumulative[:, -1]
+
+    @property
+    def cumulative(self) -> np.ndarray:
+        """Dense b x k cumulative weights (binned data's MAD asks for them)."""
+        if self.whole:
+            return (self._integer - self._start[:, None]).astype(np.float64)
+        return self._cumulative
 
     def first_reaching(self, target: np.ndarray) -> np.ndarray:
         """Per row, the first support index whose cumulative weight reaches ``target`` (b x q)."""
-        rows, k = self.cumulative.shape
-        if self._flat is None:
-            found = np.stack([np.searchsorted(self.cumulative[r], target[r], side="left") for r in range(rows)])
-            return np.minimum(found, k - 1)
-        flat_index = np.searchsorted(self._flat, target + self._offsets, side="left")
-        return np.minimum(flat_index - np.arange(rows)[:, None] * k, k - 1)
+        rows, k = self.weights.shape
+        if self.whole:
+            # Integer cumulative counts reach a target exactly when they reach its ceiling.
+            wanted = np.ceil(np.clip(target, 0.0, self.total[:, None])).astype(np.int64)
+            if self._running is not None:
+                flat = np.searchsorted(self._running.ravel(), wanted + self._start[:, None], side="left")
+                return np.minimum(flat - np.arange(rows)[:, None] * k, k - 1)
+            found = np.stack([np.searchsorted(self._integer[r], wanted[r], side="left") for r in range(rows)])
+        else:
+            found = np.stack([np.searchsorted(self._cumulative[r], target[r], side="left") for r in range(rows)])
+        return np.minimum(found, k - 1)
 
     def cumulative_at(self, index: np.ndarray) -> np.ndarray:
-        return np.take_along_axis(self.cumulative, index, axis=1)
+        if self.whole:
+            return (np.take_along_axis(self._integer, index, axis=1) - self._start[:, None]).astype(np.float64)
+        return np.take_along_axis(self._cumulative, index, axis=1)
 
     def sum_squared_weights(self) -> np.ndarray:
         return np.sum(self.weights * self.weights, axis=1)
-
-    def reordered(self, rows: np.ndarray, order: np.ndarray) -> _Rows:
-        """The given rows with the support permuted into ``order`` (for sorted deviations)."""
-        return _Rows(self.weights[np.ix_(rows, order)], None, self.whole)
 
 
 class _LeaveOneOut:
@@ -155,32 +177,99 @@ class _LeaveOneOut:
         dense -= np.where(np.arange(self.base.size)[None, :] >= self.positions[:, None], self.removed[:, None], 0.0)
         return dense
 
-    def reordered(self, rows: np.ndarray, order: np.ndarray) -> _LeaveOneOut:
-        inverse = np.empty_like(order)
-        inverse[order] = np.arange(order.size)
-        return _LeaveOneOut(self.base[order], self.removed[rows], positions=inverse[self.positions[rows]])
 
+class _DeviationSearch:
+    """Per row of a view, weights within a distance of that row's centre, and the smallest
+    distance ``|x - centre|`` over the support whose weight within reaches a target.
 
-def _deviation_order(values: np.ndarray, centre: float) -> tuple[np.ndarray, np.ndarray]:
-    """Permutation of sorted ``values`` that sorts ``|values - centre|``, and those deviations.
-
-    The deviations below and above the centre are two sorted runs, merged by binary search.
+    Distances are the floating-point ``x - centre`` and ``centre - x`` themselves (monotone in
+    x), as the point estimate computes them: a binary search on ``centre +- t`` is corrected
+    wherever rounding put the boundary a value too far or too short.
     """
-    split = int(np.searchsorted(values, centre, side="left"))
-    below_index = np.arange(split - 1, -1, -1)
-    above_index = np.arange(split, values.size)
-    with np.errstate(over="ignore"):
-        below = centre - values[below_index]
-        above = values[above_index] - centre
-    merged = np.empty(values.size, dtype=np.intp)
-    below_at = np.arange(below.size) + np.searchsorted(above, below, side="left")
-    above_at = np.arange(above.size) + np.searchsorted(below, above, side="right")
-    merged[below_at] = below_index
-    merged[above_at] = above_index
-    deviations = np.empty(values.size)
-    deviations[below_at] = below
-    deviations[above_at] = above
-    return merged, deviations
+
+    def __init__(self, values: np.ndarray, view, centre: np.ndarray) -> None:
+        self.values = values
+        self.view = view
+        self.centre = centre[:, None]
+        with np.errstate(invalid="ignore"):
+            self.split = np.searchsorted(values, centre, side="left")[:, None]  # first value >= centre
+
+    def _weight_before(self, index: np.ndarray) -> np.ndarray:
+        """Cumulative weight of the support before ``index`` (rows x q)."""
+        k = self.values.size
+        inside = np.clip(index - 1, 0, k - 1)
+        return np.where(index > 0, self.view.cumulative_at(inside), 0.0)
+
+    def _end_above(self, t: np.ndarray) -> np.ndarray:
+        """First index above the centre whose distance exceeds ``t``."""
+        v, c, k = self.values, self.centre, self.values.size
+        with np.errstate(over="ignore", invalid="ignore"):
+            end = np.maximum(np.searchsorted(v, c + t, side="right"), self.split)
+            while True:
+                at = v[np.minimum(end, k - 1)]
+                grow = (end < k) & (at - c <= t)
+                before = v[np.maximum(end - 1, 0)]
+                shrink = ~grow & (end > self.split) & (before - c > t)
+                if not (grow.any() or shrink.any()):
+                    return end
+                end = np.where(grow, np.searchsorted(v, at, side="right"), end)
+                end = np.where(shrink, np.searchsorted(v, before, side="left"), end)
+
+    def _start_below(self, t: np.ndarray) -> np.ndarray:
+        """First index below the centre whose distance is at most ``t``."""
+        v, c, k = self.values, self.centre, self.values.size
+        with np.errstate(over="ignore", invalid="ignore"):
+            start = np.minimum(np.searchsorted(v, c - t, side="left"), self.split)
+            while True:
+                before = v[np.maximum(start - 1, 0)]
+                grow = (start > 0) & (c - before <= t)
+                at = v[np.minimum(start, k - 1)]
+                shrink = ~grow & (start < self.split) & (c - at > t)
+                if not (grow.any() or shrink.any()):
+                    return start
+                start = np.where(grow, np.searchsorted(v, before, side="left"), start)
+                start = np.where(shrink, np.searchsorted(v, at, side="right"), start)
+
+    def within(self, t: np.ndarray) -> np.ndarray:
+        """Weight of the support within ``t`` of each row's centre (rows x q)."""
+        return self._weight_before(self._end_above(t)) - self._weight_before(self._start_below(t))
+
+    def smallest_reaching(self, target: np.ndarray) -> np.ndarray:
+        """Per row and target (rows x q), the smallest support distance whose weight within
+        reaches the target; ``inf`` where none does."""
+        v, c, k = self.values, self.centre, self.values.size
+        shape = target.shape
+        with np.errstate(over="ignore", invalid="ignore"):
+            # Below the centre, distances fall as the index rises: find the first index (in
+            # [0, split)) whose distance no longer reaches; the one before it is the answer.
+            low = np.zeros(shape, dtype=np.int64)
+            high = np.broadcast_to(self.split, shape).copy()
+            while np.any(low < high):
+                middle = (low + high) // 2
+                index = np.minimum(middle, k - 1)
+                # The values from ``index`` up to the centre lie within (those before it at
+                # the same distance are counted when the search reaches the first of them).
+                t = c - v[index]
+                inside = self._weight_before(self._end_above(t)) - self._weight_before(middle)
+                reached = inside >= target
+                active = low < high
+                low = np.where(active & reached, middle + 1, low)
+                high = np.where(active & ~reached, middle, high)
+            below = np.where(low > 0, c - v[np.maximum(low - 1, 0)], np.inf)
+            # Above it, distances rise with the index: the first index that reaches.
+            low = np.broadcast_to(self.split, shape).copy()
+            high = np.full(shape, k, dtype=np.int64)
+            while np.any(low < high):
+                middle = (low + high) // 2
+                index = np.minimum(middle, k - 1)
+                t = v[index] - c
+                inside = self._weight_before(middle + 1) - self._weight_before(self._start_below(t))
+                reached = inside >= target
+                active = low < high
+                high = np.where(active & reached, middle, high)
+                low = np.where(active & ~reached, middle + 1, low)
+            above = np.where(low < k, v[np.minimum(low, k - 1)] - c, np.inf)
+        return np.minimum(below, above)
 
 
 @dataclass(frozen=True)
@@ -299,63 +388,31 @@ class _Statistics:
         return _cdf_quantiles(view, values, np.array([0.5]), average=True)[:, 0]
 
     def mad(self, view, median: np.ndarray) -> np.ndarray:
-        """Median absolute deviation of each row.
+        """Median absolute deviation of each row, by the rule of ``order.median_absolute_deviation``.
 
-        Rows sharing a median share the order of the deviations, and resampled medians take
-        few distinct values, so the deviations are sorted once per distinct median (by merging
-        the two sorted runs around it) and each row's median is read from its cumulative
-        weights in that order.
+        Each row's answer is the deviation of some support value from that row's median, so it
+        is found by binary search over the support below the median and over the support above
+        it (about 2 log2 k vectorised steps for all rows at once).
         """
         plan = self.plan
         if plan.edges is not None:
             return self._grouped_mad(view, median)
-        centres = np.unique(median)
-        if centres.size * 8 > median.size:
-            return self._bisected_mad(view, median)
-        result = np.empty(median.size)
-        for centre in centres:
-            rows = np.flatnonzero(median == centre)
-            permutation, deviations = _deviation_order(plan.values, float(centre))
-            result[rows] = self._median_of(view.reordered(rows, permutation), deviations)
-        return result
-
-    def _bisected_mad(self, view, median: np.ndarray) -> np.ndarray:
-        """The same median absolute deviation, by bisection on the bit pattern of the deviation.
-
-        For rows with many different medians: about 64 vectorised steps, each counting the
-        weight within ``[median - t, median + t]`` of every row at once.
-        """
-        plan = self.plan
+        search = _DeviationSearch(plan.values, view, median)
         total = view.total
-
-        def within(t: np.ndarray) -> np.ndarray:
-            with np.errstate(over="ignore"):
-                high = np.searchsorted(plan.values, median + t, side="right") - 1
-                low = np.searchsorted(plan.values, median - t, side="left") - 1
-            above = np.where(high >= 0, view.cumulative_at(np.maximum(high, 0)[:, None])[:, 0], 0.0)
-            below = np.where(low >= 0, view.cumulative_at(np.maximum(low, 0)[:, None])[:, 0], 0.0)
-            return above - below
-
-        def smallest_reaching(target: np.ndarray) -> np.ndarray:
-            low = np.zeros(total.size, dtype=np.int64)
-            high = np.full(total.size, np.float64(np.inf).view(np.int64))
-            while np.any(low < high):
-                middle = low + (high - low) // 2
-                reached = within(middle.view(np.float64)) >= target
-                high = np.where(reached, middle, high)
-                low = np.where(reached, low, middle + 1)
-            return low.view(np.float64)
-
         if plan.integer:
-            first = smallest_reaching(np.floor((total + 1.0) / 2.0))
-            second = smallest_reaching(np.ceil((total + 1.0) / 2.0))
-            return 0.5 * first + 0.5 * second
-        slack = order._CDF_TOLERANCE * total
-        first = smallest_reaching(0.5 * total - slack)
-        at_step = np.abs(within(first) - 0.5 * total) <= slack
-        # Averaging at an exact half needs the next deviation: the smallest reaching above it.
-        second = smallest_reaching(np.where(at_step, within(first) + slack * 2.0, 0.5 * total - slack))
-        return np.where(at_step, 0.5 * first + 0.5 * second, first)
+            ranks = np.stack((np.floor((total + 1.0) / 2.0), np.ceil((total + 1.0) / 2.0)), axis=1)
+            pair = search.smallest_reaching(ranks)
+            result = 0.5 * pair[:, 0] + 0.5 * pair[:, 1]
+        else:
+            slack = order._CDF_TOLERANCE * total
+            first = search.smallest_reaching((0.5 * total - slack)[:, None])
+            reached = search.within(first)[:, 0]
+            at_step = np.abs(reached - 0.5 * total) <= slack
+            # Averaging at an exact half needs the next deviation: the smallest reaching above it.
+            later = np.where(at_step, reached + slack * 2.0, 0.5 * total - slack)
+            second = search.smallest_reaching(later[:, None])[:, 0]
+            result = np.where(at_step, 0.5 * first[:, 0] + 0.5 * second, first[:, 0])
+        return np.where(np.isnan(median), np.nan, result)
 
     def _grouped_mad(self, view, median: np.ndarray) -> np.ndarray:
         edges = self.plan.edges
@@ -519,8 +576,8 @@ def _batches(plan: _Plan, seed: int, resamples: int) -> list[tuple[np.random.Gen
     return [(np.random.default_rng(child), size) for child, size in zip(children, sizes)]
 
 
-def _draw(plan: _Plan, rng: np.random.Generator, b: int) -> np.ndarray:
-    """A b x k weight matrix of resamples.
+def _draw(plan: _Plan, rng: np.random.Generator, b: int) -> tuple[np.ndarray, np.ndarray | None]:
+    """A b x k weight matrix of resamples, and its whole counts when the draws carry unit weight.
 
     Many draws per row: multinomial counts (cost per resample grows with k). Otherwise the
     draws themselves are made and counted (cost grows with the draws, cheaper when most rows
@@ -529,13 +586,23 @@ def _draw(plan: _Plan, rng: np.random.Generator, b: int) -> np.ndarray:
     k = plan.values.size
     if plan.multinomial and plan.draws > 8 * k:
         probabilities = plan.base / float(np.sum(plan.base))
-        return rng.multinomial(plan.draws, probabilities, size=b).astype(np.float64)
+        counts = rng.multinomial(plan.draws, probabilities, size=b)
+        return counts.astype(np.float64), counts
     picks = rng.integers(0, plan.draws, size=(b, plan.draws), dtype=np.int64)
     if plan.row_of_draw is not None:
         picks = plan.row_of_draw[picks]
-    picks += (np.arange(b, dtype=np.int64) * k)[:, None]
-    counts = np.bincount(picks.ravel(), minlength=b * k).reshape(b, k).astype(np.float64)
-    return counts if plan.unit_weights else counts * plan.unit[None, :]
+    if plan.draws >= _ROW_BY_ROW_DRAWS:
+        # Long rows are counted one at a time: each row's k counters stay in cache.
+        counts = np.empty((b, k), dtype=np.int64)
+        for row in range(b):
+            counts[row] = np.bincount(picks[row], minlength=k)
+    else:
+        picks += (np.arange(b, dtype=np.int64) * k)[:, None]
+        counts = np.bincount(picks.ravel(), minlength=b * k).reshape(b, k)
+    weights = counts.astype(np.float64)
+    if plan.unit_weights:
+        return weights, counts
+    return weights * plan.unit[None, :], None
 
 
 def _percentile(samples: np.ndarray, fractions: np.ndarray) -> np.ndarray:
@@ -789,8 +856,10 @@ def _little_bootstraps(
         )
         statistics = _Statistics(subset, (full.skewness_family, full.kurtosis_family), full.quantile_type, full.factor_rule)
         with np.errstate(all="ignore"):  # non-finite replicates are reported as undefined below
-            weights = rng.multinomial(observations, counts / m, size=per_subset).astype(np.float64) * subset.unit[None, :]
-            replicates = statistics.evaluate(_Rows(weights, subset.powers, subset.integer), probabilities, wanted)
+            drawn = rng.multinomial(observations, counts / m, size=per_subset)
+            weights = drawn.astype(np.float64) * subset.unit[None, :]
+            whole = drawn if subset.integer and subset.unit_weights else None
+            replicates = statistics.evaluate(_Rows(weights, subset.powers, subset.integer, whole), probabilities, wanted)
         rounds.append(replicates)
         alpha = 1.0 - options.level
         for name in names:
@@ -871,8 +940,9 @@ def bootstrap(
         # and reported as undefined below, so the floating-point flags carry no news. (errstate
         # is per thread: it must be set here, in the worker.)
         with np.errstate(all="ignore"):
-            weights = _draw(plan, *batch)
-            return statistics.evaluate(_Rows(weights, plan.powers, plan.integer), probabilities, wanted)
+            weights, counts = _draw(plan, *batch)
+            view = _Rows(weights, plan.powers, plan.integer, counts if plan.integer else None)
+            return statistics.evaluate(view, probabilities, wanted)
 
     # numpy releases the GIL in the heavy loops, so batches overlap on the cores; each batch has
     # its own generator, so the result does not depend on which thread ran it.
