@@ -18,6 +18,11 @@ def _cpu_count() -> int:
         return os.cpu_count() or 1
 
 
+# One worker per core already uses the cores; BLAS threads inside each worker (next to the
+# resampling's own two threads) would only contend for them. Read by numpy's OpenBLAS when a
+# worker imports it, after this file has run in the master.
+os.environ.setdefault("OPENBLAS_NUM_THREADS", "1")
+
 bind = os.environ.get("BIND", "127.0.0.1:8000")
 workers = int(os.environ.get("WEB_CONCURRENCY", _cpu_count()))
 # uvicorn_worker.UvicornWorker, plus readiness that answers 503 while the worker drains.

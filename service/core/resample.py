@@ -19,12 +19,13 @@ intervals; the acceleration from the jackknife (eq. 14.15).
 from __future__ import annotations
 
 import math
+import threading
 import time
 from concurrent.futures import ThreadPoolExecutor
 from dataclasses import dataclass
 
 import numpy as np
-from scipy import special
+from scipy import special, stats
 
 from service.core import grouped, order, shape
 from service.core.errors import LimitExceeded, Location
@@ -43,6 +44,11 @@ SUBSET_EXPONENT = 0.7
 SUBSETS = 20
 # Resamples of at least this many draws are counted row by row (cheaper than one flat count).
 _ROW_BY_ROW_DRAWS = 2048
+# Raw samples of at least this many distinct values get Poisson counts topped up to n
+# (_topped_up_counts), whose expected shortfall is this many standard deviations.
+_POISSON_DRAWS = 2048
+_POISSON_SHORTFALL = 4.0
+_POISSON_LEVELS = 5
 
 
 @dataclass(frozen=True)
@@ -71,6 +77,24 @@ class BootstrapResult:
     acceleration: float | None = None  # BCa's jackknife acceleration, when computed
 
 
+class _Scratch:
+    """Arrays one thread reuses from batch to batch.
+
+    A batch's b x k arrays are megabytes; touching fresh pages for each of them costs more than
+    the arithmetic done in them, so each thread keeps one buffer per use and takes views of it.
+    """
+
+    def __init__(self) -> None:
+        self._buffers: dict[str, np.ndarray] = {}
+
+    def array(self, use: str, shape: tuple[int, ...], dtype) -> np.ndarray:
+        size = math.prod(shape)
+        buffer = self._buffers.get(use)
+        if buffer is None or buffer.dtype != dtype or buffer.size < size:
+            buffer = self._buffers[use] = np.empty(size, dtype=dtype)
+        return buffer[:size].reshape(shape)
+
+
 class _Rows:
     """Weights of b resamples over the k support rows, seen through what statistics need.
 
@@ -80,8 +104,17 @@ class _Rows:
     """
 
     def __init__(
-        self, weights: np.ndarray, powers: np.ndarray | None, whole: bool, counts: np.ndarray | None = None
+        self,
+        weights: np.ndarray,
+        powers: np.ndarray | None,
+        whole: bool,
+        counts: np.ndarray | None = None,
+        row_total: int | None = None,
+        scratch: _Scratch | None = None,
     ) -> None:
+        """``counts``: the whole counts behind ``weights`` (any integer type), when at hand;
+        ``row_total``: their sum in every row, when all rows share it (multinomial draws);
+        ``scratch``: where to keep the prefix sums (they live as long as this view)."""
         self.weights = weights
         self.whole = whole
         if powers is not None:
@@ -90,14 +123,19 @@ class _Rows:
         self._running = None
         if whole:
             counts = weights.astype(np.int64) if counts is None else counts
-            totals = counts.sum(axis=1)
+            totals = counts.sum(axis=1, dtype=np.int64) if row_total is None else np.full(rows, row_total, np.int64)
             self.total = totals.astype(np.float64)
-            if float(np.sum(self.total)) < 2.0**62:
-                self._running = np.cumsum(counts, axis=None).reshape(rows, k)
-                self._start = np.concatenate(([0], np.cumsum(totals)[:-1]))
+            grand = float(np.sum(self.total))
+            if grand < 2.0**62:
+                # 32-bit prefix sums where they fit: half the memory traffic of 64-bit ones.
+                kind = np.int32 if grand < 2.0**31 else np.int64
+                running = np.empty((rows, k), kind) if scratch is None else scratch.array("running", (rows, k), kind)
+                np.cumsum(counts, axis=None, dtype=kind, out=running.reshape(-1))
+                self._running = running
+                self._start = np.concatenate(([0], np.cumsum(totals)[:-1])).astype(kind)
                 self._integer = self._running
             else:
-                self._integer = np.cumsum(counts, axis=1)
+                self._integer = np.cumsum(counts, axis=1, dtype=np.int64)
                 self._start = np.zeros(rows, dtype=np.int64)
         else:
             self._cumulative = np.cumsum(weights, axis=1)
@@ -107,7 +145,7 @@ class _Rows:
     def cumulative(self) -> np.ndarray:
         """Dense b x k cumulative weights (binned data's MAD asks for them)."""
         if self.whole:
-            return (self._integer - self._start[:, None]).astype(np.float64)
+            return (self._integer.astype(np.int64) - self._start[:, None]).astype(np.float64)
         return self._cumulative
 
     def first_reaching(self, target: np.ndarray) -> np.ndarray:
@@ -115,7 +153,7 @@ class _Rows:
         rows, k = self.weights.shape
         if self.whole:
             # Integer cumulative counts reach a target exactly when they reach its ceiling.
-            wanted = np.ceil(np.clip(target, 0.0, self.total[:, None])).astype(np.int64)
+            wanted = np.ceil(np.clip(target, 0.0, self.total[:, None])).astype(self._integer.dtype)
             if self._running is not None:
                 flat = np.searchsorted(self._running.ravel(), wanted + self._start[:, None], side="left")
                 return np.minimum(flat - np.arange(rows)[:, None] * k, k - 1)
@@ -126,11 +164,16 @@ class _Rows:
 
     def cumulative_at(self, index: np.ndarray) -> np.ndarray:
         if self.whole:
-            return (np.take_along_axis(self._integer, index, axis=1) - self._start[:, None]).astype(np.float64)
+            found = np.take_along_axis(self._integer, index, axis=1)
+            return (found.astype(np.int64) - self._start[:, None]).astype(np.float64)
         return np.take_along_axis(self._cumulative, index, axis=1)
 
     def sum_squared_weights(self) -> np.ndarray:
         return np.sum(self.weights * self.weights, axis=1)
+
+    def reordered(self, rows: np.ndarray, order: np.ndarray) -> _Rows:
+        """The given rows with the support permuted into ``order`` (for sorted deviations)."""
+        return _Rows(self.weights[np.ix_(rows, order)], None, self.whole)
 
 
 class _LeaveOneOut:
@@ -176,6 +219,28 @@ class _LeaveOneOut:
         dense = np.broadcast_to(self._cumulative, (self.positions.size, self.base.size)).copy()
         dense -= np.where(np.arange(self.base.size)[None, :] >= self.positions[:, None], self.removed[:, None], 0.0)
         return dense
+
+
+def _deviation_order(values: np.ndarray, centre: float) -> tuple[np.ndarray, np.ndarray]:
+    """Permutation of sorted ``values`` that sorts ``|values - centre|``, and those deviations.
+
+    The deviations below and above the centre are two sorted runs, merged by binary search.
+    """
+    split = int(np.searchsorted(values, centre, side="left"))
+    below_index = np.arange(split - 1, -1, -1)
+    above_index = np.arange(split, values.size)
+    with np.errstate(over="ignore"):
+        below = centre - values[below_index]
+        above = values[above_index] - centre
+    merged = np.empty(values.size, dtype=np.intp)
+    below_at = np.arange(below.size) + np.searchsorted(above, below, side="left")
+    above_at = np.arange(above.size) + np.searchsorted(below, above, side="right")
+    merged[below_at] = below_index
+    merged[above_at] = above_index
+    deviations = np.empty(values.size)
+    deviations[below_at] = below
+    deviations[above_at] = above
+    return merged, deviations
 
 
 class _DeviationSearch:
@@ -288,6 +353,8 @@ class _Plan:
     edges: np.ndarray | None  # bins
     row_of_draw: np.ndarray | None  # support row of each observation, when rows hold several
     unit_weights: bool
+    # One draw per support row (a raw sample of distinct values): Poisson edges for _topped_up_counts.
+    poisson_edges: np.ndarray | None = None
 
 
 def _order_statistic(view, values: np.ndarray, ranks: np.ndarray) -> np.ndarray:
@@ -328,8 +395,11 @@ def _cdf_quantiles(view, values: np.ndarray, p: np.ndarray, average: bool) -> np
     index = view.first_reaching(target - slack)
     result = values[index]
     if average:
-        at_step = (np.abs(view.cumulative_at(index) - target) <= slack) & (index + 1 < values.size)
-        result = np.where(at_step, 0.5 * result + 0.5 * values[np.minimum(index + 1, values.size - 1)], result)
+        reached = view.cumulative_at(index)
+        # The next value this row holds (support values it did not draw have no weight).
+        following = view.first_reaching(np.nextafter(reached, np.inf))
+        at_step = (np.abs(reached - target) <= slack) & (view.cumulative_at(following) > reached)
+        result = np.where(at_step, 0.5 * result + 0.5 * values[following], result)
     return result
 
 
@@ -397,6 +467,17 @@ class _Statistics:
         plan = self.plan
         if plan.edges is not None:
             return self._grouped_mad(view, median)
+        centres = np.unique(median)
+        if isinstance(view, _Rows) and centres.size * 8 <= median.size:
+            # Few distinct medians (few support values): rows sharing one share the order of
+            # their deviations, so sort those once per median and read each row's median of
+            # them from its cumulative weights in that order.
+            result = np.full(median.size, np.nan)
+            for centre in centres[~np.isnan(centres)]:
+                rows = np.flatnonzero(median == centre)
+                permutation, deviations = _deviation_order(plan.values, float(centre))
+                result[rows] = self._median_of(view.reordered(rows, permutation), deviations)
+            return result
         search = _DeviationSearch(plan.values, view, median)
         total = view.total
         if plan.integer:
@@ -542,7 +623,11 @@ def _plan(data: WeightedData, sums: CentralSums) -> tuple[_Plan, list[str]]:
     row_of_draw = None
     if not np.all(base == unit) and not (multinomial and draws > 8 * values.size):
         row_of_draw = np.repeat(np.arange(values.size, dtype=np.int64), np.round(base / unit).astype(np.int64))
+    poisson_edges = None
+    if multinomial and draws == values.size and draws >= _POISSON_DRAWS and np.all(base == 1.0):
+        poisson_edges = _poisson_edges(1.0 - _POISSON_SHORTFALL / math.sqrt(draws))
     plan = _Plan(
+        poisson_edges=poisson_edges,
         row_of_draw=row_of_draw,
         unit_weights=bool(np.all(unit == 1.0)),
         values=values,
@@ -576,7 +661,83 @@ def _batches(plan: _Plan, seed: int, resamples: int) -> list[tuple[np.random.Gen
     return [(np.random.default_rng(child), size) for child, size in zip(children, sizes)]
 
 
-def _draw(plan: _Plan, rng: np.random.Generator, b: int) -> tuple[np.ndarray, np.ndarray | None]:
+def _poisson_edges(rate: float) -> np.ndarray:
+    """``2**64 P(X < c)`` for c = 1, 2, ... of X ~ Poisson(rate), as unsigned 64-bit integers,
+    up to the count whose upper tail is below 2**-65 (from scipy's survival function, so the
+    tail keeps its relative precision)."""
+    edges = []
+    count = 1
+    while (tail := round(math.ldexp(float(stats.poisson.sf(count - 1, rate)), 64))) > 0:
+        edges.append((1 << 64) - tail)
+        count += 1
+    return np.array(edges, dtype=np.uint64)
+
+
+def _topped_up_counts(plan: _Plan, rng: np.random.Generator, b: int, scratch: _Scratch) -> np.ndarray | None:
+    """Multinomial(n; 1/n, ..., 1/n) counts of b resamples of n distinct values, without n draws each.
+
+    Each value first gets an independent Poisson(rate) count with rate = 1 - 4/sqrt(n); given
+    their total T the counts are multinomial(T), so adding n - T uniform draws makes them exactly
+    multinomial(n) (a row whose T exceeds n, about 3 in 100,000, is drawn again directly). The
+    Poisson counts come from 16 random bits per value compared with the top 16 bits of the edges;
+    the few values that fall on an edge's top bits are resolved with 48 more bits, so the counts
+    follow the Poisson probabilities to double precision. Every step is a numpy loop that
+    releases the GIL, so batches on two threads use both cores. ``None`` when a count might not
+    fit in 16 bits (never for the sizes the ordinary bootstrap takes; the caller then draws
+    directly).
+    """
+    k = plan.values.size
+    edges = plan.poisson_edges
+    assert edges is not None
+    top = (edges >> np.uint64(48)).astype(np.uint16)
+    bits = rng.bit_generator.random_raw(-(-b * k // 4)).view(np.uint16)[: b * k].reshape(b, k)
+    # Counts below _POISSON_LEVELS by comparison; a value on an edge's top bits, or at or above
+    # the last compared edge, is resolved in full below (about 0.3% of values).
+    counts = scratch.array("counts", (b, k), np.uint8)
+    unsure = scratch.array("unsure", (b, k), np.bool_)
+    compared = scratch.array("compared", (b, k), np.bool_)
+    levels = min(_POISSON_LEVELS, top.size)
+    np.greater(bits, top[0], out=counts.view(np.bool_))
+    np.greater_equal(bits, top[levels - 1], out=unsure)
+    for level in range(1, levels):
+        np.greater(bits, top[level], out=compared)
+        np.add(counts, compared.view(np.uint8), out=counts)
+    for level in range(levels - 1):
+        np.equal(bits, top[level], out=compared)
+        np.logical_or(unsure, compared, out=unsure)
+    unsure = np.flatnonzero(unsure)
+    flat = counts.reshape(-1)
+    if unsure.size:
+        full = (bits.reshape(-1)[unsure].astype(np.uint64) << np.uint64(48)) | (
+            rng.bit_generator.random_raw(unsure.size) >> np.uint64(16)
+        )
+        flat[unsure] = np.searchsorted(edges, full, side="right")
+    shortfall = k - counts.sum(axis=1, dtype=np.int64)
+    over = np.flatnonzero(shortfall < 0)
+    for row in over:
+        direct = np.bincount(rng.integers(0, k, size=k), minlength=k)
+        if direct.max() > 255:
+            return None
+        counts[row] = direct
+    shortfall[over] = 0  # those rows are complete
+    added_rows = np.repeat(np.arange(b, dtype=np.int64), shortfall)
+    cells = added_rows * k + rng.integers(0, k, size=added_rows.size, dtype=np.int64)
+    # A value's count is at most the largest Poisson count plus its row's shortfall: widen the
+    # bytes to 16 bits whenever that bound could pass 255, so no count can wrap.
+    largest = int(shortfall.max(initial=0)) + edges.size
+    if largest > 255:
+        if largest > 65535:
+            return None
+        wide = scratch.array("wide", (b, k), np.uint16)
+        np.copyto(wide, counts)
+        counts, flat = wide, wide.reshape(-1)
+    np.add.at(flat, cells, flat.dtype.type(1))
+    return counts
+
+
+def _draw(
+    plan: _Plan, rng: np.random.Generator, b: int, scratch: _Scratch | None = None
+) -> tuple[np.ndarray, np.ndarray | None]:
     """A b x k weight matrix of resamples, and its whole counts when the draws carry unit weight.
 
     Many draws per row: multinomial counts (cost per resample grows with k). Otherwise the
@@ -588,6 +749,13 @@ def _draw(plan: _Plan, rng: np.random.Generator, b: int) -> tuple[np.ndarray, np
         probabilities = plan.base / float(np.sum(plan.base))
         counts = rng.multinomial(plan.draws, probabilities, size=b)
         return counts.astype(np.float64), counts
+    if plan.poisson_edges is not None:
+        scratch = _Scratch() if scratch is None else scratch
+        counts = _topped_up_counts(plan, rng, b, scratch)
+        if counts is not None:
+            weights = scratch.array("weights", (b, k), np.float64)
+            np.copyto(weights, counts)
+            return weights, counts
     picks = rng.integers(0, plan.draws, size=(b, plan.draws), dtype=np.int64)
     if plan.row_of_draw is not None:
         picks = plan.row_of_draw[picks]
@@ -765,6 +933,21 @@ INTERVAL_DESCRIPTORS = (
 )
 
 
+_POOLS: dict[int, ThreadPoolExecutor] = {}
+_POOLS_LOCK = threading.Lock()
+
+
+def _pool(threads: int) -> ThreadPoolExecutor:
+    """The process's pool of ``threads`` resampling threads, started on first use and kept:
+    starting threads for every request costs milliseconds, and one pool also bounds the
+    resampling threads of requests computing at the same time."""
+    with _POOLS_LOCK:
+        pool = _POOLS.get(threads)
+        if pool is None:
+            pool = _POOLS[threads] = ThreadPoolExecutor(max_workers=threads, thread_name_prefix="resample")
+        return pool
+
+
 def _deadline_check(deadline: float | None) -> None:
     if deadline is not None and time.monotonic() > deadline:
         raise LimitExceeded(
@@ -934,20 +1117,30 @@ def bootstrap(
     statistics = _Statistics(plan, families, quantile_type, factor_rule, sheppard_width)
     wanted = tuple(name for name in INTERVAL_DESCRIPTORS if estimates.get(name) is not None)
 
+    own = threading.local()
+
     def run(batch: tuple[np.random.Generator, int]) -> dict[str, np.ndarray]:
         _deadline_check(deadline)
+        if not hasattr(own, "scratch"):
+            own.scratch = _Scratch()
         # Weights near float64's limit can overflow in a resample; such replicates are non-finite
         # and reported as undefined below, so the floating-point flags carry no news. (errstate
         # is per thread: it must be set here, in the worker.)
         with np.errstate(all="ignore"):
-            weights, counts = _draw(plan, *batch)
-            view = _Rows(weights, plan.powers, plan.integer, counts if plan.integer else None)
+            weights, counts = _draw(plan, *batch, own.scratch)
+            if plan.integer:
+                view = _Rows(weights, plan.powers, True, counts, plan.draws, own.scratch)
+            else:
+                view = _Rows(weights, plan.powers, False)
             return statistics.evaluate(view, probabilities, wanted)
 
     # numpy releases the GIL in the heavy loops, so batches overlap on the cores; each batch has
     # its own generator, so the result does not depend on which thread ran it.
-    with ThreadPoolExecutor(max_workers=threads) as pool:
-        outputs = list(pool.map(run, _batches(plan, options.seed, options.resamples)))
+    batches = _batches(plan, options.seed, options.resamples)
+    if threads <= 1 or len(batches) == 1:
+        outputs = [run(batch) for batch in batches]
+    else:
+        outputs = list(_pool(threads).map(run, batches))
     replicates = {name: np.concatenate([out[name] for out in outputs]) for name in outputs[0]}
 
     jackknife = jackknife_weights = None

@@ -782,7 +782,7 @@ def test_batched_mad_of_whole_count_rows_matches_numpy_row_by_row(support):
     assert np.array_equal(got, np.array(want))
 
 
-def test_batched_mad_of_fractional_weight_rows_matches_the_point_estimate():
+def test_batched_median_and_mad_of_fractional_weight_rows_match_the_point_estimates():
     # Reference: order.median_absolute_deviation of each row as its own weighted sample (the
     # point estimate's rule; checked against numpy and statsmodels in test_order).
     from service.core import order
@@ -802,4 +802,58 @@ def test_batched_mad_of_fractional_weight_rows_matches_the_point_estimate():
     for i, row in enumerate(rows):
         keep = row > 0
         one = from_samples(list(plan.values[keep]), omit_missing=False, weights=list(row[keep]), meaning=WeightMeaning.FREQUENCY)
+        assert median[i] == order.median(one), i
         assert got[i] == order.median_absolute_deviation(one, float(median[i])), i
+
+
+# ----------------------------------------------------------------------------------------------
+# Multinomial counts from Poisson counts topped up to n
+# ----------------------------------------------------------------------------------------------
+
+
+def _topped_up_plan(n: int):
+    x = np.random.default_rng(5).normal(0.0, 1.0, n)
+    data = from_array(x)
+    plan, _ = resample._plan(data, central_sums(data.values, None, 4))
+    assert plan.poisson_edges is not None
+    return plan
+
+
+def test_poisson_edges_are_the_poisson_distribution_function_in_units_of_two_to_the_64():
+    # Reference: scipy.stats.poisson.cdf, the definition of the edges.
+    rate = 0.96
+    edges = resample._poisson_edges(rate)
+    cdf = stats.poisson.cdf(np.arange(edges.size), rate)
+    assert np.allclose(edges.astype(np.float64) / 2.0**64, cdf, rtol=0.0, atol=1e-15)
+    assert np.all(np.diff(edges.astype(np.float64)) >= 0)
+    assert stats.poisson.sf(edges.size, rate) < 2.0**-64
+
+
+def test_topped_up_counts_are_multinomial():
+    # Reference: the multinomial(n; 1/n, ...) laws, from scipy.stats.binom: each row sums to n,
+    # one value's count is binomial(n, 1/n) and the count of the first half of the values is
+    # binomial(n, 1/2) (Poisson counts without the top-up would have twice that variance).
+    n, rows = 4096, 6000
+    plan = _topped_up_plan(n)
+    rng = np.random.default_rng(99)
+    scratch = resample._Scratch()
+    blocks = [resample._topped_up_counts(plan, rng, 500, scratch).astype(np.int64) for _ in range(rows // 500)]
+    counts = np.concatenate(blocks)
+    assert np.all(counts.sum(axis=1) == n)
+    half = counts[:, : n // 2].sum(axis=1)
+    assert stats.kstest(half, stats.binom(n, 0.5).cdf).pvalue > 1e-3
+    assert np.var(half) == pytest.approx(n / 4.0, rel=0.08)
+    one = counts[:, :64].ravel()  # 384,000 single-value counts
+    observed = np.bincount(one, minlength=6)[:6].astype(np.float64)
+    observed = np.append(observed, one.size - observed.sum())
+    expected = stats.binom(n, 1.0 / n).pmf(np.arange(6)) * one.size
+    expected = np.append(expected, one.size - expected.sum())
+    assert stats.chisquare(observed, expected).pvalue > 1e-3
+
+
+def test_topped_up_counts_widen_rather_than_wrap():
+    # A shortfall beyond 255 (any n above about 4,000) must widen the counts to 16 bits.
+    plan = _topped_up_plan(65_536)
+    counts = resample._topped_up_counts(plan, np.random.default_rng(3), 4, resample._Scratch())
+    assert counts.dtype == np.uint16
+    assert np.all(counts.sum(axis=1, dtype=np.int64) == 65_536)
