@@ -32,8 +32,12 @@ from service.core.errors import LimitExceeded, Location
 from service.core.moments import CentralSums, central_sums, scale_by_power_of_two
 from service.core.weighted import WeightedData, WeightMeaning
 
-# Elements of one b x k weight matrix: bounds memory (about 32 MB per matrix) whatever the request.
-_BATCH_ELEMENTS = 1 << 21
+# Working memory of one batch of resamples (per thread), whatever the request: b x k arrays of
+# about 32 bytes per element (draws, counts, weights, prefix sums), or 19 for Poisson counts
+# topped up (16-bit draws, byte counts).
+_BATCH_BYTES = 64 << 20
+_BATCH_ELEMENTS = _BATCH_BYTES // 32
+_TOPPED_UP_BATCH_ELEMENTS = _BATCH_BYTES // 19
 # Fewer observations than this make any bootstrap interval doubtful (common practice).
 SMALL_SAMPLE = 20
 # Fewer distinct values than this make the bootstrap distribution of order statistics lumpy.
@@ -647,11 +651,13 @@ def _plan(data: WeightedData, sums: CentralSums) -> tuple[_Plan, list[str]]:
 def _batches(plan: _Plan, seed: int, resamples: int) -> list[tuple[np.random.Generator, int]]:
     """(generator, size) of each batch of resamples.
 
-    Batch sizes depend only on k and each batch has its own generator spawned from ``seed``,
-    so the same seed gives the same resamples bit for bit on any worker and thread count.
+    Batch sizes depend only on k and how counts are drawn, and each batch has its own generator
+    spawned from ``seed``, so the same seed gives the same resamples bit for bit on any worker
+    and thread count.
     """
     k = plan.values.size
-    batch = max(1, min(resamples, _BATCH_ELEMENTS // max(k, 1)))
+    elements = _BATCH_ELEMENTS if plan.poisson_edges is None else _TOPPED_UP_BATCH_ELEMENTS
+    batch = max(1, min(resamples, elements // max(k, 1)))
     # At least two batches for big requests, so two cores share the work (numpy releases the
     # GIL in its generators and loops); fixed by k and the resample count alone, never by threads.
     if resamples >= 2000:

@@ -506,12 +506,14 @@ def _outcome_bits(outcome: resample.BootstrapOutcome):
     return bits
 
 
-@pytest.mark.parametrize("method", ["bca", "percentile"])
-def test_same_seed_same_intervals_bit_for_bit_across_runs_and_threads(method):
-    x = np.random.default_rng(31337).gamma(3.0, 2.0, 600)
-    _, args, kwargs, first = run(from_array(x), method=method, resamples=4000, seed=271828, level=0.9)
-    # 4000 x 600 weights exceed one batch, so threads really split the work.
-    assert 4000 * 600 > resample._BATCH_ELEMENTS
+@pytest.mark.parametrize(("method", "n", "resamples"), [("bca", 600, 4000), ("percentile", 600, 4000), ("bca", 3000, 2400)])
+def test_same_seed_same_intervals_bit_for_bit_across_runs_and_threads(method, n, resamples):
+    # n = 3000 draws its counts as Poisson counts topped up to n; 600, directly.
+    x = np.random.default_rng(31337).gamma(3.0, 2.0, n)
+    _, args, kwargs, first = run(from_array(x), method=method, resamples=resamples, seed=271828, level=0.9)
+    # The weights exceed one batch, so threads really split the work.
+    topped_up = n >= resample._POISSON_DRAWS
+    assert resamples * n > (resample._TOPPED_UP_BATCH_ELEMENTS if topped_up else resample._BATCH_ELEMENTS)
     outcomes = []
     for threads in (1, 2, 3):
         outcomes.append(resample.bootstrap(*args, **{**kwargs, "threads": threads}))
