@@ -1021,7 +1021,11 @@ def _l_moments(
 ) -> None:
     # L-moments are linear in the data: compute them on data scaled by a power of two (exact),
     # so nothing overflows near float64's limit, and scale l1 and l2 back.
-    points = data.edges[np.isfinite(data.edges)] if data.binned else data.support.values
+    if data.binned:
+        points = data.edges[np.isfinite(data.edges)]
+    else:
+        ordered = data.sorted_values if data.unit_sorted else data.support.values
+        points = ordered[[0, -1]]
     largest = float(np.max(np.abs(points)))
     exponent = -math.frexp(largest)[1] if largest > 0.0 else 0
     values = None
@@ -1037,10 +1041,10 @@ def _l_moments(
     elif data.integer_weights and data.meaning is not WeightMeaning.RELIABILITY:
         if data.total_weight >= 4:
             if data.weights is None:
-                values = lmoments.sample_lmoments(np.ldexp(data.sorted_values, exponent), None)
+                values = lmoments.sample_lmoments(data.sorted_values, None, exponent)
             else:
                 support = data.support
-                values = lmoments.sample_lmoments(np.ldexp(support.values, exponent), support.weights)
+                values = lmoments.sample_lmoments(support.values, support.weights, exponent)
             label = "unbiased, from probability-weighted moments (Hosking 1990)"
         elif not basis.single:
             notes.add(

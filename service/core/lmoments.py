@@ -19,6 +19,8 @@ combinations of order statistics", JRSS-B 52(1), 105-124, 1990.
 
 from __future__ import annotations
 
+import math
+
 import numpy as np
 
 _COMBINATION = np.array(
@@ -45,22 +47,71 @@ def _centre(values: np.ndarray) -> float:
     return float(values[values.size // 2])
 
 
-def sample_lmoments(values: np.ndarray, counts: np.ndarray | None) -> tuple[float, float, float, float]:
+# Ranks per block of the raw-sample PWMs, and blocks per pass over the data.
+_BLOCK = 4096
+_BLOCKS_PER_PASS = 64
+# (t / _BLOCK)^q for t = 0 .. _BLOCK - 1 and q = 0 .. 3: exact (powers of two divide exactly).
+_UNIT_POWERS = np.vander(np.arange(_BLOCK, dtype=np.float64) / _BLOCK, 4, increasing=True)
+
+
+def _raw_pwm(values: np.ndarray, exponent: int) -> tuple[np.ndarray, float]:
+    """PWMs b0-b3 of sorted raw observations (times 2**exponent, less a centre), and the centre.
+
+    b_r = n^-1 sum_j C(j - 1, r) / C(n - 1, r) y_(j). Within a block of ranks j = j0 + B u
+    (u = t/B), the weight C(j - 1, r) is a cubic at most in u, so one matrix product of the
+    blocks with the powers of u gives every block's moments sum_t u^q y, and a 4 x 4
+    combination per block gives the PWMs: the data are read once, in cache-sized passes that
+    also scale and centre them, and no n-long weight array is built.
+    """
+    n = values.size
+    # np.ldexp scales exactly even where 2**exponent itself is not a float64 (subnormal data).
+    centre = float(np.ldexp(values[n // 2], exponent))
+    blocks = -(-n // _BLOCK)
+    moments = np.zeros((blocks, 4))
+    work = np.empty(min(n, _BLOCK * _BLOCKS_PER_PASS))
+    for first in range(0, blocks, _BLOCKS_PER_PASS):
+        start = first * _BLOCK
+        stop = min(n, start + _BLOCK * _BLOCKS_PER_PASS)
+        chunk = work[: stop - start]
+        np.ldexp(values[start:stop], exponent, out=chunk)
+        np.subtract(chunk, centre, out=chunk)
+        whole = (stop - start) // _BLOCK
+        if whole:
+            moments[first : first + whole] = chunk[: whole * _BLOCK].reshape(whole, _BLOCK) @ _UNIT_POWERS
+        if whole * _BLOCK < chunk.size:
+            rest = chunk[whole * _BLOCK :]
+            moments[first + whole] = rest @ _UNIT_POWERS[: rest.size]
+    # C(j - 1, r) r! = prod_{m < r} (a_m + B u) with a_m = j0 - 1 - m (j0 the block's first
+    # rank), expanded in powers of u: coefficients of u^q are B^q e_{r-q}(a_0 .. a_{r-1}).
+    a0 = np.arange(blocks, dtype=np.float64) * _BLOCK  # j0 - 1
+    a1, a2 = a0 - 1.0, a0 - 2.0
+    big = float(_BLOCK)
+    ones = np.ones(blocks)
+    coefficients = [
+        [ones],
+        [a0, big * ones],
+        [a0 * a1, big * (a0 + a1), big**2 * ones],
+        [a0 * a1 * a2, big * (a0 * a1 + a0 * a2 + a1 * a2), big**2 * (a0 + a1 + a2), big**3 * ones],
+    ]
+    b = np.empty(4)
+    for r in range(4):
+        weighted = sum(c * moments[:, q] for q, c in enumerate(coefficients[r]))
+        falling = math.prod(n - 1 - m for m in range(r))  # (n - 1)! / (n - 1 - r)!
+        b[r] = float(np.sum(weighted)) / (n * falling)
+    return b, centre
+
+
+def sample_lmoments(
+    values: np.ndarray, counts: np.ndarray | None, exponent: int = 0
+) -> tuple[float, float, float, float]:
     """Unbiased l1-l4 of a sample: sorted distinct ``values`` with whole ``counts`` (n >= 4), or
-    sorted raw observations with ``counts=None``."""
+    sorted raw observations with ``counts=None``; of the values times ``2**exponent`` (exact)."""
+    if counts is None:
+        b, centre = _raw_pwm(values, exponent)
+        return _from_pwm(b, centre)
+    values = np.ldexp(values, exponent)
     centre = _centre(values)
     values = values - centre
-    if counts is None:
-        # Raw order statistics: w_r(j) = C(j - 1, r) / C(n - 1, r), built one factor at a time.
-        n = values.size
-        rank = np.arange(n, dtype=np.float64)  # j - 1
-        weight = np.full(n, 1.0 / n)
-        b = np.empty(4)
-        for r in range(4):
-            if r:
-                weight *= (rank - (r - 1)) / (n - r)
-            b[r] = float(np.sum(weight * values))
-        return _from_pwm(b, centre)
     n = float(np.sum(counts))
     cumulative = np.cumsum(counts)
     before = cumulative - counts

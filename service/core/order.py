@@ -12,6 +12,7 @@ Statistician 50(4), 361-365, 1996.
 
 from __future__ import annotations
 
+import math
 from dataclasses import dataclass
 
 import numpy as np
@@ -151,21 +152,47 @@ def median(data: WeightedData) -> float:
     )
 
 
+def _kth_deviation(ordered: np.ndarray, split: int, centre: float, k: int) -> float:
+    """The k-th smallest (from 0) of ``|x - centre|`` over sorted ``ordered``, in O(log n).
+
+    The deviations below the centre (``centre - x``, x before ``split``, read backwards) and
+    above it (``x - centre``) are two increasing runs; binary search finds how many of the k + 1
+    smallest come from the first run. Python floats round like numpy's and turn overflow into
+    inf, so each deviation is the one ``np.abs(x - centre)`` would give.
+    """
+    below, above = split, ordered.size - split
+
+    def low(i: int) -> float:  # i-th deviation below the centre
+        return centre - float(ordered[split - 1 - i])
+
+    def high(j: int) -> float:  # j-th deviation above it
+        return float(ordered[split + j]) - centre
+
+    first, last = max(0, k + 1 - above), min(k + 1, below)
+    while first < last:  # the smallest i whose own deviation need not be among them
+        i = (first + last) // 2
+        if low(i) < high(k - i):
+            first = i + 1
+        else:
+            last = i
+    taken = k + 1 - first
+    return max(low(first - 1) if first > 0 else -math.inf, high(taken - 1) if taken > 0 else -math.inf)
+
+
 def median_absolute_deviation(data: WeightedData, centre: float) -> float:
     """Median of ``|x - centre|`` (raw, not scaled), with the same median rule as :func:`median`.
 
-    For a raw sample the deviations are selected with ``np.partition`` (linear time, no second
-    sort). For weighted data the deviations of the sorted support are two sorted runs (below and
+    For a raw sample the two middle deviations are selected from the sorted data by binary
+    search (O(log n), nothing n-long is built). For weighted data the deviations of the sorted support are two sorted runs (below and
     above the centre), merged by binary search rather than re-sorted.
     """
     if data.unit_sorted:
-        with np.errstate(over="ignore"):
-            # A deviation beyond float64 (data near +-1.8e308) becomes inf and still sorts last.
-            deviations = np.abs(data.values - centre)
-        n = deviations.size
-        lower, upper = (n - 1) // 2, n // 2
-        part = np.partition(deviations, (lower, upper))
-        return float(0.5 * part[lower] + 0.5 * part[upper])
+        ordered = data.sorted_values
+        n = ordered.size
+        split = int(np.searchsorted(ordered, centre, side="left"))
+        lower = _kth_deviation(ordered, split, centre, (n - 1) // 2)
+        upper = _kth_deviation(ordered, split, centre, n // 2)
+        return float(0.5 * lower + 0.5 * upper)
     support = data.support
     split = int(np.searchsorted(support.values, centre, side="left"))
     with np.errstate(over="ignore"):

@@ -132,7 +132,11 @@ class WeightedData:
         """Distinct values with their summed weights (ties merged), from one sort."""
         if self.weights is None:
             ordered = self.sorted_values
-            starts = np.flatnonzero(np.concatenate(([True], ordered[1:] != ordered[:-1])))
+            differs = ordered[1:] != ordered[:-1]
+            if differs.all():  # no ties (most continuous data): the sorted values themselves
+                n = ordered.size
+                return SortedSupport(values=ordered, weights=np.ones(n), cumulative=np.arange(1.0, n + 1.0))
+            starts = np.flatnonzero(np.concatenate(([True], differs)))
             counts = np.diff(np.append(starts, ordered.size)).astype(np.float64)
             distinct = ordered[starts]
         else:

@@ -368,3 +368,19 @@ def test_weighted_modes_match_naive_count_of_repeated_sample():
     found = modes(weighted)
     assert found.values.tolist() == expected
     assert found.weight == top
+
+
+def test_raw_mad_selection_matches_numpy_median_of_absolute_deviations():
+    # Reference: numpy, np.median(np.abs(x - centre)) on the same values and centre (centres on
+    # and off the data, ties, one to a few values, and values whose deviation overflows to inf).
+    from service.core import order
+
+    rng = np.random.default_rng(808)
+    cases = [rng.normal(size=n) for n in (1, 2, 3, 4, 5, 10, 101, 1000)]
+    cases += [np.round(rng.normal(size=500), 1), np.full(7, 2.5), np.array([-1.7e308, 0.0, 1.7e308, 1.7e308])]
+    for x in cases:
+        data = from_array(x)
+        for centre in (float(np.median(x)), float(x.min()), float(x.max()), float(np.mean(x[:1])) + 0.3):
+            with np.errstate(over="ignore"):
+                want = float(np.median(np.abs(x - centre)))
+            assert order.median_absolute_deviation(data, centre) == want, (x.size, centre)
