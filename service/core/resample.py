@@ -1146,7 +1146,12 @@ def bootstrap(
     if threads <= 1 or len(batches) == 1:
         outputs = [run(batch) for batch in batches]
     else:
-        outputs = list(_pool(threads).map(run, batches))
+        futures = [_pool(threads).submit(run, batch) for batch in batches]
+        try:
+            outputs = [future.result() for future in futures]
+        finally:
+            for future in futures:  # after an error (a passed deadline), drop the batches not started
+                future.cancel()
     replicates = {name: np.concatenate([out[name] for out in outputs]) for name in outputs[0]}
 
     jackknife = jackknife_weights = None
