@@ -132,6 +132,29 @@ def _weighted_select(values: np.ndarray, weights: np.ndarray, rank: float, defau
     return default
 
 
+_WINDOW_CHUNK = 1 << 16
+
+
+def _shortest_window(x: np.ndarray, size: int) -> int:
+    """First start of the ``size`` consecutive sorted values spanning the shortest interval.
+
+    The widths are taken a cache-sized chunk at a time into one small buffer: a width array as
+    long as the data would cost more in fresh memory than the subtraction itself.
+    """
+    starts = x.size - size + 1
+    buffer = np.empty(min(starts, _WINDOW_CHUNK))
+    best, best_width = 0, np.inf
+    for first in range(0, starts, _WINDOW_CHUNK):
+        last = min(starts, first + _WINDOW_CHUNK)
+        widths = buffer[: last - first]
+        with np.errstate(over="ignore", invalid="ignore"):  # a width beyond float64 is inf
+            np.subtract(x[first + size - 1 : last + size - 1], x[first:last], out=widths)
+        at = int(np.argmin(widths))
+        if widths[at] < best_width:  # strict: the first shortest window wins ties
+            best, best_width = first + at, float(widths[at])
+    return best
+
+
 def half_sample_mode(values: np.ndarray, counts: np.ndarray | None = None) -> float:
     """Bickel & Frühwirth's half-sample mode of sorted observations (or distinct values with whole counts).
 
@@ -147,9 +170,7 @@ def half_sample_mode(values: np.ndarray, counts: np.ndarray | None = None) -> fl
     if counts is None:
         while x.size > 3:
             half = (x.size + 1) // 2
-            with np.errstate(over="ignore"):
-                widths = x[half - 1 :] - x[: x.size - half + 1]
-            start = int(np.argmin(widths))
+            start = _shortest_window(x, half)
             x = x[start : start + half]
         counts = np.ones(x.size, dtype=np.int64)
     c = np.asarray(counts, dtype=np.int64)
