@@ -64,6 +64,18 @@ def _raw_pwm(values: np.ndarray, exponent: int) -> tuple[np.ndarray, float]:
     also scale and centre them, and no n-long weight array is built.
     """
     n = values.size
+    largest = max(abs(float(values[0])), abs(float(values[-1])))
+    if 2.0**-500 < largest < 2.0**500:
+        # Scaling by a power of two commutes exactly with every step here while nothing comes
+        # near float64's limits: compute on the data as they are and scale the four PWMs.
+        b, centre = _blocked_pwm(values, 0)
+        return np.ldexp(b, exponent), math.ldexp(centre, exponent)
+    return _blocked_pwm(values, exponent)
+
+
+def _blocked_pwm(values: np.ndarray, exponent: int) -> tuple[np.ndarray, float]:
+    """The work of :func:`_raw_pwm`, scaling each pass by ``2**exponent`` when it is not 0."""
+    n = values.size
     # np.ldexp scales exactly even where 2**exponent itself is not a float64 (subnormal data).
     centre = float(np.ldexp(values[n // 2], exponent))
     blocks = -(-n // _BLOCK)
@@ -73,11 +85,11 @@ def _raw_pwm(values: np.ndarray, exponent: int) -> tuple[np.ndarray, float]:
         start = first * _BLOCK
         stop = min(n, start + _BLOCK * _BLOCKS_PER_PASS)
         chunk = work[: stop - start]
-        if -1022 <= exponent <= 1023:  # multiplying by 2**exponent rounds as ldexp does, faster
-            np.multiply(values[start:stop], math.ldexp(1.0, exponent), out=chunk)
-        else:
+        if exponent:
             np.ldexp(values[start:stop], exponent, out=chunk)
-        np.subtract(chunk, centre, out=chunk)
+            np.subtract(chunk, centre, out=chunk)
+        else:
+            np.subtract(values[start:stop], centre, out=chunk)
         whole = (stop - start) // _BLOCK
         if whole:
             moments[first : first + whole] = chunk[: whole * _BLOCK].reshape(whole, _BLOCK) @ _UNIT_POWERS

@@ -256,3 +256,15 @@ def test_narrow_bins_of_an_exponential_approach_the_exponential_lmoments(width):
     assert l2 == pytest.approx(0.5, abs=tolerance)
     assert t3 == pytest.approx(1.0 / 3.0, abs=tolerance)
     assert t4 == pytest.approx(1.0 / 6.0, abs=tolerance)
+
+
+@pytest.mark.parametrize("exponent", [-3, 0, 7, 900, -900])
+def test_scaling_inside_the_raw_estimator_equals_scaling_the_data_first(exponent):
+    # Scaling by a power of two is exact, so the two orders must agree bit for bit (the raw
+    # path skips the scaling pass where nothing nears float64's limits).
+    from service.core import lmoments
+
+    x = np.sort(np.random.default_rng(5).lognormal(0.0, 1.0, 5000))
+    if exponent > 0:
+        x = np.ldexp(x, -exponent)  # data near the bottom of the range, scaled up
+    assert lmoments.sample_lmoments(x, None, exponent) == lmoments.sample_lmoments(np.ldexp(x, exponent), None)
