@@ -84,18 +84,45 @@ def medcouple(values: np.ndarray, weights: np.ndarray | None, median: float) -> 
         slack = 0.0 if whole else 1e-12 * total
         return _weighted_select(kernel, pair_weight, rank - slack, high)
 
-    def kth(rank: float) -> float:
-        if rank <= minus_ones:
-            return -1.0
-        if rank > total - plus_ones:
-            return 1.0
-        # Invariant: at_most(low) < rank <= at_most(high); each step costs one binary search.
+    def kth(first_rank: float, last_rank: float) -> tuple[float, float]:
+        """The first_rank-th and last_rank-th kernel values (first_rank <= last_rank), from one
+        shared bisection while both lie in the same bracket."""
+        if last_rank <= minus_ones:
+            return -1.0, -1.0
+        if first_rank > total - plus_ones:
+            return 1.0, 1.0
+        if first_rank <= minus_ones or last_rank > total - plus_ones:
+            # One of them is a tie sign: take each on its own.
+            return kth(first_rank, first_rank)[0], kth(last_rank, last_rank)[0]
+        # Invariant: at_most(low) < first_rank and last_rank <= at_most(high); each step costs
+        # one binary search per upper value.
         low, high = -1.0, 1.0
         low_bounds, high_bounds = bounds(low), bounds(high)
         while int(np.sum(high_bounds - low_bounds)) > limit:
             middle = 0.5 * (low + high)
             if middle in (low, high):
                 # Adjacent doubles: every remaining candidate equals the upper end.
+                return high, high
+            middle_bounds = bounds(middle)
+            reached = at_most(middle, middle_bounds)
+            if reached >= last_rank:
+                high, high_bounds = middle, middle_bounds
+            elif reached < first_rank:
+                low, low_bounds = middle, middle_bounds
+            else:  # the two ranks fall on either side of the middle: finish each alone
+                return (
+                    _bisected(first_rank, low, middle, low_bounds, middle_bounds),
+                    _bisected(last_rank, middle, high, middle_bounds, high_bounds),
+                )
+        below = at_most(low, low_bounds)
+        first = select(low, high, low_bounds, high_bounds, first_rank - below)
+        last = first if last_rank == first_rank else select(low, high, low_bounds, high_bounds, last_rank - below)
+        return first, last
+
+    def _bisected(rank: float, low: float, high: float, low_bounds: np.ndarray, high_bounds: np.ndarray) -> float:
+        while int(np.sum(high_bounds - low_bounds)) > limit:
+            middle = 0.5 * (low + high)
+            if middle in (low, high):
                 return high
             middle_bounds = bounds(middle)
             if at_most(middle, middle_bounds) >= rank:
@@ -106,9 +133,9 @@ def medcouple(values: np.ndarray, weights: np.ndarray | None, median: float) -> 
 
     if whole:
         lower_rank, upper_rank = math.floor((total + 1.0) / 2.0), math.ceil((total + 1.0) / 2.0)
-        first = kth(lower_rank)
-        return first if upper_rank == lower_rank else 0.5 * first + 0.5 * kth(upper_rank)
-    return kth(0.5 * total)  # the smallest kernel value with at least half the pair weight at or below it
+        first, last = kth(lower_rank, upper_rank)
+        return first if upper_rank == lower_rank else 0.5 * first + 0.5 * last
+    return kth(0.5 * total, 0.5 * total)[0]  # the smallest kernel value with at least half the pair weight at or below it
 
 
 def _weighted_select(values: np.ndarray, weights: np.ndarray, rank: float, default: float) -> float:
