@@ -160,7 +160,8 @@ class _Rows:
             wanted = np.ceil(np.clip(target, 0.0, self.total[:, None])).astype(self._integer.dtype)
             if self._running is not None:
                 flat = np.searchsorted(self._running.ravel(), wanted + self._start[:, None], side="left")
-                return np.minimum(flat - np.arange(rows)[:, None] * k, k - 1)
+                # A target of 0 is reached at index 0 (the search would land in the row before).
+                return np.clip(flat - np.arange(rows)[:, None] * k, 0, k - 1)
             found = np.stack([np.searchsorted(self._integer[r], wanted[r], side="left") for r in range(rows)])
         else:
             found = np.stack([np.searchsorted(self._cumulative[r], target[r], side="left") for r in range(rows)])
