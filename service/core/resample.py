@@ -53,6 +53,7 @@ _ROW_BY_ROW_DRAWS = 2048
 _POISSON_DRAWS = 2048
 _POISSON_SHORTFALL = 4.0
 _POISSON_LEVELS = 5
+_POISSON_PIECE = 1 << 18
 
 
 @dataclass(frozen=True)
@@ -689,36 +690,40 @@ def _topped_up_counts(plan: _Plan, rng: np.random.Generator, b: int, scratch: _S
     Poisson counts come from 16 random bits per value compared with the top 16 bits of the edges;
     the few values that fall on an edge's top bits are resolved with 48 more bits, so the counts
     follow the Poisson probabilities to double precision. Every step is a numpy loop that
-    releases the GIL, so batches on two threads use both cores. ``None`` when a count might not
-    fit in 16 bits (never for the sizes the ordinary bootstrap takes; the caller then draws
-    directly).
+    releases the GIL, so batches on two threads use both cores. ``None`` when a count would not
+    fit in a byte (the caller then draws directly).
     """
     k = plan.values.size
     edges = plan.poisson_edges
     assert edges is not None
     top = (edges >> np.uint64(48)).astype(np.uint16)
-    bits = rng.bit_generator.random_raw(-(-b * k // 4)).view(np.uint16)[: b * k].reshape(b, k)
-    # Counts below _POISSON_LEVELS by comparison; a value on an edge's top bits, or at or above
-    # the last compared edge, is resolved in full below (about 0.3% of values).
     counts = scratch.array("counts", (b, k), np.uint8)
-    unsure = scratch.array("unsure", (b, k), np.bool_)
-    compared = scratch.array("compared", (b, k), np.bool_)
-    levels = min(_POISSON_LEVELS, top.size)
-    np.greater(bits, top[0], out=counts.view(np.bool_))
-    np.greater_equal(bits, top[levels - 1], out=unsure)
-    for level in range(1, levels):
-        np.greater(bits, top[level], out=compared)
-        np.add(counts, compared.view(np.uint8), out=counts)
-    for level in range(levels - 1):
-        np.equal(bits, top[level], out=compared)
-        np.logical_or(unsure, compared, out=unsure)
-    unsure = np.flatnonzero(unsure)
     flat = counts.reshape(-1)
-    if unsure.size:
-        full = (bits.reshape(-1)[unsure].astype(np.uint64) << np.uint64(48)) | (
-            rng.bit_generator.random_raw(unsure.size) >> np.uint64(16)
-        )
-        flat[unsure] = np.searchsorted(edges, full, side="right")
+    # A cache-sized piece of the batch at a time: the comparisons below pass over it ten times.
+    piece = max(k, (_POISSON_PIECE // k) * k)
+    unsure = scratch.array("unsure", (piece,), np.bool_)
+    compared = scratch.array("compared", (piece,), np.bool_)
+    levels = min(_POISSON_LEVELS, top.size)
+    for start in range(0, b * k, piece):
+        size = min(piece, b * k - start)
+        bits = rng.bit_generator.random_raw(-(-size // 4)).view(np.uint16)[:size]
+        out, doubt, scratch_bits = flat[start : start + size], unsure[:size], compared[:size]
+        # Counts below _POISSON_LEVELS by comparison; a value on an edge's top bits, or at or
+        # above the last compared edge, is resolved in full (about 0.3% of values).
+        np.greater(bits, top[0], out=out.view(np.bool_))
+        np.greater_equal(bits, top[levels - 1], out=doubt)
+        for level in range(1, levels):
+            np.greater(bits, top[level], out=scratch_bits)
+            np.add(out, scratch_bits.view(np.uint8), out=out)
+        for level in range(levels - 1):
+            np.equal(bits, top[level], out=scratch_bits)
+            np.logical_or(doubt, scratch_bits, out=doubt)
+        resolve = np.flatnonzero(doubt)
+        if resolve.size:
+            full = (bits[resolve].astype(np.uint64) << np.uint64(48)) | (
+                rng.bit_generator.random_raw(resolve.size) >> np.uint64(16)
+            )
+            out[resolve] = np.searchsorted(edges, full, side="right")
     shortfall = k - counts.sum(axis=1, dtype=np.int64)
     over = np.flatnonzero(shortfall < 0)
     for row in over:
@@ -729,16 +734,11 @@ def _topped_up_counts(plan: _Plan, rng: np.random.Generator, b: int, scratch: _S
     shortfall[over] = 0  # those rows are complete
     added_rows = np.repeat(np.arange(b, dtype=np.int64), shortfall)
     cells = added_rows * k + rng.integers(0, k, size=added_rows.size, dtype=np.int64)
-    # A value's count is at most the largest Poisson count plus its row's shortfall: widen the
-    # bytes to 16 bits whenever that bound could pass 255, so no count can wrap.
-    largest = int(shortfall.max(initial=0)) + edges.size
-    if largest > 255:
-        if largest > 65535:
-            return None
-        wide = scratch.array("wide", (b, k), np.uint16)
-        np.copyto(wide, counts)
-        counts, flat = wide, wide.reshape(-1)
-    np.add.at(flat, cells, flat.dtype.type(1))
+    np.add.at(flat, cells, np.uint8(1))
+    # A value given more than about 235 of its row's uniform draws would wrap its byte, losing a
+    # multiple of 256 from the row's total: never seen (the caller then draws directly).
+    if np.any(counts.sum(axis=1, dtype=np.int64) != k):
+        return None
     return counts
 
 

@@ -853,12 +853,23 @@ def test_topped_up_counts_are_multinomial():
     assert stats.chisquare(observed, expected).pvalue > 1e-3
 
 
-def test_topped_up_counts_widen_rather_than_wrap():
-    # A shortfall beyond 255 (any n above about 4,000) must widen the counts to 16 bits.
+def test_draws_fall_back_to_direct_counts_when_topped_up_counts_decline(monkeypatch):
+    # _topped_up_counts returns None when a byte could have wrapped; _draw must then count
+    # direct draws, still multinomial(n) (every row sums to n, weights equal counts).
+    plan = _topped_up_plan(4096)
+    monkeypatch.setattr(resample, "_topped_up_counts", lambda *args: None)
+    weights, counts = resample._draw(plan, np.random.default_rng(3), 8, resample._Scratch())
+    assert np.all(counts.sum(axis=1) == 4096)
+    assert np.array_equal(weights, counts.astype(np.float64))
+
+
+def test_topped_up_counts_fit_in_bytes_for_large_samples():
+    # A shortfall of about 4 sqrt(n) draws per row (1,000 at n = 65,536) spreads over the values.
     plan = _topped_up_plan(65_536)
     counts = resample._topped_up_counts(plan, np.random.default_rng(3), 4, resample._Scratch())
-    assert counts.dtype == np.uint16
+    assert counts.dtype == np.uint8
     assert np.all(counts.sum(axis=1, dtype=np.int64) == 65_536)
+
 
 
 def test_first_reaching_stays_in_its_row_for_every_target():
