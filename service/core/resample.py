@@ -226,6 +226,12 @@ class _LeaveOneOut:
         dense -= np.where(np.arange(self.base.size)[None, :] >= self.positions[:, None], self.removed[:, None], 0.0)
         return dense
 
+    def reordered(self, rows: np.ndarray, order: np.ndarray) -> _LeaveOneOut:
+        """The given rows with the support permuted into ``order`` (for sorted deviations)."""
+        inverse = np.empty_like(order)
+        inverse[order] = np.arange(order.size)
+        return _LeaveOneOut(self.base[order], self.removed[rows], positions=inverse[self.positions[rows]])
+
 
 def _deviation_order(values: np.ndarray, centre: float) -> tuple[np.ndarray, np.ndarray]:
     """Permutation of sorted ``values`` that sorts ``|values - centre|``, and those deviations.
@@ -474,10 +480,10 @@ class _Statistics:
         if plan.edges is not None:
             return self._grouped_mad(view, median)
         centres = np.unique(median)
-        if isinstance(view, _Rows) and centres.size * 8 <= median.size:
-            # Few distinct medians (few support values): rows sharing one share the order of
-            # their deviations, so sort those once per median and read each row's median of
-            # them from its cumulative weights in that order.
+        if centres.size * 8 <= median.size:
+            # Few distinct medians (few support values, or jackknife rows): rows sharing one
+            # share the order of their deviations, so sort those once per median and read each
+            # row's median of them from its cumulative weights in that order.
             result = np.full(median.size, np.nan)
             for centre in centres[~np.isnan(centres)]:
                 rows = np.flatnonzero(median == centre)
