@@ -944,9 +944,11 @@ def _robust_descriptors(
         if undefined is None:
             support = data.support
             median = descriptors["median"].value
-            if data.weights is None:
+            if data.weights is None and support.values.size == data.values.size:
                 mc = robust.medcouple(data.sorted_values, None, median)
             else:
+                # Tied observations: the same kernel values, counted by the support's weights
+                # (about the cost of the distinct values, not of the observations).
                 mc = robust.medcouple(support.values, support.weights, median)
             mc = _finite_or_none(mc)
         if data.meaning is WeightMeaning.UNIT:
