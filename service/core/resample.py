@@ -397,7 +397,10 @@ def _hf_quantiles(view, values: np.ndarray, p: np.ndarray, quantile_type: int) -
     else:
         h = n * p + order._CONTINUOUS_OFFSET[quantile_type](p)
     j = np.floor(h)
-    return order._interpolate(_order_statistic(view, values, j), _order_statistic(view, values, j + 1), h - j)
+    # Both neighbouring order statistics from one search.
+    q = p.shape[1]
+    pair = _order_statistic(view, values, np.concatenate((j, j + 1.0), axis=1))
+    return order._interpolate(pair[:, :q], pair[:, q:], h - j)
 
 
 def _cdf_quantiles(view, values: np.ndarray, p: np.ndarray, average: bool) -> np.ndarray:
