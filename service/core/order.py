@@ -183,8 +183,9 @@ def median_absolute_deviation(data: WeightedData, centre: float) -> float:
     """Median of ``|x - centre|`` (raw, not scaled), with the same median rule as :func:`median`.
 
     For a raw sample the two middle deviations are selected from the sorted data by binary
-    search (O(log n), nothing n-long is built). For weighted data the deviations of the sorted support are two sorted runs (below and
-    above the centre), merged by binary search rather than re-sorted.
+    search (O(log n), nothing n-long is built). For weighted data the deviations of the sorted
+    support are two sorted runs (below and above the centre), merged by binary search rather
+    than re-sorted.
     """
     if data.unit_sorted:
         ordered = data.sorted_values

@@ -111,15 +111,15 @@ def medcouple(values: np.ndarray, weights: np.ndarray | None, median: float) -> 
                 low, low_bounds = middle, middle_bounds
             else:  # the two ranks fall on either side of the middle: finish each alone
                 return (
-                    _bisected(first_rank, low, middle, low_bounds, middle_bounds),
-                    _bisected(last_rank, middle, high, middle_bounds, high_bounds),
+                    _one_rank(first_rank, low, middle, low_bounds, middle_bounds),
+                    _one_rank(last_rank, middle, high, middle_bounds, high_bounds),
                 )
         below = at_most(low, low_bounds)
         first = select(low, high, low_bounds, high_bounds, first_rank - below)
         last = first if last_rank == first_rank else select(low, high, low_bounds, high_bounds, last_rank - below)
         return first, last
 
-    def _bisected(rank: float, low: float, high: float, low_bounds: np.ndarray, high_bounds: np.ndarray) -> float:
+    def _one_rank(rank: float, low: float, high: float, low_bounds: np.ndarray, high_bounds: np.ndarray) -> float:
         while int(np.sum(high_bounds - low_bounds)) > limit:
             middle = 0.5 * (low + high)
             if middle in (low, high):
