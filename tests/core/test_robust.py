@@ -518,3 +518,17 @@ def test_bins_robust_shape_comes_from_the_grouped_quantiles(seed):
     assert got["octile_kurtosis"] == pytest.approx(octile, rel=1e-12)
     excess = octile - NORMAL_OCTILE_KURTOSIS
     assert got["octile_excess_kurtosis"] == pytest.approx(excess, rel=1e-12, abs=1e-14)
+
+
+def test_medcouple_of_tied_heavy_tailed_samples_matches_statsmodels_exact():
+    # Reference: statsmodels.stats.stattools.medcouple(use_fast=False), the O(n^2) definition.
+    # Rounded t(2) samples of 20-300 values: ties at and around the median, and (in several
+    # of these seeded cases) the two middle kernel values parting during the bisection.
+    from service.core import robust
+
+    rng = np.random.default_rng(0)
+    for case in range(400):
+        n = int(rng.integers(20, 300))
+        x = np.sort(np.round(rng.standard_t(2, n), int(rng.integers(0, 3))))
+        got = robust.medcouple(x, None, float(np.median(x)))
+        assert got == pytest.approx(float(medcouple(x, use_fast=False)), abs=1e-12), case
