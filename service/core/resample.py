@@ -18,6 +18,7 @@ intervals; the acceleration from the jackknife (eq. 14.15).
 
 from __future__ import annotations
 
+import functools
 import math
 import threading
 import time
@@ -678,16 +679,20 @@ def _batches(plan: _Plan, seed: int, resamples: int) -> list[tuple[np.random.Gen
     return [(np.random.default_rng(child), size) for child, size in zip(children, sizes)]
 
 
+@functools.lru_cache(maxsize=256)
 def _poisson_edges(rate: float) -> np.ndarray:
     """``2**64 P(X < c)`` for c = 1, 2, ... of X ~ Poisson(rate), as unsigned 64-bit integers,
     up to the count whose upper tail is below 2**-65 (from scipy's survival function, so the
-    tail keeps its relative precision)."""
+    tail keeps its relative precision). Cached (read-only): a comparison plans each
+    input's resampling twice (budget, then bootstrap), and sample sizes recur."""
     edges = []
     count = 1
     while (tail := round(math.ldexp(float(stats.poisson.sf(count - 1, rate)), 64))) > 0:
         edges.append((1 << 64) - tail)
         count += 1
-    return np.array(edges, dtype=np.uint64)
+    table = np.array(edges, dtype=np.uint64)
+    table.flags.writeable = False
+    return table
 
 
 def _topped_up_counts(plan: _Plan, rng: np.random.Generator, b: int, scratch: _Scratch) -> np.ndarray | None:
