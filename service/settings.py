@@ -40,6 +40,11 @@ class Settings:
     max_resample_work: int = 1_000_000_000
     # Wall-clock limit of one request's computation, in seconds (422 beyond).
     max_request_seconds: int = 30
+    # Memory one request may plan, decoding included (422, or 413 for a body, beyond), and
+    # the most a worker process plans at once (further requests wait, then 503). The default
+    # keeps two workers of a 1.5 GiB pod safe: 768 MiB each, less an idle worker (~150 MiB),
+    # leaves room for 384 MiB planned plus the allocator's and the estimates' slack.
+    max_request_memory_bytes: int = 384 * 1024 * 1024
     # Above this many support rows the bag of little bootstraps replaces the ordinary bootstrap.
     bootstrap_subset_rows: int = 100_000
     # Threads one request's resampling may use (numpy releases the GIL in its loops).
@@ -63,6 +68,7 @@ class Settings:
         "max_contributions_listed": (1, 100_000),
         "max_resample_work": (1_000, 10**12),
         "max_request_seconds": (1, 3600),
+        "max_request_memory_bytes": (16 * 1024 * 1024, 1024**4),
         "bootstrap_subset_rows": (1_000, 100_000_000),
         "resample_threads": (1, 64),
     }

@@ -5,6 +5,7 @@ Runs in a worker thread (see ``routes``), so nothing here may touch the event lo
 
 from __future__ import annotations
 
+import dataclasses
 import secrets
 import time
 from dataclasses import dataclass
@@ -13,6 +14,7 @@ from typing import TypeVar
 import msgspec
 import numpy as np
 
+from service.api import admission
 from service.api.media import Codec
 from service.api.problems import ApiProblem, invalid_body
 from service.api.schemas import PartialState as PartialStateMessage
@@ -41,6 +43,7 @@ from service.core import (
     LimitExceeded,
     Location,
     WeightMeaning,
+    admit,
     compare,
     describe,
     from_bins,
@@ -112,7 +115,14 @@ def _check_count(count: int, path: str, settings: Settings) -> None:
         )
 
 
-def _describe_options(options: SummaryOptions, settings: Settings) -> DescribeOptions:
+def _admitted(inputs, options: DescribeOptions, ticket) -> DescribeOptions:
+    """Plan the computation (422 with what would fit), then hold its memory in the worker's gate."""
+    estimate = admit(inputs, options)
+    ticket.resize(ticket.amount + estimate.peak_bytes)
+    return dataclasses.replace(options, admitted=True)
+
+
+def _describe_options(options: SummaryOptions, settings: Settings, decoding: float = 0.0) -> DescribeOptions:
     if options.moment_order > settings.max_moment_order:
         raise LimitExceeded(
             detail=f"moment_order may be at most {settings.max_moment_order} on this server",
@@ -139,6 +149,7 @@ def _describe_options(options: SummaryOptions, settings: Settings) -> DescribeOp
         subset_rows=settings.bootstrap_subset_rows,
         resample_threads=settings.resample_threads,
         deadline=time.monotonic() + settings.max_request_seconds,
+        max_memory_bytes=float(settings.max_request_memory_bytes) - decoding,
         convention=options.convention,
         skewness_estimator=options.skewness_estimator,
         kurtosis_estimator=options.kurtosis_estimator,
@@ -242,17 +253,24 @@ def _state_message(state: PartialState) -> PartialStateMessage:
 
 
 def describe_samples(body: bytes, codec: Codec, answer: Codec, settings: Settings) -> Computed:
-    request = _decode(body, SamplesRequest, codec)
-    data, count = _samples_data(request, request.options.missing, settings)
-    options = _describe_options(request.options, settings)
-    description = describe(data, options, kind="samples")
-    state = None
-    if request.options.partial_state:
-        state = state_of(data, order=max(MIN_ORDER, request.options.moment_order))
-    return _answer(description, count, answer, request.options.score, state)
+    with admission.admitted(body, codec, settings) as ticket:
+        request = _decode(body, SamplesRequest, codec)
+        data, count = _samples_data(request, request.options.missing, settings)
+        options = _admitted([data], _describe_options(request.options, settings, ticket.amount), ticket)
+        description = describe(data, options, kind="samples")
+        state = None
+        if request.options.partial_state:
+            state = state_of(data, order=max(MIN_ORDER, request.options.moment_order))
+        return _answer(description, count, answer, request.options.score, state)
 
 
 def merge_states_request(body: bytes, codec: Codec, answer: Codec, settings: Settings) -> Computed:
+    # States and sketches cost what their bytes do: the decoding bound covers them.
+    with admission.admitted(body, codec, settings):
+        return _merge_states(body, codec, answer, settings)
+
+
+def _merge_states(body: bytes, codec: Codec, answer: Codec, settings: Settings) -> Computed:
     request = _decode(body, MergeRequest, codec)
     states = [
         PartialState(
@@ -273,17 +291,19 @@ def merge_states_request(body: bytes, codec: Codec, answer: Codec, settings: Set
 
 
 def describe_table(body: bytes, codec: Codec, answer: Codec, settings: Settings) -> Computed:
-    request = _decode(body, TableRequest, codec)
-    data, count = _table_data(request, request.options.normalize, settings)
-    options = _describe_options(request.options, settings)
-    return _answer(describe(data, options, kind="table"), count, answer, request.options.score)
+    with admission.admitted(body, codec, settings) as ticket:
+        request = _decode(body, TableRequest, codec)
+        data, count = _table_data(request, request.options.normalize, settings)
+        options = _admitted([data], _describe_options(request.options, settings, ticket.amount), ticket)
+        return _answer(describe(data, options, kind="table"), count, answer, request.options.score)
 
 
 def describe_bins(body: bytes, codec: Codec, answer: Codec, settings: Settings) -> Computed:
-    request = _decode(body, BinsRequest, codec)
-    data, count = _bins_data(request, settings)
-    options = _describe_options(request.options, settings)
-    return _answer(describe(data, options, kind="bins"), count, answer, request.options.score)
+    with admission.admitted(body, codec, settings) as ticket:
+        request = _decode(body, BinsRequest, codec)
+        data, count = _bins_data(request, settings)
+        options = _admitted([data], _describe_options(request.options, settings, ticket.amount), ticket)
+        return _answer(describe(data, options, kind="bins"), count, answer, request.options.score)
 
 
 def _input_data(message, settings: Settings, prefix: str):
@@ -295,11 +315,17 @@ def _input_data(message, settings: Settings, prefix: str):
 
 
 def compare_inputs(body: bytes, codec: Codec, answer: Codec, settings: Settings) -> Computed:
+    with admission.admitted(body, codec, settings) as ticket:
+        return _compare(body, codec, answer, settings, ticket)
+
+
+def _compare(body: bytes, codec: Codec, answer: Codec, settings: Settings, ticket) -> Computed:
     request = _decode(body, ComparisonRequest, codec)
     first, first_count, first_kind = _input_data(request.first, settings, "$.first")
     second, second_count, second_kind = _input_data(request.second, settings, "$.second")
     _check_count(first_count + second_count, "$.second", settings)
-    options = _describe_options(request.options, settings)
+    options = _describe_options(request.options, settings, ticket.amount)
+    options = _admitted([first, second], options, ticket)
     comparison = compare(first, second, options, kinds=(first_kind, second_kind))
     message = msgspec.convert(comparison, ComparisonResponse, from_attributes=True)
     message = _with_scores(message, comparison.first, request.options.score)

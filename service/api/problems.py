@@ -38,6 +38,7 @@ PROBLEM_TYPES: dict[str, tuple[int, str]] = {
     "uncomputable-input": (422, "The input cannot be described"),
     "limit-exceeded": (422, "The request exceeds a configured limit"),
     "internal-error": (500, "Internal error"),
+    "server-busy": (503, "The server is busy"),
 }
 _SLUG_BY_STATUS = {status: slug for slug, (status, _) in PROBLEM_TYPES.items()}
 _LOCATION = re.compile(r"^(?P<message>.*?) - at `(?P<path>\$[^`]*)`$", re.DOTALL)

@@ -1,7 +1,8 @@
 """The numeric core: pure numpy/scipy functions on the one weighted form; no HTTP here."""
 
 from service.core.compare import Comparison, Scores, compare, standardize
-from service.core.describe import DEFAULT_PROBABILITIES, Description, DescribeOptions, describe
+from service.core.cost import Estimate
+from service.core.describe import DEFAULT_PROBABILITIES, Description, DescribeOptions, admit, describe
 from service.core.errors import DescriptorError, LimitExceeded, Location, UncomputableInput
 from service.core.moments import CentralSums, central_sums
 from service.core.partial import (
@@ -33,6 +34,7 @@ __all__ = [
     "DescribeOptions",
     "Description",
     "DescriptorError",
+    "Estimate",
     "IntervalOptions",
     "LimitExceeded",
     "Location",
@@ -42,6 +44,7 @@ __all__ = [
     "UncomputableInput",
     "WeightMeaning",
     "WeightedData",
+    "admit",
     "central_sums",
     "check_states",
     "combine_sketches",

@@ -32,9 +32,9 @@ from dataclasses import dataclass
 import numpy as np
 from scipy import special, stats
 
-from service.core import resample
+from service.core import cost, resample
 from service.core.classical import ClassicalInterval
-from service.core.describe import SCALAR_DESCRIPTORS, Description, DescribeOptions, Note, Resampling, describe
+from service.core.describe import SCALAR_DESCRIPTORS, Description, DescribeOptions, Note, Resampling, admit, describe
 from service.core.errors import DescriptorError, LimitExceeded, Location
 from service.core.resample import BootstrapResult, IntervalOptions, Interval, Replicates
 from service.core.weighted import WeightedData, WeightMeaning
@@ -309,6 +309,8 @@ def _check_budget(first: WeightedData, second: WeightedData, options: DescribeOp
     work = work_first + work_second
     if work > options.max_resample_work:
         allowed = int(options.max_resample_work // (per_first + per_second))
+        if any(cost.shape_of(data, options.subset_rows).subset_rows for data in (first, second)):
+            allowed -= allowed % resample.SUBSETS  # little bootstraps round resamples up to a multiple
         raise LimitExceeded(
             detail=(
                 f"resampling both inputs touches {work:.3g} rows ({work_first:.3g} + {work_second:.3g}), "
@@ -492,6 +494,9 @@ def compare(
     not apply.
     """
     interval = options.interval
+    if not options.admitted:
+        admit([first, second], options)
+    options = dataclasses.replace(options, admitted=True)
     side_options = (options, options)
     if interval is not None:
         _check_budget(first, second, options)

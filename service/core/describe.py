@@ -10,13 +10,14 @@ from __future__ import annotations
 
 import dataclasses
 import math
+import time
 from dataclasses import dataclass, field
 
 import numpy as np
 from scipy import stats
 
-from service.core import classical, grouped, lmoments, normality, order, resample, robust, shape, tail
-from service.core.errors import Location, UncomputableInput
+from service.core import classical, cost, grouped, lmoments, normality, order, resample, robust, shape, tail
+from service.core.errors import LimitExceeded, Location, UncomputableInput
 from service.core.moments import CentralSums, central_sums, scale_by_power_of_two
 from service.core.serial import lag1_autocorrelation
 from service.core.weighted import WeightedData, WeightMeaning
@@ -118,6 +119,10 @@ class DescribeOptions:
     deadline: float | None = None
     subset_rows: int = 100_000
     resample_threads: int = 2
+    # Peak memory one request may plan (cost.admit); inf: no limit.
+    max_memory_bytes: float = math.inf
+    # Already admitted by the caller (a comparison admits both inputs together).
+    admitted: bool = False
 
 
 @dataclass
@@ -449,6 +454,34 @@ def _basis_of(
     )
 
 
+def admit(inputs: list[WeightedData], options: DescribeOptions) -> cost.Estimate:
+    """Plan the memory and time of describing (or comparing) ``inputs`` by ``options``, or raise
+    :class:`LimitExceeded` with what would fit (see :mod:`service.core.cost`)."""
+    interval = options.interval
+    if interval is not None and any(d.meaning is WeightMeaning.PROBABILITY for d in inputs):
+        interval = None  # refused with its own reason in _intervals
+    left = math.inf if options.deadline is None else options.deadline - time.monotonic()
+    return cost.admit(
+        [cost.shape_of(d, options.subset_rows) for d in inputs],
+        probabilities=len(options.probabilities),
+        resamples=0 if interval is None else interval.resamples,
+        method=None if interval is None else interval.method,
+        threads=options.resample_threads,
+        max_bytes=options.max_memory_bytes,
+        seconds=left,
+        max_work=options.max_resample_work,
+    )
+
+
+def _on_time(options: DescribeOptions) -> None:
+    """The wall-clock check between the descriptor families (each is at most O(n log n))."""
+    if options.deadline is not None and time.monotonic() > options.deadline:
+        raise LimitExceeded(
+            detail="the descriptors did not finish within this server's time limit; send fewer values",
+            locations=[Location("$", "too many values to describe in time")],
+        )
+
+
 def describe(data: WeightedData, options: DescribeOptions, *, kind: str) -> Description:
     """Compute every descriptor of ``data``.
 
@@ -466,6 +499,8 @@ def describe(data: WeightedData, options: DescribeOptions, *, kind: str) -> Desc
     """
     notes = _Notes()
     basis = _basis(data, options)
+    if not options.admitted:
+        admit([data], options)
     _note_input(data, notes)
 
     moments_defined = data.open_bin_weight == 0.0
@@ -509,8 +544,11 @@ def describe(data: WeightedData, options: DescribeOptions, *, kind: str) -> Desc
         ),
         lowest=_lowest_value(data),
     )
+    _on_time(options)
     quantile_values, robust_quantiles = _order_descriptors(descriptors, data, basis, options, notes)
+    _on_time(options)
     _robust_descriptors(descriptors, data, sums, basis, robust_quantiles, constant, notes)
+    _on_time(options)
     descriptors["lag1_autocorrelation"] = Descriptor(
         _lag1(data, sums, basis.single, constant, notes),
         "r(1) = sum (x_i - mean)(x_i+1 - mean) / sum (x_i - mean)^2",

@@ -39,6 +39,9 @@ from service.core.weighted import WeightedData, WeightMeaning
 _BATCH_BYTES = 64 << 20
 _BATCH_ELEMENTS = _BATCH_BYTES // 32
 _TOPPED_UP_BATCH_ELEMENTS = _BATCH_BYTES // 19
+# Working memory of one part of ``_Statistics.evaluate`` (rows of a batch or of the jackknife
+# evaluated together); see ``evaluation_row_bytes``.
+EVALUATION_PART_BYTES = 16 << 20
 # Fewer observations than this make any bootstrap interval doubtful (common practice).
 SMALL_SAMPLE = 20
 # Fewer distinct values than this make the bootstrap distribution of order statistics lumpy.
@@ -81,6 +84,17 @@ class BootstrapResult:
     standard_error: float | None
     reason: str | None = None  # why the interval is missing, or why the method fell back
     acceleration: float | None = None  # BCa's jackknife acceleration, when computed
+
+
+def evaluation_row_bytes(rows: int, probabilities: int, *, bins: bool) -> int:
+    """Working memory of ``_Statistics.evaluate`` per evaluated row (measured with tracemalloc,
+    rounded up; tests/core/test_cost.py checks it): about 128 bytes per order statistic looked up
+    (the quartiles and the requested quantiles, and the median and MAD searches), plus, for
+    binned data, the grouped MAD's arrays over every bin edge."""
+    per_row = 128 * (probabilities + 12)
+    if bins:
+        per_row += 192 * (rows + 1)
+    return per_row
 
 
 class _Scratch:
@@ -182,6 +196,28 @@ class _Rows:
         """The given rows with the support permuted into ``order`` (for sorted deviations)."""
         return _Rows(self.weights[np.ix_(rows, order)], None, self.whole)
 
+    def rows(self, part: slice) -> _Rows:
+        """A view of the rows in ``part`` (a slice), sharing this view's arrays.
+
+        Everything a statistic reads is per row, so the statistics of a part are those rows'
+        statistics of the whole, bit for bit (``_Statistics.evaluate`` works part by part to
+        bound its working memory).
+        """
+        view = object.__new__(_Rows)
+        view.weights, view.whole, view.total = self.weights[part], self.whole, self.total[part]
+        if hasattr(self, "sums"):
+            view.sums = self.sums[part]
+        view._running = None if self._running is None else self._running[part]
+        if self.whole:
+            view._integer, view._start = self._integer[part], self._start[part]
+        else:
+            view._cumulative = self._cumulative[part]
+        return view
+
+    @property
+    def count(self) -> int:
+        return self.weights.shape[0]
+
 
 class _LeaveOneOut:
     """Jackknife rows: the full data with one observation removed from one support position each.
@@ -232,6 +268,19 @@ class _LeaveOneOut:
         inverse = np.empty_like(order)
         inverse[order] = np.arange(order.size)
         return _LeaveOneOut(self.base[order], self.removed[rows], positions=inverse[self.positions[rows]])
+
+    def rows(self, part: slice) -> _LeaveOneOut:
+        """The leave-one-out rows in ``part`` (a slice), sharing the support's arrays."""
+        view = object.__new__(_LeaveOneOut)
+        view.base, view._cumulative = self.base, self._cumulative
+        view.removed, view.positions, view.total = self.removed[part], self.positions[part], self.total[part]
+        if hasattr(self, "sums"):
+            view.sums = self.sums[part]
+        return view
+
+    @property
+    def count(self) -> int:
+        return self.positions.size
 
 
 def _deviation_order(values: np.ndarray, centre: float) -> tuple[np.ndarray, np.ndarray]:
@@ -488,11 +537,16 @@ class _Statistics:
             # Few distinct medians (few support values, or jackknife rows): rows sharing one
             # share the order of their deviations, so sort those once per median and read each
             # row's median of them from its cumulative weights in that order.
+            # The reordered rows are copies (weights and their prefix sums, about 24 bytes per
+            # row and support value), made a part at a time.
             result = np.full(median.size, np.nan)
+            per_part = max(1, EVALUATION_PART_BYTES // (24 * plan.values.size))
             for centre in centres[~np.isnan(centres)]:
                 rows = np.flatnonzero(median == centre)
                 permutation, deviations = _deviation_order(plan.values, float(centre))
-                result[rows] = self._median_of(view.reordered(rows, permutation), deviations)
+                for start in range(0, rows.size, per_part):
+                    part = rows[start : start + per_part]
+                    result[part] = self._median_of(view.reordered(part, permutation), deviations)
             return result
         search = _DeviationSearch(plan.values, view, median)
         total = view.total
@@ -545,8 +599,36 @@ class _Statistics:
             value = np.where(k == 0, 0.0, d0 + (half[:, 0] - g0) / (g1 - g0) * (d1 - d0))
         return np.where(ok & prefix_known, value, np.nan)
 
-    def evaluate(self, view, probabilities: np.ndarray, names: tuple[str, ...]) -> dict[str, np.ndarray]:
-        """Every requested statistic for each row of ``view``; ``quantile:i`` for probabilities[i]."""
+    def part_rows(self, view, probabilities: int) -> int:
+        """How many rows of ``view`` one part of ``evaluate`` takes: parts of at most
+        ``EVALUATION_PART_BYTES`` of working memory (see ``evaluation_row_bytes``)."""
+        row = evaluation_row_bytes(
+            self.plan.values.size, probabilities, bins=self.plan.edges is not None
+        )
+        return max(1, EVALUATION_PART_BYTES // row)
+
+    def evaluate(
+        self, view, probabilities: np.ndarray, names: tuple[str, ...], deadline: float | None = None
+    ) -> dict[str, np.ndarray]:
+        """Every requested statistic for each row of ``view``; ``quantile:i`` for probabilities[i].
+
+        Rows are taken a part at a time (``part_rows``), so the working memory of order
+        statistics (rows x probabilities, and rows x bins for binned data) stays bounded
+        whatever the batch; every statistic is per row, so parts change no value. The wall
+        clock is checked before each part.
+        """
+        rows = view.count
+        per_part = self.part_rows(view, probabilities.size)
+        if rows <= per_part:
+            _deadline_check(deadline)
+            return self._evaluate(view, probabilities, names)
+        parts = []
+        for start in range(0, rows, per_part):
+            _deadline_check(deadline)
+            parts.append(self._evaluate(view.rows(slice(start, start + per_part)), probabilities, names))
+        return {name: np.concatenate([part[name] for part in parts]) for name in parts[0]}
+
+    def _evaluate(self, view, probabilities: np.ndarray, names: tuple[str, ...]) -> dict[str, np.ndarray]:
         plan = self.plan
         sums = view.sums
         weight = sums[:, 0]
@@ -1002,6 +1084,16 @@ def _cost(plan: _Plan, resamples: int, subset_rows: int) -> tuple[float, float, 
     return float(resamples) * float(k), float(k), f"{resamples} resamples x {k} support rows"
 
 
+def allowed_resamples(max_work: float, per_resample: float, plan: _Plan, subset_rows: int) -> int:
+    """The most resamples within ``max_work``: the bag of little bootstraps draws a whole
+    number per subset (requests are rounded up to a multiple of ``SUBSETS``), so its advice is
+    rounded down to one, and a resent request with that count stays within the budget."""
+    allowed = int(max_work // per_resample)
+    if _uses_subsets(plan, subset_rows):
+        allowed -= allowed % SUBSETS
+    return allowed
+
+
 def resampling_work(data: WeightedData, resamples: int, subset_rows: int) -> tuple[float, float]:
     """(work, work per resample) that ``bootstrap`` would spend on ``data``: the measure its budget
     ``max_work`` is compared with, so a caller resampling several inputs can budget them together."""
@@ -1059,11 +1151,25 @@ def _little_bootstraps(
             unit_weights=bool(np.all(plan.unit[rows] == 1.0)),
         )
         statistics = _Statistics(subset, (full.skewness_family, full.kurtosis_family), full.quantile_type, full.factor_rule)
-        with np.errstate(all="ignore"):  # non-finite replicates are reported as undefined below
-            drawn = rng.multinomial(observations, counts / m, size=per_subset)
-            weights = drawn.astype(np.float64) * subset.unit[None, :]
-            whole = drawn if subset.integer and subset.unit_weights else None
-            replicates = statistics.evaluate(_Rows(weights, subset.powers, subset.integer, whole), probabilities, wanted)
+        # The subset's resamples in batches of at most _BATCH_ELEMENTS counts (a subset of a
+        # large sample would otherwise hold resamples x m counts at once); the generator's
+        # draws are the same in batches as in one call, so only the batch's matrix product
+        # may round differently when a subset needs more than one batch.
+        batch = max(1, _BATCH_ELEMENTS // counts.size)
+        parts = []
+        for start in range(0, per_subset, batch):
+            _deadline_check(deadline)
+            with np.errstate(all="ignore"):  # non-finite replicates are reported as undefined below
+                drawn = rng.multinomial(observations, counts / m, size=min(batch, per_subset - start))
+                weights = drawn.astype(np.float64) * subset.unit[None, :]
+                whole = drawn if subset.integer and subset.unit_weights else None
+                view = _Rows(weights, subset.powers, subset.integer, whole)
+                parts.append(statistics.evaluate(view, probabilities, wanted, deadline))
+            del drawn, weights, whole, view
+        replicates = parts[0] if len(parts) == 1 else {
+            name: np.concatenate([part[name] for part in parts]) for name in parts[0]
+        }
+        del parts
         rounds.append(replicates)
         alpha = 1.0 - options.level
         for name in names:
@@ -1129,7 +1235,7 @@ def bootstrap(
     k = plan.values.size
     work, per_resample, counted = _cost(plan, options.resamples, subset_rows)
     if work > max_work:
-        raise _over_budget(work, max_work, int(max_work // per_resample), counted)
+        raise _over_budget(work, max_work, allowed_resamples(max_work, per_resample, plan, subset_rows), counted)
     if _uses_subsets(plan, subset_rows):
         return _little_bootstraps(
             plan, notes, estimates, quantile_estimates, probabilities,
@@ -1153,7 +1259,7 @@ def bootstrap(
                 view = _Rows(weights, plan.powers, True, counts, plan.draws, own.scratch)
             else:
                 view = _Rows(weights, plan.powers, False)
-            return statistics.evaluate(view, probabilities, wanted)
+            return statistics.evaluate(view, probabilities, wanted, deadline)
 
     # numpy releases the GIL in the heavy loops, so batches overlap on the cores; each batch has
     # its own generator, so the result does not depend on which thread ran it.
@@ -1178,7 +1284,7 @@ def bootstrap(
         # makes BCa fall back with its reason.
         with np.errstate(all="ignore"):
             view = _LeaveOneOut(plan.base, removed, plan.powers)
-            jackknife = statistics.evaluate(view, probabilities, wanted)
+            jackknife = statistics.evaluate(view, probabilities, wanted, deadline)
         # Each row stands for its observations: row i's leave-one-out value counts base/unit times.
         jackknife_weights = np.where(present, plan.base / plan.unit, 0.0)
     results: dict[str, BootstrapResult] = {}

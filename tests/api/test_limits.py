@@ -6,6 +6,8 @@ tested beside their endpoints in test_samples.py and test_intervals.py.
 
 from __future__ import annotations
 
+import re
+
 import msgspec
 import numpy as np
 
@@ -67,8 +69,10 @@ def test_default_limits_take_a_million_values_as_bytes(make_client):
     assert response.json()["size"]["n"] == 1_000_000
 
 
-def test_wall_clock_limit_stops_a_long_resampling(make_client):
-    """100,000 distinct values x 50,000 resamples is minutes of work; the 1 s limit ends it."""
+def test_time_model_refuses_a_long_resampling_at_once(make_client):
+    """100,000 distinct values x 50,000 resamples is minutes of work: refused before it starts,
+    with the resamples that would fit (the deadline inside the stages is tested in
+    tests/core/test_cost.py)."""
     client = make_client(request_log=False, max_request_seconds=1, max_resample_work=10**12)
     values = np.random.default_rng(3).normal(size=100_000).tobytes()
     quick = _post(client, {"values": values[:8000], "options": {"interval": {"method": "percentile", "resamples": 200, "seed": 1}}})
@@ -78,7 +82,8 @@ def test_wall_clock_limit_stops_a_long_resampling(make_client):
         {"values": values, "options": {"interval": {"method": "percentile", "resamples": 50_000, "seed": 1}}},
     )
     problem = _problem(slow, 422, "limit-exceeded", "$.options.interval.resamples")
-    assert "time limit" in problem["detail"]
+    assert "beyond this server's 1 s per request" in problem["detail"]
+    assert re.search(r"at most (\d+)", problem["detail"])
 
 
 def test_budget_rejections_are_counted(make_client):
