@@ -35,12 +35,15 @@ POINT_BYTES_PER_ENTRY = 80
 POINT_SECONDS = 45e-9
 # Seconds per resampled element (resample x support row) drawn and reduced, by how counts are
 # drawn; and per order statistic looked up in a resample.
-DRAW_SECONDS = {"multinomial": 12e-9, "poisson": 8e-9, "picks": 25e-9, "subset": 220e-9}
+DRAW_SECONDS = {"multinomial": 300e-9, "poisson": 25e-9, "picks": 60e-9, "subset": 220e-9}
 LOOKUP_SECONDS = 120e-9
 # Seconds per leave-one-out row and order statistic (a search over the support each).
-JACKKNIFE_LOOKUP_SECONDS = 500e-9
+JACKKNIFE_LOOKUP_SECONDS = 300e-9
 # Seconds per (row x bin) of the grouped MAD, in resamples and in the jackknife.
-GROUPED_MAD_SECONDS = 250e-9
+GROUPED_MAD_SECONDS = 150e-9
+# What every stage takes whatever the sizes (small arrays, the interpreter's own work).
+STAGE_BYTES = 4 << 20
+STAGE_SECONDS = 0.02
 
 
 @dataclass(frozen=True)
@@ -121,7 +124,9 @@ def _log2(x: float) -> float:
 
 def point_stage(shape: Shape) -> Stage:
     n = shape.entries
-    return Stage("point descriptors", POINT_BYTES_PER_ENTRY * n, POINT_SECONDS * n * _log2(n))
+    return Stage(
+        "point descriptors", STAGE_BYTES + POINT_BYTES_PER_ENTRY * n, STAGE_SECONDS + POINT_SECONDS * n * _log2(n)
+    )
 
 
 def _per_element_bytes(shape: Shape) -> float:
@@ -150,10 +155,12 @@ def resampling_stages(
         batch = max(1, min(per_subset, resample._BATCH_ELEMENTS // m))
         row_bytes = resample.evaluation_row_bytes(m, probabilities, bins=False)
         working = batch * m * 32.0 + min(batch, max(1, part // row_bytes)) * row_bytes
-        subset = 8.0 * shape.entries + 64.0 * m  # choosing the subset, its plan (powers)
+        # The whole sample's plan (powers, cumulative counts), choosing a subset, its plan.
+        subset = 80.0 * k + 8.0 * shape.entries + 64.0 * m
         stored = 2.0 * drawn * recorded  # the rounds, then stacked
         seconds = drawn * (DRAW_SECONDS["subset"] * m + LOOKUP_SECONDS * q * _log2(m))
-        stages.append(Stage("bag of little bootstraps", subset + working + stored + 2 * batch * recorded, seconds))
+        memory = STAGE_BYTES + subset + working + stored + 2 * batch * recorded
+        stages.append(Stage("bag of little bootstraps", memory, STAGE_SECONDS + seconds))
         return stages
     elements = resample._TOPPED_UP_BATCH_ELEMENTS if shape.poisson else resample._BATCH_ELEMENTS
     batch = max(1, min(resamples, elements // max(k, 1)))
@@ -176,7 +183,7 @@ def resampling_stages(
     if shape.bins:
         seconds += resamples * GROUPED_MAD_SECONDS * k
     seconds /= busy
-    stages.append(Stage("bootstrap", plan + busy * per_thread + stored, seconds))
+    stages.append(Stage("bootstrap", STAGE_BYTES + plan + busy * per_thread + stored, STAGE_SECONDS + seconds))
     if method == "bca":
         row_bytes = resample.evaluation_row_bytes(k, probabilities, bins=shape.bins)
         evaluation = min(k, max(1, part // row_bytes)) * row_bytes
@@ -184,7 +191,8 @@ def resampling_stages(
         seconds = k * JACKKNIFE_LOOKUP_SECONDS * q
         if shape.bins:
             seconds += k * k * GROUPED_MAD_SECONDS
-        stages.append(Stage("jackknife", plan + stored / 2.0 + 48.0 * k + evaluation + kept, seconds))
+        memory = STAGE_BYTES + plan + stored / 2.0 + 48.0 * k + evaluation + kept
+        stages.append(Stage("jackknife", memory, STAGE_SECONDS + seconds))
     return stages
 
 

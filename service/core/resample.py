@@ -1274,6 +1274,8 @@ def bootstrap(
             for future in futures:  # after an error (a passed deadline), drop the batches not started
                 future.cancel()
     replicates = {name: np.concatenate([out[name] for out in outputs]) for name in outputs[0]}
+    # The threads' scratch buffers (a batch's draws each) go before the jackknife runs.
+    del own, outputs
 
     jackknife = jackknife_weights = None
     if options.method == "bca":
