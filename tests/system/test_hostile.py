@@ -371,6 +371,9 @@ def _verdict(case: Case) -> tuple[list[str], str]:
                           f"of {case.live_probes} probes: {case.live_failures[:5]}")
     fives = [f"{label}: {answer.status}" for label, answer in case.answers
              if answer.status is not None and answer.status >= 500]
+    for _, answer in case.answers:  # the request line is written just after the response is sent
+        if answer.status is not None:
+            _wait_for_request_line(server, case.log_offset, answer.request_id, timeout=5)
     logged = [line for line in _log_lines(server, case.log_offset)
               if line.get("logger") == "service.requests" and int(line.get("status", 0)) >= 500]
     if fives or logged:
