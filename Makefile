@@ -19,6 +19,11 @@ serve: $(STAMP)
 test: $(STAMP)
 	$(PY) -m pytest
 
+# The hostile-input suite alone (also part of `make test`): one line per case with statuses and peak RSS.
+.PHONY: hostile
+hostile: $(STAMP)
+	$(PY) -m pytest tests/system/test_hostile.py -rA -s
+
 bench: $(STAMP)
 	$(PY) tests/benchmarks/run.py
 
