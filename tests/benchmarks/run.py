@@ -14,6 +14,7 @@ import os
 os.environ.setdefault("OPENBLAS_NUM_THREADS", "1")
 
 import sys  # noqa: E402
+from pathlib import Path  # noqa: E402
 import time  # noqa: E402
 from collections.abc import Callable  # noqa: E402
 
@@ -280,7 +281,16 @@ def bench_transport(size: str = "1e6") -> None:
     transport.main(int(float(size)))
 
 
+def bench_cost() -> None:
+    """The cost model beside measured peaks and times (tests/benchmarks/cost.py)."""
+    import subprocess
+
+    print("\n== cost: the per-request plan beside measured memory and time ==")
+    subprocess.run([sys.executable, str(Path(__file__).with_name("cost.py"))], check=True)
+
+
 SECTIONS = {
+    "cost": bench_cost,
     "moments": bench_moments,
     "tables": bench_tables,
     "intervals": bench_intervals,
