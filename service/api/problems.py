@@ -3,7 +3,7 @@
     DescriptorError (core)       mapped here by class:
     ├── UncomputableInput  -> 422 uncomputable-input
     └── LimitExceeded      -> 422 limit-exceeded
-    ApiProblem             -> the status of its slug (400, 406, 413, 415, ...)
+    ApiProblem             -> the status of its slug (400 invalid-header, 401, 404, 406, 413, 415, ...)
     msgspec errors         -> 400 invalid-body (DecodeError: unparseable; ValidationError: schema)
     litestar HTTPException -> its own status (404, 405, 413 from the body-size limit, ...)
     anything else          -> 500 internal-error, with no trace or path in the body
@@ -29,6 +29,7 @@ _TYPE_PREFIX = "urn:tailgauge:problem:"
 # slug -> (status, title). Slugs are part of the API: never rename one.
 PROBLEM_TYPES: dict[str, tuple[int, str]] = {
     "invalid-body": (400, "The request body is not valid"),
+    "invalid-header": (400, "A request header is not valid"),
     "unauthorized": (401, "Authentication is required"),
     "not-found": (404, "No such resource"),
     "method-not-allowed": (405, "Method not allowed"),
@@ -39,7 +40,10 @@ PROBLEM_TYPES: dict[str, tuple[int, str]] = {
     "limit-exceeded": (422, "The request exceeds a configured limit"),
     "internal-error": (500, "Internal error"),
 }
-_SLUG_BY_STATUS = {status: slug for slug, (status, _) in PROBLEM_TYPES.items()}
+# For litestar's own exceptions, which carry only a status: the first slug of each status.
+_SLUG_BY_STATUS: dict[int, str] = {}
+for _slug, (_status, _) in PROBLEM_TYPES.items():
+    _SLUG_BY_STATUS.setdefault(_status, _slug)
 _LOCATION = re.compile(r"^(?P<message>.*?) - at `(?P<path>\$[^`]*)`$", re.DOTALL)
 _NAMED_FIELD = re.compile(r"^Object (?:contains unknown|missing required) field `(?P<field>[^`]*)`")
 # The bounds of schemas.Finite, as msgspec words a NaN or an infinity that breaks them.
@@ -207,7 +211,9 @@ def handle_http_exception(request: Request, exc: HTTPException) -> Response:
         slug = "internal-error" if exc.status_code >= 500 else "invalid-body"
     detail = exc.detail if isinstance(exc.detail, str) and exc.detail else PROBLEM_TYPES[slug][1]
     errors = []
-    if slug == "body-too-large":
+    if slug == "not-found":
+        errors = [ProblemLocation(path="path", message="no resource at this path")]
+    elif slug == "body-too-large":
         # litestar's body-size limit (request_max_body_size): the offending field is the whole body.
         limit = request.app.state.settings.max_body_bytes
         detail = f"the request body is larger than this server's limit of {limit} bytes"

@@ -100,10 +100,10 @@ def clear_draining():
 
 def test_readiness_turns_false_while_draining(make_client, clear_draining):
     client = make_client(request_log=False)
-    assert client.get("/health/ready").json() == {"status": "ok"}
+    assert client.get("/health/ready").json() == {"status": "ok", "notes": []}
     draining.set()
     response = client.get("/health/ready")
-    assert response.status_code == 503 and response.json() == {"status": "draining"}
+    assert response.status_code == 503 and response.json() == {"status": "draining", "notes": []}
     assert client.get("/health/live").status_code == 200
 
 
