@@ -45,18 +45,19 @@ def _require_token(connection: ASGIConnection, _: BaseRouteHandler) -> None:
     path = connection.url.path
     if path.startswith(_OPEN_PREFIXES) or (path == "/metrics" and not settings.metrics_require_token):
         return
-    # Two Authorization headers are refused whether or not tokens are configured: which one a
-    # proxy or this server reads is a guess, and the answer must not depend on configuration.
-    presented_headers = connection.headers.getall("authorization", [])
-    if len(presented_headers) > 1:
+    # Two Authorization headers (or two credentials in one, as a proxy may join them with a comma;
+    # no token contains one) are refused whether or not tokens are configured: which one counts
+    # would be a guess, and the answer must not depend on configuration.
+    credentials = [part for value in connection.headers.getall("authorization", []) for part in value.split(",")]
+    if len(credentials) > 1:
         raise ApiProblem(
             "invalid-header",
-            f"send one Authorization header (got {len(presented_headers)})",
+            f"send one Authorization header with one credential (got {len(credentials)})",
             [ProblemLocation(path="header.authorization", message="must appear at most once")],
         )
     if not settings.api_tokens:
         return
-    scheme, _, presented = (presented_headers[0] if presented_headers else "").partition(" ")
+    scheme, _, presented = (credentials[0] if credentials else "").partition(" ")
     if scheme.lower() == "bearer" and presented and token_matches(presented.strip(), settings.api_tokens):
         return
     challenge = 'Bearer realm="tailgauge"'
