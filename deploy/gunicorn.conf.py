@@ -23,8 +23,26 @@ def _cpu_count() -> int:
 # worker imports it, after this file has run in the master.
 os.environ.setdefault("OPENBLAS_NUM_THREADS", "1")
 
+def _worker_count() -> int:
+    """WEB_CONCURRENCY as a whole number >= 1, else the CPU count; anything else stops the start.
+
+    gunicorn itself starts with 0 or a negative count and then serves nothing, forever.
+    """
+    raw = os.environ.get("WEB_CONCURRENCY")
+    if raw is None:
+        return _cpu_count()
+    try:
+        count = int(raw.strip())
+    except ValueError:
+        count = 0
+    if count < 1:
+        # SystemExit, not an exception: gunicorn prints its message and exits 1, with no traceback.
+        raise SystemExit(f"WEB_CONCURRENCY must be a whole number of workers, 1 or more (got {raw!r})")
+    return count
+
+
 bind = os.environ.get("BIND", "127.0.0.1:8000")
-workers = int(os.environ.get("WEB_CONCURRENCY", _cpu_count()))
+workers = _worker_count()
 # uvicorn_worker.UvicornWorker, plus readiness that answers 503 while the worker drains.
 worker_class = "service.worker.Worker"
 # A request may compute for a while; the per-request budget lives in the app.
@@ -68,17 +86,30 @@ def on_starting(server):
         path = os.path.join(base, f"tailgauge-metrics-{os.getpid()}")
         _created_metrics_dir.append(path)
     os.makedirs(path, exist_ok=True)
-    # Only prometheus-client's own files: a directory given by the operator may hold others.
+    # Only prometheus-client's files and our unfinished archives: a directory given by the
+    # operator may hold others.
     for name in os.listdir(path):
-        if name.endswith(".db"):
+        if name.endswith((".db", ".db.partial")):
             os.remove(os.path.join(path, name))
     os.environ["PROMETHEUS_MULTIPROC_DIR"] = path
 
 
 def child_exit(server, worker):
+    """Fold the dead worker's counters into the archive files (totals never drop), then drop its files.
+
+    Why fold rather than delete: see service/metric_files.py. Nothing here may stop the master:
+    on a full disk the dead worker's files stay, still counted, and the failure is logged.
+    """
     from prometheus_client import multiprocess
 
-    multiprocess.mark_process_dead(worker.pid)
+    from service import metric_files
+
+    directory = os.environ["PROMETHEUS_MULTIPROC_DIR"]
+    try:
+        multiprocess.mark_process_dead(worker.pid, directory)
+        metric_files.fold_dead_worker(directory, worker.pid)
+    except Exception as error:  # noqa: BLE001 - the master must outlive any metrics trouble
+        server.log.warning("metrics of dead worker %s not folded into the archive: %s", worker.pid, error)
 
 
 def on_exit(server):

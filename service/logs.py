@@ -7,11 +7,21 @@ from __future__ import annotations
 
 import json
 import logging
+import re
 import sys
 import time
 
 # Attributes every LogRecord has; anything else passed in ``extra=`` becomes a field of the line.
 _STANDARD = set(vars(logging.LogRecord("", 0, "", 0, "", None, None))) | {"message", "asctime", "taskName"}
+# Characters json.dumps(ensure_ascii=False) leaves raw that some log tools treat as line breaks or
+# that no terminal should receive: DEL and the C1 controls (NEL, U+0085, among them), the Unicode
+# line and paragraph separators, and lone surrogates (which cannot even be written as UTF-8).
+# They can only occur inside JSON strings, where a \uXXXX escape means the same character.
+_UNSAFE = re.compile("[\x7f-\x9f\u2028\u2029\ud800-\udfff]")
+
+
+def _escape(match: re.Match) -> str:
+    return f"\\u{ord(match[0]):04x}"
 
 
 class JsonFormatter(logging.Formatter):
@@ -30,7 +40,8 @@ class JsonFormatter(logging.Formatter):
                 line[key] = value
         if record.exc_info:
             line["exception"] = self.formatException(record.exc_info)
-        return json.dumps(line, default=str, ensure_ascii=False)
+        # json.dumps escapes the C0 controls (a path's newline or NUL) itself; _UNSAFE the rest.
+        return _UNSAFE.sub(_escape, json.dumps(line, default=str, ensure_ascii=False))
 
 
 class _StderrHandler(logging.StreamHandler):

@@ -13,7 +13,7 @@ from litestar.handlers.base import BaseRouteHandler
 
 from service import logs
 from service.api import openapi, problems, routes
-from service.api.docs import assets_router, schema_page
+from service.api.docs import asset, schema_page
 from service.api.observe import REQUEST_ID_HEADER, observe
 from service.api.problems import ApiProblem
 from service.api.schemas import ProblemLocation
@@ -40,12 +40,24 @@ def token_matches(presented: str, tokens: tuple[str, ...]) -> bool:
 
 def _require_token(connection: ASGIConnection, _: BaseRouteHandler) -> None:
     settings: Settings = connection.app.state.settings
-    if not settings.api_tokens or connection.scope.get("method") == "OPTIONS":
+    if connection.scope.get("method") == "OPTIONS":
         return
     path = connection.url.path
     if path.startswith(_OPEN_PREFIXES) or (path == "/metrics" and not settings.metrics_require_token):
         return
-    scheme, _, presented = connection.headers.get("authorization", "").partition(" ")
+    # Two Authorization headers (or two credentials in one, as a proxy may join them with a comma;
+    # no token contains one) are refused whether or not tokens are configured: which one counts
+    # would be a guess, and the answer must not depend on configuration.
+    credentials = [part for value in connection.headers.getall("authorization", []) for part in value.split(",")]
+    if len(credentials) > 1:
+        raise ApiProblem(
+            "invalid-header",
+            f"send one Authorization header with one credential (got {len(credentials)})",
+            [ProblemLocation(path="header.authorization", message="must appear at most once")],
+        )
+    if not settings.api_tokens:
+        return
+    scheme, _, presented = (credentials[0] if credentials else "").partition(" ")
     if scheme.lower() == "bearer" and presented and token_matches(presented.strip(), settings.api_tokens):
         return
     challenge = 'Bearer realm="tailgauge"'
@@ -61,14 +73,37 @@ def _require_token(connection: ASGIConnection, _: BaseRouteHandler) -> None:
     )
 
 
+def _without_body(send):
+    """``send`` for a HEAD request: the GET answer's status and headers (Content-Length included), no body."""
+
+    async def send_head(message) -> None:
+        if message["type"] in ("http.response.body", "http.response.pathsend"):
+            more = message.get("more_body", False) if message["type"] == "http.response.body" else False
+            message = {"type": "http.response.body", "body": b"", "more_body": more}
+        await send(message)
+
+    return send_head
+
+
 class _ObservedLitestar(Litestar):
-    """Litestar with request ids, metrics and the request log wrapped around every request."""
+    """Litestar with request ids, metrics and the request log wrapped around every request.
+
+    HEAD is answered here for every GET route, as RFC 9110 (section 9.3.2) asks: the request is
+    routed as a GET and the body is dropped, so status and headers are the GET's. Every GET
+    handler is free of side effects, so running it for a HEAD changes nothing.
+    """
 
     async def __call__(self, scope, receive, send) -> None:
         if scope["type"] != "http":
             await super().__call__(scope, receive, send)
             return
-        await observe(scope, receive, send, super().__call__, log=self.state.settings.request_log)
+        await observe(scope, receive, send, self._route, log=self.state.settings.request_log)
+
+    async def _route(self, scope, receive, send) -> None:
+        if scope["method"] == "HEAD":
+            scope["method"] = "GET"  # in place: litestar records the matched route on this scope
+            send = _without_body(send)
+        await super().__call__(scope, receive, send)
 
 
 def create_app(settings: Settings | None = None) -> Litestar:
@@ -99,7 +134,7 @@ def create_app(settings: Settings | None = None) -> Litestar:
             *routes.METRICS_HANDLERS,
             openapi_document,
             schema_page,
-            assets_router,
+            asset,
         ],
         guards=[_require_token],
         exception_handlers={

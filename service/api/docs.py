@@ -2,9 +2,15 @@
 
 from __future__ import annotations
 
+import os
+
 from litestar import Response, get
-from litestar.static_files import create_static_files_router
+from litestar.params import FromPath
+from litestar.response import File
 from swagger_ui_bundle import swagger_ui_path
+
+from service.api.problems import ApiProblem
+from service.api.schemas import ProblemLocation
 
 ASSETS = "/docs/assets"
 
@@ -39,6 +45,21 @@ def schema_page() -> Response[bytes]:
     return Response(_PAGE, media_type="text/html")
 
 
-assets_router = create_static_files_router(
-    path=ASSETS, directories=[swagger_ui_path], include_in_schema=False
-)
+# The bundle's files by name, listed once: a request names one of them or gets a 404, so no part
+# of a URL ever reaches the filesystem (a NUL, "..", or a name longer than the system allows
+# used to surface as a 500 from the path lookup).
+_BUNDLE = {
+    entry.name: entry.path for entry in os.scandir(swagger_ui_path) if entry.is_file(follow_symlinks=False)
+}
+
+
+@get(f"{ASSETS}/{{name:str}}", include_in_schema=False, sync_to_thread=False)
+def asset(name: FromPath[str]) -> File:
+    path = _BUNDLE.get(name)
+    if path is None:
+        raise ApiProblem(
+            "not-found",
+            "no such file among the schema page's assets",
+            [ProblemLocation(path="path", message="not a file of the schema page's bundle")],
+        )
+    return File(path, filename=name, content_disposition_type="inline")

@@ -1,8 +1,8 @@
 """Media types: JSON and MessagePack bodies in (by Content-Type) and out (by Accept).
 
 One ``Codec`` per format holds cached msgspec decoders and its encoder; handlers ask for the
-request's codec (415 when the body's type is not served) and the answer's codec (406 when the
-Accept header excludes both). Problem responses follow the answer's format where it can be
+request's codec (415 when the body's type or content coding is not served) and the answer's
+codec (406 when the Accept header excludes both, quality values honoured). Problem responses follow the answer's format where it can be
 known, JSON otherwise.
 """
 
@@ -51,9 +51,12 @@ _OFFERED = [JSON, *MSGPACK_TYPES]
 class MediaTypeError(Exception):
     """The body's media type is not served (415) or no served type is acceptable (406)."""
 
-    def __init__(self, status: int, detail: str, header: str, message: str) -> None:
+    def __init__(
+        self, status: int, detail: str, header: str, message: str, headers: dict[str, str] | None = None
+    ) -> None:
         super().__init__(detail)
         self.status, self.detail, self.header, self.message = status, detail, header, message
+        self.headers = headers
 
 
 def body_codec(request: Request) -> Codec:
@@ -70,31 +73,111 @@ def body_codec(request: Request) -> Codec:
     return codec
 
 
+def _quality(value: str) -> float | None:
+    """An RFC 9110 qvalue, from "0" to "1" (more than three decimals tolerated), or None when malformed."""
+    try:
+        quality = float(value)
+    except ValueError:
+        return None
+    return quality if 0.0 <= quality <= 1.0 else None
+
+
+def _ranges(accept: str) -> list[tuple[str, str, float]]:
+    """The media ranges of an Accept header as (type, subtype, quality); malformed ranges are skipped."""
+    ranges = []
+    for part in accept.split(","):
+        media, *parameters = part.split(";")
+        kind, slash, subtype = media.strip().lower().partition("/")
+        if not slash or not kind or not subtype or (kind == "*" and subtype != "*"):
+            continue
+        quality: float | None = 1.0
+        for parameter in parameters:
+            name, _, value = parameter.partition("=")
+            if name.strip().lower() == "q":
+                quality = _quality(value.strip())
+        if quality is not None:
+            ranges.append((kind, subtype, quality))
+    return ranges
+
+
+def negotiate(accept: str, offered: list[str]) -> str | None:
+    """The offered media type the Accept header prefers, or None when it finds none acceptable.
+
+    RFC 9110, section 12.5.1: each offer takes the quality of the most specific range matching it
+    (``type/subtype`` over ``type/*`` over ``*/*``), so ``*/*;q=0`` or ``application/json;q=0``
+    refuses a type rather than being ignored. Ties go to the more specific match, then to the
+    earlier offer (JSON first).
+    """
+    ranges = _ranges(accept)
+    best, best_key = None, (0.0, -1)
+    for offer in offered:
+        kind, _, subtype = offer.partition("/")
+        match = (-1, 0.0)  # (specificity, quality) of the most specific matching range
+        for range_kind, range_subtype, quality in ranges:
+            if range_kind == kind and range_subtype == subtype:
+                specificity = 2
+            elif range_kind == kind and range_subtype == "*":
+                specificity = 1
+            elif range_kind == "*":
+                specificity = 0
+            else:
+                continue
+            if specificity > match[0]:
+                match = (specificity, quality)
+        key = (match[1], match[0])
+        if match[1] > 0 and key > best_key:
+            best, best_key = offer, key
+    return best
+
+
 def answer_codec(request: Request) -> tuple[Codec, str]:
     """The codec and exact media type to answer with; JSON when the client states no preference."""
-    if "accept" not in request.headers:
+    accept = ", ".join(request.headers.getall("accept", []))
+    if not accept:
         return JSON_CODEC, JSON
-    chosen = request.accept.best_match(_OFFERED)
+    chosen = negotiate(accept, _OFFERED)
     if chosen is None:
         raise MediaTypeError(
             406,
             f"this endpoint answers with {JSON} or {MSGPACK}; the Accept header excludes both",
             "header.accept",
-            f"accept {JSON} or {MSGPACK}",
+            f"accept {JSON} or {MSGPACK} (with a quality above 0)",
         )
-    # best_match answers with one of the offers (the first one for a wildcard).
     return _BY_MEDIA_TYPE[chosen], chosen
 
 
 def problem_codec(request: Request) -> Codec:
     """The format of an error response: MessagePack only when the client prefers it to JSON."""
     try:
-        if "accept" not in request.headers:
+        accept = ", ".join(request.headers.getall("accept", []))
+        if not accept:
             return JSON_CODEC
-        chosen = request.accept.best_match([PROBLEM_JSON, JSON, PROBLEM_MSGPACK, *MSGPACK_TYPES])
+        chosen = negotiate(accept, [PROBLEM_JSON, JSON, PROBLEM_MSGPACK, *MSGPACK_TYPES])
     except Exception:  # a malformed Accept header must not turn an error into a crash
         return JSON_CODEC
     return MSGPACK_CODEC if chosen in (PROBLEM_MSGPACK, *MSGPACK_TYPES) else JSON_CODEC
+
+
+def check_content_encoding(request: Request) -> None:
+    """Refuse (415) a body in any content coding but identity: it would be read as if plain.
+
+    RFC 9110, section 15.5.16: 415 also answers a Content-Encoding the server does not accept.
+    """
+    codings = [
+        coding.strip().lower()
+        for value in request.headers.getall("content-encoding", [])
+        for coding in value.split(",")
+        if coding.strip()
+    ]
+    refused = [coding for coding in codings if coding != "identity"]
+    if refused:
+        raise MediaTypeError(
+            415,
+            f"send the request body without a content coding (got Content-Encoding: {', '.join(refused)})",
+            "header.content-encoding",
+            "only identity (no Content-Encoding) is accepted",
+            headers={"Accept-Encoding": "identity"},
+        )
 
 
 __all__ = [
@@ -109,5 +192,7 @@ __all__ = [
     "MediaTypeError",
     "answer_codec",
     "body_codec",
+    "check_content_encoding",
+    "negotiate",
     "problem_codec",
 ]

@@ -2,7 +2,8 @@
 
 With ``PROMETHEUS_MULTIPROC_DIR`` set before this module is first imported (deploy/gunicorn.conf.py
 sets it), every worker writes its values to files there and ``exposition()`` adds them up, so a
-scrape of any worker sees the whole server.
+scrape of any worker sees the whole server. A full or unwritable directory never crashes a
+worker: see service/metric_files.py for how the metrics degrade instead.
 """
 
 from __future__ import annotations
@@ -10,9 +11,13 @@ from __future__ import annotations
 import os
 
 from prometheus_client import CONTENT_TYPE_LATEST, REGISTRY, CollectorRegistry, Counter, Histogram, generate_latest
-from prometheus_client import multiprocess
+
+from service import metric_files
 
 CONTENT_TYPE = CONTENT_TYPE_LATEST
+
+# Before any metric below exists: their series are created through the guarded value class.
+metric_files.install()
 
 REQUESTS = Counter(
     "tailgauge_http_requests_total",
@@ -44,9 +49,10 @@ BUDGET_REJECTIONS = Counter(
 
 def exposition() -> bytes:
     """The text exposition format of every metric, summed over worker processes when multiprocess."""
-    if os.environ.get("PROMETHEUS_MULTIPROC_DIR"):
+    directory = os.environ.get("PROMETHEUS_MULTIPROC_DIR")
+    if directory:
         registry = CollectorRegistry()
-        multiprocess.MultiProcessCollector(registry)
+        registry.register(metric_files.DirectoryCollector(directory))
         return generate_latest(registry)
     return generate_latest(REGISTRY)
 

@@ -159,7 +159,8 @@ OPERATIONS = (
         operation_id="metrics",
         summary="Prometheus metrics",
         description=(
-            "Request counts and latencies by route and status, values per request, resamples computed "
+            "Request counts and latencies by route and status (499: the client hung up before its "
+            "answer was complete), values per request, resamples computed "
             "and budget rejections, summed over all workers of the server. Asks for a token only when "
             "TAILGAUGE_METRICS_REQUIRE_TOKEN is set."
         ),
@@ -186,9 +187,13 @@ OPERATIONS = (
         path="/health/ready",
         operation_id="ready",
         summary="Readiness",
-        description="200 while this worker accepts new work; 503 with status draining once it is stopping.",
+        description=(
+            "200 while this worker accepts new work; 503 with status draining once it is stopping. "
+            "notes lists what works less well in this worker while it serves, e.g. metrics it cannot "
+            "export because their directory is full."
+        ),
         request=None,
-        response=schemas.Health,
+        response=schemas.Readiness,
         problems=(),
         tag="health",
         protected=False,

@@ -13,6 +13,7 @@ from service.api import compute, media, metrics, schemas
 from service.api.media import MediaTypeError
 from service.api.problems import ApiProblem
 from service.api.schemas import ProblemLocation
+from service import metric_files
 from service.core import catalog
 from service.lifecycle import draining
 
@@ -21,7 +22,10 @@ _STATUS_SLUG = {415: "unsupported-media-type", 406: "not-acceptable"}
 
 def _problem(error: MediaTypeError) -> ApiProblem:
     return ApiProblem(
-        _STATUS_SLUG[error.status], error.detail, [ProblemLocation(path=error.header, message=error.message)]
+        _STATUS_SLUG[error.status],
+        error.detail,
+        [ProblemLocation(path=error.header, message=error.message)],
+        headers=error.headers,
     )
 
 
@@ -34,6 +38,7 @@ def _answer(request: Request) -> tuple[media.Codec, str]:
 
 async def _compute(request: Request, work, endpoint: str) -> Response[bytes]:
     try:
+        media.check_content_encoding(request)
         body_codec = media.body_codec(request)
     except MediaTypeError as error:
         raise _problem(error) from None
@@ -83,9 +88,12 @@ def live() -> Response[bytes]:
 
 @get("/health/ready", include_in_schema=False, sync_to_thread=False)
 def ready() -> Response[bytes]:
+    # A note says what works less well in this worker without making it unready (it still serves).
+    notes = [note for note in (metric_files.degradation(),) if note]
     if draining.is_set():
-        return Response(b'{"status":"draining"}', status_code=503, media_type=media.JSON)
-    return Response(b'{"status":"ok"}', media_type=media.JSON)
+        body = schemas.Readiness(status="draining", notes=notes)
+        return Response(msgspec.json.encode(body), status_code=503, media_type=media.JSON)
+    return Response(msgspec.json.encode(schemas.Readiness(status="ok", notes=notes)), media_type=media.JSON)
 
 
 @get("/metrics", include_in_schema=False, sync_to_thread=False)

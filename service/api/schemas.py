@@ -515,6 +515,13 @@ class Health(Message):
     status: Literal["ok", "draining"]
 
 
+class Readiness(Health):
+    notes: Annotated[
+        list[str],
+        Meta(description="What works less well in this worker while it still serves (e.g. metrics not exported)."),
+    ] = msgspec.field(default_factory=list)
+
+
 class CatalogEntry(Message):
     name: Annotated[str, Meta(description="Response name (member.name for non-descriptor results).")]
     member: Annotated[str, Meta(description="Where it appears in a descriptor response.")]

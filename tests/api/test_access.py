@@ -113,3 +113,20 @@ def test_an_internal_error_shows_no_trace_or_path(make_client, monkeypatch):
     text = response.text
     assert "Traceback" not in text and __file__ not in text and "secret" not in text and ".py" not in text
     assert response.json()["type"] == "urn:tailgauge:problem:internal-error"
+
+
+# Regression: with two Authorization headers the first one won silently.
+@pytest.mark.parametrize("tokens", [(), (TOKEN,)])
+@pytest.mark.parametrize("second", [TOKEN, OTHER])
+def test_two_authorization_headers_are_a_400_naming_the_header(make_client, tokens, second):
+    client = make_client(request_log=False, api_tokens=tokens)
+    headers = [("content-type", "application/json"), ("authorization", f"Bearer {TOKEN}"),
+               ("authorization", f"Bearer {second}")]
+    for response in (client.post(SAMPLES, content=BODY, headers=headers), client.get("/v1/catalog", headers=headers)):
+        assert response.status_code == 400
+        problem = response.json()
+        assert problem["type"] == "urn:tailgauge:problem:invalid-header"
+        assert problem["errors"] == [{"path": "header.authorization", "message": "must appear at most once"}]
+        assert TOKEN not in response.text
+    # Open routes never read the header.
+    assert client.get("/health/live", headers=headers).status_code == 200

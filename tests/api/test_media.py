@@ -194,3 +194,63 @@ def test_openapi_documents_both_media_types(client):
             "application/problem+json",
             "application/problem+msgpack",
         }
+
+
+# Regression: litestar's best_match ignores q=0, so "application/json;q=0" was answered in JSON.
+@pytest.mark.parametrize(
+    "accept",
+    ["application/json;q=0", "*/*;q=0", "application/json;q=0, application/*;q=0", "application/*;q=0",
+     "application/json;q=0, */*;q=0", "application/json; q=0.0, text/html"],
+)
+def test_a_quality_of_zero_refuses_a_type_406(make_client, accept):
+    client = make_client(request_log=False)
+    for response in (_send(client, SAMPLES, BODIES[SAMPLES], "application/json", accept=accept),
+                     client.get("/v1/catalog", headers={"accept": accept})):
+        assert response.status_code == 406, (accept, response.headers["content-type"])
+        assert response.headers["content-type"] == "application/problem+json"
+        assert response.json()["errors"][0]["path"] == "header.accept"
+
+
+@pytest.mark.parametrize(
+    ("accept", "answered"),
+    [
+        ("application/json;q=0, */*", MSGPACK),  # the specific q=0 wins over the wildcard
+        ("*/*;q=0, application/msgpack", MSGPACK),
+        ("application/msgpack;q=0, application/*;q=0.3", "application/json"),
+        ("application/json;q=0.2, application/x-msgpack;q=0.7", "application/x-msgpack"),
+        ("application/msgpack, */*", MSGPACK),  # equal quality: the more specific range
+        ("text/html, */*;q=0.1", "application/json"),
+        ("application/json;q=0.5, application/json;q=bad", "application/json"),
+    ],
+)
+def test_quality_values_choose_the_answer(make_client, accept, answered):
+    from service.api.media import negotiate
+
+    client = make_client(request_log=False)
+    response = client.get("/v1/catalog", headers={"accept": accept})
+    assert response.status_code == 200 and response.headers["content-type"].startswith(answered), accept
+    assert negotiate(accept, ["application/json", MSGPACK, "application/x-msgpack"]) == answered
+
+
+# Regression: a gzip body was read as if it were plain JSON.
+@pytest.mark.parametrize("coding", ["gzip", "deflate", "br", "GZIP", "identity, gzip", "x-custom"])
+@pytest.mark.parametrize("path", list(BODIES))
+def test_a_content_coding_other_than_identity_is_415(make_client, coding, path):
+    import gzip
+
+    client = make_client(request_log=False)
+    content = gzip.compress(json.dumps(BODIES[path]).encode())
+    response = client.post(path, content=content,
+                           headers={"content-type": "application/json", "content-encoding": coding})
+    assert response.status_code == 415
+    problem = response.json()
+    assert problem["type"] == "urn:tailgauge:problem:unsupported-media-type"
+    assert problem["errors"][0]["path"] == "header.content-encoding"
+    assert response.headers["accept-encoding"] == "identity"
+
+
+def test_identity_content_coding_is_accepted(make_client):
+    client = make_client(request_log=False)
+    response = client.post(SAMPLES, content=json.dumps(BODIES[SAMPLES]),
+                           headers={"content-type": "application/json", "content-encoding": "identity"})
+    assert response.status_code == 200

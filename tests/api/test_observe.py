@@ -100,10 +100,10 @@ def clear_draining():
 
 def test_readiness_turns_false_while_draining(make_client, clear_draining):
     client = make_client(request_log=False)
-    assert client.get("/health/ready").json() == {"status": "ok"}
+    assert client.get("/health/ready").json() == {"status": "ok", "notes": []}
     draining.set()
     response = client.get("/health/ready")
-    assert response.status_code == 503 and response.json() == {"status": "draining"}
+    assert response.status_code == 503 and response.json() == {"status": "draining", "notes": []}
     assert client.get("/health/live").status_code == 200
 
 
@@ -115,3 +115,90 @@ def test_the_worker_marks_draining_when_told_to_exit(clear_draining):
     server = DrainingServer(Config(app=lambda *a: None))
     server.handle_exit(signal.SIGTERM, None)
     assert draining.is_set() and server.should_exit
+
+
+def _call(app, method: str, path: str, messages: list[dict], headers=()) -> list[dict]:
+    """Drive the ASGI app directly: ``messages`` are what the client sends, the answer is what it gets."""
+    import anyio
+
+    sent: list[dict] = []
+    incoming = list(messages)
+
+    async def receive():
+        if incoming:
+            return incoming.pop(0)
+        await anyio.sleep(3600)  # the client sends nothing more
+
+    async def send(message):
+        sent.append(message)
+
+    scope = {"type": "http", "asgi": {"version": "3.0"}, "http_version": "1.1", "method": method, "scheme": "http",
+             "path": path, "raw_path": path.encode(), "query_string": b"", "root_path": "",
+             "headers": [(b"host", b"test"), *headers], "client": ("127.0.0.1", 1), "server": ("127.0.0.1", 80)}
+    anyio.run(app, scope, receive, send)
+    return sent
+
+
+# Regression: a client that hung up mid-body was counted and logged as a 500.
+def test_a_client_hanging_up_mid_body_is_counted_and_logged_as_499(make_client, caplog):
+    client = make_client(request_log=True)
+    labels = {"route": SAMPLES, "method": "POST"}
+    before = {status: _sample("tailgauge_http_requests_total", **labels, status=status) for status in ("499", "500")}
+    headers = [(b"content-type", b"application/json"), (b"content-length", b"1000")]
+    with caplog.at_level("INFO", logger="service.requests"):
+        _call(client.app, "POST", SAMPLES, [{"type": "http.request", "body": b'{"values": [1, 2', "more_body": True},
+                                            {"type": "http.disconnect"}], headers)
+    assert _sample("tailgauge_http_requests_total", **labels, status="499") == before["499"] + 1
+    assert _sample("tailgauge_http_requests_total", **labels, status="500") == before["500"]
+    (line,) = [record for record in caplog.records if record.name == "service.requests"]
+    assert line.status == 499 and line.route == SAMPLES
+    assert not [record for record in caplog.records if record.levelname in ("ERROR", "CRITICAL")]
+
+
+def test_a_complete_answer_is_not_499_even_if_the_client_leaves_after_it(make_client):
+    client = make_client(request_log=False)
+    labels = {"route": "/health/live", "method": "GET", "status": "200"}
+    before = _sample("tailgauge_http_requests_total", **labels)
+    sent = _call(client.app, "GET", "/health/live", [{"type": "http.request", "body": b""}, {"type": "http.disconnect"}])
+    assert sent[0]["status"] == 200
+    assert _sample("tailgauge_http_requests_total", **labels) == before + 1
+
+
+GET_ROUTES = ["/health/live", "/health/ready", "/metrics", "/openapi.json", "/docs", "/v1/catalog",
+              "/docs/assets/swagger-ui.css"]
+
+
+# Regression: HEAD answered 405 on every GET route but the static assets.
+@pytest.mark.parametrize("path", GET_ROUTES)
+def test_head_answers_every_get_route_with_the_get_headers_and_no_body(make_client, path):
+    client = make_client(request_log=False)
+    got, head = client.get(path), client.head(path)
+    assert got.status_code == head.status_code == 200
+    assert head.content == b""
+    # /metrics grows between the two requests (the GET itself is counted): its length differs.
+    ignored = {"x-request-id", "date"} | ({"content-length"} if path == "/metrics" else set())
+    assert {k: v for k, v in head.headers.items() if k not in ignored} == {
+        k: v for k, v in got.headers.items() if k not in ignored
+    }
+    assert int(head.headers["content-length"]) > 0
+    if path != "/metrics":
+        assert int(head.headers["content-length"]) == len(got.content)
+
+
+def test_head_is_counted_as_head_and_post_routes_still_refuse_it(make_client):
+    client = make_client(request_log=False)
+    labels = {"route": "/v1/catalog", "method": "HEAD", "status": "200"}
+    before = _sample("tailgauge_http_requests_total", **labels)
+    client.head("/v1/catalog")
+    assert _sample("tailgauge_http_requests_total", **labels) == before + 1
+    response = client.head(SAMPLES)
+    assert response.status_code == 405 and "POST" in response.headers["allow"]
+
+
+def test_invented_methods_share_one_label(make_client):
+    client = make_client(request_log=False)
+    before = _sample("tailgauge_http_requests_total", route="unmatched", method="other", status="404")
+    for i in range(5):
+        client.request(f"BREW{i}", "/nowhere")
+    assert _sample("tailgauge_http_requests_total", route="unmatched", method="other", status="404") == before + 5
+    assert _sample("tailgauge_http_requests_total", route="unmatched", method="BREW1", status="404") == 0.0

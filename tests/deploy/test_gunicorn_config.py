@@ -49,3 +49,33 @@ def test_the_app_module_builds_the_app():
     from service import asgi
 
     assert asgi.app is not None
+
+
+# Regression: WEB_CONCURRENCY=0 started a server that never answered.
+def test_zero_workers_stops_the_configuration_with_a_clear_message(monkeypatch):
+    import pytest
+
+    for value in ("0", " 0 ", "-3", "two", "1.5", ""):
+        monkeypatch.setenv("WEB_CONCURRENCY", value)
+        with pytest.raises(SystemExit) as stopped:
+            runpy.run_path(str(CONFIG))
+        assert "WEB_CONCURRENCY must be a whole number of workers, 1 or more" in str(stopped.value.code)
+        assert repr(value) in str(stopped.value.code)
+
+
+def test_gunicorn_refuses_to_start_with_no_workers(tmp_path):
+    import os
+    import subprocess
+    import sys
+
+    from tests.system.server import free_port
+
+    for value in ("0", "-1", "none"):
+        environ = {**os.environ, "WEB_CONCURRENCY": value, "BIND": f"127.0.0.1:{free_port()}",
+                   "PROMETHEUS_MULTIPROC_DIR": str(tmp_path), "HOME": str(tmp_path)}
+        result = subprocess.run([sys.executable, "-m", "gunicorn", "--config", str(CONFIG), "service.asgi:app"],
+                                cwd=CONFIG.parents[1], env=environ, capture_output=True, text=True, timeout=60)
+        assert result.returncode != 0, value
+        assert "Booting worker" not in result.stderr
+        # gunicorn itself refuses a negative or non-integer count before reading this file.
+        assert "WEB_CONCURRENCY" in result.stderr or "must be positive" in result.stderr, result.stderr[-500:]

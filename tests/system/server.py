@@ -104,6 +104,10 @@ class GunicornServer:
     def base_url(self) -> str:
         return f"http://{HOST}:{self.port}"
 
+    def command(self) -> list[str]:
+        """The command that becomes the gunicorn master (a subclass may wrap it; it must exec gunicorn)."""
+        return _gunicorn_command()
+
     def _environment(self) -> dict[str, str]:
         tmp = self.root / "tmp"
         metrics = self.root / "metrics"
@@ -128,7 +132,7 @@ class GunicornServer:
             self.port = free_port()
             with self.log_path.open("ab") as log:
                 self.process = subprocess.Popen(
-                    _gunicorn_command(),
+                    self.command(),
                     cwd=REPO,
                     env=self._environment(),
                     stdin=subprocess.DEVNULL,
