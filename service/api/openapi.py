@@ -75,7 +75,7 @@ OPERATIONS = (
         ),
         request=schemas.SamplesRequest,
         response=schemas.DescriptionResponse,
-        problems=(400, 401, 406, 413, 415, 422),
+        problems=(400, 401, 406, 413, 415, 422, 503),
         tag="descriptors",
     ),
     Operation(
@@ -90,7 +90,7 @@ OPERATIONS = (
         ),
         request=schemas.TableRequest,
         response=schemas.DescriptionResponse,
-        problems=(400, 401, 406, 413, 415, 422),
+        problems=(400, 401, 406, 413, 415, 422, 503),
         tag="descriptors",
     ),
     Operation(
@@ -105,7 +105,7 @@ OPERATIONS = (
         ),
         request=schemas.BinsRequest,
         response=schemas.DescriptionResponse,
-        problems=(400, 401, 406, 413, 415, 422),
+        problems=(400, 401, 406, 413, 415, 422, 503),
         tag="descriptors",
     ),
     Operation(
@@ -122,7 +122,7 @@ OPERATIONS = (
         ),
         request=schemas.MergeRequest,
         response=schemas.MergedDescriptionResponse,
-        problems=(400, 401, 406, 413, 415, 422),
+        problems=(400, 401, 406, 413, 415, 422, 503),
         tag="descriptors",
     ),
     Operation(
@@ -139,7 +139,7 @@ OPERATIONS = (
         ),
         request=schemas.ComparisonRequest,
         response=schemas.ComparisonResponse,
-        problems=(400, 401, 406, 413, 415, 422),
+        problems=(400, 401, 406, 413, 415, 422, 503),
         tag="comparisons",
     ),
     Operation(
@@ -238,6 +238,8 @@ def build_document() -> dict:
             description = "; ".join(titles) + " (RFC 9457 problem details)."
             if status == 401:
                 description += " Only when the server is configured with bearer tokens."
+            if status == 503:
+                description += " The worker's memory is taken by requests in progress; retry after Retry-After."
             responses[str(status)] = {
                 "description": description,
                 "content": _content(problem_ref, (PROBLEM_JSON, PROBLEM_MSGPACK)),
