@@ -14,7 +14,13 @@ from service.core.partial import (
     state_of,
 )
 from service.core.resample import IntervalOptions
-from service.core.sketches import KllSketchContents, SketchUnion, combine_sketches, kll_sketch_bytes, read_kll_sketch
+from service.core.sketches import (
+    KllSketchContents,
+    SketchUnion,
+    combine_sketches,
+    kll_sketch_bytes,
+    read_kll_sketch,
+)
 from service.core.weighted import (
     PROBABILITY_TOLERANCE,
     WeightedData,

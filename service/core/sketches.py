@@ -202,13 +202,13 @@ def read_kll_sketch(blob, path: str = "$") -> KllSketchContents:
     if preamble_ints != expected_preamble or serial_version != expected_version:
         raise _reject(
             path,
-            f"corrupt KLL sketch: preamble ints {preamble_ints} and serial version {serial_version} where a "
-            f"{form} sketch has {expected_preamble} and {expected_version}",
+            f"corrupt KLL sketch: preamble ints {preamble_ints} and serial version {serial_version} where "
+            f"{'an' if empty else 'a'} {form} sketch has {expected_preamble} and {expected_version}",
         )
     sorted_zero = bool(flags & _LEVEL_ZERO_SORTED)
     if empty:
         if size != _HEADER.size:
-            raise _reject(path, f"corrupt KLL sketch: flagged empty, which is {_HEADER.size} bytes, but {size} bytes")
+            raise _reject(path, f"corrupt KLL sketch: flagged empty ({_HEADER.size} bytes), yet {size} bytes")
         nothing = np.empty(0)
         return KllSketchContents(None, k, k, 0, None, None, nothing, nothing, sorted_zero)
     if single:
@@ -230,7 +230,7 @@ def read_kll_sketch(blob, path: str = "$") -> KllSketchContents:
 def _read_multi_item(data: bytes, path: str, k: int, sorted_zero: bool) -> KllSketchContents:
     size = len(data)
     if size < _DATA_START:
-        raise _reject(path, f"truncated KLL sketch: {size} bytes, shorter than its {_DATA_START}-byte preamble")
+        raise _reject(path, f"truncated KLL sketch: {size} bytes, less than its {_DATA_START}-byte preamble")
     n, min_k, num_levels = _FULL_HEADER.unpack_from(data, _HEADER.size)
     if n == 0:
         raise _reject(path, "corrupt KLL sketch: n is 0 but the sketch is not flagged empty")
@@ -258,18 +258,18 @@ def _read_multi_item(data: bytes, path: str, k: int, sorted_zero: bool) -> KllSk
     if len(matches) != 1:
         raise _reject(
             path,
-            f"corrupt KLL sketch: {size} bytes, but its header ({retained} items in {num_levels} levels) makes it "
-            f"{lengths['double']} bytes of doubles or {lengths['float']} bytes of floats",
+            f"corrupt KLL sketch: {size} bytes, but its header ({retained} items in {num_levels} levels) "
+            f"makes it {lengths['double']} bytes of doubles or {lengths['float']} bytes of floats",
         )
     item_type, dtype = matches[0]
     counts = np.diff(offsets)
     if sum(int(c) << h for h, c in enumerate(counts)) != n:
-        raise _reject(path, f"corrupt KLL sketch: the weights of its {retained} items do not add up to n = {n}")
+        raise _reject(path, f"corrupt KLL sketch: the weights of its {retained} items do not sum to n = {n}")
     with np.errstate(invalid="ignore"):  # a float32 signalling NaN warns when widened; rejected below
         values = np.frombuffer(data, dtype, retained + 2, items_start).astype(np.float64)
     low, high, items = float(values[0]), float(values[1]), values[2:]
     if not (math.isfinite(low) and math.isfinite(high) and low <= high):
-        raise _reject(path, f"corrupt KLL sketch: its extremes {low!r} and {high!r} are not finite and ordered")
+        raise _reject(path, f"corrupt KLL sketch: its extremes {low!r} and {high!r} are not finite, ordered")
     if not np.all((items >= low) & (items <= high)):  # also false for NaN
         raise _reject(path, "corrupt KLL sketch: some items are not finite numbers within its extremes")
     # Sorted pairs within a level: level zero only when flagged so, the levels above always.
@@ -339,4 +339,11 @@ def combine_sketches(blobs: Sequence[bytes], path: str = "$.sketches") -> Sketch
     )
 
 
-__all__ = ["DEFAULT_K", "KllSketchContents", "SketchUnion", "combine_sketches", "kll_sketch_bytes", "read_kll_sketch"]
+__all__ = [
+    "DEFAULT_K",
+    "KllSketchContents",
+    "SketchUnion",
+    "combine_sketches",
+    "kll_sketch_bytes",
+    "read_kll_sketch",
+]

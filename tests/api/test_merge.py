@@ -169,9 +169,11 @@ def test_a_sketch_with_a_hostile_level_offset_is_a_located_422(make_client, cut)
     blob = hostile if cut is None else good[:cut]
     client = make_client(request_log=False)
     state = _state_json(partial_state(np.arange(31.0)))
-    response, problem = _post(client, MERGE, {"states": [state], "sketches": [base64.b64encode(blob).decode()]})
+    body = {"states": [state], "sketches": [base64.b64encode(blob).decode()]}
+    response, problem = _post(client, MERGE, body)
     assert response.status_code == 422, problem
     assert [error["path"] for error in problem["errors"]] == ["$.sketches[0]"], problem
     # The same request with the intact sketch is answered.
-    response, answer = _post(client, MERGE, {"states": [state], "sketches": [base64.b64encode(good).decode()]})
+    body = {"states": [state], "sketches": [base64.b64encode(good).decode()]}
+    response, answer = _post(client, MERGE, body)
     assert response.status_code == 200 and answer["sketches"]["n"] == 31, answer

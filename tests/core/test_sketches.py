@@ -280,7 +280,8 @@ def test_a_merged_sketch_with_an_empty_level_zero_keeps_its_weights():
     union = combine_sketches([blob])
     assert union.n == 50_000 and union.cumulative[-1] == 50_000
     inside = np.linspace(0.0, 1.0, 101)[1:-1]
-    np.testing.assert_array_equal(union.quantiles(inside), [into.get_quantile(float(p), True) for p in inside])
+    expected = [into.get_quantile(float(p), True) for p in inside]
+    np.testing.assert_array_equal(union.quantiles(inside), expected)
 
 
 def _full_sketch(levels_at_least: int = 3) -> bytes:
@@ -370,4 +371,5 @@ def test_the_rank_error_is_the_library_formula_of_min_k(k):
     """The static library function of k agrees with a sketch's own error (datasketches 5.2.0)."""
     sketch = datasketches.kll_doubles_sketch(k)
     sketch.update(np.arange(5000.0))
-    assert read_kll_sketch(bytes(sketch.serialize())).normalized_rank_error == sketch.normalized_rank_error(False)
+    contents = read_kll_sketch(bytes(sketch.serialize()))
+    assert contents.normalized_rank_error == sketch.normalized_rank_error(False)

@@ -65,7 +65,8 @@ from service.core.sketches import KllSketchContents, UncomputableInput, read_kll
 
 DECODERS = {"double": datasketches.kll_doubles_sketch, "float": datasketches.kll_floats_sketch}
 BOUNDARY_BYTES = (0x00, 0x01, 0x7F, 0x80, 0xFE, 0xFF)
-BATCH = 200
+PROBE_OUTCOMES = {"ok": "accepted by the native decoder", "raised": "refused by the native decoder",
+                  "crashed": "crashed the native decoder", "hung": "hung the native decoder"}
 CHILD_TIMEOUT = 60.0
 
 
@@ -83,7 +84,8 @@ def _levels(blob: bytes) -> int:
 
 
 def seed_sketches(seed: int, max_exponent: int = 22) -> list[Seed]:
-    """Valid sketches of both item types, from the library: every form and level count up to 2**max_exponent items."""
+    """Valid sketches of both item types, built by the library: every form, and every level count
+    that k = 8 reaches by 2**max_exponent items."""
     rng = np.random.default_rng([seed, 0])
     seeds: list[Seed] = []
 
@@ -149,10 +151,12 @@ def _header_fields(blob: bytes) -> list[tuple[int, int]]:
 def _field_values(rng, original: int, width: int, blob: bytes) -> list[int]:
     top = (1 << (8 * width)) - 1
     sign = 1 << (8 * width - 1)
-    values = [0, 1, 2, top, top - 1, sign, sign - 1, original + 1, original - 1, original ^ (1 << int(rng.integers(8 * width))),
+    flipped = original ^ (1 << int(rng.integers(8 * width)))
+    values = [0, 1, 2, top, top - 1, sign, sign - 1, original + 1, original - 1, flipped,
               int.from_bytes(rng.bytes(width), "little")]
     if width == 4 and len(blob) >= 20:  # level offsets: near the capacity and the other offsets
-        offsets = [int.from_bytes(blob[20 + 4 * i: 24 + 4 * i], "little") for i in range(min(blob[18], (len(blob) - 20) // 4))]
+        present = range(min(blob[18], (len(blob) - 20) // 4))
+        offsets = [int.from_bytes(blob[20 + 4 * i: 24 + 4 * i], "little") for i in present]
         values += offsets + [o + d for o in offsets[-1:] for d in (-2, 2, 8, 1000)] + [0xFFFFFFFF]
     if width == 2:
         values += [7, 8, 65535, original * 2]
@@ -195,7 +199,8 @@ def mutate_once(rng, blob: bytes, seeds: list[Seed]) -> tuple[str, bytes]:
         cut = min(max(cut, 0), size - 1)
         return f"truncate to {cut}", blob[:cut]
     if kind == "extend":
-        extra = int(rng.choice([1, 3, 4, 8, 12, 16, 4 * int(rng.integers(1, 40)), 8 * int(rng.integers(1, 40))]))
+        whole_items = [4 * int(rng.integers(1, 40)), 8 * int(rng.integers(1, 40))]
+        extra = int(rng.choice([1, 3, 4, 8, 12, 16, *whole_items]))
         filler = rng.choice(["zeros", "ones", "random", "copy"])
         tail = {"zeros": bytes(extra), "ones": b"\xff" * extra,
                 "random": rng.bytes(extra), "copy": (blob * (extra // max(size, 1) + 1))[:extra]}[filler]
@@ -267,8 +272,9 @@ def _native_read(item_type: str, blob: bytes):
         weights = np.array([w for _, w in pairs], dtype=np.float64)
         empty = sketch.is_empty()
         cdf = np.array(sketch.get_cdf(np.unique(items).tolist(), True)[:-1]) if items.size else np.empty(0)
-        return ("ok", int(sketch.k), int(sketch.n), empty,
-                None if empty else float(sketch.get_min_value()), None if empty else float(sketch.get_max_value()),
+        low = None if empty else float(sketch.get_min_value())
+        high = None if empty else float(sketch.get_max_value())
+        return ("ok", int(sketch.k), int(sketch.n), empty, low, high,
                 items.tobytes(), weights.tobytes(), cdf.tobytes(), float(sketch.normalized_rank_error(False)))
     except Exception as error:  # noqa: BLE001 - any refusal is a finding, reported by the parent
         return ("raised", f"{type(error).__name__}: {error}")
@@ -408,16 +414,18 @@ class Report:
     def lines(self) -> list[str]:
         lines = [
             f"{self.cases} cases from {self.seeds} seed sketches (up to {self.max_levels} levels) in "
-            f"{self.seconds:.1f} s: {self.accepted} accepted {self.accepted_by_type}, {self.rejected} rejected "
-            "(UncomputableInput)",
+            f"{self.seconds:.1f} s: {self.accepted} accepted {self.accepted_by_type}, "
+            f"{self.rejected} rejected (UncomputableInput)",
             f"parser failures (other exceptions): {len(self.failures)}; native decoder on accepted cases: "
             f"{len(self.crashes)} crashes, {len(self.mismatches)} mismatches; child restarts {self.restarts}",
         ]
         if self.probed:
-            lines.append(f"rejected cases probed with the native decoder: {self.probed}, outcomes {self.probe_outcomes}")
+            lines.append(f"rejected cases probed with the native decoder: {self.probed}, "
+                         f"outcomes {self.probe_outcomes}")
             for reason, count in sorted(self.stricter.items(), key=lambda item: -item[1]):
                 lines.append(f"  rejected by the parser, accepted by the native decoder ({count}): {reason}")
-        for title, entries in (("FAILURE", self.failures), ("CRASH", self.crashes), ("MISMATCH", self.mismatches)):
+        found = (("FAILURE", self.failures), ("CRASH", self.crashes), ("MISMATCH", self.mismatches))
+        for title, entries in found:
             for entry in entries[:20]:
                 lines.append(f"{title}: {entry}")
         return lines
@@ -458,12 +466,12 @@ def run(cases: int, seed: int, workers: int = 2, probe_rejected: float = 0.0, ma
                 problem = compare(contents, answers[index])
                 if problem is not None:
                     entry = f"case {index} [{label}] {problem}: {blob.hex()}"
-                    (report.crashes if answers[index][0] in ("crashed", "hung") else report.mismatches).append(entry)
+                    died = answers[index][0] in ("crashed", "hung")
+                    (report.crashes if died else report.mismatches).append(entry)
             if probes:
-                for index, answer in native.decode([(i, "double", b) for i, (_, b, _) in probes.items()]).items():
-                    outcome = answer[0] if isinstance(answer, tuple) else answer[0][0]
-                    outcome = {"ok": "accepted by the native decoder", "raised": "refused by the native decoder",
-                               "crashed": "crashed the native decoder", "hung": "hung the native decoder"}[outcome]
+                probe_cases = [(i, "double", b) for i, (_, b, _) in probes.items()]
+                for index, answer in native.decode(probe_cases).items():
+                    outcome = PROBE_OUTCOMES[answer[0] if isinstance(answer, tuple) else answer[0][0]]
                     report.probe_outcomes[outcome] = report.probe_outcomes.get(outcome, 0) + 1
                     report.probed += 1
                     if outcome == "accepted by the native decoder":
@@ -482,7 +490,8 @@ def main(argv: list[str] | None = None) -> int:
     parser.add_argument("--seed", type=int, default=1)
     parser.add_argument("--workers", type=int, default=2, help="child processes running the native decoder")
     parser.add_argument("--probe-rejected", type=float, default=0.0,
-                        help="fraction of rejected cases also given to the native decoder (doubles), to count its crashes")
+                        help="fraction of rejected cases also given to the native decoder (doubles), "
+                        "to count its crashes")
     arguments = parser.parse_args(argv)
     report = run(arguments.cases, arguments.seed, arguments.workers, arguments.probe_rejected)
     for line in report.lines():

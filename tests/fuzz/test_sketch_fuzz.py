@@ -1,4 +1,4 @@
-"""A seeded sample of the KLL sketch fuzz run (tests/fuzz/sketch_fuzz.py), and checks that its checks can fail.
+"""A seeded sample of the KLL sketch fuzz run (tests/fuzz/sketch_fuzz.py); its checks shown able to fail.
 
 The long run is ``make fuzz-sketches`` (100,000 cases by default); this sample keeps the parser
 and the harness honest in ``make test``: 2,000 mutated sketches, every accepted one also decoded
