@@ -47,3 +47,12 @@ FUZZ_EXAMPLES ?= 500
 FUZZ_SECONDS ?= 300
 fuzz: $(STAMP)
 	$(PY) -m tests.fuzz.long_run --seed $(FUZZ_SEED) --max-examples $(FUZZ_EXAMPLES) --max-seconds $(FUZZ_SECONDS)
+
+# The KLL sketch parser against the native decoder (child processes): mutated library-built
+# sketches; every accepted case must read the same natively. Not part of `make test` (which
+# runs a 2,000-case sample in tests/fuzz/test_sketch_fuzz.py).
+.PHONY: fuzz-sketches
+SKETCH_CASES ?= 100000
+SKETCH_SEED ?= 1
+fuzz-sketches: $(STAMP)
+	$(PY) -m tests.fuzz.sketch_fuzz --cases $(SKETCH_CASES) --seed $(SKETCH_SEED)

@@ -15,7 +15,13 @@ from service.core.partial import (
     state_of,
 )
 from service.core.resample import IntervalOptions
-from service.core.sketches import SketchUnion, combine_sketches, kll_sketch_bytes
+from service.core.sketches import (
+    KllSketchContents,
+    SketchUnion,
+    combine_sketches,
+    kll_sketch_bytes,
+    read_kll_sketch,
+)
 from service.core.weighted import (
     PROBABILITY_TOLERANCE,
     WeightedData,
@@ -36,6 +42,7 @@ __all__ = [
     "DescriptorError",
     "Estimate",
     "IntervalOptions",
+    "KllSketchContents",
     "LimitExceeded",
     "Location",
     "PartialState",
@@ -59,6 +66,7 @@ __all__ = [
     "merge",
     "merge_states",
     "partial_state",
+    "read_kll_sketch",
     "standardize",
     "state_of",
 ]

@@ -157,3 +157,23 @@ def test_partial_state_of_reliability_weights_is_refused(make_client):
                                                 "options": {"partial_state": True}})
     assert response.status_code == 422
     assert [e["path"] for e in problem["errors"]] == ["$.options.partial_state"]
+
+
+@pytest.mark.parametrize("cut", [None, 20])
+def test_a_sketch_with_a_hostile_level_offset_is_a_located_422(make_client, cut):
+    """Regression: this 176-byte sketch (k = 8, 31 values, 3 levels) with its first level offset set
+    to 0xFFFFFFFF killed a gunicorn worker by SIGSEGV in the native decoder; so did its first 20 bytes."""
+    good = kll_sketch_bytes(np.arange(31.0), k=8)
+    hostile = good[:20] + b"\xff\xff\xff\xff" + good[24:]
+    assert len(hostile) == 176 and hostile[18] == 3
+    blob = hostile if cut is None else good[:cut]
+    client = make_client(request_log=False)
+    state = _state_json(partial_state(np.arange(31.0)))
+    body = {"states": [state], "sketches": [base64.b64encode(blob).decode()]}
+    response, problem = _post(client, MERGE, body)
+    assert response.status_code == 422, problem
+    assert [error["path"] for error in problem["errors"]] == ["$.sketches[0]"], problem
+    # The same request with the intact sketch is answered.
+    body = {"states": [state], "sketches": [base64.b64encode(good).decode()]}
+    response, answer = _post(client, MERGE, body)
+    assert response.status_code == 200 and answer["sketches"]["n"] == 31, answer

@@ -5,8 +5,8 @@ import pathlib
 
 CORE = pathlib.Path(__file__).resolve().parents[2] / "service" / "core"
 ALLOWED_TOP_LEVEL = {"numpy", "scipy", "service", "__future__"}
-# Third-party imports allowed in one module only: the KLL sketches sent by Spark, Druid or Dask
-# jobs are decoded by the library that defines their format.
+# Third-party imports allowed in one module only: sketches.py builds KLL sketches of our own values
+# with the library that defines the format (request bytes are parsed in Python, never by it).
 ALLOWED_IN = {"sketches.py": {"datasketches"}}
 
 
