@@ -187,7 +187,8 @@ def resampling_stages(
     if method == "bca":
         row_bytes = resample.evaluation_row_bytes(k, probabilities, bins=shape.bins)
         evaluation = min(k, max(1, part // row_bytes)) * row_bytes
-        kept = 2.0 * k * recorded
+        # The leave-one-out values of every row (filled part by part), and the part in hand.
+        kept = 1.25 * k * recorded
         seconds = k * JACKKNIFE_LOOKUP_SECONDS * q
         if shape.bins:
             seconds += k * k * GROUPED_MAD_SECONDS

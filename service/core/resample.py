@@ -622,11 +622,18 @@ class _Statistics:
         if rows <= per_part:
             _deadline_check(deadline)
             return self._evaluate(view, probabilities, names)
-        parts = []
+        # Each part's values are copied into arrays of all rows at once: no list of parts is
+        # held beside their concatenation.
+        result: dict[str, np.ndarray] = {}
         for start in range(0, rows, per_part):
             _deadline_check(deadline)
-            parts.append(self._evaluate(view.rows(slice(start, start + per_part)), probabilities, names))
-        return {name: np.concatenate([part[name] for part in parts]) for name in parts[0]}
+            part = self._evaluate(view.rows(slice(start, start + per_part)), probabilities, names)
+            for name, values in part.items():
+                if name not in result:
+                    result[name] = np.empty(rows, dtype=values.dtype)
+                result[name][start : start + values.size] = values
+            del part
+        return result
 
     def _evaluate(self, view, probabilities: np.ndarray, names: tuple[str, ...]) -> dict[str, np.ndarray]:
         plan = self.plan
