@@ -100,8 +100,6 @@ def shape_of(data: WeightedData, subset_rows: int) -> Shape:
         rows = draws = int(data.count)
     multinomial = integer
     poisson = multinomial and draws == rows and draws >= resample._POISSON_DRAWS
-    if not data.binned and not integer:
-        poisson = False
     picks = not ((multinomial and draws > 8 * rows) or poisson)
     subsets = 0
     if rows > subset_rows and not data.binned:

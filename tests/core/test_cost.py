@@ -65,18 +65,23 @@ def _options(q: int, method: str | None, resamples: int, **extra) -> DescribeOpt
     )
 
 
+def _traced_peak(compute) -> int:
+    """The tracemalloc peak of ``compute()``."""
+    tracemalloc.start()
+    try:
+        compute()
+        return tracemalloc.get_traced_memory()[1]
+    finally:
+        tracemalloc.stop()
+
+
 @pytest.mark.parametrize("name", sorted(INPUTS))
 @pytest.mark.parametrize(("q", "method", "resamples"), [(9, None, 0), (9, "percentile", 600), (300, "bca", 300)])
 def test_model_bounds_the_measured_peak(name, q, method, resamples):
     data, kind = INPUTS[name]
     options = _options(q, method, resamples)
     estimate = admit([data], options)
-    tracemalloc.start()
-    try:
-        describe(data, dataclasses.replace(options, admitted=True), kind=kind)
-        peak = tracemalloc.get_traced_memory()[1]
-    finally:
-        tracemalloc.stop()
+    peak = _traced_peak(lambda: describe(data, dataclasses.replace(options, admitted=True), kind=kind))
     assert peak <= estimate.peak_bytes, (name, q, method, peak, estimate)
 
 
@@ -85,12 +90,7 @@ def test_model_bounds_the_little_bootstraps_peak():
     options = _options(50, "percentile", 400, subset_rows=1000)
     estimate = admit([data], options)
     assert any(stage.name == "bag of little bootstraps" for stage in estimate.stages)
-    tracemalloc.start()
-    try:
-        describe(data, dataclasses.replace(options, admitted=True), kind=kind)
-        peak = tracemalloc.get_traced_memory()[1]
-    finally:
-        tracemalloc.stop()
+    peak = _traced_peak(lambda: describe(data, dataclasses.replace(options, admitted=True), kind=kind))
     assert peak <= estimate.peak_bytes
 
 
@@ -98,12 +98,8 @@ def test_model_bounds_a_comparison_peak():
     (first, _), (second, _) = INPUTS["samples"], INPUTS["table"]
     options = _options(100, "bca", 300)
     estimate = admit([first, second], options)
-    tracemalloc.start()
-    try:
-        compare(first, second, dataclasses.replace(options, admitted=True), kinds=("samples", "table"))
-        peak = tracemalloc.get_traced_memory()[1]
-    finally:
-        tracemalloc.stop()
+    admitted = dataclasses.replace(options, admitted=True)
+    peak = _traced_peak(lambda: compare(first, second, admitted, kinds=("samples", "table")))
     assert peak <= estimate.peak_bytes
 
 
