@@ -14,7 +14,7 @@ $(STAMP): pyproject.toml requirements.lock
 	touch $(STAMP)
 
 serve: $(STAMP)
-	$(VENV)/bin/gunicorn --config deploy/gunicorn.conf.py service.asgi:app
+	$(VENV)/bin/gunicorn --config deploy/gunicorn.conf.py tailgauge.runtime.asgi:app
 
 test: $(STAMP)
 	$(PY) -m pytest
@@ -34,7 +34,7 @@ load: $(STAMP)
 	$(PY) -m tests.system.load --seconds $(LOAD_SECONDS) --concurrency 8 --output test-artifacts/load.json
 
 openapi: $(STAMP)
-	$(PY) -c 'import sys; from service.api.openapi import document_bytes; sys.stdout.buffer.write(document_bytes())' > openapi/openapi.json
+	$(PY) -c 'import sys; from tailgauge.api.openapi import document_bytes; sys.stdout.buffer.write(document_bytes())' > openapi/openapi.json
 
 clean:
 	rm -rf $(VENV) .pytest_cache .hypothesis

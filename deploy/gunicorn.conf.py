@@ -3,7 +3,7 @@
 Environment: BIND (default 127.0.0.1:8000), WEB_CONCURRENCY (worker count), WORKER_TMP_DIR
 (default /tmp: must be writable, also under a read-only root filesystem), and
 PROMETHEUS_MULTIPROC_DIR (default: a fresh directory per server under the temporary directory).
-Service limits are read by the app itself from TAILGAUGE_* variables (service/settings.py).
+Service limits are read by the app itself from TAILGAUGE_* variables (service/tailgauge/settings.py).
 """
 
 import os
@@ -44,7 +44,7 @@ def _worker_count() -> int:
 bind = os.environ.get("BIND", "127.0.0.1:8000")
 workers = _worker_count()
 # uvicorn_worker.UvicornWorker, plus readiness that answers 503 while the worker drains.
-worker_class = "service.worker.Worker"
+worker_class = "tailgauge.runtime.worker.Worker"
 # A request may compute for a while; the per-request budget lives in the app.
 timeout = 60
 graceful_timeout = 30
@@ -62,7 +62,7 @@ errorlog = "-"
 logconfig_dict = {
     "version": 1,
     "disable_existing_loggers": False,
-    "formatters": {"json": {"()": "service.logs.JsonFormatter"}},
+    "formatters": {"json": {"()": "tailgauge.runtime.logs.JsonFormatter"}},
     "handlers": {"stderr": {"class": "logging.StreamHandler", "formatter": "json", "stream": "ext://sys.stderr"}},
     "root": {"level": "INFO", "handlers": ["stderr"]},
     "loggers": {
@@ -97,12 +97,12 @@ def on_starting(server):
 def child_exit(server, worker):
     """Fold the dead worker's counters into the archive files (totals never drop), then drop its files.
 
-    Why fold rather than delete: see service/metric_files.py. Nothing here may stop the master:
+    Why fold rather than delete: see service/tailgauge/runtime/metric_files.py. Nothing here may stop the master:
     on a full disk the dead worker's files stay, still counted, and the failure is logged.
     """
     from prometheus_client import multiprocess
 
-    from service import metric_files
+    from tailgauge.runtime import metric_files
 
     directory = os.environ["PROMETHEUS_MULTIPROC_DIR"]
     try:

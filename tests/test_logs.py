@@ -1,4 +1,4 @@
-"""The JSON log line (service/logs.py): one line per record, whatever the logged strings hold.
+"""The JSON log line (service/tailgauge/runtime/logs.py): one line per record, whatever the logged strings hold.
 
 Regression: a logged path with a raw U+2028 split the line for tools that treat Unicode line
 separators as breaks; every such character is now a \\u escape, and the line still decodes to the
@@ -12,13 +12,13 @@ import logging
 
 import pytest
 
-from service.logs import JsonFormatter
+from tailgauge.runtime.logs import JsonFormatter
 
 BREAKERS = ["\u2028", "\u2029", "\x85", "\n", "\r", "\x00", "\x1b", "\x7f", "\x9b", "\ud800"]
 
 
 def _record(message: str, *args, **extra) -> logging.LogRecord:
-    record = logging.LogRecord("service.requests", logging.INFO, __file__, 1, message, args, None)
+    record = logging.LogRecord("tailgauge.requests", logging.INFO, __file__, 1, message, args, None)
     record.__dict__.update(extra)
     return record
 
@@ -46,6 +46,6 @@ def test_an_exception_with_a_separator_stays_on_one_line():
     except ValueError:
         import sys
 
-        record = logging.LogRecord("service.api", logging.ERROR, __file__, 1, "failed", None, sys.exc_info())
+        record = logging.LogRecord("tailgauge.api", logging.ERROR, __file__, 1, "failed", None, sys.exc_info())
     line = JsonFormatter().format(record)
     assert len(line.splitlines()) == 1 and "bad\u2028name" in json.loads(line)["exception"]

@@ -1,4 +1,4 @@
-"""Metrics files on a full filesystem (service/metric_files.py): errors, never SIGBUS; dead workers folded.
+"""Metrics files on a full filesystem (service/tailgauge/runtime/metric_files.py): errors, never SIGBUS; dead workers folded.
 
 Regression: prometheus-client maps its files and grows them with truncate; on a full /tmp the
 first write to an unbacked page raised SIGBUS and killed the worker (1,316 worker deaths, every
@@ -21,7 +21,7 @@ import pytest
 from prometheus_client import CollectorRegistry, generate_latest
 from prometheus_client.parser import text_string_to_metric_families
 
-from service import metric_files
+from tailgauge.runtime import metric_files
 
 ROOT = Path(__file__).resolve().parents[1]
 
@@ -67,8 +67,8 @@ def test_a_worker_starting_on_a_full_tmpfs_keeps_counting_in_process_and_says_so
         import logging, os
         logging.basicConfig(level=logging.WARNING, format="%(name)s %(message)s")
         fill(DIRECTORY)
-        from service import metric_files
-        from service.api import metrics
+        from tailgauge.runtime import metric_files
+        from tailgauge.api import metrics
         for status in range(200, 260):
             metrics.REQUESTS.labels(route="/r", method="GET", status=str(status)).inc()
             metrics.LATENCY.labels(route="/r", method="GET", status=str(status)).observe(0.01)
@@ -88,8 +88,8 @@ def test_a_worker_starting_on_a_full_tmpfs_keeps_counting_in_process_and_says_so
 
 def test_a_tmpfs_filling_up_while_serving_degrades_new_series_and_keeps_the_old_ones_exported(tmp_path):
     result = on_tiny_tmpfs(tmp_path, """
-        from service import metric_files
-        from service.api import metrics
+        from tailgauge.runtime import metric_files
+        from tailgauge.api import metrics
         from prometheus_client.parser import text_string_to_metric_families
         early = metrics.REQUESTS.labels(route="/early", method="GET", status="200")
         early.inc()
@@ -132,7 +132,7 @@ CATALOG_200 = ("tailgauge_http_requests_total", (("method", "GET"), ("route", "/
 
 WORKER = """
     import os
-    from service.api import metrics
+    from tailgauge.api import metrics
     for i in range({count}):
         metrics.REQUESTS.labels(route="/v1/catalog", method="GET", status="200").inc()
         metrics.LATENCY.labels(route="/v1/catalog", method="GET", status="200").observe(0.003 * i)

@@ -7,8 +7,8 @@ import re
 import pytest
 from litestar.testing import TestClient
 
-from service.api import create_app
-from service.settings import Settings
+from tailgauge.api import create_app
+from tailgauge.settings import Settings
 
 README = (pathlib.Path(__file__).resolve().parents[1] / "README.md").read_text()
 CURL = re.compile(r"curl -s http://127\.0\.0\.1:8000(?P<path>/\S+).*?-d '(?P<body>.*?)'", re.DOTALL)

@@ -6,7 +6,7 @@ from dataclasses import fields
 
 import pytest
 
-from service.settings import Settings, SettingsError
+from tailgauge.settings import Settings, SettingsError
 
 FIELDS = [f.name for f in fields(Settings)]
 

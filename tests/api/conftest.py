@@ -12,8 +12,8 @@ from contextlib import ExitStack
 import pytest
 from litestar.testing import TestClient
 
-from service.api import create_app
-from service.settings import Settings
+from tailgauge.api import create_app
+from tailgauge.settings import Settings
 
 SAMPLES = "/v1/descriptors/samples"
 

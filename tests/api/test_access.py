@@ -6,8 +6,8 @@ import hmac
 
 import pytest
 
-from service.api import app as app_module
-from service.api.app import token_matches
+from tailgauge.api import app as app_module
+from tailgauge.api.app import token_matches
 
 SAMPLES = "/v1/descriptors/samples"
 TOKEN = "roastery-token-0123456789"
@@ -101,12 +101,12 @@ def test_cors_is_off_unless_configured(make_client):
 
 
 def test_an_internal_error_shows_no_trace_or_path(make_client, monkeypatch):
-    from service.api import compute
+    from tailgauge.api import endpoints
 
     def explode(*args, **kwargs):
         raise RuntimeError(f"secret detail at {__file__} line 1")
 
-    monkeypatch.setattr(compute, "describe", explode)
+    monkeypatch.setattr(endpoints, "describe", explode)
     client = make_client(request_log=False)
     response = _post(client)
     assert response.status_code == 500

@@ -1,4 +1,4 @@
-"""Memory bounded before decoding and while computing (service/api/admission.py)."""
+"""Memory bounded before decoding and while computing (service/tailgauge/api/admission.py)."""
 
 from __future__ import annotations
 
@@ -10,10 +10,10 @@ import msgspec
 import numpy as np
 import pytest
 
-from service.api import admission
-from service.api.media import JSON_CODEC, MSGPACK_CODEC
-from service.api.problems import ApiProblem
-from service.settings import Settings
+from tailgauge.api import admission
+from tailgauge.api.media import JSON_CODEC, MSGPACK_CODEC
+from tailgauge.api.problems import ApiProblem
+from tailgauge.settings import Settings
 
 SAMPLES = "/v1/descriptors/samples"
 TABLE = "/v1/descriptors/table"
@@ -43,7 +43,7 @@ def test_decoding_bound_covers_what_msgspec_allocates():
     """The bound is above tracemalloc's peak of decoding, for numbers and for outcome objects."""
     import tracemalloc
 
-    from service.api.schemas import SamplesRequest, TableRequest
+    from tailgauge.api.schemas import SamplesRequest, TableRequest
 
     settings = Settings()
     rng = np.random.default_rng(4)

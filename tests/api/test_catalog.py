@@ -5,7 +5,7 @@
   with and without intervals);
 * every normality test is catalogued as "normality.<test>" and vice versa;
 * every warning code the source can emit is catalogued, and every catalogued code is emitted
-  somewhere (codes collected statically from the ``add("<code>", ...)`` calls in service/core);
+  somewhere (codes collected statically from the ``add("<code>", ...)`` calls in service/tailgauge/core);
 * every entry has a definition and a reference.
 """
 
@@ -19,10 +19,10 @@ import numpy as np
 import pytest
 from litestar.testing import TestClient
 
-from service.api import create_app
-from service.settings import Settings
+from tailgauge.api import create_app
+from tailgauge.settings import Settings
 
-CORE = Path(__file__).resolve().parents[2] / "service" / "core"
+CORE = Path(__file__).resolve().parents[2] / "service" / "tailgauge" / "core"
 SAMPLES, TABLE, BINS = "/v1/descriptors/samples", "/v1/descriptors/table", "/v1/descriptors/bins"
 INTERVAL = {"interval": {"method": "percentile", "resamples": 200, "seed": 20260101}}
 

@@ -18,8 +18,8 @@ import msgspec
 import pytest
 from litestar.testing import TestClient
 
-from service.api import create_app
-from service.settings import Settings
+from tailgauge.api import create_app
+from tailgauge.settings import Settings
 from tests.system.server import GunicornServer
 
 CORPUS = Path(__file__).resolve().parents[1] / "corpus"

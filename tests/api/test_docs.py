@@ -1,4 +1,4 @@
-"""The schema page's assets (service/api/docs.py): files of the bundle, and a 404 problem for anything else.
+"""The schema page's assets (service/tailgauge/api/docs.py): files of the bundle, and a 404 problem for anything else.
 
 Regression: ``/docs/assets/%00``, ``/docs/assets/..%00/x`` and names over 255 characters answered
 500 and logged a 3.3 KB traceback, tokens or not; any name that is not a file of the bundle is now
@@ -30,7 +30,7 @@ NOT_FILES = [
 @pytest.mark.parametrize("tokens", [(), ("roastery-token-0123456789",)])
 def test_anything_but_a_bundle_file_is_a_404_problem_and_logs_nothing(make_client, caplog, path, tokens):
     client = make_client(request_log=False, api_tokens=tokens)
-    with caplog.at_level(logging.DEBUG, logger="service"):
+    with caplog.at_level(logging.DEBUG, logger="tailgauge"):
         response = client.get(path)
     assert response.status_code == 404, response.text
     assert response.headers["content-type"] == "application/problem+json"

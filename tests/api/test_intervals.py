@@ -14,8 +14,8 @@ import numpy as np
 import pytest
 from litestar.testing import TestClient
 
-from service.api import create_app
-from service.settings import Settings
+from tailgauge.api import create_app
+from tailgauge.settings import Settings
 
 SAMPLES = "/v1/descriptors/samples"
 TABLE = "/v1/descriptors/table"

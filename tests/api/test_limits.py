@@ -11,7 +11,7 @@ import re
 import msgspec
 import numpy as np
 
-from service.settings import Settings
+from tailgauge.settings import Settings
 
 SAMPLES = "/v1/descriptors/samples"
 BINS = "/v1/descriptors/bins"

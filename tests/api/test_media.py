@@ -224,7 +224,7 @@ def test_a_quality_of_zero_refuses_a_type_406(make_client, accept):
     ],
 )
 def test_quality_values_choose_the_answer(make_client, accept, answered):
-    from service.api.media import negotiate
+    from tailgauge.api.media import negotiate
 
     client = make_client(request_log=False)
     response = client.get("/v1/catalog", headers={"accept": accept})

@@ -16,9 +16,9 @@ import msgspec
 import numpy as np
 import pytest
 
-from service.core import partial_state
-from service.core.sketches import kll_sketch_bytes
-from service.recipes.dask_states import chunk_summaries
+from tailgauge.core import partial_state
+from tailgauge.core.sketches import kll_sketch_bytes
+from tailgauge.recipes.dask_states import chunk_summaries
 
 SAMPLES = "/v1/descriptors/samples"
 MERGE = "/v1/descriptors/merge"

@@ -10,8 +10,8 @@ import json
 import pytest
 from prometheus_client import REGISTRY
 
-from service.lifecycle import draining
-from service.worker import DrainingServer
+from tailgauge.runtime.lifecycle import draining
+from tailgauge.runtime.worker import DrainingServer
 
 SAMPLES = "/v1/descriptors/samples"
 JSON = {"content-type": "application/json"}
@@ -145,12 +145,12 @@ def test_a_client_hanging_up_mid_body_is_counted_and_logged_as_499(make_client, 
     labels = {"route": SAMPLES, "method": "POST"}
     before = {status: _sample("tailgauge_http_requests_total", **labels, status=status) for status in ("499", "500")}
     headers = [(b"content-type", b"application/json"), (b"content-length", b"1000")]
-    with caplog.at_level("INFO", logger="service.requests"):
+    with caplog.at_level("INFO", logger="tailgauge.requests"):
         _call(client.app, "POST", SAMPLES, [{"type": "http.request", "body": b'{"values": [1, 2', "more_body": True},
                                             {"type": "http.disconnect"}], headers)
     assert _sample("tailgauge_http_requests_total", **labels, status="499") == before["499"] + 1
     assert _sample("tailgauge_http_requests_total", **labels, status="500") == before["500"]
-    (line,) = [record for record in caplog.records if record.name == "service.requests"]
+    (line,) = [record for record in caplog.records if record.name == "tailgauge.requests"]
     assert line.status == 499 and line.route == SAMPLES
     assert not [record for record in caplog.records if record.levelname in ("ERROR", "CRITICAL")]
 

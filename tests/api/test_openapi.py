@@ -9,7 +9,7 @@ from pathlib import Path
 
 import pytest
 
-from service.api import openapi
+from tailgauge.api import openapi
 
 COMMITTED = Path(__file__).resolve().parents[2] / "openapi" / "openapi.json"
 UNDOCUMENTED = {"/docs", "/docs/assets", "/openapi.json"}
@@ -208,7 +208,7 @@ def test_docs_page_is_offline(client):
 
 
 def test_every_compute_operation_has_an_example_that_the_server_accepts(client, document):
-    from service.api.openapi import EXAMPLES
+    from tailgauge.api.openapi import EXAMPLES
 
     posts = [path for path, item in document["paths"].items() if "post" in item]
     assert sorted(posts) == sorted(EXAMPLES)

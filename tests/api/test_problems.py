@@ -1,4 +1,4 @@
-"""Locating a JSON syntax error by path (service/api/problems.py).
+"""Locating a JSON syntax error by path (service/tailgauge/api/problems.py).
 
 Regression: a 32 MB body with its syntax error at the end took 18 s of CPU and 917 MB to locate,
 one Python step per byte. The scan now skips numbers and commas at C speed and gives up (naming
@@ -13,8 +13,8 @@ import random
 import msgspec
 import pytest
 
-from service.api import problems
-from service.api.problems import invalid_body, json_path_at
+from tailgauge.api import problems
+from tailgauge.api.problems import invalid_body, json_path_at
 
 
 def reference_path_at(body: bytes, offset: int) -> str:

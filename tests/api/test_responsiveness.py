@@ -6,8 +6,8 @@ import anyio
 import httpx
 import numpy as np
 
-from service.api import create_app
-from service.settings import Settings
+from tailgauge.api import create_app
+from tailgauge.settings import Settings
 
 
 def test_health_answers_while_a_large_resampling_request_computes():

@@ -16,8 +16,8 @@ import pytest
 from litestar.testing import TestClient
 from scipy import stats
 
-from service.api import create_app
-from service.settings import Settings
+from tailgauge.api import create_app
+from tailgauge.settings import Settings
 
 TABLE = "/v1/descriptors/table"
 BINS = "/v1/descriptors/bins"

@@ -3,7 +3,7 @@ and compare on a grid of sizes, with the model's figures and their ratios.
 
 Run: ``python tests/benchmarks/cost.py`` (``make bench`` runs it). A memory ratio (measured /
 model) above 1 is a model that under-counts: fix the model. Time ratios show how well the
-per-element costs in service/core/cost.py fit this machine (the wall-clock deadline inside
+per-element costs in service/tailgauge/core/cost.py fit this machine (the wall-clock deadline inside
 the stages covers a slower one). Timed without tracemalloc (it slows allocations); memory
 in a second, traced run.
 """
@@ -20,7 +20,7 @@ import numpy as np
 
 sys.path.insert(0, str(Path(__file__).resolve().parents[2]))
 
-from service.core import DescribeOptions, IntervalOptions, admit, compare, describe, from_bins, from_samples, from_table  # noqa: E402
+from tailgauge.core import DescribeOptions, IntervalOptions, admit, compare, describe, from_bins, from_samples, from_table  # noqa: E402
 
 
 def _inputs(rng: np.random.Generator):
@@ -35,7 +35,7 @@ def _inputs(rng: np.random.Generator):
     yield "bins k=2000", lambda: from_bins(list(np.linspace(0, 1, 2001)), list(rng.integers(0, 30, 2000).astype(float))), "bins"
     yield "samples reliability n=2e4", lambda: from_samples(
         rng.normal(size=20_000), omit_missing=False, weights=rng.uniform(0.1, 2, 20_000), meaning=__import__(
-            "service.core", fromlist=["WeightMeaning"]).WeightMeaning.RELIABILITY
+            "tailgauge.core", fromlist=["WeightMeaning"]).WeightMeaning.RELIABILITY
     ), "samples"
 
 

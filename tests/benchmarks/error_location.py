@@ -12,9 +12,9 @@ import time
 
 import msgspec
 
-from service.api.media import JSON_CODEC
-from service.api.problems import invalid_body
-from service.api.schemas import SamplesRequest
+from tailgauge.api.media import JSON_CODEC
+from tailgauge.api.problems import invalid_body
+from tailgauge.api.schemas import SamplesRequest
 
 
 def body_of(count: int) -> bytes:

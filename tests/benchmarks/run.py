@@ -35,7 +35,7 @@ def bench_moments() -> None:
     """Issue 2: mean, variance, third and fourth central moments of 1e7 float64 values."""
     import scipy.stats
 
-    from service.core import central_sums
+    from tailgauge.core import central_sums
 
     x = np.random.default_rng(20261201).normal(250.0, 4.0, 10_000_000)
 
@@ -49,7 +49,7 @@ def bench_moments() -> None:
     one_sum = min(one_sum, best_of(lambda: np.sum(x)))
     print("moments: 1e7 float64 values (mean, variance, m3, m4)")
     print(f"  one np.sum pass          {one_sum * 1e3:8.2f} ms   1.00x")
-    print(f"  service.core moments     {t_ours * 1e3:8.2f} ms   {t_ours / one_sum:5.2f}x   (target <= 6x)")
+    print(f"  tailgauge.core moments     {t_ours * 1e3:8.2f} ms   {t_ours / one_sum:5.2f}x   (target <= 6x)")
     print(f"  scipy.stats.describe     {t_describe * 1e3:8.2f} ms   {t_describe / one_sum:5.2f}x")
 
 
@@ -57,7 +57,7 @@ def bench_tables() -> None:
     """Issue 3: a 100,000-outcome count table and a 1,000-bin histogram, against expanding the data."""
     import scipy.stats
 
-    from service.core import DescribeOptions, describe, from_bins, from_table
+    from tailgauge.core import DescribeOptions, describe, from_bins, from_table
 
     rng = np.random.default_rng(20261202)
     k = 100_000
@@ -114,7 +114,7 @@ def bench_intervals() -> None:
     """Issue 4: BCa intervals of every descriptor against scipy.stats.bootstrap of the skewness alone."""
     import scipy.stats
 
-    from service.core import DescribeOptions, IntervalOptions, describe, from_array, from_table
+    from tailgauge.core import DescribeOptions, IntervalOptions, describe, from_array, from_table
 
     rng = np.random.default_rng(20261203)
     skew = lambda sample, axis=-1: scipy.stats.skew(sample, axis=axis)
@@ -165,8 +165,8 @@ def bench_order_statistics() -> None:
     """Issue 5: every order-statistic descriptor from one sort, against one np.sort of the array."""
     import statsmodels.stats.stattools as stattools
 
-    from service.core import DescribeOptions, from_array, lmoments, order, robust
-    from service.core.describe import _ROBUST_PROBABILITIES
+    from tailgauge.core import DescribeOptions, from_array, lmoments, order_statistics, robust
+    from tailgauge.core.describe import _ROBUST_PROBABILITIES
 
     rng = np.random.default_rng(20261204)
     print("order statistics: median, quantiles, IQR, MAD, quartile/octile shape, L-moments, medcouple")
@@ -177,9 +177,9 @@ def bench_order_statistics() -> None:
         def without_medcouple():
             # The calls describe() makes for a raw sample's order statistics, in its order.
             data = from_array(x)
-            median = order.median(data)  # sorts, once
-            order.quantiles(data, probabilities, 7)  # quartiles, octiles, requested quantiles
-            order.median_absolute_deviation(data, median)
+            median = order_statistics.median(data)  # sorts, once
+            order_statistics.quantiles(data, probabilities, 7)  # quartiles, octiles, requested quantiles
+            order_statistics.median_absolute_deviation(data, median)
             lmoments.sample_lmoments(data.sorted_values, None)
             robust.half_sample_mode(data.sorted_values)
             return data, median
@@ -206,9 +206,9 @@ def _merge_recipe_run(variant: str, n: int, chunks: int) -> None:
 
     import dask.array as da
 
-    from service.core import DescribeOptions, combine_sketches, describe_state, kll_sketch_bytes, merge_states
-    from service.core import partial_state
-    from service.recipes.dask_states import chunk_summaries
+    from tailgauge.core import DescribeOptions, combine_sketches, describe_state, kll_sketch_bytes, merge_states
+    from tailgauge.core import partial_state
+    from tailgauge.recipes.dask_states import chunk_summaries
 
     baseline = resource.getrusage(resource.RUSAGE_SELF).ru_maxrss  # KiB on Linux
     start = time.perf_counter()
@@ -231,7 +231,7 @@ def bench_merge(size: str = "1e8") -> None:
     import pathlib
     import subprocess
 
-    from service.core import merge, merge_states, partial_state
+    from tailgauge.core import merge, merge_states, partial_state
 
     rng = np.random.default_rng(20261205)
     x = rng.gamma(2.0, 3.0, 1_000_000)

@@ -30,10 +30,10 @@ import numpy as np
 ROOT = Path(__file__).resolve().parents[2]
 sys.path.insert(0, str(ROOT))
 
-from service.api.compute import _describe_options  # noqa: E402
-from service.api.schemas import SampleOptions  # noqa: E402
-from service.core import describe, from_samples  # noqa: E402
-from service.settings import Settings  # noqa: E402
+from tailgauge.api.endpoints import _describe_options  # noqa: E402
+from tailgauge.api.schemas import SampleOptions  # noqa: E402
+from tailgauge.core import describe, from_samples  # noqa: E402
+from tailgauge.settings import Settings  # noqa: E402
 
 PATH = "/v1/descriptors/samples"
 
@@ -66,7 +66,7 @@ def main(n: int = 1_000_000, repeats: int = 5) -> None:
     env = {k: v for k, v in os.environ.items() if not k.startswith("TAILGAUGE_")}
     env.update(BIND=f"127.0.0.1:{port}", WEB_CONCURRENCY="1", TAILGAUGE_REQUEST_LOG="false")
     server = subprocess.Popen(
-        [sys.executable, "-m", "gunicorn", "--config", "deploy/gunicorn.conf.py", "service.asgi:app"],
+        [sys.executable, "-m", "gunicorn", "--config", "deploy/gunicorn.conf.py", "tailgauge.runtime.asgi:app"],
         cwd=ROOT, env=env, stdout=subprocess.DEVNULL, stderr=subprocess.DEVNULL,
     )
     base = f"http://127.0.0.1:{port}"

@@ -1,4 +1,4 @@
-"""Closed-form intervals (service.core.classical), checked against textbooks and scipy 1.17.1.
+"""Closed-form intervals (tailgauge.core.classical), checked against textbooks and scipy 1.17.1.
 
 * Order-statistic intervals for quantiles: W. J. Conover, *Practical Nonparametric Statistics*,
   3rd ed., Wiley, 1999, section 3.2 (the median of n = 10 at 95%: [x(2), x(9)], coverage
@@ -18,8 +18,8 @@ import numpy as np
 import pytest
 from scipy import stats
 
-from service.core import DescribeOptions, IntervalOptions, describe, from_array, from_table
-from service.core import classical
+from tailgauge.core import DescribeOptions, IntervalOptions, describe, from_array, from_table
+from tailgauge.core import classical
 
 
 def brute_force_ranks(n: int, p: float, level: float):

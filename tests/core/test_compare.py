@@ -1,4 +1,4 @@
-"""Comparison of two inputs and standard scores (service.core.compare), against outside references.
+"""Comparison of two inputs and standard scores (tailgauge.core.compare), against outside references.
 
 References used below, each named again beside its check:
 
@@ -28,7 +28,7 @@ import numpy as np
 import pytest
 from scipy import special, stats
 
-from service.core import (
+from tailgauge.core import (
     DescribeOptions,
     IntervalOptions,
     LimitExceeded,
@@ -42,9 +42,9 @@ from service.core import (
     from_table,
     standardize,
 )
-from service.core import resample
-from service.core.compare import KS_EXACT_LIMIT, SCALE_DESCRIPTORS, hedges_correction, side_seeds
-from service.core.describe import SCALAR_DESCRIPTORS
+from tailgauge.core import resample
+from tailgauge.core.compare import KS_EXACT_LIMIT, SCALE_DESCRIPTORS, hedges_correction, side_seeds
+from tailgauge.core.describe import SCALAR_DESCRIPTORS
 
 # Efron & Tibshirani (1993), Table 2.1: days of survival after surgery.
 MOUSE_TREATMENT = np.array([94, 197, 16, 38, 99, 141, 23], dtype=np.float64)

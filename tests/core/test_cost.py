@@ -1,4 +1,4 @@
-"""The cost model (service/core/cost.py) and the stages it bounds.
+"""The cost model (service/tailgauge/core/cost.py) and the stages it bounds.
 
 * Memory: the model's peak is an upper bound of the peak tracemalloc measures while the
   request computes (tracemalloc counts numpy's buffers; the normalised input, alive before the
@@ -18,7 +18,7 @@ import tracemalloc
 import numpy as np
 import pytest
 
-from service.core import (
+from tailgauge.core import (
     DescribeOptions,
     IntervalOptions,
     LimitExceeded,
@@ -30,7 +30,7 @@ from service.core import (
     from_samples,
     from_table,
 )
-from service.core import cost, resample
+from tailgauge.core import cost, resample
 
 RNG_SEED = 20261204
 
@@ -215,7 +215,7 @@ def test_deadline_stops_a_stage_the_model_let_through(stage, monkeypatch):
         options = dataclasses.replace(options, deadline=time.monotonic() - 1.0)
         with pytest.raises(LimitExceeded, match="time limit"):
             resample.bootstrap(
-                data, __import__("service.core.moments", fromlist=["central_sums"]).central_sums(data.values, None, 4),
+                data, __import__("tailgauge.core.moments", fromlist=["central_sums"]).central_sums(data.values, None, 4),
                 {}, [], np.array([0.5]), families=("G1", "G2"), quantile_type=7, factor_rule="sample",
                 options=options.interval, max_work=1e13, deadline=options.deadline, threads=1,
             )

@@ -1,4 +1,4 @@
-"""The Dask recipe (service/recipes/dask_states.py) with real dask on the local schedulers.
+"""The Dask recipe (service/tailgauge/recipes/dask_states.py) with real dask on the local schedulers.
 
 Reference: the same values computed in memory in one piece (``partial_state`` and ``describe``
 on the concatenation), and their exact ranks (numpy.searchsorted) for the sketch quantiles,
@@ -14,7 +14,7 @@ import dask.array as da
 import numpy as np
 import pytest
 
-from service.core import (
+from tailgauge.core import (
     DescribeOptions,
     combine_sketches,
     describe,
@@ -23,9 +23,9 @@ from service.core import (
     merge_states,
     partial_state,
 )
-from service.core.describe import MOMENT_DESCRIPTORS
-from service.recipes import dask_states
-from service.recipes.dask_states import chunk_summaries
+from tailgauge.core.describe import MOMENT_DESCRIPTORS
+from tailgauge.recipes import dask_states
+from tailgauge.recipes.dask_states import chunk_summaries
 
 
 @pytest.mark.parametrize("scheduler", ["synchronous", "threads"])

@@ -11,7 +11,7 @@ import numpy as np
 import pytest
 from scipy import stats
 
-from service.core import DescribeOptions, UncomputableInput, describe, from_bins, from_table
+from tailgauge.core import DescribeOptions, UncomputableInput, describe, from_bins, from_table
 
 MOMENT_NAMES = (
     "mean",
@@ -308,7 +308,7 @@ def test_all_counts_in_open_bins_are_rejected():
 
 def test_all_counts_in_one_bin_give_unknown_spread_not_zero():
     """Regression: one occupied bin used to report variance 0 from its midpoint (a made-up zero)."""
-    from service.core import DescribeOptions, describe, from_bins
+    from tailgauge.core import DescribeOptions, describe, from_bins
 
     result = describe(from_bins([0.0, 1.0, 2.0], [5.0, 0.0]), DescribeOptions(), kind="bins")
     assert result.descriptors["variance"].value is None

@@ -23,7 +23,7 @@ import numpy as np
 import pytest
 from scipy import stats
 
-from service.core import DescribeOptions, describe, from_array, from_bins, from_table
+from tailgauge.core import DescribeOptions, describe, from_array, from_bins, from_table
 
 NAMES = ("l_location", "l_scale", "l_skewness", "l_kurtosis")
 
@@ -262,7 +262,7 @@ def test_narrow_bins_of_an_exponential_approach_the_exponential_lmoments(width):
 def test_scaling_inside_the_raw_estimator_equals_scaling_the_data_first(exponent):
     # Scaling by a power of two is exact, so the two orders must agree bit for bit (the raw
     # path skips the scaling pass where nothing nears float64's limits).
-    from service.core import lmoments
+    from tailgauge.core import lmoments
 
     x = np.sort(np.random.default_rng(5).lognormal(0.0, 1.0, 5000))
     if exponent > 0:

@@ -1,5 +1,5 @@
-"""Accuracy of the power sums about the mean (service/core/moments.py) and of the lag-1
-autocorrelation (service/core/serial.py).
+"""Accuracy of the power sums about the mean (service/tailgauge/core/moments.py) and of the lag-1
+autocorrelation (service/tailgauge/core/serial.py).
 
 Outside references, named beside each check:
 
@@ -21,11 +21,11 @@ from fractions import Fraction
 import numpy as np
 import pytest
 
-from service.core import moments
-from service.core.describe import DescribeOptions, describe
-from service.core.moments import central_sums
-from service.core.serial import lag1_autocorrelation
-from service.core.weighted import from_array
+from tailgauge.core import moments
+from tailgauge.core.describe import DescribeOptions, describe
+from tailgauge.core.moments import central_sums
+from tailgauge.core.serial import lag1_autocorrelation
+from tailgauge.core.weighted import from_array
 
 STRD = pathlib.Path(__file__).resolve().parents[1] / "reference" / "strd"
 DATASETS = ("Michelso", "NumAcc1", "NumAcc2", "NumAcc3", "NumAcc4", "PiDigits")

@@ -17,8 +17,8 @@ import numpy as np
 import pytest
 from scipy import stats
 
-from service.core import DescribeOptions, describe, from_array, from_bins, from_samples, from_table
-from service.core.normality import MINIMUM_N, skewness_z
+from tailgauge.core import DescribeOptions, describe, from_array, from_bins, from_samples, from_table
+from tailgauge.core.normality import MINIMUM_N, skewness_z
 
 TESTS = ("skewness_test", "kurtosis_test", "omnibus_k2", "jarque_bera")
 

@@ -21,12 +21,12 @@ from pathlib import Path
 import numpy as np
 import pytest
 
-import service
-from service.core import DescribeOptions, describe, from_array, from_table
+import tailgauge
+from tailgauge.core import DescribeOptions, describe, from_array, from_table
 
 SORTS = ("sort", "argsort", "lexsort", "unique")
 SELECTIONS = ("partition", "argpartition")
-CORE = Path(service.__file__).resolve().parent / "core"
+CORE = Path(tailgauge.__file__).resolve().parent / "core"
 
 
 class Recorder:

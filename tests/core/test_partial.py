@@ -1,4 +1,4 @@
-"""Mergeable partial states (service/core/partial.py): exact merging and the descriptors of a merge.
+"""Mergeable partial states (service/tailgauge/core/partial.py): exact merging and the descriptors of a merge.
 
 Outside references, named beside each check:
 
@@ -24,7 +24,7 @@ import scipy.stats
 from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
-from service.core import (
+from tailgauge.core import (
     DescribeOptions,
     IntervalOptions,
     PartialState,
@@ -42,8 +42,8 @@ from service.core import (
     partial_state,
     state_of,
 )
-from service.core.catalog import WARNINGS
-from service.core.describe import MOMENT_DESCRIPTORS
+from tailgauge.core.catalog import WARNINGS
+from tailgauge.core.describe import MOMENT_DESCRIPTORS
 
 STRD = pathlib.Path(__file__).resolve().parents[1] / "reference" / "strd"
 PROPERTY_SETTINGS = settings(

@@ -27,8 +27,8 @@ import pytest
 from hypothesis import HealthCheck, assume, given, settings
 from hypothesis import strategies as st
 
-from service.api.schemas import DescriptionResponse, MergedDescriptionResponse
-from service.core import (
+from tailgauge.api.schemas import DescriptionResponse, MergedDescriptionResponse
+from tailgauge.core import (
     DescribeOptions,
     IntervalOptions,
     describe,
@@ -41,7 +41,7 @@ from service.core import (
     merge_states,
     partial_state,
 )
-from service.core.describe import SCALAR_DESCRIPTORS, SHAPE_DESCRIPTORS
+from tailgauge.core.describe import SCALAR_DESCRIPTORS, SHAPE_DESCRIPTORS
 
 
 @dataclass(frozen=True)

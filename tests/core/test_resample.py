@@ -1,4 +1,4 @@
-"""The bootstrap engine (service.core.resample), checked against outside references and itself.
+"""The bootstrap engine (tailgauge.core.resample), checked against outside references and itself.
 
 References used below, each named again beside its check:
 
@@ -26,7 +26,7 @@ import numpy as np
 import pytest
 from scipy import stats
 
-from service.core import (
+from tailgauge.core import (
     DescribeOptions,
     IntervalOptions,
     WeightMeaning,
@@ -37,7 +37,7 @@ from service.core import (
     from_samples,
     from_table,
 )
-from service.core import resample
+from tailgauge.core import resample
 
 REPO = Path(__file__).resolve().parents[2]
 
@@ -470,7 +470,7 @@ def test_statistics_of_the_original_weights_reproduce_describe(case):
 
 FINGERPRINT_SCRIPT = """
 import numpy as np
-from service.core import DescribeOptions, IntervalOptions, describe, from_array
+from tailgauge.core import DescribeOptions, IntervalOptions, describe, from_array
 
 def fingerprint(method):
     x = np.random.default_rng(31337).gamma(3.0, 2.0, 600)
@@ -619,7 +619,7 @@ SCALE_POWER = {"variance": 2, "skewness": 0, "kurtosis": 0, "excess_kurtosis": 0
 @pytest.mark.parametrize("k", [10, -10, 400, -400, 1000, -1000])
 def test_intervals_are_equivariant_under_power_of_two_scaling(k):
     """The core computes moments in exactly scaled units so that any finite input works
-    (service/core/moments.py); intervals, standard errors and the BCa choice must follow.
+    (service/tailgauge/core/moments.py); intervals, standard errors and the BCa choice must follow.
     Data of magnitude 2**400 (about 1e120) are ordinary float64 numbers."""
     x = np.random.default_rng(1).normal(1.0, 0.1, 30)
     options = {"method": "bca", "resamples": 500, "seed": 3}
@@ -785,9 +785,9 @@ def test_batched_mad_of_whole_count_rows_matches_numpy_row_by_row(support):
 
 
 def test_batched_median_and_mad_of_fractional_weight_rows_match_the_point_estimates():
-    # Reference: order.median_absolute_deviation of each row as its own weighted sample (the
+    # Reference: order_statistics.median_absolute_deviation of each row as its own weighted sample (the
     # point estimate's rule; checked against numpy and statsmodels in test_order).
-    from service.core import order
+    from tailgauge.core import order_statistics
 
     rng = np.random.default_rng(23)
     values = np.sort(rng.normal(0.0, 1.0, 40))
@@ -804,8 +804,8 @@ def test_batched_median_and_mad_of_fractional_weight_rows_match_the_point_estima
     for i, row in enumerate(rows):
         keep = row > 0
         one = from_samples(list(plan.values[keep]), omit_missing=False, weights=list(row[keep]), meaning=WeightMeaning.FREQUENCY)
-        assert median[i] == order.median(one), i
-        assert got[i] == order.median_absolute_deviation(one, float(median[i])), i
+        assert median[i] == order_statistics.median(one), i
+        assert got[i] == order_statistics.median_absolute_deviation(one, float(median[i])), i
 
 
 # ----------------------------------------------------------------------------------------------

@@ -28,7 +28,7 @@ import pytest
 from scipy import stats
 from statsmodels.stats.stattools import expected_robust_kurtosis, medcouple, robust_kurtosis, robust_skewness
 
-from service.core import (
+from tailgauge.core import (
     DescribeOptions,
     WeightMeaning,
     describe,
@@ -37,7 +37,7 @@ from service.core import (
     from_samples,
     from_table,
 )
-from service.core.describe import NORMAL_OCTILE_KURTOSIS
+from tailgauge.core.describe import NORMAL_OCTILE_KURTOSIS
 
 ROBUST = (
     "quartile_skewness",
@@ -524,7 +524,7 @@ def test_medcouple_of_tied_heavy_tailed_samples_matches_statsmodels_exact():
     # Reference: statsmodels.stats.stattools.medcouple(use_fast=False), the O(n^2) definition.
     # Rounded t(2) samples of 20-300 values: ties at and around the median, and (in several
     # of these seeded cases) the two middle kernel values parting during the bisection.
-    from service.core import robust
+    from tailgauge.core import robust
 
     rng = np.random.default_rng(0)
     for case in range(400):

@@ -23,9 +23,9 @@ import numpy as np
 import pytest
 import scipy.stats
 
-from service.core import shape
-from service.core.describe import DescribeOptions, describe
-from service.core.weighted import WeightedData, WeightMeaning, from_array
+from tailgauge.core import shape
+from tailgauge.core.describe import DescribeOptions, describe
+from tailgauge.core.weighted import WeightedData, WeightMeaning, from_array
 
 SIZES = (4, 5, 10, 50, 500)
 

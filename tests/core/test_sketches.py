@@ -1,4 +1,4 @@
-"""KLL sketches (service/core/sketches.py): decoding, the pooled union, and its rank error.
+"""KLL sketches (service/tailgauge/core/sketches.py): decoding, the pooled union, and its rank error.
 
 Outside references, named beside each check:
 
@@ -26,7 +26,7 @@ import numpy as np
 import pytest
 import scipy.stats
 
-from service.core import (
+from tailgauge.core import (
     DescribeOptions,
     KllSketchContents,
     UncomputableInput,

@@ -21,7 +21,7 @@ import pytest
 from scipy import stats
 from statsmodels.stats.weightstats import DescrStatsW
 
-from service.core import (
+from tailgauge.core import (
     DescribeOptions,
     UncomputableInput,
     WeightMeaning,
@@ -29,7 +29,7 @@ from service.core import (
     from_samples,
     from_table,
 )
-from service.core.describe import SCALAR_DESCRIPTORS
+from tailgauge.core.describe import SCALAR_DESCRIPTORS
 
 REFERENCE = json.loads(
     (Path(__file__).resolve().parents[1] / "reference" / "discrete_distributions.json").read_text()

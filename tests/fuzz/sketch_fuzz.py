@@ -1,4 +1,4 @@
-"""Fuzzing the KLL sketch parser (``service.core.sketches.read_kll_sketch``) against the native decoder.
+"""Fuzzing the KLL sketch parser (``tailgauge.core.sketches.read_kll_sketch``) against the native decoder.
 
 Usage (from the repository root; ``make fuzz-sketches`` runs it with CASES and SEED):
     python -m tests.fuzz.sketch_fuzz --cases 100000 --seed 1
@@ -61,7 +61,7 @@ import warnings
 import datasketches
 import numpy as np
 
-from service.core.sketches import KllSketchContents, UncomputableInput, read_kll_sketch
+from tailgauge.core.sketches import KllSketchContents, UncomputableInput, read_kll_sketch
 
 DECODERS = {"double": datasketches.kll_doubles_sketch, "float": datasketches.kll_floats_sketch}
 BOUNDARY_BYTES = (0x00, 0x01, 0x7F, 0x80, 0xFE, 0xFF)

@@ -40,8 +40,8 @@ from hypothesis import HealthCheck, note, reject, settings
 from litestar.testing import TestClient
 from schemathesis.specs.openapi.checks import positive_data_acceptance
 
-from service.api import create_app
-from service.settings import Settings
+from tailgauge.api import create_app
+from tailgauge.settings import Settings
 from tests.fuzz import hooks
 
 # A small resampling budget keeps generated interval requests quick; over it is a 422.
@@ -70,7 +70,7 @@ class _UnhandledError(logging.Handler):
 
 
 UNHANDLED = _UnhandledError()
-logging.getLogger("service.api").addHandler(UNHANDLED)
+logging.getLogger("tailgauge.api").addHandler(UNHANDLED)
 
 
 def accept_for(case) -> str | None:
@@ -82,7 +82,7 @@ def accept_for(case) -> str | None:
 def with_fixed_seeds(case) -> None:
     """Give every interval request without a seed one derived from the case.
 
-    A null seed makes the server draw one (service/api/compute.py), so the same generated case
+    A null seed makes the server draw one (service/tailgauge/api/endpoints.py), so the same generated case
     could resample differently on a replay and a failure found once could not be reproduced.
     Null seeds themselves are covered by tests/api/test_intervals.py.
     """

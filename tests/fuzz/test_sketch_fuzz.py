@@ -13,7 +13,7 @@ import signal
 import datasketches
 import numpy as np
 
-from service.core import read_kll_sketch
+from tailgauge.core import read_kll_sketch
 from tests.fuzz.sketch_fuzz import NativeWorkers, compare, run
 
 

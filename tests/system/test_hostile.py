@@ -50,7 +50,7 @@ import msgspec
 import numpy as np
 import pytest
 
-from service.core.sketches import kll_sketch_bytes
+from tailgauge.core.sketches import kll_sketch_bytes
 
 from .server import HOST, REPO, GunicornServer, ServerError, _die_with_parent, _gunicorn_command, free_port
 
@@ -262,7 +262,7 @@ def _wait_for_request_line(server: GunicornServer, offset: int, request_id: str,
     deadline = time.monotonic() + timeout
     while time.monotonic() < deadline:
         for line in _log_lines(server, offset):
-            if line.get("request_id") == request_id and line.get("logger") == "service.requests":
+            if line.get("request_id") == request_id and line.get("logger") == "tailgauge.requests":
                 return line
         time.sleep(0.1)
     return None
@@ -376,7 +376,7 @@ def _verdict(case: Case) -> tuple[list[str], str]:
         if answer.status is not None:
             _wait_for_request_line(server, case.log_offset, answer.request_id, timeout=5)
     logged = [line for line in _log_lines(server, case.log_offset)
-              if line.get("logger") == "service.requests" and int(line.get("status", 0)) >= 500]
+              if line.get("logger") == "tailgauge.requests" and int(line.get("status", 0)) >= 500]
     if fives or logged:
         violations.append(f"5xx answered: {fives[:5]}; in the request log: "
                           f"{[(line.get('route'), line.get('status')) for line in logged[:5]]}")

@@ -1,5 +1,0 @@
-"""The HTTP layer: wire messages, routes, problem mapping and the app factory."""
-
-from service.api.app import create_app
-
-__all__ = ["create_app"]

@@ -1,0 +1,332 @@
+"""From request bytes to response bytes for each compute endpoint: decode, check limits, call the core.
+
+Runs in a worker thread (see ``routes``), so nothing here may touch the event loop.
+"""
+
+from __future__ import annotations
+
+import dataclasses
+import secrets
+import time
+from dataclasses import dataclass
+from typing import TypeVar
+
+import msgspec
+import numpy as np
+
+from tailgauge.api import admission
+from tailgauge.api.media import Codec
+from tailgauge.api.problems import ApiProblem, invalid_body, json_path
+from tailgauge.api.schemas import PartialState as PartialStateMessage
+from tailgauge.api.schemas import (
+    BinsInput,
+    BinsRequest,
+    ComparisonRequest,
+    ComparisonResponse,
+    ComparisonWarning,
+    DescriptionResponse,
+    MergedDescriptionResponse,
+    MergeRequest,
+    ProblemLocation,
+    ResultWarning,
+    SamplesInput,
+    SamplesRequest,
+    Scores,
+    SummaryOptions,
+    TableInput,
+    TableRequest,
+)
+from tailgauge.core import (
+    DescribeOptions,
+    DescriptorError,
+    IntervalOptions,
+    LimitExceeded,
+    Location,
+    WeightMeaning,
+    admit,
+    compare,
+    describe,
+    from_bins,
+    from_samples,
+    from_table,
+    standardize,
+)
+from tailgauge.core.partial import MIN_ORDER, PartialState, describe_state, merge_states, state_of
+from tailgauge.core.sketches import combine_sketches
+from tailgauge.settings import Settings
+
+Request = TypeVar("Request", SamplesRequest, TableRequest, BinsRequest, ComparisonRequest)
+
+
+@dataclass(frozen=True)
+class Computed:
+    """An encoded answer, with what the metrics and the request log record of it."""
+
+    body: bytes
+    values: int
+    resamples: int
+
+
+def _decode(body: bytes, kind: type[Request], codec: Codec) -> Request:
+    try:
+        return codec.decode(body, kind)
+    except msgspec.MsgspecError as error:
+        raise invalid_body(error, body, codec) from None
+
+
+def _float64s(raw: list | bytes, path: str, *, missing: bool) -> np.ndarray | list:
+    """A list as sent, or float64 bytes as an array checked like the list form would be.
+
+    In bytes, NaN marks a missing value where nulls are allowed (``missing``); infinities,
+    and NaN or negative numbers where only weights >= 0 are allowed, are located errors.
+    """
+    if not isinstance(raw, bytes):
+        return raw
+    if len(raw) % 8:
+        raise ApiProblem(
+            "invalid-body",
+            f"{path} holds {len(raw)} bytes, not a whole number of 8-byte float64 values",
+            [ProblemLocation(path=path, message="length must be a multiple of 8 bytes")],
+        )
+    array = np.frombuffer(raw, dtype="<f8").astype(np.float64, copy=False)
+    if missing:
+        bad = np.flatnonzero(np.isinf(array))
+        why = "infinite; only finite numbers (or NaN for a missing value) are accepted"
+    else:
+        bad = np.flatnonzero(~(np.isfinite(array) & (array >= 0.0)))
+        why = "must be a finite number >= 0"
+    if bad.size:
+        first = int(bad[0])
+        raise ApiProblem(
+            "invalid-body",
+            f"{bad.size} of the {array.size} float64 values in {path} are not accepted; the first is "
+            f"{path}[{first}] = {float(array[first])!r}",
+            [ProblemLocation(path=f"{path}[{int(i)}]", message=why) for i in bad[:10]],
+        )
+    return array
+
+
+def _check_count(count: int, path: str, settings: Settings) -> None:
+    if count > settings.max_values:
+        raise ApiProblem(
+            "body-too-large",
+            f"{count} entries sent in {path}; this server accepts at most {settings.max_values}",
+            [ProblemLocation(path=path, message=f"at most {settings.max_values} entries")],
+        )
+
+
+def _admitted(inputs, options: DescribeOptions, ticket) -> DescribeOptions:
+    """Plan the computation (422 with what would fit), then hold its memory in the worker's gate."""
+    estimate = admit(inputs, options)
+    ticket.resize(ticket.amount + estimate.peak_bytes)
+    return dataclasses.replace(options, admitted=True)
+
+
+def _describe_options(options: SummaryOptions, settings: Settings, decoding: float = 0.0) -> DescribeOptions:
+    if options.moment_order > settings.max_moment_order:
+        raise LimitExceeded(
+            detail=f"moment_order may be at most {settings.max_moment_order} on this server",
+            locations=[Location("$.options.moment_order", f"at most {settings.max_moment_order}; lower it")],
+        )
+    if len(options.probabilities) > settings.max_probabilities:
+        raise LimitExceeded(
+            detail=f"at most {settings.max_probabilities} probabilities per request on this server",
+            locations=[Location("$.options.probabilities", "too many probabilities; send fewer")],
+        )
+    interval = None
+    requested = getattr(options, "interval", None)
+    if requested is not None:
+        seed = requested.seed
+        interval = IntervalOptions(
+            method=requested.method,
+            level=requested.level,
+            resamples=requested.resamples,
+            seed=secrets.randbelow(2**53) if seed is None else seed,
+        )
+    return DescribeOptions(
+        interval=interval,
+        max_resample_work=float(settings.max_resample_work),
+        subset_rows=settings.bootstrap_subset_rows,
+        resample_threads=settings.resample_threads,
+        deadline=time.monotonic() + settings.max_request_seconds,
+        max_memory_bytes=float(settings.max_request_memory_bytes) - decoding,
+        convention=options.convention,
+        skewness_estimator=options.skewness_estimator,
+        kurtosis_estimator=options.kurtosis_estimator,
+        probabilities=tuple(options.probabilities),
+        quantile_type=getattr(options, "quantile_type", None),
+        moment_order=options.moment_order,
+        modes_limit=settings.max_modes_listed,
+        sheppard_correction=getattr(options, "sheppard_correction", False),
+        contributions_limit=settings.max_contributions_listed,
+    )
+
+
+def _with_scores(message: DescriptionResponse | ComparisonResponse, description, points: list[float]):
+    """Add ``scores`` (and their warnings) for ``options.score`` relative to ``description``."""
+    if not points:
+        return message
+    scores = standardize(description, points)
+    message.scores = msgspec.convert(scores, Scores, from_attributes=True)
+    if isinstance(message, ComparisonResponse):
+        message.warnings.extend(
+            ComparisonWarning(side="comparison", code=n.code, message=n.message, descriptors=list(n.descriptors))
+            for n in scores.warnings
+        )
+    else:
+        message.warnings.extend(
+            ResultWarning(code=n.code, message=n.message, descriptors=list(n.descriptors)) for n in scores.warnings
+        )
+    return message
+
+
+def _answer(
+    description, count: int, codec: Codec, points: list[float], state: PartialState | None = None
+) -> Computed:
+    message = msgspec.convert(description, DescriptionResponse, from_attributes=True)
+    message = _with_scores(message, description, points)
+    if state is not None:
+        message.partial_state = _state_message(state)
+    resamples = description.resampling.resamples if description.resampling is not None else 0
+    return Computed(codec.encode(message), count, resamples)
+
+
+def _relocated(error: DescriptorError, prefix: str) -> DescriptorError:
+    """The same error with its fields placed under ``prefix`` (``values`` -> ``$.first.values``)."""
+    if prefix == "$":
+        return error
+    return type(error)(
+        detail=error.detail,
+        locations=[Location(json_path(loc.path, prefix), loc.message) for loc in error.locations],
+    )
+
+
+def _samples_data(message: SamplesRequest | SamplesInput, missing: str, settings: Settings, prefix: str = "$"):
+    values = _float64s(message.values, f"{prefix}.values", missing=True)
+    _check_count(len(values), f"{prefix}.values", settings)
+    weights = None if message.weights is None else _float64s(message.weights, f"{prefix}.weights", missing=False)
+    try:
+        data = from_samples(
+            values,
+            omit_missing=missing == "omit",
+            weights=weights,
+            meaning=WeightMeaning.RELIABILITY if message.weight_kind == "reliability" else WeightMeaning.FREQUENCY,
+        )
+    except DescriptorError as error:
+        raise _relocated(error, prefix) from None
+    return data, len(values)
+
+
+def _table_data(message: TableRequest | TableInput, normalize: bool, settings: Settings, prefix: str = "$"):
+    _check_count(len(message.outcomes), f"{prefix}.outcomes", settings)
+    count = len(message.outcomes)
+    values = np.fromiter((o.value for o in message.outcomes), dtype=np.float64, count=count)
+    weights = np.fromiter((o.weight for o in message.outcomes), dtype=np.float64, count=count)
+    try:
+        data = from_table(
+            values, weights, probabilities=message.weight_kind == "probabilities", normalise=normalize
+        )
+    except DescriptorError as error:
+        raise _relocated(error, prefix) from None
+    return data, count
+
+
+def _bins_data(message: BinsRequest | BinsInput, settings: Settings, prefix: str = "$"):
+    counts = _float64s(message.counts, f"{prefix}.counts", missing=False)
+    _check_count(len(counts), f"{prefix}.counts", settings)
+    try:
+        data = from_bins(message.edges, counts)
+    except DescriptorError as error:
+        raise _relocated(error, prefix) from None
+    return data, len(counts)
+
+
+def _state_message(state: PartialState) -> PartialStateMessage:
+    return PartialStateMessage(
+        count=state.count,
+        mean=state.mean,
+        central_sums=list(state.central_sums),
+        minimum=state.minimum,
+        maximum=state.maximum,
+    )
+
+
+def describe_samples(body: bytes, codec: Codec, answer: Codec, settings: Settings) -> Computed:
+    with admission.admitted(body, codec, settings) as ticket:
+        request = _decode(body, SamplesRequest, codec)
+        data, count = _samples_data(request, request.options.missing, settings)
+        options = _admitted([data], _describe_options(request.options, settings, ticket.amount), ticket)
+        description = describe(data, options, kind="samples")
+        state = None
+        if request.options.partial_state:
+            state = state_of(data, order=max(MIN_ORDER, request.options.moment_order))
+        return _answer(description, count, answer, request.options.score, state)
+
+
+def merge_states_request(body: bytes, codec: Codec, answer: Codec, settings: Settings) -> Computed:
+    # States and sketches cost what their bytes do: the decoding bound covers them.
+    with admission.admitted(body, codec, settings):
+        return _merge_states(body, codec, answer, settings)
+
+
+def _merge_states(body: bytes, codec: Codec, answer: Codec, settings: Settings) -> Computed:
+    request = _decode(body, MergeRequest, codec)
+    states = [
+        PartialState(
+            count=s.count, mean=s.mean, central_sums=tuple(s.central_sums), minimum=s.minimum, maximum=s.maximum
+        )
+        for s in request.states
+    ]
+    sketches = None
+    if request.sketches:
+        sketches = combine_sketches(request.sketches, path="sketches")
+    merged = merge_states(states, path="states")
+    options = _describe_options(request.options, settings)
+    description = describe_state(merged, options, quantiles_from=sketches)
+    message = msgspec.convert(description, MergedDescriptionResponse, from_attributes=True)
+    message = _with_scores(message, description, request.options.score)
+    message.partial_state = _state_message(merged)
+    return Computed(answer.encode(message), len(states), 0)
+
+
+def describe_table(body: bytes, codec: Codec, answer: Codec, settings: Settings) -> Computed:
+    with admission.admitted(body, codec, settings) as ticket:
+        request = _decode(body, TableRequest, codec)
+        data, count = _table_data(request, request.options.normalize, settings)
+        options = _admitted([data], _describe_options(request.options, settings, ticket.amount), ticket)
+        return _answer(describe(data, options, kind="table"), count, answer, request.options.score)
+
+
+def describe_bins(body: bytes, codec: Codec, answer: Codec, settings: Settings) -> Computed:
+    with admission.admitted(body, codec, settings) as ticket:
+        request = _decode(body, BinsRequest, codec)
+        data, count = _bins_data(request, settings)
+        options = _admitted([data], _describe_options(request.options, settings, ticket.amount), ticket)
+        return _answer(describe(data, options, kind="bins"), count, answer, request.options.score)
+
+
+def _input_data(message, settings: Settings, prefix: str):
+    if isinstance(message, SamplesInput):
+        return (*_samples_data(message, message.options.missing, settings, prefix), "samples")
+    if isinstance(message, TableInput):
+        return (*_table_data(message, message.options.normalize, settings, prefix), "table")
+    return (*_bins_data(message, settings, prefix), "bins")
+
+
+def compare_inputs(body: bytes, codec: Codec, answer: Codec, settings: Settings) -> Computed:
+    with admission.admitted(body, codec, settings) as ticket:
+        return _compare(body, codec, answer, settings, ticket)
+
+
+def _compare(body: bytes, codec: Codec, answer: Codec, settings: Settings, ticket) -> Computed:
+    request = _decode(body, ComparisonRequest, codec)
+    first, first_count, first_kind = _input_data(request.first, settings, "$.first")
+    second, second_count, second_kind = _input_data(request.second, settings, "$.second")
+    _check_count(first_count + second_count, "$.second", settings)
+    options = _describe_options(request.options, settings, ticket.amount)
+    options = _admitted([first, second], options, ticket)
+    comparison = compare(first, second, options, kinds=(first_kind, second_kind))
+    message = msgspec.convert(comparison, ComparisonResponse, from_attributes=True)
+    message = _with_scores(message, comparison.first, request.options.score)
+    resamples = 0 if comparison.resampling is None else 2 * comparison.resampling.resamples
+    return Computed(answer.encode(message), first_count + second_count, resamples)

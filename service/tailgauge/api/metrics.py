@@ -1,0 +1,60 @@
+"""Prometheus metrics of the HTTP layer, valid in one process or summed across gunicorn workers.
+
+With ``PROMETHEUS_MULTIPROC_DIR`` set before this module is first imported (deploy/gunicorn.conf.py
+sets it), every worker writes its values to files there and ``exposition()`` adds them up, so a
+scrape of any worker sees the whole server. A full or unwritable directory never crashes a
+worker: see service/tailgauge/runtime/metric_files.py for how the metrics degrade instead.
+"""
+
+from __future__ import annotations
+
+import os
+
+from prometheus_client import CONTENT_TYPE_LATEST, REGISTRY, CollectorRegistry, Counter, Histogram, generate_latest
+
+from tailgauge.runtime import metric_files
+
+CONTENT_TYPE = CONTENT_TYPE_LATEST
+
+# Before any metric below exists: their series are created through the guarded value class.
+metric_files.install()
+
+REQUESTS = Counter(
+    "tailgauge_http_requests_total",
+    "HTTP requests answered, by route template, method and status code.",
+    ["route", "method", "status"],
+)
+LATENCY = Histogram(
+    "tailgauge_http_request_duration_seconds",
+    "Time from receiving a request to the end of its response, by route template, method and status.",
+    ["route", "method", "status"],
+    buckets=(0.001, 0.0025, 0.005, 0.01, 0.025, 0.05, 0.1, 0.25, 0.5, 1.0, 2.5, 5.0, 10.0, 30.0),
+)
+VALUES = Histogram(
+    "tailgauge_request_values",
+    "Observations per compute request: values, outcomes or bins as sent.",
+    ["endpoint"],
+    buckets=(1, 10, 100, 1_000, 10_000, 100_000, 1_000_000, 10_000_000),
+)
+RESAMPLES = Counter(
+    "tailgauge_resamples_total",
+    "Bootstrap resamples computed for intervals.",
+    ["endpoint"],
+)
+BUDGET_REJECTIONS = Counter(
+    "tailgauge_budget_rejections_total",
+    "Requests refused with a limit-exceeded problem (resampling budget, wall-clock or size limits).",
+)
+
+
+def exposition() -> bytes:
+    """The text exposition format of every metric, summed over worker processes when multiprocess."""
+    directory = os.environ.get("PROMETHEUS_MULTIPROC_DIR")
+    if directory:
+        registry = CollectorRegistry()
+        registry.register(metric_files.DirectoryCollector(directory))
+        return generate_latest(registry)
+    return generate_latest(REGISTRY)
+
+
+__all__ = ["BUDGET_REJECTIONS", "CONTENT_TYPE", "LATENCY", "REQUESTS", "RESAMPLES", "VALUES", "exposition"]

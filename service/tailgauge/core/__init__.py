@@ -1,0 +1,72 @@
+"""The numeric core: pure numpy/scipy functions on the one weighted form; no HTTP here."""
+
+from tailgauge.core.compare import Comparison, Scores, compare, standardize
+from tailgauge.core.cost import Estimate
+from tailgauge.core.describe import DEFAULT_PROBABILITIES, Description, DescribeOptions, admit, describe
+from tailgauge.core.errors import DescriptorError, LimitExceeded, Location, UncomputableInput
+from tailgauge.core.moments import CentralSums, central_sums
+from tailgauge.core.partial import (
+    PartialState,
+    check_states,
+    describe_state,
+    merge,
+    merge_states,
+    partial_state,
+    state_of,
+)
+from tailgauge.core.resample import IntervalOptions
+from tailgauge.core.sketches import (
+    KllSketchContents,
+    SketchUnion,
+    combine_sketches,
+    kll_sketch_bytes,
+    read_kll_sketch,
+)
+from tailgauge.core.weighted import (
+    PROBABILITY_TOLERANCE,
+    WeightedData,
+    WeightMeaning,
+    from_array,
+    from_bins,
+    from_samples,
+    from_table,
+)
+
+__all__ = [
+    "DEFAULT_PROBABILITIES",
+    "PROBABILITY_TOLERANCE",
+    "CentralSums",
+    "Comparison",
+    "DescribeOptions",
+    "Description",
+    "DescriptorError",
+    "Estimate",
+    "IntervalOptions",
+    "KllSketchContents",
+    "LimitExceeded",
+    "Location",
+    "PartialState",
+    "Scores",
+    "SketchUnion",
+    "UncomputableInput",
+    "WeightMeaning",
+    "WeightedData",
+    "admit",
+    "central_sums",
+    "check_states",
+    "combine_sketches",
+    "compare",
+    "describe",
+    "describe_state",
+    "from_array",
+    "from_bins",
+    "from_samples",
+    "from_table",
+    "kll_sketch_bytes",
+    "merge",
+    "merge_states",
+    "partial_state",
+    "read_kll_sketch",
+    "standardize",
+    "state_of",
+]

@@ -1,0 +1,331 @@
+"""What a request will cost before it runs: the memory and time of each stage, from sizes alone.
+
+Every compute request is planned here after its input is normalised (so the support size is
+known) and before anything else is computed. Each stage's working memory and time come from
+the sizes that drive it: values n, support rows k, requested probabilities q, resamples B,
+the rows m of a little-bootstrap subset, and bins. A request whose peak memory is beyond
+``max_bytes`` or whose time is beyond the seconds left is refused at once
+(:class:`LimitExceeded`) with what would fit, and that advice is itself admitted when resent.
+
+The memory figures are upper bounds measured with tracemalloc on the stages themselves
+(tests/core/test_cost.py checks them against the measured peaks); the time figures are
+per-element costs measured on a 2-core machine with a margin (``make bench`` prints the model
+beside measured times in tests/benchmarks/cost.py). The wall-clock deadline, checked inside
+every long stage, stays the safety net for a slower machine.
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass
+
+from tailgauge.core import resample
+from tailgauge.core.errors import LimitExceeded, Location
+from tailgauge.core.weighted import WeightedData, WeightMeaning
+
+# Statistics every resample records besides the quantiles (resample.INTERVAL_DESCRIPTORS and
+# the quartiles), as float64 per resample.
+_RECORDED = len(resample.INTERVAL_DESCRIPTORS) + 4
+# Normalised input arrays per entry (values, weights, sort order, support values and weights).
+NORMALISED_BYTES_PER_ENTRY = 32
+# Point descriptors of n entries: sort, order statistics, medcouple, L-moments, modes, tails
+# (tracemalloc peak 73 bytes per value at n = 2e6 raw samples).
+POINT_BYTES_PER_ENTRY = 80
+# Seconds per entry x log2(entries) of the point descriptors (1.43 s for 2e6 raw samples).
+POINT_SECONDS = 45e-9
+# Seconds per resampled element (resample x support row) drawn and reduced, by how counts are
+# drawn; and per order statistic looked up in a resample.
+DRAW_SECONDS = {"multinomial": 300e-9, "poisson": 25e-9, "picks": 60e-9, "subset": 220e-9}
+LOOKUP_SECONDS = 120e-9
+# Seconds per leave-one-out row and order statistic (a search over the support each).
+JACKKNIFE_LOOKUP_SECONDS = 300e-9
+# Seconds per (row x bin) of the grouped MAD, in resamples and in the jackknife.
+GROUPED_MAD_SECONDS = 150e-9
+# What every stage takes whatever the sizes (small arrays, the interpreter's own work).
+STAGE_BYTES = 4 << 20
+STAGE_SECONDS = 0.02
+
+
+@dataclass(frozen=True)
+class Stage:
+    """One stage of a request: its peak working memory (on top of the normalised input) and time."""
+
+    name: str
+    bytes: float
+    seconds: float
+
+
+@dataclass(frozen=True)
+class Estimate:
+    stages: tuple[Stage, ...]
+    resident: float  # the normalised input, alive through every stage
+
+    @property
+    def peak_bytes(self) -> float:
+        return self.resident + max((stage.bytes for stage in self.stages), default=0.0)
+
+    @property
+    def seconds(self) -> float:
+        return sum(stage.seconds for stage in self.stages)
+
+
+@dataclass(frozen=True)
+class Shape:
+    """The sizes that drive one input's cost."""
+
+    entries: int  # values, outcomes or bins after normalising
+    rows: int  # support rows a resample weighs (distinct values, entries, or bins)
+    draws: int  # observations per resample
+    bins: bool
+    multinomial: bool  # whole counts: multinomial counts per resample
+    poisson: bool  # raw sample of distinct values: Poisson counts topped up
+    picks: bool  # resamples drawn as individual picks (b x draws indices)
+    subset_rows: int  # m of the bag of little bootstraps, 0 for the ordinary bootstrap
+
+
+def shape_of(data: WeightedData, subset_rows: int) -> Shape:
+    """The cost-driving sizes of ``data``, by the rules of ``resample._plan`` and ``_draw``
+    (without building the plan's arrays)."""
+    if data.binned:
+        rows = int(data.values.size)
+        total = float(data.weights.sum()) if data.weights is not None else float(rows)
+    else:
+        support = data.support
+        rows = int(support.values.size)
+        total = float(support.weights.sum())
+    integer = data.integer_weights and data.meaning is not WeightMeaning.RELIABILITY
+    if integer:
+        draws = int(round(total))
+    else:
+        rows = draws = int(data.count)
+    multinomial = integer
+    poisson = multinomial and draws == rows and draws >= resample._POISSON_DRAWS
+    picks = not ((multinomial and draws > 8 * rows) or poisson)
+    subsets = 0
+    if rows > subset_rows and not data.binned:
+        subsets = int(math.ceil(draws**resample.SUBSET_EXPONENT))
+    return Shape(
+        entries=int(data.count),
+        rows=rows,
+        draws=draws,
+        bins=data.binned,
+        multinomial=multinomial,
+        poisson=poisson,
+        picks=picks,
+        subset_rows=subsets,
+    )
+
+
+def _log2(x: float) -> float:
+    return math.log2(max(x, 2.0))
+
+
+def point_stage(shape: Shape) -> Stage:
+    n = shape.entries
+    return Stage(
+        "point descriptors", STAGE_BYTES + POINT_BYTES_PER_ENTRY * n, STAGE_SECONDS + POINT_SECONDS * n * _log2(n)
+    )
+
+
+def _per_element_bytes(shape: Shape) -> float:
+    """Bytes of one batch's draws per (resample x support row), by how counts are drawn."""
+    if shape.poisson:
+        return 19.0  # byte counts, float64 weights, 32-bit prefix sums, 16-bit draws
+    if shape.multinomial and shape.draws > 8 * shape.rows:
+        return 32.0  # int64 counts, float64 weights, prefix sums
+    ratio = shape.draws / max(shape.rows, 1)
+    return 32.0 + 16.0 * ratio  # picks and their rows (int64), then counts, weights, prefix sums
+
+
+def resampling_stages(
+    shape: Shape, resamples: int, probabilities: int, method: str, threads: int
+) -> list[Stage]:
+    """The bootstrap (or bag of little bootstraps) and, for BCa, the jackknife of one input."""
+    q = probabilities + 3  # requested quantiles, the quartiles and the median
+    recorded = (_RECORDED + probabilities) * 8.0
+    k = shape.rows
+    stages = []
+    part = float(resample.EVALUATION_PART_BYTES)
+    if shape.subset_rows:
+        m = shape.subset_rows
+        per_subset = -(-resamples // resample.SUBSETS)
+        drawn = per_subset * resample.SUBSETS
+        batch = max(1, min(per_subset, resample._BATCH_ELEMENTS // m))
+        row_bytes = resample.evaluation_row_bytes(m, probabilities, bins=False)
+        working = batch * m * 32.0 + min(batch, max(1, part // row_bytes)) * row_bytes
+        # The whole sample's plan (powers, cumulative counts), choosing a subset, its plan.
+        subset = 80.0 * k + 8.0 * shape.entries + 64.0 * m
+        stored = 2.0 * drawn * recorded  # the rounds, then stacked
+        seconds = drawn * (DRAW_SECONDS["subset"] * m + LOOKUP_SECONDS * q * _log2(m))
+        memory = STAGE_BYTES + subset + working + stored + 2 * batch * recorded
+        stages.append(Stage("bag of little bootstraps", memory, STAGE_SECONDS + seconds))
+        return stages
+    elements = resample._TOPPED_UP_BATCH_ELEMENTS if shape.poisson else resample._BATCH_ELEMENTS
+    batch = max(1, min(resamples, elements // max(k, 1)))
+    if resamples >= 2000:
+        batch = min(batch, -(-resamples // 2))
+    batches = -(-resamples // batch)
+    busy = max(1, min(threads, batches))
+    row_bytes = resample.evaluation_row_bytes(k, probabilities, bins=shape.bins)
+    evaluation = min(batch, max(1, part // row_bytes)) * row_bytes
+    per_thread = batch * k * _per_element_bytes(shape) + evaluation + 2.0 * batch * recorded
+    plan = 64.0 * k + (16.0 * shape.draws if shape.picks and shape.draws != k else 0.0)
+    stored = 2.0 * resamples * recorded
+    if shape.poisson:
+        draw = DRAW_SECONDS["poisson"]
+    elif shape.picks:
+        draw = DRAW_SECONDS["picks"] * max(1.0, shape.draws / max(k, 1))
+    else:
+        draw = DRAW_SECONDS["multinomial"]
+    seconds = resamples * (draw * k + LOOKUP_SECONDS * q * _log2(batch * k))
+    if shape.bins:
+        seconds += resamples * GROUPED_MAD_SECONDS * k
+    seconds /= busy
+    stages.append(Stage("bootstrap", STAGE_BYTES + plan + busy * per_thread + stored, STAGE_SECONDS + seconds))
+    if method == "bca":
+        row_bytes = resample.evaluation_row_bytes(k, probabilities, bins=shape.bins)
+        evaluation = min(k, max(1, part // row_bytes)) * row_bytes
+        # The leave-one-out values of every row (filled part by part), and the part in hand.
+        kept = 1.25 * k * recorded
+        seconds = k * JACKKNIFE_LOOKUP_SECONDS * q
+        if shape.bins:
+            seconds += k * k * GROUPED_MAD_SECONDS
+        memory = STAGE_BYTES + plan + stored / 2.0 + 48.0 * k + evaluation + kept
+        stages.append(Stage("jackknife", memory, STAGE_SECONDS + seconds))
+    return stages
+
+
+def estimate(
+    shapes: list[Shape], *, probabilities: int, resamples: int, method: str | None, threads: int
+) -> Estimate:
+    """The stages of describing (one shape) or comparing (two shapes) inputs of these sizes.
+
+    The inputs of a comparison are described one after the other, but the first one's
+    replicates (and jackknife) are kept for the contrasts while the second is resampled.
+    """
+    resident = sum(NORMALISED_BYTES_PER_ENTRY * s.entries for s in shapes)
+    stages: list[Stage] = []
+    kept = 0.0
+    for index, shape in enumerate(shapes):
+        point = point_stage(shape)
+        stages.append(Stage(f"{_side(index, shapes)}{point.name}", point.bytes + kept, point.seconds))
+        if method is None:
+            continue
+        own = resampling_stages(shape, resamples, probabilities, method, threads)
+        for stage in own:
+            stages.append(Stage(f"{_side(index, shapes)}{stage.name}", stage.bytes + kept, stage.seconds))
+        kept += (_RECORDED + probabilities) * 8.0 * (resamples + (shape.rows if method == "bca" else 0))
+    return Estimate(tuple(stages), float(resident))
+
+
+def _side(index: int, shapes: list[Shape]) -> str:
+    return "" if len(shapes) == 1 else ("first input: " if index == 0 else "second input: ")
+
+
+def resampling_work(shapes: list[Shape], resamples: int) -> float:
+    """The resampling budget's measure (``resample.resampling_work``): resamples x rows."""
+    work = 0.0
+    for shape in shapes:
+        if shape.subset_rows:
+            work += resample.SUBSETS * -(-resamples // resample.SUBSETS) * shape.subset_rows
+        else:
+            work += resamples * shape.rows
+    return work
+
+
+def _mib(x: float) -> str:
+    return f"{x / 2**20:.0f} MiB"
+
+
+def admit(
+    shapes: list[Shape],
+    *,
+    probabilities: int,
+    resamples: int,
+    method: str | None,
+    threads: int,
+    max_bytes: float,
+    seconds: float,
+    max_work: float = math.inf,
+    min_resamples: int = 100,
+) -> Estimate:
+    """The estimate of a request, or :class:`LimitExceeded` naming what would fit.
+
+    The advice is the largest resample count (a multiple of ``resample.SUBSETS`` when an input
+    is resampled by little bootstraps, whose counts are rounded up to one) whose estimate fits;
+    failing that, the largest number of probabilities, or the percentile method instead of BCa;
+    failing all, fewer values.
+    """
+    wanted = estimate(shapes, probabilities=probabilities, resamples=resamples, method=method, threads=threads)
+    if wanted.peak_bytes <= max_bytes and wanted.seconds <= seconds:
+        return wanted  # the resampling budget alone is checked by the bootstrap, as before
+    heaviest = max(wanted.stages, key=lambda s: s.bytes)
+    slowest = max(wanted.stages, key=lambda s: s.seconds)
+    over = []
+    if wanted.peak_bytes > max_bytes:
+        over.append(
+            f"about {_mib(wanted.peak_bytes)} of memory at its peak ({heaviest.name}), beyond this server's "
+            f"{_mib(max_bytes)} per request"
+        )
+    if wanted.seconds > seconds:
+        over.append(
+            f"about {wanted.seconds:.3g} s ({slowest.name} {slowest.seconds:.3g} s), beyond this server's "
+            f"{seconds:.3g} s per request"
+        )
+    detail = "this request would take " + " and ".join(over)
+
+    def fits(**change) -> bool:
+        arguments = dict(probabilities=probabilities, resamples=resamples, method=method, threads=threads)
+        arguments.update(change)
+        e = estimate(shapes, **arguments)
+        work = resampling_work(shapes, arguments["resamples"]) if arguments["method"] is not None else 0.0
+        return e.peak_bytes <= max_bytes and e.seconds <= seconds and work <= max_work
+
+    if method is not None:
+        # Cost grows with the resamples: the largest count that fits, by bisection.
+        step = resample.SUBSETS if any(s.subset_rows for s in shapes) else 1
+        low, high = -(-min_resamples // step), resamples // step
+        allowed = 0
+        if low <= high and fits(resamples=low * step):
+            while low < high:
+                middle = (low + high + 1) // 2
+                if fits(resamples=middle * step):
+                    low = middle
+                else:
+                    high = middle - 1
+            allowed = low * step
+        if allowed:
+            raise LimitExceeded(
+                detail=f"{detail}; lower options.interval.resamples to at most {allowed}",
+                locations=[Location("options.interval.resamples", f"at most {allowed} for these data")],
+            )
+    if probabilities > 0:
+        low, high = 0, probabilities - 1
+        while low < high:
+            middle = (low + high + 1) // 2
+            if fits(probabilities=middle):
+                low = middle
+            else:
+                high = middle - 1
+        if low > 0 or fits(probabilities=0):
+            raise LimitExceeded(
+                detail=f"{detail}; send at most {low} probabilities in options.probabilities",
+                locations=[Location("options.probabilities", f"at most {low} for these data")],
+            )
+    if method == "bca" and fits(method="percentile"):
+        raise LimitExceeded(
+            detail=f"{detail}; the percentile method (no jackknife) fits: set options.interval.method",
+            locations=[Location("options.interval.method", "BCa's jackknife does not fit; use percentile")],
+        )
+    if method is not None and fits(method=None):
+        raise LimitExceeded(
+            detail=f"{detail}; without options.interval the descriptors themselves fit",
+            locations=[Location("options.interval", "intervals do not fit for these data; leave them out")],
+        )
+    raise LimitExceeded(
+        detail=f"{detail}; send fewer values",
+        locations=[Location("", "too many values for this server's memory and time limits")],
+    )
+
+
+__all__ = ["Estimate", "Shape", "Stage", "admit", "estimate", "resampling_work", "shape_of"]

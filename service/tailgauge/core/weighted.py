@@ -1,0 +1,338 @@
+"""The one internal form every input kind is normalised into before any descriptor is computed.
+
+Raw samples, outcome tables and binned counts all become a :class:`WeightedData`: support
+values, a weight per value and what the weights mean. Descriptors are functions of this
+form only; nothing downstream knows which endpoint the data came from.
+
+Weight semantics are defined by equivalence:
+
+* ``UNIT`` — every value is one observation (raw samples without weights).
+* ``FREQUENCY`` — a weight ``w`` is the same as repeating the value ``w`` times.
+* ``RELIABILITY`` — analytic weights, proportional to the inverse variance of each value;
+  the sample size is the Kish effective size ``(sum w)^2 / sum w^2``.
+* ``PROBABILITY`` — the data are a whole discrete distribution: population descriptors.
+"""
+
+from __future__ import annotations
+
+import enum
+from dataclasses import dataclass
+from functools import cached_property
+
+import numpy as np
+
+from tailgauge.core.errors import Location, UncomputableInput
+
+
+class WeightMeaning(enum.Enum):
+    UNIT = "unit"
+    FREQUENCY = "frequency"
+    RELIABILITY = "reliability"
+    PROBABILITY = "probability"
+
+
+@dataclass(frozen=True)
+class SortedSupport:
+    """Distinct values in increasing order with the total weight at each.
+
+    ``cumulative[i]`` is the weight of all values up to and including ``values[i]``, so the
+    ``j``-th order statistic (1-based) of the equivalent repeated sample is the first value
+    whose cumulative weight reaches ``j``.
+    """
+
+    values: np.ndarray
+    weights: np.ndarray
+    cumulative: np.ndarray
+
+    @property
+    def total(self) -> float:
+        return float(self.cumulative[-1])
+
+
+@dataclass(frozen=True, eq=False)
+class WeightedData:
+    """Support values, their weights and the meaning of the weights.
+
+    ``weights`` is ``None`` for unit weights, so a raw sample costs no extra array.
+    ``ordered`` says the values are in observation order (serial descriptors such as the
+    lag-1 autocorrelation are defined only then). ``omitted`` counts missing observations
+    that were dropped before this form was built, ``zero_weight`` the entries dropped for
+    having weight zero, and ``normalised_from`` the original sum of a probability table that
+    was rescaled to 1 on request.
+
+    For binned counts, ``edges`` holds the k + 1 bin edges (``-inf``/``+inf`` for an open end)
+    and ``values`` the k bin midpoints; an open bin's value is its finite edge, a placeholder
+    that is never used because moments are undefined while an open bin holds data.
+    """
+
+    values: np.ndarray
+    weights: np.ndarray | None
+    meaning: WeightMeaning
+    ordered: bool
+    omitted: int = 0
+    zero_weight: int = 0
+    normalised_from: float | None = None
+    edges: np.ndarray | None = None
+
+    @property
+    def count(self) -> int:
+        """Number of entries in ``values`` (observations for a raw sample)."""
+        return int(self.values.size)
+
+    @cached_property
+    def total_weight(self) -> float:
+        if self.weights is None:
+            return float(self.values.size)
+        return float(np.sum(self.weights))
+
+    @cached_property
+    def integer_weights(self) -> bool:
+        """Whether the weights are counts of whole observations (so order statistics exist)."""
+        if self.weights is None:
+            return True
+        if self.meaning not in (WeightMeaning.FREQUENCY, WeightMeaning.UNIT):
+            return False
+        return bool(np.all(self.weights == np.floor(self.weights))) and self.total_weight < 2.0**53
+
+    @cached_property
+    def effective_size(self) -> float:
+        """Kish's effective sample size ``(sum w)**2 / sum w**2`` (n for unit weights)."""
+        if self.weights is None:
+            return float(self.values.size)
+        scale = float(np.max(self.weights))
+        relative = self.weights / scale
+        return float(np.sum(relative) ** 2 / np.sum(relative * relative))
+
+    @property
+    def binned(self) -> bool:
+        return self.edges is not None
+
+    @cached_property
+    def open_bin_weight(self) -> float:
+        """Weight held by open-ended bins (0 for anything that is not binned)."""
+        if self.edges is None:
+            return 0.0
+        assert self.weights is not None
+        weight = 0.0
+        if np.isinf(self.edges[0]):
+            weight += float(self.weights[0])
+        if np.isinf(self.edges[-1]):
+            weight += float(self.weights[-1])
+        return weight
+
+    @cached_property
+    def sorted_values(self) -> np.ndarray:
+        """The values sorted once; every order statistic is read from this array."""
+        if self.weights is None:
+            return np.sort(self.values, kind="quicksort")
+        return self.support.values
+
+    @cached_property
+    def support(self) -> SortedSupport:
+        """Distinct values with their summed weights (ties merged), from one sort."""
+        if self.weights is None:
+            ordered = self.sorted_values
+            differs = ordered[1:] != ordered[:-1]
+            if differs.all():  # no ties (most continuous data): the sorted values themselves
+                n = ordered.size
+                return SortedSupport(values=ordered, weights=np.ones(n), cumulative=np.arange(1.0, n + 1.0))
+            starts = np.flatnonzero(np.concatenate(([True], differs)))
+            counts = np.diff(np.append(starts, ordered.size)).astype(np.float64)
+            distinct = ordered[starts]
+        else:
+            order = np.argsort(self.values, kind="stable")
+            ordered = self.values[order]
+            ordered_weights = self.weights[order]
+            starts = np.flatnonzero(np.concatenate(([True], ordered[1:] != ordered[:-1])))
+            counts = np.add.reduceat(ordered_weights, starts)
+            distinct = ordered[starts]
+        return SortedSupport(values=distinct, weights=counts, cumulative=np.cumsum(counts))
+
+    @property
+    def unit_sorted(self) -> bool:
+        """True when order statistics can be read directly from ``sorted_values``."""
+        return self.weights is None
+
+
+# Largest |sum of probabilities - 1| accepted without normalisation.
+PROBABILITY_TOLERANCE = 1e-9
+
+
+def _located(path: str, message: str, detail: str | None = None) -> UncomputableInput:
+    return UncomputableInput(detail=detail or f"{path}: {message}", locations=[Location(path, message)])
+
+
+def _check_total(weights: np.ndarray, path: str) -> float:
+    with np.errstate(over="ignore"):
+        total = float(np.sum(weights))
+    if not np.isfinite(total):
+        raise _located(path, "the weights sum beyond the float64 range; rescale them")
+    if total <= 0.0:
+        raise _located(path, "every weight is zero, so there is nothing to describe")
+    return total
+
+
+def from_samples(
+    values: list[float | None],
+    *,
+    omit_missing: bool,
+    weights: list[float] | None = None,
+    meaning: WeightMeaning = WeightMeaning.FREQUENCY,
+) -> WeightedData:
+    """Build the internal form from raw observations in observation order.
+
+    ``None`` marks a missing observation. With ``omit_missing`` it is dropped (with its weight)
+    and counted; otherwise the input is rejected, naming the first missing positions.
+    ``weights`` (non-negative, one per value) are frequency or reliability weights; entries of
+    weight zero are dropped and counted.
+    """
+    # msgspec rejects NaN on input, so every NaN here was a null (a missing observation).
+    array = np.asarray(values, dtype=np.float64)
+    missing_mask = np.isnan(array)
+    omitted = int(np.count_nonzero(missing_mask))
+    if omitted and not omit_missing:
+        raise UncomputableInput(
+            detail=(
+                f"{omitted} missing value(s) (null) in values; set "
+                'options.missing to "omit" to drop them'
+            ),
+            locations=[
+                Location(f"values[{i}]", "missing value (null) under the reject policy")
+                for i in np.flatnonzero(missing_mask)[:10]
+            ],
+        )
+    weight_array = None
+    zero_weight = 0
+    if weights is not None:
+        weight_array = np.asarray(weights, dtype=np.float64)
+        if weight_array.size != array.size:
+            raise _located(
+                "weights",
+                f"has {weight_array.size} entries but values has {array.size}; give one weight per value",
+            )
+    keep = ~missing_mask
+    if weight_array is not None:
+        positive = weight_array > 0.0
+        zero_weight = int(np.count_nonzero(keep & ~positive))
+        keep &= positive
+    present = array[keep] if (omitted or zero_weight) else array
+    if present.size == 0:
+        if weight_array is not None and zero_weight:
+            raise _located("weights", "every present value has weight zero, so there is nothing to describe")
+        raise _located("values", "every value is missing", "no observations remain after omitting missing values")
+    if weight_array is None:
+        return WeightedData(
+            values=present, weights=None, meaning=WeightMeaning.UNIT, ordered=True, omitted=omitted
+        )
+    kept_weights = weight_array[keep]
+    _check_total(kept_weights, "weights")
+    return WeightedData(
+        values=present,
+        weights=kept_weights,
+        meaning=meaning,
+        ordered=False,
+        omitted=omitted,
+        zero_weight=zero_weight,
+    )
+
+
+def from_table(
+    values: np.ndarray, weights: np.ndarray, *, probabilities: bool, normalise: bool
+) -> WeightedData:
+    """Build the internal form from distinct-or-repeated outcomes with a weight each.
+
+    Counts give a sample (frequency weights); probabilities a whole distribution, which must
+    sum to 1 within :data:`PROBABILITY_TOLERANCE` unless ``normalise`` asks for rescaling.
+    Repeated outcomes are merged and order does not matter; zero weights are dropped and counted.
+    """
+    values = np.asarray(values, dtype=np.float64)
+    weights = np.asarray(weights, dtype=np.float64)
+    total = _check_total(weights, "outcomes")
+    normalised_from = None
+    if probabilities and abs(total - 1.0) > PROBABILITY_TOLERANCE:
+        if not normalise:
+            raise _located(
+                "outcomes",
+                f"probabilities sum to {total!r}, off by {total - 1.0:+.3g} (tolerance "
+                f"{PROBABILITY_TOLERANCE:g}); fix them or set options.normalize to true",
+            )
+        normalised_from = total
+        weights = weights / total
+    positive = weights > 0.0
+    zero_weight = int(np.count_nonzero(~positive))
+    if zero_weight:
+        values, weights = values[positive], weights[positive]
+    return WeightedData(
+        values=values,
+        weights=weights,
+        meaning=WeightMeaning.PROBABILITY if probabilities else WeightMeaning.FREQUENCY,
+        ordered=False,
+        zero_weight=zero_weight,
+        normalised_from=normalised_from,
+    )
+
+
+def from_bins(edges: list[float | None], counts: list[float]) -> WeightedData:
+    """Build the internal form from k + 1 bin edges and k counts.
+
+    Only the first or last edge may be ``None`` (an open-ended bin). Edges must increase
+    strictly. An open bin with count zero is dropped, so any open bin left holds data. All
+    weight in open bins leaves nothing to describe and is rejected.
+    """
+    if len(edges) != len(counts) + 1:
+        raise _located(
+            "edges",
+            f"has {len(edges)} entries for {len(counts)} counts; give k + 1 edges for k counts",
+        )
+    for i, edge in enumerate(edges[1:-1], start=1):
+        if edge is None:
+            raise _located(f"edges[{i}]", "only the first or the last edge may be null (open-ended)")
+    edge_array = np.array(
+        [-np.inf if edges[0] is None else edges[0], *edges[1:-1], np.inf if edges[-1] is None else edges[-1]],
+        dtype=np.float64,
+    )
+    steps = np.diff(edge_array)
+    bad = np.flatnonzero(~(steps > 0.0))
+    if bad.size:
+        i = int(bad[0]) + 1
+        raise _located(f"edges[{i}]", f"edges must increase strictly; this one is not above edges[{i - 1}]")
+    count_array = np.asarray(counts, dtype=np.float64)
+    total = _check_total(count_array, "counts")
+    keep = np.ones(count_array.size, dtype=bool)
+    if np.isinf(edge_array[0]) and count_array[0] == 0.0:
+        keep[0] = False
+    if np.isinf(edge_array[-1]) and count_array[-1] == 0.0:
+        keep[-1] = False
+    if not keep.all():
+        edge_keep = np.ones(edge_array.size, dtype=bool)
+        if not keep[0]:
+            edge_keep[0] = False
+        if not keep[-1]:
+            edge_keep[-1] = False
+        edge_array, count_array = edge_array[edge_keep], count_array[keep]
+    open_weight = 0.0
+    if np.isinf(edge_array[0]):
+        open_weight += float(count_array[0])
+    if count_array.size and np.isinf(edge_array[-1]):
+        open_weight += float(count_array[-1])
+    if count_array.size == 0 or open_weight >= total:
+        raise _located("counts", "every count lies in an open-ended bin, so nothing can be described")
+    lower, upper = edge_array[:-1], edge_array[1:]
+    midpoints = np.where(np.isinf(lower), upper, np.where(np.isinf(upper), lower, 0.5 * lower + 0.5 * upper))
+    return WeightedData(
+        values=midpoints,
+        weights=count_array,
+        meaning=WeightMeaning.FREQUENCY,
+        ordered=False,
+        edges=edge_array,
+    )
+
+
+def from_array(values: np.ndarray) -> WeightedData:
+    """Build the internal form from an array of finite observations (no missing values)."""
+    array = np.ascontiguousarray(values, dtype=np.float64)
+    if array.ndim != 1 or array.size == 0:
+        raise ValueError("expected a non-empty one-dimensional array")
+    if not np.all(np.isfinite(array)):
+        raise ValueError("values must be finite")
+    return WeightedData(values=array, weights=None, meaning=WeightMeaning.UNIT, ordered=True)
