@@ -34,6 +34,7 @@ from tailgauge.core import (
     LimitExceeded,
     UncomputableInput,
     WeightMeaning,
+    admit,
     compare,
     describe,
     from_array,
@@ -597,8 +598,22 @@ def test_the_budget_covers_both_inputs():
     describe(b, options, kind="samples")
     with pytest.raises(LimitExceeded) as raised:
         compare(a, b, options, kinds=SAMPLES)
-    assert raised.value.locations[0].path == "$.options.interval.resamples"
+    assert raised.value.locations[0].path == "options.interval.resamples"  # the edge adds "$."
     assert "at most 800" in raised.value.locations[0].message  # 400 000 / (300 + 200)
+    # The whole advice, word for word: it is the 422 problem's detail.
+    assert raised.value.detail == (
+        "resampling both inputs touches 5e+05 rows (3e+05 + 2e+05), beyond this server's resampling "
+        "budget of 4e+05; lower options.interval.resamples to at most 800"
+    )
+    assert raised.value.locations[0].message == "at most 800 for these inputs"
+    # Neither the memory and time plan (cost.admit) nor each input's own bootstrap refuses this
+    # request: the joint budget is checked only by compare. The advice, resent, is admitted.
+    admit([a, b], options)
+    resent = dataclasses.replace(options, interval=IntervalOptions("percentile", 0.95, 800, 1))
+    assert compare(a, b, resent, kinds=SAMPLES).resampling.resamples == 800
+    with pytest.raises(LimitExceeded):
+        compare(a, b, dataclasses.replace(options, interval=IntervalOptions("percentile", 0.95, 801, 1)),
+                kinds=SAMPLES)
 
 
 def test_an_input_that_cannot_be_resampled_is_named_in_the_error():
@@ -606,7 +621,7 @@ def test_an_input_that_cannot_be_resampled_is_named_in_the_error():
     with pytest.raises(UncomputableInput) as raised:
         compare(from_array(np.array([1.0, 2.0, 3.0])), population, interval(), kinds=("samples", "table"))
     assert raised.value.detail.startswith("second input:")
-    assert raised.value.locations[0].path == "$.options.interval"
+    assert raised.value.locations[0].path == "options.interval"  # the edge adds "$."
 
 
 # ----------------------------------------------------------------------------------------------
