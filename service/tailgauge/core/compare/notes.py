@@ -1,0 +1,113 @@
+"""The comparison's warnings: the collector, why contrasts are undefined, and why they lack intervals.
+
+Nothing in a comparison is NaN: an undefined or unrepresentable contrast is ``None``, and the
+modules of this package say why through the collector here. Warnings of one cause are worded
+once and name every member they concern.
+"""
+
+from __future__ import annotations
+
+import math
+from collections.abc import Sequence
+from dataclasses import dataclass
+
+from tailgauge.core.compare.vocabulary import COMPARISON_WARNINGS, CONVENTION_MEMBERS, ComparisonWarning
+from tailgauge.core.describe import Description, Note
+from tailgauge.core.resample import BootstrapResult
+
+
+@dataclass(frozen=True)
+class ComparisonNote:
+    """A warning of the comparison: ``side`` is "first" or "second" for a warning of that input's
+    description (``descriptors`` name its members), or "comparison" for the contrasts' own
+    (``descriptors`` name comparison members, e.g. "differences.mean", "quantile_shifts[2]")."""
+
+    side: str
+    code: str
+    message: str
+    descriptors: list[str]
+
+
+class Notes:
+    """Warnings raised here (every ``add`` names its code as a literal, for the catalog check)."""
+
+    def __init__(self) -> None:
+        self.items: list[Note] = []
+
+    def add(self, code: ComparisonWarning, message: str, descriptors: Sequence[str] = ()) -> None:
+        assert code in COMPARISON_WARNINGS, code
+        self.items.append(Note(code, message, list(descriptors)))
+
+    def of_comparison(self) -> list[ComparisonNote]:
+        return [ComparisonNote("comparison", n.code, n.message, n.descriptors) for n in self.items]
+
+
+def finite_or_none(value) -> float | None:
+    """``value`` as a float when finite, else ``None`` (the caller says why)."""
+    value = float(value)
+    return value if math.isfinite(value) else None
+
+
+def side_of(a, b) -> str:
+    """Which input leaves a contrast undefined, for the warning's wording."""
+    if a is None and b is None:
+        return "each input"
+    return "the first input" if a is None else "the second input"
+
+
+def undefined_by_side(missing: dict[str, list[str]], what: str, notes: Notes) -> None:
+    """One ``difference_undefined`` warning per cause (first, second or both inputs)."""
+    for cause, members in missing.items():
+        if members:
+            notes.add(
+                "difference_undefined",
+                f"these {what} are undefined because {cause} leaves the descriptor undefined "
+                "(see its warnings)",
+                members,
+            )
+
+
+def note_conventions(described: tuple[Description, Description], notes: Notes) -> None:
+    """Warn when the inputs' estimators differ, so their differences mix definitions."""
+    a, b = described[0].conventions, described[1].conventions
+    parts = []
+    for attribute, label, affected in CONVENTION_MEMBERS:
+        x, y = getattr(a, attribute), getattr(b, attribute)
+        if x != y:
+            parts.append((f"{label}: first {x!r}, second {y!r}", affected))
+    if parts:
+        notes.add(
+            "conventions_differ",
+            "the inputs are described by different estimators, so these differences mix definitions ("
+            + "; ".join(text for text, _ in parts) + ")",
+            [n if n == "quantile_shifts" else f"differences.{n}" for _, names in parts for n in names],
+        )
+
+
+class IntervalNotes:
+    """Collects why contrasts lack an interval or fell back, then words the warnings once."""
+
+    def __init__(self) -> None:
+        self.fallbacks: dict[str, list[str]] = {}
+        self.undefined: dict[str, list[str]] = {}
+        self.not_offered: dict[str, list[str]] = {}
+
+    def record(self, member: str, result: BootstrapResult) -> None:
+        if result.reason is not None:
+            target = self.fallbacks if result.interval is not None else self.undefined
+            target.setdefault(result.reason, []).append(member)
+
+    def skip(self, member: str, reason: str) -> None:
+        self.not_offered.setdefault(reason, []).append(member)
+
+    def emit(self, notes: Notes) -> None:
+        for reason, members in self.fallbacks.items():
+            notes.add(
+                "bca_fallback",
+                f"BCa could not be computed ({reason}); the percentile interval is given",
+                members,
+            )
+        for reason, members in self.undefined.items():
+            notes.add("interval_undefined", f"no bootstrap interval: {reason}", members)
+        for reason, members in self.not_offered.items():
+            notes.add("interval_not_offered", f"no bootstrap interval: {reason}", members)
