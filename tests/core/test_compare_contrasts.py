@@ -1,0 +1,111 @@
+"""Contrasts (tailgauge.core.compare.contrasts): differences, ratios, quantile shifts and
+standardized quantiles, exactly second minus first (or over first) of the two descriptions, and
+their intervals read from the two inputs' own replicates (kept by describe).
+
+Every random generator is seeded; nothing here depends on timing.
+"""
+
+from __future__ import annotations
+
+import dataclasses
+
+import numpy as np
+import pytest
+
+from tailgauge.core import DescribeOptions, compare, from_array, from_table
+from tailgauge.core.compare import SCALE_DESCRIPTORS
+from tailgauge.core.describe import SCALAR_DESCRIPTORS
+from tests.core.comparison_cases import SAMPLES, interval, named, two_samples  # noqa: F401 (two_samples is a fixture)
+
+
+def test_differences_equal_second_minus_first_of_the_two_descriptions_exactly(two_samples):
+    before, after = two_samples
+    counts = np.unique(np.round(after), return_counts=True)
+    second = from_table(counts[0], counts[1].astype(np.float64), probabilities=False, normalise=False)
+    result = compare(from_array(before), second, DescribeOptions(), kinds=("samples", "table"))
+    assert set(result.differences) == set(SCALAR_DESCRIPTORS)
+    checked = 0
+    for name in SCALAR_DESCRIPTORS:
+        a, b = result.first.descriptors[name].value, result.second.descriptors[name].value
+        got = result.differences[name].value
+        if a is None or b is None:
+            assert got is None, name
+            assert f"differences.{name}" in named(result, "difference_undefined"), name
+        else:
+            assert got == b - a, name  # exact: the same float operation
+            checked += 1
+    assert checked >= 20
+    # The table has no observation order: its lag-1 autocorrelation (and so the difference) is undefined.
+    assert result.differences["lag1_autocorrelation"].value is None
+    assert set(result.ratios) == set(SCALE_DESCRIPTORS)
+    for name in SCALE_DESCRIPTORS:
+        a, b = result.first.descriptors[name].value, result.second.descriptors[name].value
+        assert result.ratios[name].value == b / a, name
+    for i, shift in enumerate(result.quantile_shifts):
+        assert shift.probability == result.first.quantiles[i].probability
+        assert shift.value == result.second.quantiles[i].value - result.first.quantiles[i].value
+
+
+def test_intervals_of_shifts_and_standardized_quantiles_and_what_gets_none(two_samples):
+    before, after = two_samples
+    options = dataclasses.replace(interval("percentile", 1000, 8), probabilities=(0.0, 0.1, 0.5, 0.9, 1.0))
+    result = compare(from_array(before), from_array(after), options, kinds=SAMPLES)
+    rep_a = result.first.resampling.replicates.values
+    rep_b = result.second.resampling.replicates.values
+    for i, shift in enumerate(result.quantile_shifts):
+        if shift.probability in (0.0, 1.0):
+            assert shift.interval is None  # the extremes again: not offered
+            assert f"quantile_shifts[{i}]" in named(result, "interval_not_offered")
+            continue
+        low, high = np.quantile(rep_b[f"quantile:{i}"][0] - rep_a[f"quantile:{i}"][0], [0.025, 0.975])
+        assert (shift.interval.low, shift.interval.high) == pytest.approx((low, high), rel=1e-12)
+    middle = result.standardized_quantiles[3]  # p = 0.9
+    z = lambda r: (r["quantile:3"][0] - r["mean"][0]) / r["standard_deviation"][0]  # noqa: E731
+    low, high = np.quantile(z(rep_b) - z(rep_a), [0.025, 0.975])
+    assert (middle.z.interval.low, middle.z.interval.high) == pytest.approx((low, high), rel=1e-9)
+    # Extremes, serial order and descriptors the engine does not resample: null intervals, said why.
+    not_offered = named(result, "interval_not_offered")
+    for name in ("minimum", "maximum", "range", "lag1_autocorrelation", "medcouple", "l_scale"):
+        assert result.differences[name].interval is None
+        assert f"differences.{name}" in not_offered
+    effect = result.standardized_mean_difference
+    assert effect.interval.low < effect.value < effect.interval.high
+
+
+# ----------------------------------------------------------------------------------------------
+# Degenerate inputs: null plus a reason
+# ----------------------------------------------------------------------------------------------
+
+
+def test_ratios_and_standardized_quantiles_of_constant_data_are_null_with_a_reason():
+    constant = from_array(np.full(10, 5.0))
+    varied = from_array(np.array([1.0, 2.0, 4.0, 4.0, 5.0, 7.0, 9.0, 9.5, 10.0, 12.0]))
+    result = compare(constant, varied, DescribeOptions(), kinds=SAMPLES)
+    for name in ("variance", "standard_deviation", "interquartile_range", "median_absolute_deviation"):
+        assert result.ratios[name].value is None
+        assert f"ratios.{name}" in named(result, "ratio_undefined")
+    # The reverse ratio (first varied, second constant) is a legitimate zero.
+    reverse = compare(varied, constant, DescribeOptions(), kinds=SAMPLES)
+    assert reverse.ratios["standard_deviation"].value == 0.0
+    for i, quantile in enumerate(result.standardized_quantiles):
+        assert quantile.z.first is None and quantile.z.second is not None and quantile.z.difference is None
+        assert f"standardized_quantiles[{i}].z.first" in named(result, "difference_undefined")
+    # The differences of constant data are still defined where the descriptor is.
+    assert result.differences["mean"].value == varied.values.mean() - 5.0
+    assert result.differences["skewness"].value is None
+    assert "differences.skewness" in named(result, "difference_undefined")
+
+
+def test_contrasts_beyond_float64_are_null_with_not_representable():
+    """1.7e308 - (-1.7e308) overflows: the difference is None and named, never inf; the same
+    values' ratio (-1) is representable."""
+    first = from_array(np.array([-1.7e308, -1.7e308, -1.6e308]))
+    second = from_array(np.array([1.7e308, 1.7e308, 1.6e308]))
+    result = compare(first, second, DescribeOptions(), kinds=SAMPLES)
+    for name in ("minimum", "maximum", "median"):
+        assert result.differences[name].value is None, name
+        assert f"differences.{name}" in named(result, "not_representable"), name
+    # The median's shift overflows too (p = 0.5 is among the default probabilities).
+    middle = [i for i, s in enumerate(result.quantile_shifts) if s.probability == 0.5]
+    assert middle and result.quantile_shifts[middle[0]].value is None
+    assert f"quantile_shifts[{middle[0]}]" in named(result, "not_representable")
