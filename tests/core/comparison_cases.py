@@ -25,8 +25,12 @@ def interval(method="percentile", resamples=2000, seed=11, level=0.95) -> Descri
 
 def of_arrays(first, second, options=None):
     """compare() of two raw samples given as arrays."""
-    return compare(from_array(np.asarray(first)), from_array(np.asarray(second)), options or DescribeOptions(),
-                   kinds=SAMPLES)
+    return compare(
+        from_array(np.asarray(first)),
+        from_array(np.asarray(second)),
+        options or DescribeOptions(),
+        kinds=SAMPLES,
+    )
 
 
 def table(values, weights, *, probabilities=False):

@@ -26,7 +26,15 @@ from tailgauge.core import (
 )
 from tailgauge.core import resample
 from tailgauge.core.compare import side_seeds
-from tests.core.comparison_cases import SAMPLES, codes, interval, named, of_arrays, table, two_samples  # noqa: F401 (two_samples is a fixture)
+from tests.core.comparison_cases import (  # noqa: F401 (two_samples is a fixture)
+    SAMPLES,
+    codes,
+    interval,
+    named,
+    of_arrays,
+    table,
+    two_samples,
+)
 
 
 def test_warnings_of_each_input_are_kept_with_their_side(two_samples):

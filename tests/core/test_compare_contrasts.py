@@ -15,7 +15,12 @@ import pytest
 from tailgauge.core import DescribeOptions, compare, from_array, from_table
 from tailgauge.core.compare import SCALE_DESCRIPTORS
 from tailgauge.core.describe import SCALAR_DESCRIPTORS
-from tests.core.comparison_cases import SAMPLES, interval, named, two_samples  # noqa: F401 (two_samples is a fixture)
+from tests.core.comparison_cases import (  # noqa: F401 (two_samples is a fixture)
+    SAMPLES,
+    interval,
+    named,
+    two_samples,
+)
 
 
 def test_differences_equal_second_minus_first_of_the_two_descriptions_exactly(two_samples):

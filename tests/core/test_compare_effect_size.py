@@ -27,7 +27,17 @@ from scipy import special, stats
 
 from tailgauge.core import DescribeOptions, WeightMeaning, compare, from_array, from_bins, from_samples
 from tailgauge.core.compare import hedges_correction
-from tests.core.comparison_cases import MOUSE_CONTROL, MOUSE_TREATMENT, SAMPLES, interval, named, of_arrays, table, two_samples, warned  # noqa: F401 (two_samples is a fixture)
+from tests.core.comparison_cases import (  # noqa: F401 (two_samples is a fixture)
+    MOUSE_CONTROL,
+    MOUSE_TREATMENT,
+    SAMPLES,
+    interval,
+    named,
+    of_arrays,
+    table,
+    two_samples,
+    warned,
+)
 
 
 # ----------------------------------------------------------------------------------------------

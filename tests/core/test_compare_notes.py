@@ -23,7 +23,8 @@ def test_interval_notes_group_members_by_reason_and_kind():
          "is given", ["differences.mean", "differences.median"]),
         ("interval_undefined", "no bootstrap interval: some resamples leave it undefined",
          ["differences.skewness"]),
-        ("interval_not_offered", "no bootstrap interval: extremes", ["differences.minimum", "differences.range"]),
+        ("interval_not_offered", "no bootstrap interval: extremes",
+         ["differences.minimum", "differences.range"]),
     ]
     assert {n.side for n in notes.of_comparison()} == {"comparison"}
 

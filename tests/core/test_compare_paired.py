@@ -28,7 +28,15 @@ from tailgauge.core import compare, from_array
 from tailgauge.core import resample
 from tailgauge.core.compare.paired import paired_rounds
 from tailgauge.core.resample import Replicates
-from tests.core.comparison_cases import MOUSE_CONTROL, MOUSE_TREATMENT, SAMPLES, interval, named, of_arrays, two_samples  # noqa: F401 (two_samples is a fixture)
+from tests.core.comparison_cases import (  # noqa: F401 (two_samples is a fixture)
+    MOUSE_CONTROL,
+    MOUSE_TREATMENT,
+    SAMPLES,
+    interval,
+    named,
+    of_arrays,
+    two_samples,
+)
 
 
 def test_mouse_data_mean_difference_and_its_standard_errors():

@@ -10,9 +10,22 @@ import numpy as np
 import pytest
 from scipy import stats
 
-from tailgauge.core import DescribeOptions, WeightMeaning, compare, from_array, from_bins, from_samples, from_table
+from tailgauge.core import (
+    DescribeOptions,
+    WeightMeaning,
+    compare,
+    from_array,
+    from_bins,
+    from_samples,
+    from_table,
+)
 from tailgauge.core.compare import KS_EXACT_LIMIT
-from tests.core.comparison_cases import SAMPLES, codes, two_samples, warned  # noqa: F401 (two_samples is a fixture)
+from tests.core.comparison_cases import (  # noqa: F401 (two_samples is a fixture)
+    SAMPLES,
+    codes,
+    two_samples,
+    warned,
+)
 
 
 def test_kolmogorov_smirnov_on_samples_equals_scipy(two_samples):

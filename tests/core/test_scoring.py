@@ -14,7 +14,10 @@ from scipy import stats
 
 from tailgauge.core import DescribeOptions, describe, from_array, standardize
 from tailgauge.core.scoring import standardized
-from tests.core.comparison_cases import table, two_samples  # noqa: F401 (two_samples is a fixture)
+from tests.core.comparison_cases import (  # noqa: F401 (two_samples is a fixture)
+    table,
+    two_samples,
+)
 
 
 def test_scores_equal_the_hand_formulas(two_samples):
