@@ -3,7 +3,7 @@
 Path, method, operation id, summary, description, tag, request and response types, the
 statuses of its problem responses, the media types of its answers and its example live here
 and nowhere else: ``routes`` builds the litestar handlers from this table (the handler bodies
-are keyed by operation id, and a missing or extra body is an error at import), and ``openapi``
+are keyed by operation id, and a missing or extra body is an error when the app is built), and ``openapi``
 builds the published document from it. The schema page and the document itself
 (``/docs``, ``/docs/assets``, ``/openapi.json``) describe the API and are not part of it.
 """
