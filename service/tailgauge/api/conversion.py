@@ -92,6 +92,13 @@ def _is_mapping(hint: Any) -> bool:
     return typing.get_origin(hint) is dict
 
 
+def _hints(kind: type) -> dict[str, Any]:
+    try:
+        return typing.get_type_hints(kind)
+    except NameError as error:  # an annotation naming a type its module does not import at run time
+        raise ConversionMismatch(f"cannot read the field types of {kind.__qualname__}: {error}") from error
+
+
 def _one(classes: set[type], where: str) -> type:
     if len(classes) != 1:
         names = sorted(c.__name__ for c in classes) or ["no result or Struct type"]
@@ -132,8 +139,8 @@ def _fields(result: type, struct: type) -> list[tuple[type, type]]:
     if problems:
         raise ConversionMismatch("; ".join(problems))
 
-    result_hints = typing.get_type_hints(result)
-    struct_hints = typing.get_type_hints(struct)
+    result_hints = _hints(result)
+    struct_hints = _hints(struct)
     nested: list[tuple[type, type]] = []
     for name in (n for n in struct_names if n in result_names):
         results = _named(result_hints[name], _is_result)
@@ -142,7 +149,7 @@ def _fields(result: type, struct: type) -> list[tuple[type, type]]:
         if _is_mapping(result_hints[name]) and structs and not _is_mapping(struct_hints[name]):
             record = _one(structs, where)
             values = _one(results, where)
-            record_hints = typing.get_type_hints(record)
+            record_hints = _hints(record)
             for member in _record_members(record, result, name):
                 kind = _one(structs_in(record_hints[member.name]), f"{where}.{member.name}")
                 nested.append((values, kind))
