@@ -146,8 +146,8 @@ def test_the_app_stays_up_after_the_whole_corpus(make_client):
 class _LimitedServer(GunicornServer):
     """tests/system's gunicorn (2 workers, free 127.0.0.1 port) with the corpus's limits."""
 
-    def _environment(self) -> dict[str, str]:
-        environ = super()._environment()
+    def environment(self) -> dict[str, str]:
+        environ = super().environment()
         environ.update({f"TAILGAUGE_{name.upper()}": str(value) for name, value in INDEX["settings"].items()})
         return environ
 

@@ -10,6 +10,7 @@ from pathlib import Path
 import pytest
 
 from tailgauge.api import openapi
+from tailgauge.api.operations import OPERATIONS
 
 COMMITTED = Path(__file__).resolve().parents[2] / "openapi" / "openapi.json"
 UNDOCUMENTED = {"/docs", "/docs/assets", "/openapi.json"}
@@ -208,11 +209,11 @@ def test_docs_page_is_offline(client):
 
 
 def test_every_compute_operation_has_an_example_that_the_server_accepts(client, document):
-    from tailgauge.api.openapi import EXAMPLES
-
+    examples = {op.path: op.example for op in OPERATIONS if op.example is not None}
     posts = [path for path, item in document["paths"].items() if "post" in item]
-    assert sorted(posts) == sorted(EXAMPLES)
+    assert sorted(posts) == sorted(examples)
     for path in posts:
         example = document["paths"][path]["post"]["requestBody"]["content"]["application/json"]["example"]
+        assert example == examples[path]
         response = client.post(path, content=json.dumps(example), headers={"content-type": "application/json"})
         assert response.status_code == 200, (path, response.text)

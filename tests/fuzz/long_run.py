@@ -60,8 +60,8 @@ class FuzzedServer(GunicornServer):
         super().__init__(workers=2)
         self.strict_warnings = strict_warnings
 
-    def _environment(self) -> dict[str, str]:
-        environ = super()._environment()
+    def environment(self) -> dict[str, str]:
+        environ = super().environment()
         environ["TAILGAUGE_MAX_RESAMPLE_WORK"] = "2000000"
         if self.strict_warnings:
             environ["PYTHONWARNINGS"] = "error::RuntimeWarning"

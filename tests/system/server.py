@@ -108,7 +108,8 @@ class GunicornServer:
         """The command that becomes the gunicorn master (a subclass may wrap it; it must exec gunicorn)."""
         return _gunicorn_command()
 
-    def _environment(self) -> dict[str, str]:
+    def environment(self) -> dict[str, str]:
+        """The server's environment (a subclass may add settings of its own)."""
         tmp = self.root / "tmp"
         metrics = self.root / "metrics"
         tmp.mkdir(exist_ok=True)
@@ -134,7 +135,7 @@ class GunicornServer:
                 self.process = subprocess.Popen(
                     self.command(),
                     cwd=REPO,
-                    env=self._environment(),
+                    env=self.environment(),
                     stdin=subprocess.DEVNULL,
                     stdout=log,
                     stderr=subprocess.STDOUT,
@@ -248,8 +249,12 @@ class GunicornServer:
     def __enter__(self) -> GunicornServer:
         return self.start()
 
+    def cleanup(self) -> None:
+        """Remove the server's directory (its log, metric files and temporary files)."""
+        self._dir.cleanup()
+
     def __exit__(self, *exc_info) -> None:
         try:
             self.stop()
         finally:
-            self._dir.cleanup()
+            self.cleanup()

@@ -81,8 +81,8 @@ class HostileServer(GunicornServer):
         super().__init__(workers=workers)
         self.settings = settings
 
-    def _environment(self) -> dict[str, str]:
-        environ = super()._environment()
+    def environment(self) -> dict[str, str]:
+        environ = super().environment()
         environ.update(self.settings)
         return environ
 
@@ -810,7 +810,7 @@ def test_zero_workers_is_refused_at_startup():
     server = GunicornServer(workers=0)
     try:
         server.port = free_port()
-        environ = server._environment()
+        environ = server.environment()
         with server.log_path.open("ab") as log:
             server.process = subprocess.Popen(
                 _gunicorn_command(), cwd=REPO, env=environ, stdin=subprocess.DEVNULL, stdout=log,
@@ -828,7 +828,7 @@ def test_zero_workers_is_refused_at_startup():
             f"exit code {code}, but no clear message:\n{output[-1500:]}")
     finally:
         server.stop()
-        server._dir.cleanup()
+        server.cleanup()
 
 
 def _http_get_quiet(bind: str, path: str) -> str:

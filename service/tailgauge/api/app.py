@@ -128,10 +128,7 @@ def create_app(settings: Settings | None = None) -> Litestar:
 
     return _ObservedLitestar(
         route_handlers=[
-            *routes.COMPUTE_HANDLERS,
-            *routes.INFO_HANDLERS,
-            *routes.HEALTH_HANDLERS,
-            *routes.METRICS_HANDLERS,
+            *routes.handlers(),
             openapi_document,
             schema_page,
             asset,

@@ -14,25 +14,26 @@ from typing import TypeVar
 import msgspec
 import numpy as np
 
-from tailgauge.api import admission
+from tailgauge.api import admission, schemas
+from tailgauge.api.conversion import to_message
 from tailgauge.api.media import Codec
 from tailgauge.api.problems import ApiProblem, invalid_body, json_path
-from tailgauge.api.schemas import PartialState as PartialStateMessage
 from tailgauge.api.schemas import (
-    BinsInput,
+    BinsData,
     BinsRequest,
     ComparisonRequest,
     ComparisonResponse,
     ComparisonWarning,
+    CoreChoices,
     DescriptionResponse,
     MergedDescriptionResponse,
     MergeRequest,
     ProblemLocation,
     ResultWarning,
+    SamplesData,
     SamplesInput,
     SamplesRequest,
-    Scores,
-    SummaryOptions,
+    TableData,
     TableInput,
     TableRequest,
 )
@@ -122,19 +123,26 @@ def _admitted(inputs, options: DescribeOptions, ticket) -> DescribeOptions:
     return dataclasses.replace(options, admitted=True)
 
 
-def _describe_options(options: SummaryOptions, settings: Settings, decoding: float = 0.0) -> DescribeOptions:
+def describe_options(options: CoreChoices, settings: Settings, decoding: float = 0.0) -> DescribeOptions:
+    """The core's options for a request's option set, within this server's limits.
+
+    Every option set answers the same typed questions (an option an endpoint does not offer is
+    a property holding the core's default), so this is the one place a request's options become
+    the core's. ``decoding``: bytes already held for the decoded body, taken from the memory the
+    computation may use.
+    """
     if options.moment_order > settings.max_moment_order:
         raise LimitExceeded(
             detail=f"moment_order may be at most {settings.max_moment_order} on this server",
-            locations=[Location("$.options.moment_order", f"at most {settings.max_moment_order}; lower it")],
+            locations=[Location("options.moment_order", f"at most {settings.max_moment_order}; lower it")],
         )
     if len(options.probabilities) > settings.max_probabilities:
         raise LimitExceeded(
             detail=f"at most {settings.max_probabilities} probabilities per request on this server",
-            locations=[Location("$.options.probabilities", "too many probabilities; send fewer")],
+            locations=[Location("options.probabilities", "too many probabilities; send fewer")],
         )
     interval = None
-    requested = getattr(options, "interval", None)
+    requested = options.interval
     if requested is not None:
         seed = requested.seed
         interval = IntervalOptions(
@@ -154,10 +162,10 @@ def _describe_options(options: SummaryOptions, settings: Settings, decoding: flo
         skewness_estimator=options.skewness_estimator,
         kurtosis_estimator=options.kurtosis_estimator,
         probabilities=tuple(options.probabilities),
-        quantile_type=getattr(options, "quantile_type", None),
+        quantile_type=options.quantile_type,
         moment_order=options.moment_order,
         modes_limit=settings.max_modes_listed,
-        sheppard_correction=getattr(options, "sheppard_correction", False),
+        sheppard_correction=options.sheppard_correction,
         contributions_limit=settings.max_contributions_listed,
     )
 
@@ -167,7 +175,7 @@ def _with_scores(message: DescriptionResponse | ComparisonResponse, description,
     if not points:
         return message
     scores = standardize(description, points)
-    message.scores = msgspec.convert(scores, Scores, from_attributes=True)
+    message.scores = to_message(scores, schemas.Scores)
     if isinstance(message, ComparisonResponse):
         message.warnings.extend(
             ComparisonWarning(side="comparison", code=n.code, message=n.message, descriptors=list(n.descriptors))
@@ -183,10 +191,10 @@ def _with_scores(message: DescriptionResponse | ComparisonResponse, description,
 def _answer(
     description, count: int, codec: Codec, points: list[float], state: PartialState | None = None
 ) -> Computed:
-    message = msgspec.convert(description, DescriptionResponse, from_attributes=True)
+    message = to_message(description, DescriptionResponse)
     message = _with_scores(message, description, points)
     if state is not None:
-        message.partial_state = _state_message(state)
+        message.partial_state = to_message(state, schemas.PartialState)
     resamples = description.resampling.resamples if description.resampling is not None else 0
     return Computed(codec.encode(message), count, resamples)
 
@@ -201,7 +209,7 @@ def _relocated(error: DescriptorError, prefix: str) -> DescriptorError:
     )
 
 
-def _samples_data(message: SamplesRequest | SamplesInput, missing: str, settings: Settings, prefix: str = "$"):
+def _samples_data(message: SamplesData, missing: str, settings: Settings, prefix: str = "$"):
     values = _float64s(message.values, f"{prefix}.values", missing=True)
     _check_count(len(values), f"{prefix}.values", settings)
     weights = None if message.weights is None else _float64s(message.weights, f"{prefix}.weights", missing=False)
@@ -217,7 +225,7 @@ def _samples_data(message: SamplesRequest | SamplesInput, missing: str, settings
     return data, len(values)
 
 
-def _table_data(message: TableRequest | TableInput, normalize: bool, settings: Settings, prefix: str = "$"):
+def _table_data(message: TableData, normalize: bool, settings: Settings, prefix: str = "$"):
     _check_count(len(message.outcomes), f"{prefix}.outcomes", settings)
     count = len(message.outcomes)
     values = np.fromiter((o.value for o in message.outcomes), dtype=np.float64, count=count)
@@ -231,7 +239,7 @@ def _table_data(message: TableRequest | TableInput, normalize: bool, settings: S
     return data, count
 
 
-def _bins_data(message: BinsRequest | BinsInput, settings: Settings, prefix: str = "$"):
+def _bins_data(message: BinsData, settings: Settings, prefix: str = "$"):
     counts = _float64s(message.counts, f"{prefix}.counts", missing=False)
     _check_count(len(counts), f"{prefix}.counts", settings)
     try:
@@ -241,21 +249,11 @@ def _bins_data(message: BinsRequest | BinsInput, settings: Settings, prefix: str
     return data, len(counts)
 
 
-def _state_message(state: PartialState) -> PartialStateMessage:
-    return PartialStateMessage(
-        count=state.count,
-        mean=state.mean,
-        central_sums=list(state.central_sums),
-        minimum=state.minimum,
-        maximum=state.maximum,
-    )
-
-
 def describe_samples(body: bytes, codec: Codec, answer: Codec, settings: Settings) -> Computed:
     with admission.admitted(body, codec, settings) as ticket:
         request = _decode(body, SamplesRequest, codec)
         data, count = _samples_data(request, request.options.missing, settings)
-        options = _admitted([data], _describe_options(request.options, settings, ticket.amount), ticket)
+        options = _admitted([data], describe_options(request.options, settings, ticket.amount), ticket)
         description = describe(data, options, kind="samples")
         state = None
         if request.options.partial_state:
@@ -281,11 +279,11 @@ def _merge_states(body: bytes, codec: Codec, answer: Codec, settings: Settings) 
     if request.sketches:
         sketches = combine_sketches(request.sketches, path="sketches")
     merged = merge_states(states, path="states")
-    options = _describe_options(request.options, settings)
+    options = describe_options(request.options, settings)
     description = describe_state(merged, options, quantiles_from=sketches)
-    message = msgspec.convert(description, MergedDescriptionResponse, from_attributes=True)
+    message = to_message(description, MergedDescriptionResponse)
     message = _with_scores(message, description, request.options.score)
-    message.partial_state = _state_message(merged)
+    message.partial_state = to_message(merged, schemas.PartialState)
     return Computed(answer.encode(message), len(states), 0)
 
 
@@ -293,7 +291,7 @@ def describe_table(body: bytes, codec: Codec, answer: Codec, settings: Settings)
     with admission.admitted(body, codec, settings) as ticket:
         request = _decode(body, TableRequest, codec)
         data, count = _table_data(request, request.options.normalize, settings)
-        options = _admitted([data], _describe_options(request.options, settings, ticket.amount), ticket)
+        options = _admitted([data], describe_options(request.options, settings, ticket.amount), ticket)
         return _answer(describe(data, options, kind="table"), count, answer, request.options.score)
 
 
@@ -301,7 +299,7 @@ def describe_bins(body: bytes, codec: Codec, answer: Codec, settings: Settings) 
     with admission.admitted(body, codec, settings) as ticket:
         request = _decode(body, BinsRequest, codec)
         data, count = _bins_data(request, settings)
-        options = _admitted([data], _describe_options(request.options, settings, ticket.amount), ticket)
+        options = _admitted([data], describe_options(request.options, settings, ticket.amount), ticket)
         return _answer(describe(data, options, kind="bins"), count, answer, request.options.score)
 
 
@@ -323,10 +321,10 @@ def _compare(body: bytes, codec: Codec, answer: Codec, settings: Settings, ticke
     first, first_count, first_kind = _input_data(request.first, settings, "$.first")
     second, second_count, second_kind = _input_data(request.second, settings, "$.second")
     _check_count(first_count + second_count, "$.second", settings)
-    options = _describe_options(request.options, settings, ticket.amount)
+    options = describe_options(request.options, settings, ticket.amount)
     options = _admitted([first, second], options, ticket)
     comparison = compare(first, second, options, kinds=(first_kind, second_kind))
-    message = msgspec.convert(comparison, ComparisonResponse, from_attributes=True)
+    message = to_message(comparison, ComparisonResponse)
     message = _with_scores(message, comparison.first, request.options.score)
     resamples = 0 if comparison.resampling is None else 2 * comparison.resampling.resamples
     return Computed(answer.encode(message), first_count + second_count, resamples)

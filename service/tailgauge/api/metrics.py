@@ -8,8 +8,6 @@ worker: see service/tailgauge/runtime/metric_files.py for how the metrics degrad
 
 from __future__ import annotations
 
-import os
-
 from prometheus_client import CONTENT_TYPE_LATEST, REGISTRY, CollectorRegistry, Counter, Histogram, generate_latest
 
 from tailgauge.runtime import metric_files
@@ -49,7 +47,7 @@ BUDGET_REJECTIONS = Counter(
 
 def exposition() -> bytes:
     """The text exposition format of every metric, summed over worker processes when multiprocess."""
-    directory = os.environ.get("PROMETHEUS_MULTIPROC_DIR")
+    directory = metric_files.multiprocess_directory()
     if directory:
         registry = CollectorRegistry()
         registry.register(metric_files.DirectoryCollector(directory))

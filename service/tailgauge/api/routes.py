@@ -1,20 +1,26 @@
-"""HTTP handlers: negotiate media types, hand the bytes to a worker thread, return the bytes."""
+"""HTTP handlers: negotiate media types, hand the bytes to a worker thread, return the bytes.
+
+Each handler is built from its entry in the endpoint table (``tailgauge.api.operations``): the
+path, method and name come from there; this module gives only the bodies, keyed by operation id.
+"""
 
 from __future__ import annotations
 
+import inspect
 from functools import partial
 
 import anyio.to_thread
-from litestar import Request, Response, get, post
-
 import msgspec
+from litestar import Request, Response, get, post
+from litestar.handlers import HTTPRouteHandler
 
 from tailgauge.api import endpoints, media, metrics, schemas
 from tailgauge.api.media import MediaTypeError
+from tailgauge.api.operations import OPERATIONS, Operation
 from tailgauge.api.problems import ApiProblem
 from tailgauge.api.schemas import ProblemLocation
-from tailgauge.runtime import metric_files
 from tailgauge.core import catalog
+from tailgauge.runtime import metric_files
 from tailgauge.runtime.lifecycle import draining
 
 _STATUS_SLUG = {415: "unsupported-media-type", 406: "not-acceptable"}
@@ -56,37 +62,21 @@ async def _compute(request: Request, work, endpoint: str) -> Response[bytes]:
     return Response(result.body, media_type=answer_type)
 
 
-@post("/v1/descriptors/samples", status_code=200, include_in_schema=False)
-async def describe_samples(request: Request) -> Response[bytes]:
-    return await _compute(request, endpoints.describe_samples, "samples")
 
 
-@post("/v1/descriptors/table", status_code=200, include_in_schema=False)
-async def describe_table(request: Request) -> Response[bytes]:
-    return await _compute(request, endpoints.describe_table, "table")
+def _computing(work, label: str):
+    """The body of a compute operation: ``work`` (in ``endpoints``) in a thread; metrics under ``label``."""
+
+    async def compute(request: Request) -> Response[bytes]:
+        return await _compute(request, work, label)
+
+    return compute
 
 
-@post("/v1/descriptors/bins", status_code=200, include_in_schema=False)
-async def describe_bins(request: Request) -> Response[bytes]:
-    return await _compute(request, endpoints.describe_bins, "bins")
-
-
-@post("/v1/descriptors/merge", status_code=200, include_in_schema=False)
-async def merge_states(request: Request) -> Response[bytes]:
-    return await _compute(request, endpoints.merge_states_request, "merge")
-
-
-@post("/v1/comparisons", status_code=200, include_in_schema=False)
-async def compare_inputs(request: Request) -> Response[bytes]:
-    return await _compute(request, endpoints.compare_inputs, "comparisons")
-
-
-@get("/health/live", include_in_schema=False, sync_to_thread=False)
 def live() -> Response[bytes]:
     return Response(b'{"status":"ok"}', media_type=media.JSON)
 
 
-@get("/health/ready", include_in_schema=False, sync_to_thread=False)
 def ready() -> Response[bytes]:
     # A note says what works less well in this worker without making it unready (it still serves).
     notes = [note for note in (metric_files.degradation(),) if note]
@@ -96,7 +86,6 @@ def ready() -> Response[bytes]:
     return Response(msgspec.json.encode(schemas.Readiness(status="ok", notes=notes)), media_type=media.JSON)
 
 
-@get("/metrics", include_in_schema=False, sync_to_thread=False)
 def metrics_exposition() -> Response[bytes]:
     return Response(metrics.exposition(), media_type=metrics.CONTENT_TYPE)
 
@@ -120,13 +109,46 @@ _CATALOG = msgspec.json.encode(
 _CATALOG_MSGPACK = msgspec.msgpack.encode(msgspec.json.decode(_CATALOG))
 
 
-@get("/v1/catalog", include_in_schema=False, sync_to_thread=False)
 def describe_catalog(request: Request) -> Response[bytes]:
     codec, answer_type = _answer(request)
     return Response(_CATALOG if codec is media.JSON_CODEC else _CATALOG_MSGPACK, media_type=answer_type)
 
 
-COMPUTE_HANDLERS = [describe_samples, describe_table, describe_bins, merge_states, compare_inputs]
-INFO_HANDLERS = [describe_catalog]
-HEALTH_HANDLERS = [live, ready]
-METRICS_HANDLERS = [metrics_exposition]
+# Operation id -> its body. Compute bodies run in a worker thread themselves; the others are
+# cheap and run on the event loop. Metric labels of the compute endpoints are API (dashboards).
+BODIES = {
+    "describeSamples": _computing(endpoints.describe_samples, "samples"),
+    "describeTable": _computing(endpoints.describe_table, "table"),
+    "describeBins": _computing(endpoints.describe_bins, "bins"),
+    "mergeStates": _computing(endpoints.merge_states_request, "merge"),
+    "compare": _computing(endpoints.compare_inputs, "comparisons"),
+    "catalog": describe_catalog,
+    "metrics": metrics_exposition,
+    "live": live,
+    "ready": ready,
+}
+
+
+def route(operation: Operation, body) -> HTTPRouteHandler:
+    """The litestar handler of ``operation`` running ``body`` (documented by ``openapi``, not litestar)."""
+    decorator = {"get": get, "post": post}[operation.method]
+    options = {"include_in_schema": False, "name": operation.operation_id}
+    if operation.method == "post":
+        options["status_code"] = 200  # litestar's default for POST is 201
+    if not inspect.iscoroutinefunction(body):
+        options["sync_to_thread"] = False
+    return decorator(operation.path, **options)(body)
+
+
+def handlers() -> list[HTTPRouteHandler]:
+    """One handler per operation of the table; a body without an operation, or the reverse, is an error."""
+    declared = {op.operation_id for op in OPERATIONS}
+    if declared != set(BODIES):
+        raise RuntimeError(
+            f"the endpoint table and the handler bodies disagree: operations without a body "
+            f"{sorted(declared - set(BODIES))}, bodies without an operation {sorted(set(BODIES) - declared)}"
+        )
+    return [route(op, BODIES[op.operation_id]) for op in OPERATIONS]
+
+
+__all__ = ["BODIES", "handlers", "route"]

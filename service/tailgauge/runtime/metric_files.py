@@ -111,7 +111,7 @@ class _Process:
     def file_for(self, prefix: str) -> BackedMmapedDict:
         file = self.files.get(prefix)
         if file is None:
-            directory = os.environ.get("PROMETHEUS_MULTIPROC_DIR") or ""
+            directory = multiprocess_directory() or ""
             file = BackedMmapedDict(os.path.join(directory, f"{prefix}_{self.pid}.db"))
             self.files[prefix] = file
         return file
@@ -186,13 +186,18 @@ class GuardedValue:
         return None
 
 
+def multiprocess_directory() -> str | None:
+    """The directory every worker writes its metric files to, or None when metrics stay in process."""
+    return os.environ.get("PROMETHEUS_MULTIPROC_DIR") or None
+
+
 def install() -> None:
     """Make metrics created from now on use :class:`GuardedValue` (when PROMETHEUS_MULTIPROC_DIR is set).
 
     prometheus-client reads ``values.ValueClass`` each time it creates a series; this is the one
     place that replaces it.
     """
-    if os.environ.get("PROMETHEUS_MULTIPROC_DIR"):
+    if multiprocess_directory():
         values.ValueClass = GuardedValue
 
 
@@ -278,4 +283,5 @@ __all__ = [
     "degradation",
     "fold_dead_worker",
     "install",
+    "multiprocess_directory",
 ]

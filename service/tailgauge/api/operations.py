@@ -1,0 +1,219 @@
+"""The endpoint table: every documented operation declared once.
+
+Path, method, operation id, summary, description, tag, request and response types, the
+statuses of its problem responses, the media types of its answers and its example live here
+and nowhere else: ``routes`` builds the litestar handlers from this table (the handler bodies
+are keyed by operation id, and a missing or extra body is an error when the app is built), and ``openapi``
+builds the published document from it. The schema page and the document itself
+(``/docs``, ``/docs/assets``, ``/openapi.json``) describe the API and are not part of it.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+
+from tailgauge.api import schemas
+from tailgauge.api.media import JSON, MSGPACK
+
+BODY_MEDIA_TYPES = (JSON, MSGPACK)
+TEXT = "text/plain"
+COMPUTE_PROBLEMS = (400, 401, 406, 413, 415, 422, 503)
+
+
+@dataclass(frozen=True)
+class Operation:
+    method: str
+    path: str
+    operation_id: str
+    summary: str
+    description: str
+    tag: str
+    request: type | None
+    # None: a text/plain answer (the metrics exposition)
+    response: type | None
+    # Statuses answered with an RFC 9457 problem document.
+    problems: tuple[int, ...] = ()
+    # Media types of a success; a request body may come in any of BODY_MEDIA_TYPES.
+    answers: tuple[str, ...] = BODY_MEDIA_TYPES
+    # Other statuses answered with the response type (status -> description).
+    other_answers: dict[int, str] = field(default_factory=dict)
+    # Whether the operation asks for a bearer token when the server is configured with tokens.
+    protected: bool = True
+    # A valid body (an invented scenario), shown by the schema page's "Try it out"; a test
+    # sends each one and expects a 200.
+    example: dict | None = None
+
+
+_EXAMPLES = {
+    "/v1/descriptors/samples": {
+        "values": [251.2, 249.8, 250.4, 252.9, 250.1, 249.5, 250.7, 251.0, 248.9, 250.3, 250.3],
+        "options": {"probabilities": [0.05, 0.5, 0.95]},
+    },
+    "/v1/descriptors/table": {
+        "outcomes": [{"value": 0, "weight": 412}, {"value": 1, "weight": 187}, {"value": 2, "weight": 61},
+                     {"value": 3, "weight": 17}, {"value": 4, "weight": 3}],
+        "weight_kind": "counts",
+    },
+    "/v1/descriptors/bins": {"edges": [0, 15, 30, 45, 60, None], "counts": [18, 64, 41, 12, 5]},
+    "/v1/descriptors/merge": {
+        "states": [
+            {"count": 4, "mean": 2.5, "central_sums": [5.0, 0.0, 10.25], "minimum": 1, "maximum": 4},
+            {"count": 2, "mean": 15.0, "central_sums": [50.0, 0.0, 1250.0], "minimum": 10, "maximum": 20},
+        ]
+    },
+    "/v1/comparisons": {
+        "first": {"kind": "samples", "values": [34, 41, 38, 45, 52, 39, 36, 48, 61, 40, 37, 44]},
+        "second": {"kind": "samples", "values": [31, 35, 33, 40, 58, 30, 34, 36, 29, 38, 33, 71]},
+        "options": {"probabilities": [0.5, 0.9]},
+    },
+}
+
+
+OPERATIONS = (
+    Operation(
+        method="post",
+        path="/v1/descriptors/samples",
+        operation_id="describeSamples",
+        summary="Describe a raw sample, optionally weighted",
+        description=(
+            "Every descriptor of raw observations: location, spread, moments, shape in the "
+            "Joanes & Gill families, quantiles by any Hyndman & Fan type, modes, the largest tail "
+            "contributors and lag-1 autocorrelation. Optional frequency or reliability weights. "
+            "Undefined results are null with a warning saying why."
+        ),
+        request=schemas.SamplesRequest,
+        response=schemas.DescriptionResponse,
+        problems=COMPUTE_PROBLEMS,
+        example=_EXAMPLES["/v1/descriptors/samples"],
+        tag="descriptors",
+    ),
+    Operation(
+        method="post",
+        path="/v1/descriptors/table",
+        operation_id="describeTable",
+        summary="Describe a table of outcomes with counts or probabilities",
+        description=(
+            "Counts: sample descriptors exactly as if each value were repeated its count times, "
+            "computed without expanding the table. Probabilities: the exact population descriptors "
+            "of a discrete distribution (probabilities must sum to 1 within 1e-9)."
+        ),
+        request=schemas.TableRequest,
+        response=schemas.DescriptionResponse,
+        problems=COMPUTE_PROBLEMS,
+        example=_EXAMPLES["/v1/descriptors/table"],
+        tag="descriptors",
+    ),
+    Operation(
+        method="post",
+        path="/v1/descriptors/bins",
+        operation_id="describeBins",
+        summary="Describe binned counts (a histogram)",
+        description=(
+            "Moments from bin midpoints (null while an open-ended bin holds data), grouped median and "
+            "quantiles by interpolation within bins, the modal class and interpolated grouped mode, "
+            "and optional Sheppard's corrections for equal widths."
+        ),
+        request=schemas.BinsRequest,
+        response=schemas.DescriptionResponse,
+        problems=COMPUTE_PROBLEMS,
+        example=_EXAMPLES["/v1/descriptors/bins"],
+        tag="descriptors",
+    ),
+    Operation(
+        method="post",
+        path="/v1/descriptors/merge",
+        operation_id="mergeStates",
+        summary="Describe the union of partial states computed where the data live",
+        description=(
+            "Exact moment descriptors of the union of many parts of one sample from their partial "
+            "states (Pebay 2008 pairwise formulas, merged as a tree), minimum and maximum; with KLL "
+            "sketches of the same parts, approximate quantiles with the sketches' rank error. The "
+            "merged state is returned too, so merges can be merged again. States come from "
+            "options.partial_state on /v1/descriptors/samples or from tailgauge.core.partial_state."
+        ),
+        request=schemas.MergeRequest,
+        response=schemas.MergedDescriptionResponse,
+        problems=COMPUTE_PROBLEMS,
+        example=_EXAMPLES["/v1/descriptors/merge"],
+        tag="descriptors",
+    ),
+    Operation(
+        method="post",
+        path="/v1/comparisons",
+        operation_id="compare",
+        summary="Compare two inputs of any kind, second against first",
+        description=(
+            "Both descriptor sets, the difference (second minus first) of every descriptor, ratios of "
+            "the scale descriptors, Hedges' g, quantile shifts, both inputs' quantiles on the z scale, "
+            "and a two-sample test (Kolmogorov-Smirnov, or chi-square homogeneity for bins on the same "
+            "edges). With options.interval every contrast gets a bootstrap interval from independent "
+            "resampling of the two inputs."
+        ),
+        request=schemas.ComparisonRequest,
+        response=schemas.ComparisonResponse,
+        problems=COMPUTE_PROBLEMS,
+        example=_EXAMPLES["/v1/comparisons"],
+        tag="comparisons",
+    ),
+    Operation(
+        method="get",
+        path="/v1/catalog",
+        operation_id="catalog",
+        summary="Every descriptor: definition, conventions, when undefined, reference",
+        description="The meaning of every name a descriptor response can carry, and every warning code.",
+        request=None,
+        response=schemas.Catalog,
+        problems=(401, 406),
+        tag="catalog",
+    ),
+    Operation(
+        method="get",
+        path="/metrics",
+        operation_id="metrics",
+        summary="Prometheus metrics",
+        description=(
+            "Request counts and latencies by route and status (499: the client hung up before its "
+            "answer was complete), values per request, resamples computed "
+            "and budget rejections, summed over all workers of the server. Asks for a token only when "
+            "TAILGAUGE_METRICS_REQUIRE_TOKEN is set."
+        ),
+        request=None,
+        response=None,
+        answers=(TEXT,),
+        tag="operations",
+        protected=False,
+    ),
+    Operation(
+        method="get",
+        path="/health/live",
+        operation_id="live",
+        summary="Liveness",
+        description="200 while the process serves requests.",
+        request=None,
+        response=schemas.Health,
+        answers=(JSON,),
+        tag="health",
+        protected=False,
+    ),
+    Operation(
+        method="get",
+        path="/health/ready",
+        operation_id="ready",
+        summary="Readiness",
+        description=(
+            "200 while this worker accepts new work; 503 with status draining once it is stopping. "
+            "notes lists what works less well in this worker while it serves, e.g. metrics it cannot "
+            "export because their directory is full."
+        ),
+        request=None,
+        response=schemas.Readiness,
+        answers=(JSON,),
+        other_answers={503: "This worker is draining (stopping); send new work elsewhere."},
+        tag="health",
+        protected=False,
+    ),
+)
+
+OPERATION_IDS = {op.operation_id: op for op in OPERATIONS}
+
+__all__ = ["BODY_MEDIA_TYPES", "OPERATIONS", "OPERATION_IDS", "Operation"]

@@ -1,0 +1,29 @@
+"""Wire messages: one msgspec Struct per request and response, which is also the published schema.
+
+API-change rules: a new field always has a default; a field's type is only ever widened (a list
+may also come as float64 bytes), never changed; names are snake_case plain statistical terms.
+
+Modules, by concept: ``common`` (the strict base and the constrained number types), ``options``
+(option sets), ``inputs`` (request bodies: each input kind's fields declared once), ``results``
+(descriptor responses), ``comparisons``, ``merge`` (partial states and sketches), ``problems``
+(RFC 9457 bodies) and ``info`` (health, readiness, catalog). Import names from here.
+"""
+
+from tailgauge.api.schemas.common import *  # noqa: F403
+from tailgauge.api.schemas.common import __all__ as _common
+from tailgauge.api.schemas.comparisons import *  # noqa: F403
+from tailgauge.api.schemas.comparisons import __all__ as _comparisons
+from tailgauge.api.schemas.info import *  # noqa: F403
+from tailgauge.api.schemas.info import __all__ as _info
+from tailgauge.api.schemas.inputs import *  # noqa: F403
+from tailgauge.api.schemas.inputs import __all__ as _inputs
+from tailgauge.api.schemas.merge import *  # noqa: F403
+from tailgauge.api.schemas.merge import __all__ as _merge
+from tailgauge.api.schemas.options import *  # noqa: F403
+from tailgauge.api.schemas.options import __all__ as _options
+from tailgauge.api.schemas.problems import *  # noqa: F403
+from tailgauge.api.schemas.problems import __all__ as _problems
+from tailgauge.api.schemas.results import *  # noqa: F403
+from tailgauge.api.schemas.results import __all__ as _results
+
+__all__ = sorted({*_common, *_options, *_inputs, *_results, *_comparisons, *_merge, *_problems, *_info})

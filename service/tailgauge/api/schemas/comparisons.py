@@ -1,0 +1,111 @@
+"""Response body of POST /v1/comparisons: both descriptions and their contrasts."""
+
+from __future__ import annotations
+
+from typing import Annotated, Literal
+
+from msgspec import Meta
+
+from tailgauge.api.schemas.common import MaybeNumber, Message
+from tailgauge.api.schemas.results import ClassicalInterval, DescriptionResponse, Interval, Resampling, Scores
+
+
+class Contrast(Message):
+    value: MaybeNumber
+    interval: Annotated[
+        Interval | None, Meta(description="Bootstrap interval from independent resampling of both inputs.")
+    ] = None
+    standard_error: Annotated[float | None, Meta(description="Bootstrap standard error.")] = None
+    classical_interval: Annotated[
+        ClassicalInterval | None, Meta(description="Welch's t interval (for the mean difference only).")
+    ] = None
+    classical_standard_error: Annotated[
+        float | None, Meta(description="Welch's standard error (for the mean difference only).")
+    ] = None
+
+
+class QuantileShift(Message):
+    probability: float
+    value: Annotated[MaybeNumber, Meta(description="Quantile of the second minus that of the first.")]
+    interval: Interval | None = None
+    standard_error: float | None = None
+
+
+class StandardizedPair(Message):
+    first: MaybeNumber
+    second: MaybeNumber
+    difference: MaybeNumber
+    interval: Annotated[Interval | None, Meta(description="Bootstrap interval of the difference.")] = None
+
+
+class StandardizedQuantile(Message):
+    probability: float
+    z: Annotated[StandardizedPair, Meta(description="(quantile - mean) / standard deviation, per input.")]
+    robust_z: Annotated[
+        StandardizedPair, Meta(description="(quantile - median) / normal-consistent MAD, per input.")
+    ]
+
+
+class StandardizedMeanDifference(Message):
+    value: Annotated[MaybeNumber, Meta(description="Hedges' g: J x Cohen's d.")]
+    uncorrected: Annotated[MaybeNumber, Meta(description="Cohen's d with the pooled standard deviation.")]
+    correction_factor: Annotated[
+        MaybeNumber, Meta(description="J = Gamma(m/2) / (sqrt(m/2) Gamma((m-1)/2)), m = n1 + n2 - 2.")
+    ]
+    pooled_standard_deviation: MaybeNumber
+    degrees_of_freedom: MaybeNumber
+    first_n: MaybeNumber
+    second_n: MaybeNumber
+    standard_error_under_normality: MaybeNumber
+    estimator: str
+    interval: Interval | None = None
+    standard_error: float | None = None
+
+
+class DistributionTest(Message):
+    test: Annotated[str, Meta(description="kolmogorov_smirnov or chi_square_homogeneity.")]
+    statistic: MaybeNumber
+    p_value: Annotated[MaybeNumber, Meta(description="Evidence against equal distributions, not a verdict.")]
+    method: str | None
+    degrees_of_freedom: int | None
+    reference: str
+    reason: Annotated[str | None, Meta(description="Why the test could not be computed.")]
+
+
+class ComparisonWarning(Message):
+    side: Literal["first", "second", "comparison"]
+    code: Annotated[str, Meta(description="Stable machine-readable reason (see GET /v1/catalog).")]
+    message: str
+    descriptors: list[str]
+
+
+class ComparisonResponse(Message):
+    first: DescriptionResponse
+    second: DescriptionResponse
+    differences: Annotated[
+        dict[str, Contrast], Meta(description="Descriptor name -> second minus first, with its interval.")
+    ]
+    ratios: Annotated[
+        dict[str, Contrast], Meta(description="Scale descriptor name -> second / first, with its interval.")
+    ]
+    standardized_mean_difference: StandardizedMeanDifference
+    quantile_shifts: list[QuantileShift]
+    standardized_quantiles: list[StandardizedQuantile]
+    distribution_test: DistributionTest
+    warnings: list[ComparisonWarning]
+    resampling: Resampling | None = None
+    scores: Annotated[
+        Scores | None, Meta(description="options.score scored against the first input.")
+    ] = None
+
+
+__all__ = [
+    "ComparisonResponse",
+    "ComparisonWarning",
+    "Contrast",
+    "DistributionTest",
+    "QuantileShift",
+    "StandardizedMeanDifference",
+    "StandardizedPair",
+    "StandardizedQuantile",
+]

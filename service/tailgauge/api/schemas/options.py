@@ -1,0 +1,248 @@
+"""Option sets: what a caller may choose about how an input is described.
+
+Every option set that reaches the core answers the same questions (:class:`CoreChoices`): an
+option an endpoint does not offer is a read-only property holding the core's default, with the
+reason beside it, so building the core's options never has to ask which set it was given.
+Properties are not fields: they are neither decoded nor published, and sending one by name is
+the same unknown-field error as any other misspelling.
+"""
+
+from __future__ import annotations
+
+from typing import Annotated, Literal, Protocol
+
+import msgspec
+from msgspec import Meta
+
+from tailgauge.api.schemas.common import (
+    MAX_SEED,
+    SCHEMA_MAX_MOMENT_ORDER,
+    SCHEMA_MAX_PROBABILITIES,
+    SCHEMA_MAX_SCORES,
+    Finite,
+    Message,
+    Probability,
+)
+from tailgauge.core import DEFAULT_PROBABILITIES
+
+
+class IntervalRequest(Message):
+    method: Annotated[
+        Literal["percentile", "basic", "bca"],
+        Meta(description="Bootstrap interval: percentile, basic, or bias-corrected and accelerated (BCa)."),
+    ] = "bca"
+    level: Annotated[float, Meta(gt=0.0, lt=1.0, description="Confidence level, e.g. 0.95.")] = 0.95
+    resamples: Annotated[
+        int, Meta(ge=100, le=1_000_000, description="Bootstrap resamples (the server's budget may allow fewer).")
+    ] = 9999
+    seed: Annotated[
+        Annotated[int, Meta(ge=0, le=MAX_SEED)] | None,
+        Meta(description="Seed of the resampling (0 to 2^53 - 1); null draws one, echoed in resampling.seed."),
+    ] = None
+
+
+QuantileType = Annotated[
+    Annotated[int, Meta(ge=1, le=9)] | None,
+    Meta(
+        description=(
+            "Hyndman & Fan (1996) sample quantile definition, 1-9. null: 7 for raw samples and whole "
+            "counts, 2 for other weights (types 3-9 need whole counts), 1 for probabilities."
+        ),
+    ),
+]
+# Per input kind, the option that belongs to the data themselves: declared once, used by the
+# kind's own endpoint and by a comparison input of that kind.
+MissingPolicy = Annotated[
+    Literal["reject", "omit"],
+    Meta(description="reject: a null value is an error (422); omit: nulls are dropped and counted."),
+]
+Normalize = Annotated[
+    bool,
+    Meta(
+        description=(
+            "For probabilities that do not sum to 1 within 1e-9: false answers 422 saying by "
+            "how much; true divides them by their sum and warns."
+        )
+    ),
+]
+
+
+class CoreChoices(Protocol):
+    """What every option set tells the core (see :func:`tailgauge.api.endpoints.describe_options`)."""
+
+    convention: str | None
+    skewness_estimator: str | None
+    kurtosis_estimator: str | None
+    probabilities: list[float]
+    moment_order: int
+    score: list[float]
+
+    @property
+    def interval(self) -> IntervalRequest | None: ...
+
+    @property
+    def quantile_type(self) -> int | None: ...
+
+    @property
+    def sheppard_correction(self) -> bool: ...
+
+
+class SummaryOptions(Message):
+    """Options of every endpoint that reports descriptors, merged states included."""
+
+    convention: Annotated[
+        Literal["sample", "population"] | None,
+        Meta(
+            description=(
+                "sample: variance with divisor n - 1 (V1 - V2/V1 for reliability weights) and "
+                "skewness/kurtosis G1/G2; population: divisor n and g1/g2. null: sample, except "
+                "a probability table, which is always a population."
+            )
+        ),
+    ] = None
+    skewness_estimator: Annotated[
+        Literal["g1", "G1", "b1"] | None,
+        Meta(description="Joanes & Gill (1998) skewness family; null follows the convention."),
+    ] = None
+    kurtosis_estimator: Annotated[
+        Literal["g2", "G2", "b2"] | None,
+        Meta(description="Joanes & Gill (1998) kurtosis family; null follows the convention."),
+    ] = None
+    probabilities: Annotated[
+        list[Probability],
+        Meta(
+            max_length=SCHEMA_MAX_PROBABILITIES,
+            description="Probabilities at which quantiles are reported, in the order given.",
+        ),
+    ] = msgspec.field(default_factory=lambda: list(DEFAULT_PROBABILITIES))
+    moment_order: Annotated[
+        int,
+        Meta(
+            ge=1,
+            le=SCHEMA_MAX_MOMENT_ORDER,
+            description="Highest order of the raw, central and standardized moments reported.",
+        ),
+    ] = 4
+    score: Annotated[
+        list[Finite],
+        Meta(
+            max_length=SCHEMA_MAX_SCORES,
+            description=(
+                "Values to score against the described distribution: z = (x - mean) / sd and "
+                "robust_z = (x - median) / normal-consistent MAD, in member scores."
+            ),
+        ),
+    ] = msgspec.field(default_factory=list)
+
+
+class DescriptorOptions(SummaryOptions):
+    """Options shared by every descriptor endpoint."""
+
+    interval: Annotated[
+        IntervalRequest | None,
+        Meta(description="Ask for bootstrap and classical intervals of every descriptor; null: none."),
+    ] = None
+
+
+class SampleOptions(DescriptorOptions):
+    quantile_type: QuantileType = None
+    missing: MissingPolicy = "reject"
+    partial_state: Annotated[
+        bool,
+        Meta(
+            description=(
+                "Add member partial_state: count, mean, central sums M2..Mp (p = max(4, moment_order)), "
+                "minimum and maximum, which POST /v1/descriptors/merge combines exactly with others."
+            )
+        ),
+    ] = False
+
+    @property
+    def sheppard_correction(self) -> bool:
+        """Raw samples are not grouped: there is nothing to correct."""
+        return False
+
+
+class TableOptions(DescriptorOptions):
+    quantile_type: QuantileType = None
+    normalize: Normalize = False
+
+    @property
+    def sheppard_correction(self) -> bool:
+        """A table's outcomes are exact values, not groups: there is nothing to correct."""
+        return False
+
+
+class BinOptions(DescriptorOptions):
+    sheppard_correction: Annotated[
+        bool,
+        Meta(
+            description=(
+                "Apply Sheppard's corrections to the second and fourth central moments; only for "
+                "bins of equal width (otherwise a warning and no correction)."
+            )
+        ),
+    ] = False
+
+    @property
+    def quantile_type(self) -> int | None:
+        """Grouped quantiles interpolate within bins: no sample quantile definition applies."""
+        return None
+
+
+class ComparisonOptions(DescriptorOptions):
+    """Options for both inputs; the descriptors of each are computed exactly as by its endpoint."""
+
+    quantile_type: QuantileType = None
+    sheppard_correction: Annotated[
+        bool, Meta(description="Sheppard's corrections for an input of bins of equal width.")
+    ] = False
+
+
+class MergeOptions(SummaryOptions):
+    """The options of a descriptor endpoint that a merged state can honour (no resampling).
+
+    Quantiles at options.probabilities come from sketches, when sent; moments stop at the
+    states' order.
+    """
+
+    @property
+    def interval(self) -> IntervalRequest | None:
+        """Partial states carry no values to resample."""
+        return None
+
+    @property
+    def quantile_type(self) -> int | None:
+        """Quantiles come from sketches (or not at all), never from a sample quantile definition."""
+        return None
+
+    @property
+    def sheppard_correction(self) -> bool:
+        """Partial states hold exact moments of values, not of bins."""
+        return False
+
+
+class SamplesInputOptions(Message):
+    missing: MissingPolicy = "reject"
+
+
+class TableInputOptions(Message):
+    normalize: Normalize = False
+
+
+__all__ = [
+    "BinOptions",
+    "ComparisonOptions",
+    "CoreChoices",
+    "DescriptorOptions",
+    "IntervalRequest",
+    "MergeOptions",
+    "MissingPolicy",
+    "Normalize",
+    "QuantileType",
+    "SampleOptions",
+    "SamplesInputOptions",
+    "SummaryOptions",
+    "TableInputOptions",
+    "TableOptions",
+]

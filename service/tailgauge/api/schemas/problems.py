@@ -1,0 +1,28 @@
+"""RFC 9457 problem details as sent (the table from errors to problems is ``tailgauge.api.problems``)."""
+
+from __future__ import annotations
+
+from typing import Annotated
+
+import msgspec
+from msgspec import Meta
+
+from tailgauge.api.schemas.common import Message
+
+
+class ProblemLocation(Message):
+    path: Annotated[str, Meta(description="JSON path of the offending input, e.g. $.values[3].")]
+    message: str
+
+
+class Problem(Message):
+    """RFC 9457 problem details."""
+
+    type: Annotated[str, Meta(description="Stable URI identifying the problem type.")]
+    title: str
+    status: int
+    detail: str
+    errors: list[ProblemLocation] = msgspec.field(default_factory=list)
+
+
+__all__ = ["Problem", "ProblemLocation"]

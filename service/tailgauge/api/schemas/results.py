@@ -1,0 +1,293 @@
+"""Response bodies of the descriptor endpoints: one Struct per result, the published schema too.
+
+Each result mirrors a core result type field for field; ``tailgauge.api.conversion`` checks the
+pairs and fails loudly when a field is missing on either side.
+"""
+
+from __future__ import annotations
+
+from typing import Annotated, Literal
+
+from msgspec import Meta
+
+from tailgauge.api.schemas.common import SCHEMA_MAX_MOMENT_ORDER, Finite, MaybeNumber, Message, NonNegative
+
+
+class Interval(Message):
+    low: MaybeNumber
+    high: MaybeNumber
+    level: float
+    method: Annotated[str, Meta(description="The method actually used (BCa may fall back to percentile).")]
+
+
+class ClassicalInterval(Message):
+    low: float
+    high: float
+    level: float
+    method: Annotated[str, Meta(description="student_t, chi_square, or order_statistics x(l), x(u).")]
+    coverage: Annotated[float | None, Meta(description="Achieved coverage of an order-statistic interval.")]
+    assumption: Annotated[str, Meta(description="What the interval assumes.")]
+
+
+class DescriptorValue(Message):
+    value: MaybeNumber
+    estimator: Annotated[str, Meta(description="The exact estimator or definition used.")]
+    standard_error_under_normality: Annotated[
+        float | None,
+        Meta(description="Standard error of the estimator for normal data, where one is defined."),
+    ] = None
+    interval: Annotated[
+        Interval | None, Meta(description="Bootstrap interval (when options.interval is given).")
+    ] = None
+    standard_error: Annotated[
+        float | None, Meta(description="Bootstrap standard error (when options.interval is given).")
+    ] = None
+    classical_interval: Annotated[
+        ClassicalInterval | None,
+        Meta(description="Closed-form interval where one exists (t, chi-square, order statistics)."),
+    ] = None
+
+
+class Descriptors(Message):
+    mean: DescriptorValue
+    median: DescriptorValue
+    variance: DescriptorValue
+    standard_deviation: DescriptorValue
+    coefficient_of_variation: DescriptorValue
+    skewness: DescriptorValue
+    kurtosis: DescriptorValue
+    excess_kurtosis: DescriptorValue
+    minimum: DescriptorValue
+    maximum: DescriptorValue
+    range: DescriptorValue
+    interquartile_range: DescriptorValue
+    median_absolute_deviation: DescriptorValue
+    median_absolute_deviation_normal: DescriptorValue
+    lag1_autocorrelation: DescriptorValue
+    quartile_skewness: DescriptorValue
+    octile_kurtosis: DescriptorValue
+    octile_excess_kurtosis: DescriptorValue
+    medcouple: DescriptorValue
+    half_sample_mode: DescriptorValue
+    mean_median_gap: DescriptorValue
+    l_location: DescriptorValue
+    l_scale: DescriptorValue
+    l_skewness: DescriptorValue
+    l_kurtosis: DescriptorValue
+
+
+class Size(Message):
+    n: Annotated[
+        int | float | None,
+        Meta(description="Observations used (the total count for counts and bins; null for probabilities)."),
+    ]
+    total_weight: float
+    omitted: Annotated[int, Meta(description="Missing observations omitted.")]
+    distinct_values: Annotated[int, Meta(description="Distinct values (bins for binned counts).")]
+    zero_weight: Annotated[int, Meta(description="Entries of weight zero left out.")]
+    effective_n: Annotated[
+        float | None, Meta(description="Kish effective sample size (sum w)^2 / sum w^2, for reliability weights.")
+    ]
+
+
+class Moments(Message):
+    order: Annotated[int, Meta(description="Highest order; element k - 1 of each list is order k.")]
+    raw: Annotated[list[MaybeNumber], Meta(description="Plug-in raw moments E[x^k].")]
+    central: Annotated[list[MaybeNumber], Meta(description="Plug-in central moments E[(x - mean)^k].")]
+    standardized: Annotated[
+        list[MaybeNumber], Meta(description="Central moments divided by sigma^k (plug-in sigma).")
+    ]
+
+
+class Quantile(Message):
+    probability: float
+    value: MaybeNumber
+    interval: Interval | None = None
+    standard_error: float | None = None
+    classical_interval: ClassicalInterval | None = None
+
+
+class NormalityTest(Message):
+    test: Annotated[
+        Literal["skewness_test", "kurtosis_test", "omnibus_k2", "jarque_bera"],
+        Meta(description="D'Agostino skewness z, Anscombe & Glynn kurtosis z, D'Agostino & Pearson K^2, Jarque & Bera."),
+    ]
+    statistic: MaybeNumber
+    p_value: Annotated[
+        float | None, Meta(description="Two-sided p-value: evidence against normality, not a verdict.")
+    ]
+    minimum_n: int
+    reference: str
+    reason: Annotated[str | None, Meta(description="Why the test could not be computed.")]
+
+
+class Resampling(Message):
+    method: str
+    level: float
+    resamples: int
+    seed: Annotated[int, Meta(description="Seed used; the same request with this seed reproduces every interval.")]
+    scheme: Annotated[str, Meta(description="What was resampled and how.")]
+
+
+class Modes(Message):
+    values: Annotated[list[float], Meta(description="Every value attaining the largest count, ascending.")]
+    count: Annotated[float, Meta(description="The count (weight) of each mode.")]
+    distinct_values: int
+    tied: Annotated[int, Meta(description="How many values share the largest count.")]
+    truncated: Annotated[bool, Meta(description="True when more ties exist than are listed.")]
+
+
+class ShapeEstimate(Message):
+    estimator: str
+    value: MaybeNumber
+    standard_error_under_normality: MaybeNumber
+
+
+class ShapeEstimators(Message):
+    skewness: list[ShapeEstimate]
+    excess_kurtosis: list[ShapeEstimate]
+
+
+class Contribution(Message):
+    value: float
+    weight: float
+    third: Annotated[float, Meta(description="w (x - mean)^3 / (W sigma^3): signed share of the standardized third moment.")]
+    fourth: Annotated[float, Meta(description="w (x - mean)^4 / (W sigma^4): share of the standardized fourth moment.")]
+
+
+class TailContributions(Message):
+    standardized_third: Annotated[float, Meta(description="Plug-in g1; the sum of every outcome's third.")]
+    standardized_fourth: Annotated[float, Meta(description="Plug-in b2 = g2 + 3; the sum of every fourth.")]
+    complete: Annotated[bool, Meta(description="False when only the largest contributors are listed.")]
+    outcomes: list[Contribution]
+
+
+class ModalClass(Message):
+    lower: float
+    upper: float
+    count: float
+    grouped_mode: MaybeNumber
+
+
+class Grouping(Message):
+    bins: int
+    bin_width: Annotated[float | None, Meta(description="Common width of the closed bins; null when widths differ.")]
+    equal_widths: bool
+    open_lower: bool
+    open_upper: bool
+    open_bin_weight: float
+    lowest_edge: Annotated[float | None, Meta(description="Lower edge of the lowest bin holding data (null if open).")]
+    highest_edge: Annotated[float | None, Meta(description="Upper edge of the highest bin holding data (null if open).")]
+    sheppard_correction_applied: bool
+    modal_classes: list[ModalClass]
+
+
+class Conventions(Message):
+    convention: str
+    variance_divisor: str
+    skewness: str
+    kurtosis: str
+    quantile_type: Annotated[int | None, Meta(description="Hyndman & Fan type used; null for grouped data.")]
+    quantile_definition: str
+    median: str
+    central_moments: str
+    normal_mad_factor: float
+    weights: str
+
+
+class Score(Message):
+    value: float
+    z: Annotated[MaybeNumber, Meta(description="(value - mean) / standard deviation.")]
+    robust_z: Annotated[MaybeNumber, Meta(description="(value - median) / normal-consistent MAD.")]
+
+
+class Scores(Message):
+    mean: MaybeNumber
+    standard_deviation: MaybeNumber
+    median: MaybeNumber
+    median_absolute_deviation_normal: MaybeNumber
+    points: Annotated[list[Score], Meta(description="One entry per value of options.score, in order.")]
+
+
+class PartialState(Message):
+    """A mergeable summary of one part of a sample (Pebay 2008): enough for every moment of the union."""
+
+    count: Annotated[NonNegative, Meta(description="Observations (or total frequency weight); 0 for an empty part.")]
+    mean: Finite
+    central_sums: Annotated[
+        list[Finite],
+        Meta(
+            min_length=3,
+            max_length=SCHEMA_MAX_MOMENT_ORDER - 1,
+            description="M2, M3, ..., Mp: sums of (x - mean)^j, j = 2..p, with 4 <= p <= 12.",
+        ),
+    ]
+    minimum: Annotated[Finite | None, Meta(description="Smallest value; null for an empty part.")]
+    maximum: Annotated[Finite | None, Meta(description="Largest value; null for an empty part.")]
+
+
+class ResultWarning(Message):
+    code: Annotated[str, Meta(description="Stable machine-readable reason.")]
+    message: str
+    descriptors: Annotated[list[str], Meta(description="The results this warning concerns.")]
+
+
+class DescriptionResponse(Message):
+    kind: Literal["samples", "table", "bins"]
+    size: Size
+    descriptors: Descriptors
+    moments: Annotated[Moments | None, Meta(description="null when an open-ended bin holds data.")]
+    quantiles: list[Quantile]
+    modes: Modes
+    shape_estimators: ShapeEstimators
+    tail_contributions: Annotated[
+        TailContributions | None,
+        Meta(
+            description=(
+                "Each outcome's (bin's) share of the standardized third and fourth moments; for raw "
+                "samples the largest contributors. null when the moments are undefined."
+            )
+        ),
+    ]
+    grouping: Annotated[Grouping | None, Meta(description="Bin facts; null unless the input was bins.")]
+    normality: Annotated[
+        list[NormalityTest], Meta(description="Normality tests from skewness and kurtosis (samples and count tables).")
+    ]
+    conventions: Conventions
+    warnings: list[ResultWarning]
+    resampling: Annotated[
+        Resampling | None, Meta(description="The resampling performed; null without options.interval.")
+    ] = None
+    scores: Annotated[
+        Scores | None, Meta(description="Standard scores of options.score; null when none were asked for.")
+    ] = None
+    partial_state: Annotated[
+        PartialState | None,
+        Meta(description="The mergeable summary asked for by options.partial_state (samples only)."),
+    ] = None
+
+
+__all__ = [
+    "ClassicalInterval",
+    "Contribution",
+    "Conventions",
+    "DescriptionResponse",
+    "DescriptorValue",
+    "Descriptors",
+    "Grouping",
+    "Interval",
+    "ModalClass",
+    "Modes",
+    "Moments",
+    "NormalityTest",
+    "PartialState",
+    "Quantile",
+    "Resampling",
+    "ResultWarning",
+    "Score",
+    "Scores",
+    "ShapeEstimate",
+    "ShapeEstimators",
+    "Size",
+    "TailContributions",
+]
