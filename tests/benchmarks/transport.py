@@ -30,7 +30,7 @@ import numpy as np
 ROOT = Path(__file__).resolve().parents[2]
 sys.path.insert(0, str(ROOT))
 
-from tailgauge.api.endpoints import _describe_options  # noqa: E402
+from tailgauge.api.endpoints import describe_options  # noqa: E402
 from tailgauge.api.schemas import SampleOptions  # noqa: E402
 from tailgauge.core import describe, from_samples  # noqa: E402
 from tailgauge.settings import Settings  # noqa: E402
@@ -57,7 +57,7 @@ def main(n: int = 1_000_000, repeats: int = 5) -> None:
     values = np.random.default_rng(2026).lognormal(3.0, 0.4, size=n)
     # The server's own options for a request with no options (same limits on listed modes etc.).
     def in_process_once():
-        options = _describe_options(SampleOptions(), Settings())
+        options = describe_options(SampleOptions(), Settings())
         return describe(from_samples(values, omit_missing=False), options, kind="samples")
 
     in_process = _best(in_process_once, repeats)
