@@ -4,25 +4,26 @@
   returned (names collected from /samples, /table with counts and with probabilities, and /bins,
   with and without intervals);
 * every normality test is catalogued as "normality.<test>" and vice versa;
-* every warning code the source can emit is catalogued, and every catalogued code is emitted
-  somewhere (codes collected statically from the ``add("<code>", ...)`` calls in service/tailgauge/core);
+* the catalogued warnings are the registry's closed vocabulary, in its order, with its meanings
+  (that every code is produced by some input is tests/core/test_registry.py's), and every code a
+  response carries is catalogued;
+* the response's descriptors member has exactly the registry's descriptors, in its order;
 * every entry has a definition and a reference.
 """
 
 from __future__ import annotations
 
 import json
-import re
-from pathlib import Path
 
 import numpy as np
 import pytest
 from litestar.testing import TestClient
 
-from tailgauge.api import create_app
+from tailgauge.api import create_app, schemas
+from tailgauge.core import registry
+from tailgauge.core.registry import WarningCode
 from tailgauge.settings import Settings
 
-CORE = Path(__file__).resolve().parents[2] / "service" / "tailgauge" / "core"
 SAMPLES, TABLE, BINS = "/v1/descriptors/samples", "/v1/descriptors/table", "/v1/descriptors/bins"
 INTERVAL = {"interval": {"method": "percentile", "resamples": 200, "seed": 20260101}}
 
@@ -120,38 +121,15 @@ def test_normality_tests_equal_the_catalogued_normality_members(catalog, respons
     assert returned == {"skewness_test", "kurtosis_test", "omnibus_k2", "jarque_bera"}
 
 
-# The warning codes in the source: every ``notes.add("code", ...)`` and, inside the notes
-# collector itself, ``self.add("code", ...)``; the first argument may follow a line break.
-_ADD_CALL = re.compile(r"\b(?:notes|self)\.add\(\s*")
-_LITERAL = re.compile(r'"([a-z][a-z0-9_]*)"')
-
-
-def emitted_codes() -> set[str]:
-    codes = set()
-    for path in sorted(CORE.glob("*.py")):
-        source = path.read_text()
-        for call in _ADD_CALL.finditer(source):
-            rest = source[call.end():]
-            literal = _LITERAL.match(rest)
-            # A code passed in a variable would escape this scan; there must be none.
-            assert literal, f"{path.name}: add() without a literal code: {rest[:60]!r}"
-            codes.add(literal.group(1))
-    return codes
-
-
-def test_the_source_scan_finds_codes():
-    codes = emitted_codes()
-    assert {"constant_data", "single_observation", "not_representable", "quantile_spread_zero"} <= codes
-
-
-def test_warning_codes_equal_those_the_source_emits(catalog):
+def test_catalogued_warnings_are_the_vocabulary(catalog):
     catalogued = [w["code"] for w in catalog["warnings"]]
     assert len(catalogued) == len(set(catalogued)), "duplicate warning codes"
-    emitted = emitted_codes()
-    assert set(catalogued) == emitted, (
-        f"emitted but not catalogued: {sorted(emitted - set(catalogued))}; "
-        f"catalogued but never emitted: {sorted(set(catalogued) - emitted)}"
-    )
+    assert catalogued == [code.value for code in WarningCode]
+    assert {w["code"]: w["meaning"] for w in catalog["warnings"]} == {code.value: code.meaning for code in WarningCode}
+
+
+def test_the_descriptors_member_has_the_registry_descriptors():
+    assert schemas.Descriptors.__struct_fields__ == registry.SCALAR_DESCRIPTORS
 
 
 def test_warnings_in_responses_are_catalogued(catalog, responses):

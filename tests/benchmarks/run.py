@@ -166,7 +166,7 @@ def bench_order_statistics() -> None:
     import statsmodels.stats.stattools as stattools
 
     from tailgauge.core import DescribeOptions, from_array, lmoments, order_statistics, robust
-    from tailgauge.core.describe import _ROBUST_PROBABILITIES
+    from tailgauge.core.describe import ROBUST_PROBABILITIES as _ROBUST_PROBABILITIES
 
     rng = np.random.default_rng(20261204)
     print("order statistics: median, quantiles, IQR, MAD, quartile/octile shape, L-moments, medcouple")

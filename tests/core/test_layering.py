@@ -1,4 +1,6 @@
-"""The numeric core stays free of HTTP: nothing under service/tailgauge/core imports litestar or msgspec."""
+"""The numeric core stays free of HTTP and of the process settings (nothing under service/tailgauge/core,
+subpackages included, imports litestar, msgspec, tailgauge.api or tailgauge.settings), and its
+modules import one another without circles."""
 
 import ast
 import pathlib
@@ -39,15 +41,18 @@ def test_core_imports_only_numpy_scipy_and_stdlib():
     assert offenders == {}, f"service/tailgauge/core must not import these: {offenders}"
 
 
-def test_core_does_not_import_the_http_layer():
+_OUTSIDE = ("tailgauge.api", "tailgauge.settings", "tailgauge.runtime", "litestar", "msgspec")
+
+
+def test_core_does_not_import_the_http_layer_or_the_settings():
     for path in CORE.rglob("*.py"):
         tree = ast.parse(path.read_text())
         for node in ast.walk(tree):
             if isinstance(node, ast.ImportFrom) and node.module:
-                assert not node.module.startswith(("tailgauge.api", "litestar", "msgspec")), path
+                assert not node.module.startswith(_OUTSIDE), path
             if isinstance(node, ast.Import):
                 for alias in node.names:
-                    assert not alias.name.startswith(("tailgauge.api", "litestar", "msgspec")), path
+                    assert not alias.name.startswith(_OUTSIDE), path
 
 
 def test_core_public_names_are_exported():
@@ -56,3 +61,71 @@ def test_core_public_names_are_exported():
     for name in core.__all__:
         assert hasattr(core, name), name
     assert sorted(core.__all__) == sorted(set(core.__all__))
+
+
+def _module_name(path: pathlib.Path) -> str:
+    parts = ["tailgauge", "core", *path.relative_to(CORE).with_suffix("").parts]
+    return ".".join(parts[:-1] if parts[-1] == "__init__" else parts)
+
+
+def _core_graph() -> dict[str, set[str]]:
+    """Each core module to the core modules it imports at import time (``TYPE_CHECKING`` blocks
+    aside); ``from package import name`` counts as importing ``package.name`` when that is a module."""
+    modules = {_module_name(path): path for path in CORE.rglob("*.py")}
+    graph = {}
+    for name, path in modules.items():
+        tree = ast.parse(path.read_text())
+        skipped = {
+            id(inner)
+            for node in ast.walk(tree)
+            if isinstance(node, ast.If) and "TYPE_CHECKING" in ast.unparse(node.test)
+            for inner in ast.walk(node)
+        }
+        targets = set()
+        for node in ast.walk(tree):
+            if id(node) in skipped:
+                continue
+            if isinstance(node, ast.ImportFrom) and node.module and node.module in modules:
+                for alias in node.names:
+                    child = f"{node.module}.{alias.name}"
+                    targets.add(child if child in modules else node.module)
+            elif isinstance(node, ast.Import):
+                targets.update(alias.name for alias in node.names if alias.name in modules)
+        graph[name] = targets - {name}
+    return graph
+
+
+def _circle(graph: dict[str, set[str]]) -> list[str] | None:
+    """One import circle of ``graph`` (as the modules along it), or ``None``."""
+    state: dict[str, int] = {}
+    path: list[str] = []
+
+    def visit(node: str) -> list[str] | None:
+        state[node] = 1
+        path.append(node)
+        for child in sorted(graph.get(node, ())):
+            if state.get(child) == 1:
+                return path[path.index(child):] + [child]
+            if child not in state and (found := visit(child)):
+                return found
+        path.pop()
+        state[node] = 2
+        return None
+
+    for node in sorted(graph):
+        if node not in state and (found := visit(node)):
+            return found
+    return None
+
+
+def test_core_modules_import_without_circles():
+    graph = _core_graph()
+    assert "tailgauge.core.describe.assembly" in graph and "tailgauge.core.registry" in graph
+    assert "tailgauge.core.describe.basis" in graph["tailgauge.core.describe.assembly"]
+    found = _circle(graph)
+    assert found is None, "import circle: " + " -> ".join(found or [])
+
+
+def test_the_circle_check_finds_a_circle():
+    assert _circle({"a": {"b"}, "b": {"c"}, "c": {"a"}}) == ["a", "b", "c", "a"]
+    assert _circle({"a": {"b"}, "b": {"c"}, "c": set()}) is None

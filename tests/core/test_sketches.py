@@ -143,7 +143,7 @@ def test_bytes_that_are_not_a_sketch_are_located(bad):
     blob = bad(good) if callable(bad) else bad
     with pytest.raises(UncomputableInput) as error:
         combine_sketches([good, good, blob])
-    assert error.value.locations[0].path == "$.sketches[2]"
+    assert error.value.locations[0].path == "sketches[2]"
     with pytest.raises(UncomputableInput):
         combine_sketches([])
 
@@ -181,7 +181,7 @@ def test_sketches_of_other_data_are_refused(other):
     x = np.arange(100.0)
     with pytest.raises(UncomputableInput) as error:
         describe_state(partial_state(x), DescribeOptions(), combine_sketches([kll_sketch_bytes(other)]))
-    assert error.value.locations[0].path == "$.sketches"
+    assert error.value.locations[0].path == "sketches"
 
 
 def test_a_float_sketch_matches_its_state_up_to_float32_rounding():
@@ -325,8 +325,8 @@ def test_hostile_sketches_are_located_422s(name, make):
     assert blob != good, name
     with pytest.raises(UncomputableInput) as error:
         combine_sketches([kll_sketch_bytes([1.0, 2.0]), blob])
-    assert [location.path for location in error.value.locations] == ["$.sketches[1]"], name
-    assert error.value.detail.startswith("$.sketches[1]: "), name
+    assert [location.path for location in error.value.locations] == ["sketches[1]"], name
+    assert error.value.detail.startswith("sketches[1]: "), name
 
 
 def test_the_item_type_is_decided_once_from_the_length():

@@ -39,6 +39,11 @@ class DescriptorError(Exception):
 class UncomputableInput(DescriptorError):
     """The input matches the schema but no descriptor set can be computed from it."""
 
+    @classmethod
+    def at(cls, path: str, message: str, detail: str | None = None) -> UncomputableInput:
+        """The error of one located rule: ``detail`` defaults to ``"{path}: {message}"``."""
+        return cls(detail=detail or f"{path}: {message}", locations=[Location(path, message)])
+
 
 class LimitExceeded(DescriptorError):
     """The input exceeds a configured limit (number of values, moment order, ...)."""

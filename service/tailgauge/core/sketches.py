@@ -182,25 +182,25 @@ def read_kll_sketch(blob, path: str = "") -> KllSketchContents:
         Located at ``path``, saying which check failed. Nothing else is raised, whatever the bytes.
     """
     if not isinstance(blob, (bytes, bytearray, memoryview)):
-        raise _reject(path, "a sketch is the bytes of a serialized KLL sketch")
+        raise UncomputableInput.at(path, "a sketch is the bytes of a serialized KLL sketch")
     data = bytes(blob)
     size = len(data)
     if size < _HEADER.size:
-        raise _reject(path, f"{size} bytes are too few for a KLL sketch (its header alone is {_HEADER.size})")
+        raise UncomputableInput.at(path, f"{size} bytes are too few for a KLL sketch (its header alone is {_HEADER.size})")
     preamble_ints, serial_version, family, flags, k, m = _HEADER.unpack_from(data)
     if family != _FAMILY:
-        raise _reject(path, f"not a KLL sketch: family id {family} (KLL sketches have {_FAMILY})")
+        raise UncomputableInput.at(path, f"not a KLL sketch: family id {family} (KLL sketches have {_FAMILY})")
     if m != _M:
-        raise _reject(path, f"corrupt KLL sketch: m is {m}, the library writes and reads only {_M}")
+        raise UncomputableInput.at(path, f"corrupt KLL sketch: m is {m}, the library writes and reads only {_M}")
     if not _MIN_K <= k <= _MAX_K:
-        raise _reject(path, f"corrupt KLL sketch: k is {k}, not from {_MIN_K} to {_MAX_K}")
+        raise UncomputableInput.at(path, f"corrupt KLL sketch: k is {k}, not from {_MIN_K} to {_MAX_K}")
     empty, single = bool(flags & _EMPTY), bool(flags & _SINGLE_ITEM)
     form = "empty" if empty else "single-item" if single else "multi-item"
     expected_preamble, expected_version = (5, 1) if form == "multi-item" else (2, 1 if empty else 2)
     if empty and single:
-        raise _reject(path, "corrupt KLL sketch: flagged both empty and single-item")
+        raise UncomputableInput.at(path, "corrupt KLL sketch: flagged both empty and single-item")
     if preamble_ints != expected_preamble or serial_version != expected_version:
-        raise _reject(
+        raise UncomputableInput.at(
             path,
             f"corrupt KLL sketch: preamble ints {preamble_ints} and serial version {serial_version} where "
             f"{'an' if empty else 'a'} {form} sketch has {expected_preamble} and {expected_version}",
@@ -208,7 +208,7 @@ def read_kll_sketch(blob, path: str = "") -> KllSketchContents:
     sorted_zero = bool(flags & _LEVEL_ZERO_SORTED)
     if empty:
         if size != _HEADER.size:
-            raise _reject(path, f"corrupt KLL sketch: flagged empty ({_HEADER.size} bytes), yet {size} bytes")
+            raise UncomputableInput.at(path, f"corrupt KLL sketch: flagged empty ({_HEADER.size} bytes), yet {size} bytes")
         nothing = np.empty(0)
         return KllSketchContents(None, k, k, 0, None, None, nothing, nothing, sorted_zero)
     if single:
@@ -217,11 +217,11 @@ def read_kll_sketch(blob, path: str = "") -> KllSketchContents:
                 with np.errstate(invalid="ignore"):
                     item = float(np.frombuffer(data, dtype, 1, _HEADER.size)[0])
                 if not math.isfinite(item):
-                    raise _reject(path, "corrupt KLL sketch: its one item is not a finite number")
+                    raise UncomputableInput.at(path, "corrupt KLL sketch: its one item is not a finite number")
                 return KllSketchContents(
                     item_type, k, k, 1, item, item, np.array([item]), np.ones(1), sorted_zero
                 )
-        raise _reject(
+        raise UncomputableInput.at(
             path, f"corrupt KLL sketch: a single-item sketch is 12 (float) or 16 (double) bytes, not {size}"
         )
     return _read_multi_item(data, path, k, sorted_zero)
@@ -230,24 +230,24 @@ def read_kll_sketch(blob, path: str = "") -> KllSketchContents:
 def _read_multi_item(data: bytes, path: str, k: int, sorted_zero: bool) -> KllSketchContents:
     size = len(data)
     if size < _DATA_START:
-        raise _reject(path, f"truncated KLL sketch: {size} bytes, less than its {_DATA_START}-byte preamble")
+        raise UncomputableInput.at(path, f"truncated KLL sketch: {size} bytes, less than its {_DATA_START}-byte preamble")
     n, min_k, num_levels = _FULL_HEADER.unpack_from(data, _HEADER.size)
     if n == 0:
-        raise _reject(path, "corrupt KLL sketch: n is 0 but the sketch is not flagged empty")
+        raise UncomputableInput.at(path, "corrupt KLL sketch: n is 0 but the sketch is not flagged empty")
     if not _MIN_K <= min_k <= k:
-        raise _reject(path, f"corrupt KLL sketch: min_k is {min_k}, not from {_MIN_K} to k = {k}")
+        raise UncomputableInput.at(path, f"corrupt KLL sketch: min_k is {min_k}, not from {_MIN_K} to k = {k}")
     # The top level is never empty (levels are only added by compacting into them), so its
     # weight 2**(num_levels - 1) is at most n: num_levels <= n.bit_length() (ub_on_num_levels).
     most = min(_MAX_LEVELS, n.bit_length())
     if not 1 <= num_levels <= most:
-        raise _reject(path, f"corrupt KLL sketch: {num_levels} levels, not from 1 to {most} for n = {n}")
+        raise UncomputableInput.at(path, f"corrupt KLL sketch: {num_levels} levels, not from 1 to {most} for n = {n}")
     items_start = _DATA_START + 4 * num_levels
     if size < items_start:
-        raise _reject(path, f"truncated KLL sketch: {size} bytes, shorter than its {items_start}-byte header")
+        raise UncomputableInput.at(path, f"truncated KLL sketch: {size} bytes, shorter than its {items_start}-byte header")
     capacity = _total_capacity(k, num_levels)
     offsets = [int(v) for v in np.frombuffer(data, "<u4", num_levels, _DATA_START)] + [capacity]
     if any(low > high for low, high in zip(offsets, offsets[1:])):
-        raise _reject(
+        raise UncomputableInput.at(
             path,
             f"corrupt KLL sketch: level offsets {offsets[:-1]} do not increase up to the capacity {capacity} "
             f"that k = {k} and {num_levels} levels imply",
@@ -256,7 +256,7 @@ def _read_multi_item(data: bytes, path: str, k: int, sorted_zero: bool) -> KllSk
     lengths = {name: items_start + (retained + 2) * dtype.itemsize for name, dtype in _ITEM_TYPES}
     matches = [(name, dtype) for name, dtype in _ITEM_TYPES if lengths[name] == size]
     if len(matches) != 1:
-        raise _reject(
+        raise UncomputableInput.at(
             path,
             f"corrupt KLL sketch: {size} bytes, but its header ({retained} items in {num_levels} levels) "
             f"makes it {lengths['double']} bytes of doubles or {lengths['float']} bytes of floats",
@@ -264,14 +264,14 @@ def _read_multi_item(data: bytes, path: str, k: int, sorted_zero: bool) -> KllSk
     item_type, dtype = matches[0]
     counts = np.diff(offsets)
     if sum(int(c) << h for h, c in enumerate(counts)) != n:
-        raise _reject(path, f"corrupt KLL sketch: the weights of its {retained} items do not sum to n = {n}")
+        raise UncomputableInput.at(path, f"corrupt KLL sketch: the weights of its {retained} items do not sum to n = {n}")
     with np.errstate(invalid="ignore"):  # a float32 signalling NaN warns when widened; rejected below
         values = np.frombuffer(data, dtype, retained + 2, items_start).astype(np.float64)
     low, high, items = float(values[0]), float(values[1]), values[2:]
     if not (math.isfinite(low) and math.isfinite(high) and low <= high):
-        raise _reject(path, f"corrupt KLL sketch: its extremes {low!r} and {high!r} are not finite, ordered")
+        raise UncomputableInput.at(path, f"corrupt KLL sketch: its extremes {low!r} and {high!r} are not finite, ordered")
     if not np.all((items >= low) & (items <= high)):  # also false for NaN
-        raise _reject(path, "corrupt KLL sketch: some items are not finite numbers within its extremes")
+        raise UncomputableInput.at(path, "corrupt KLL sketch: some items are not finite numbers within its extremes")
     # Sorted pairs within a level: level zero only when flagged so, the levels above always.
     starts = np.asarray(offsets[:-1]) - offsets[0]
     checked = np.ones(max(retained - 1, 0), dtype=bool)
@@ -279,13 +279,10 @@ def _read_multi_item(data: bytes, path: str, k: int, sorted_zero: bool) -> KllSk
     if not sorted_zero:
         checked[: max(int(counts[0]) - 1, 0)] = False
     if np.any(checked & (items[1:] < items[:-1])):
-        raise _reject(path, "corrupt KLL sketch: a level that must be sorted is not")
+        raise UncomputableInput.at(path, "corrupt KLL sketch: a level that must be sorted is not")
     weights = np.repeat(np.ldexp(1.0, np.arange(num_levels)), counts)
     return KllSketchContents(item_type, k, min_k, n, low, high, items, weights, sorted_zero)
 
-
-def _reject(path: str, message: str) -> UncomputableInput:
-    return UncomputableInput(detail=f"{path}: {message}", locations=[Location(path, message)])
 
 
 def combine_sketches(blobs: Sequence[bytes], path: str = "sketches") -> SketchUnion:
@@ -300,7 +297,7 @@ def combine_sketches(blobs: Sequence[bytes], path: str = "sketches") -> SketchUn
         own header (see ``read_kll_sketch``).
     """
     if len(blobs) == 0:
-        raise _reject(path, "give at least one sketch")
+        raise UncomputableInput.at(path, "give at least one sketch")
     items, weights, types = [], [], set()
     n = 0
     k = None

@@ -158,17 +158,13 @@ class WeightedData:
 PROBABILITY_TOLERANCE = 1e-9
 
 
-def _located(path: str, message: str, detail: str | None = None) -> UncomputableInput:
-    return UncomputableInput(detail=detail or f"{path}: {message}", locations=[Location(path, message)])
-
-
 def _check_total(weights: np.ndarray, path: str) -> float:
     with np.errstate(over="ignore"):
         total = float(np.sum(weights))
     if not np.isfinite(total):
-        raise _located(path, "the weights sum beyond the float64 range; rescale them")
+        raise UncomputableInput.at(path, "the weights sum beyond the float64 range; rescale them")
     if total <= 0.0:
-        raise _located(path, "every weight is zero, so there is nothing to describe")
+        raise UncomputableInput.at(path, "every weight is zero, so there is nothing to describe")
     return total
 
 
@@ -206,7 +202,7 @@ def from_samples(
     if weights is not None:
         weight_array = np.asarray(weights, dtype=np.float64)
         if weight_array.size != array.size:
-            raise _located(
+            raise UncomputableInput.at(
                 "weights",
                 f"has {weight_array.size} entries but values has {array.size}; give one weight per value",
             )
@@ -218,8 +214,8 @@ def from_samples(
     present = array[keep] if (omitted or zero_weight) else array
     if present.size == 0:
         if weight_array is not None and zero_weight:
-            raise _located("weights", "every present value has weight zero, so there is nothing to describe")
-        raise _located("values", "every value is missing", "no observations remain after omitting missing values")
+            raise UncomputableInput.at("weights", "every present value has weight zero, so there is nothing to describe")
+        raise UncomputableInput.at("values", "every value is missing", "no observations remain after omitting missing values")
     if weight_array is None:
         return WeightedData(
             values=present, weights=None, meaning=WeightMeaning.UNIT, ordered=True, omitted=omitted
@@ -251,7 +247,7 @@ def from_table(
     normalised_from = None
     if probabilities and abs(total - 1.0) > PROBABILITY_TOLERANCE:
         if not normalise:
-            raise _located(
+            raise UncomputableInput.at(
                 "outcomes",
                 f"probabilities sum to {total!r}, off by {total - 1.0:+.3g} (tolerance "
                 f"{PROBABILITY_TOLERANCE:g}); fix them or set options.normalize to true",
@@ -280,13 +276,13 @@ def from_bins(edges: list[float | None], counts: list[float]) -> WeightedData:
     weight in open bins leaves nothing to describe and is rejected.
     """
     if len(edges) != len(counts) + 1:
-        raise _located(
+        raise UncomputableInput.at(
             "edges",
             f"has {len(edges)} entries for {len(counts)} counts; give k + 1 edges for k counts",
         )
     for i, edge in enumerate(edges[1:-1], start=1):
         if edge is None:
-            raise _located(f"edges[{i}]", "only the first or the last edge may be null (open-ended)")
+            raise UncomputableInput.at(f"edges[{i}]", "only the first or the last edge may be null (open-ended)")
     edge_array = np.array(
         [-np.inf if edges[0] is None else edges[0], *edges[1:-1], np.inf if edges[-1] is None else edges[-1]],
         dtype=np.float64,
@@ -295,7 +291,7 @@ def from_bins(edges: list[float | None], counts: list[float]) -> WeightedData:
     bad = np.flatnonzero(~(steps > 0.0))
     if bad.size:
         i = int(bad[0]) + 1
-        raise _located(f"edges[{i}]", f"edges must increase strictly; this one is not above edges[{i - 1}]")
+        raise UncomputableInput.at(f"edges[{i}]", f"edges must increase strictly; this one is not above edges[{i - 1}]")
     count_array = np.asarray(counts, dtype=np.float64)
     total = _check_total(count_array, "counts")
     keep = np.ones(count_array.size, dtype=bool)
@@ -316,7 +312,7 @@ def from_bins(edges: list[float | None], counts: list[float]) -> WeightedData:
     if count_array.size and np.isinf(edge_array[-1]):
         open_weight += float(count_array[-1])
     if count_array.size == 0 or open_weight >= total:
-        raise _located("counts", "every count lies in an open-ended bin, so nothing can be described")
+        raise UncomputableInput.at("counts", "every count lies in an open-ended bin, so nothing can be described")
     lower, upper = edge_array[:-1], edge_array[1:]
     midpoints = np.where(np.isinf(lower), upper, np.where(np.isinf(upper), lower, 0.5 * lower + 0.5 * upper))
     return WeightedData(

@@ -1,0 +1,272 @@
+"""Describing one input: admission, the descriptor families in turn, and the one assembly of a
+``Description`` that describing data and describing merged partial states share."""
+
+from __future__ import annotations
+
+import math
+import time
+from collections.abc import Callable
+
+import numpy as np
+
+from tailgauge.core import cost, order_statistics
+from tailgauge.core.describe import evidence, intervals, moment_based, order_based, robust_shape
+from tailgauge.core.describe.basis import Basis
+from tailgauge.core.describe.notes import Notes, explain_remaining_nulls, finite_or_none, note_degenerate
+from tailgauge.core.describe.options import DescribeOptions
+from tailgauge.core.describe.results import (
+    Conventions,
+    Description,
+    Descriptor,
+    Grouping,
+    Modes,
+    Moments,
+    NormalityTest,
+    Quantile,
+    QuantileSketches,
+    Resampling,
+    Size,
+    TailContributions,
+)
+from tailgauge.core.describe.validation import check_description
+from tailgauge.core.errors import LimitExceeded, Location
+from tailgauge.core.moments import CentralSums, central_sums
+from tailgauge.core.registry import MOMENT_DESCRIPTORS, WarningCode
+from tailgauge.core.weighted import WeightedData, WeightMeaning
+
+PLUG_IN_CENTRAL_MOMENTS = "plug-in: sum of w (x - mean)^k divided by the total weight"
+
+
+def admit(inputs: list[WeightedData], options: DescribeOptions) -> cost.Estimate:
+    """Plan the memory and time of describing (or comparing) ``inputs`` by ``options``, or raise
+    :class:`LimitExceeded` with what would fit (see :mod:`tailgauge.core.cost`)."""
+    interval = options.interval
+    if interval is not None and any(d.meaning is WeightMeaning.PROBABILITY for d in inputs):
+        interval = None  # refused with its own reason by validation.check_description
+    left = math.inf if options.deadline is None else options.deadline - time.monotonic()
+    return cost.admit(
+        [cost.shape_of(d, options.subset_rows) for d in inputs],
+        probabilities=len(options.probabilities),
+        resamples=0 if interval is None else interval.resamples,
+        method=None if interval is None else interval.method,
+        threads=options.resample_threads,
+        max_bytes=options.max_memory_bytes,
+        seconds=left,
+        max_work=options.max_resample_work,
+    )
+
+
+def _on_time(options: DescribeOptions) -> None:
+    """The wall-clock check between the descriptor families (each is at most O(n log n))."""
+    if options.deadline is not None and time.monotonic() > options.deadline:
+        raise LimitExceeded(
+            detail="the descriptors did not finish within this server's time limit; send fewer values",
+            locations=[Location("", "too many values to describe in time")],
+        )
+
+
+def describe(data: WeightedData, options: DescribeOptions, *, kind: str) -> Description:
+    """Compute every descriptor of ``data``.
+
+    The options are checked against the data first (``validation.check_description``), then the
+    request is admitted (unless the caller did), then the families are computed in turn.
+
+    Degenerate input is a documented outcome, never NaN:
+
+    * one observation: location descriptors only; spread and shape are ``None``
+      (``single_observation``);
+    * constant data: zero spread; shape and standardized moments are ``None``
+      (``constant_data``);
+    * too few observations for an estimator (G1 needs n >= 3, G2 n >= 4): ``None``
+      (``too_few_observations``);
+    * an open-ended bin holding data: every moment descriptor is ``None``
+      (``open_bin_holds_data``), while quantiles in closed bins are still given;
+    * a moment beyond float64's range: ``None`` (``not_representable``).
+    """
+    basis = check_description(data, options)
+    if not options.admitted:
+        admit([data], options)
+    notes = Notes()
+    _note_input(data, notes)
+
+    moments_defined = data.open_bin_weight == 0.0
+    sums = midpoint_sums = None
+    sheppard_applied = False
+    if moments_defined:
+        sums = midpoint_sums = central_sums(data.values, data.weights, max(options.moment_order, 4))
+        if data.binned and options.sheppard_correction:
+            sums, sheppard_applied = moment_based.sheppard(data, sums, notes)
+    else:
+        notes.add(
+            WarningCode.OPEN_BIN_HOLDS_DATA,
+            f"open-ended bins hold {data.open_bin_weight:g} of the {data.total_weight:g} counts, so their "
+            "values are unknown and no moment can be computed; quantiles in closed bins are still given",
+            MOMENT_DESCRIPTORS + ("moments", "shape_estimators", "tail_contributions"),
+        )
+    # Every count in one bin: its midpoint would read as zero spread, but the spread is unknown.
+    constant = sums is not None and sums.scaled_central_moment(2) == 0.0 and not basis.single_bin
+    note_degenerate(basis, constant, notes)
+
+    descriptors: dict[str, Descriptor] = {}
+    weighted = data.weights is not None
+    moment_based.moment_descriptors(
+        descriptors,
+        sums,
+        basis,
+        constant,
+        notes,
+        mean_label=(
+            "mean of bin midpoints" if data.binned else "weighted arithmetic mean" if weighted else "arithmetic mean"
+        ),
+        lowest=moment_based.lowest_value(data),
+    )
+    _on_time(options)
+    quantile_values, robust_quantiles = order_based.order_descriptors(descriptors, data, basis, options, notes)
+    _on_time(options)
+    robust_shape.robust_descriptors(descriptors, data, sums, basis, robust_quantiles, constant, notes)
+    _on_time(options)
+    descriptors["lag1_autocorrelation"] = Descriptor(
+        moment_based.lag1(data, sums, basis.single, constant, notes), moment_based.LAG1_LABEL
+    )
+    evidence.check_symmetry(descriptors, data, basis, notes)
+
+    probabilities = np.array(options.probabilities, dtype=np.float64)
+    quantile_list = quantiles_at(probabilities, quantile_values)
+    if any(q.value is None for q in quantile_list) and quantile_list:
+        missing = [f"{q.probability:g}" for q in quantile_list if q.value is None]
+        if data.binned:
+            notes.add(
+                WarningCode.QUANTILE_IN_OPEN_BIN,
+                f"quantiles at p = {', '.join(missing)} fall inside an open-ended bin, where values are unknown",
+                ["quantiles"],
+            )
+
+    resampling = None
+    if options.interval is not None:
+        resampling = intervals.intervals(
+            data, sums, midpoint_sums, sheppard_applied, basis, options, descriptors, quantile_list, probabilities, notes
+        )
+
+    modes, modal = order_based.modes(data, options.modes_limit, notes)
+    single_or_constant = basis.single or constant
+    return assemble(
+        kind=kind,
+        size=Size(
+            n=None if data.meaning is WeightMeaning.PROBABILITY else _count_value(data),
+            total_weight=data.total_weight,
+            omitted=data.omitted,
+            distinct_values=int(data.values.size if data.binned else data.support.values.size),
+            zero_weight=data.zero_weight,
+            effective_n=data.effective_size if data.meaning is WeightMeaning.RELIABILITY else None,
+        ),
+        basis=basis,
+        sums=sums,
+        constant=constant,
+        descriptors=descriptors,
+        quantiles=quantile_list,
+        notes=notes,
+        moments=lambda: (
+            None if sums is None else moment_based.moments_member(sums, options.moment_order, basis.single, constant, notes)
+        ),
+        modes=modes,
+        tail_contributions=lambda: moment_based.tail_contributions(
+            data, midpoint_sums, single_or_constant, options, kind, notes
+        ),
+        grouping=order_based.grouping(data, modal, sheppard_applied) if data.binned else None,
+        normality=lambda: evidence.normality_of(data, midpoint_sums, basis, constant, notes),
+        central_moments=PLUG_IN_CENTRAL_MOMENTS
+        + ("; bins at their midpoints" if data.binned else "")
+        + ("; orders 2 and 4 Sheppard-corrected" if sheppard_applied else ""),
+        weights=data.meaning,
+        resampling=resampling,
+    )
+
+
+def quantiles_at(probabilities: np.ndarray, values: np.ndarray) -> list[Quantile]:
+    """The quantiles member: one entry per requested probability, ``None`` where not finite."""
+    return [Quantile(probability=float(p), value=finite_or_none(float(v))) for p, v in zip(probabilities, values)]
+
+
+def assemble(
+    *,
+    kind: str,
+    size: Size,
+    basis: Basis,
+    sums: CentralSums | None,
+    constant: bool,
+    descriptors: dict[str, Descriptor],
+    quantiles: list[Quantile],
+    notes: Notes,
+    moments: Callable[[], Moments | None],
+    modes: Modes | None,
+    normality: Callable[[], list[NormalityTest]],
+    central_moments: str,
+    weights: WeightMeaning,
+    tail_contributions: Callable[[], TailContributions | None] = lambda: None,
+    grouping: Grouping | None = None,
+    resampling: Resampling | None = None,
+    sketches: QuantileSketches | None = None,
+) -> Description:
+    """The one assembly of a ``Description``, for data (``describe``) and merged partial states.
+
+    First every null descriptor no warning covers gets one (``undefined_for_these_data``); then
+    the members whose warnings follow it are computed, in response order (``moments``,
+    ``tail_contributions``, ``normality``: callables for that reason). The conventions and
+    estimator labels come from ``basis``; a caller with its own quantile rule (sketches) puts it
+    in the basis.
+    """
+    explain_remaining_nulls(descriptors, notes)
+    return Description(
+        kind=kind,
+        size=size,
+        descriptors=descriptors,
+        moments=moments(),
+        quantiles=quantiles,
+        modes=modes,
+        shape_estimators=moment_based.shape_estimators(sums, basis, constant),
+        tail_contributions=tail_contributions(),
+        grouping=grouping,
+        normality=normality(),
+        conventions=Conventions(
+            convention=basis.convention,
+            variance_divisor=basis.divisor_label,
+            skewness=basis.skewness_family,
+            kurtosis=basis.kurtosis_family,
+            quantile_type=basis.quantile_type,
+            quantile_definition=basis.quantile_definition,
+            median=basis.median_rule,
+            central_moments=central_moments,
+            normal_mad_factor=order_statistics.NORMAL_MAD_FACTOR,
+            weights=weights.value,
+        ),
+        warnings=notes.items,
+        resampling=resampling,
+        sketches=sketches,
+    )
+
+
+def _count_value(data: WeightedData) -> float:
+    """Observations: the count for raw and reliability-weighted samples, the total for counts."""
+    if data.meaning in (WeightMeaning.UNIT, WeightMeaning.RELIABILITY):
+        return data.count
+    total = data.total_weight
+    return int(total) if data.integer_weights else total
+
+
+def _note_input(data: WeightedData, notes: Notes) -> None:
+    if data.omitted:
+        notes.add(
+            WarningCode.MISSING_VALUES_OMITTED,
+            f"{data.omitted} missing value(s) were omitted; n counts the values used",
+        )
+    if data.zero_weight:
+        notes.add(
+            WarningCode.ZERO_WEIGHTS_DROPPED,
+            f"{data.zero_weight} entr{'y' if data.zero_weight == 1 else 'ies'} with weight zero "
+            "contribute nothing and were left out",
+        )
+    if data.normalised_from is not None:
+        notes.add(
+            WarningCode.PROBABILITIES_NORMALIZED,
+            f"the probabilities summed to {data.normalised_from!r} and were divided by that sum, as requested",
+        )

@@ -1,0 +1,80 @@
+"""Warnings of a description: the collector, and the warnings every description shares.
+
+Every ``None`` a description carries is paired with a warning that names it and says why; no
+NaN or infinity leaves the core. Codes come only from :class:`~tailgauge.core.registry.WarningCode`.
+"""
+
+from __future__ import annotations
+
+import math
+from collections.abc import Sequence
+
+from tailgauge.core.describe.basis import Basis
+from tailgauge.core.describe.results import Descriptor, Note
+from tailgauge.core.registry import UNDEFINED_FOR_CONSTANT, UNDEFINED_FOR_ONE, WarningCode
+
+
+class Notes:
+    """Collects warnings; turns every non-finite number into ``None`` with a reason."""
+
+    def __init__(self) -> None:
+        self.items: list[Note] = []
+
+    def add(self, code: WarningCode, message: str, descriptors: Sequence[str] = ()) -> None:
+        if not isinstance(code, WarningCode):
+            raise TypeError(f"warning codes come from the registry's vocabulary, not {code!r}")
+        self.items.append(Note(code=code, message=message, descriptors=list(descriptors)))
+
+    def finite(self, value: float | None, name: str) -> float | None:
+        """``value`` if finite; otherwise ``None`` and a warning that float64 cannot hold it."""
+        if value is None:
+            return None
+        if math.isfinite(value):
+            return float(value)
+        self.add(
+            WarningCode.NOT_REPRESENTABLE,
+            f"{name} is outside the range of float64 for these data (overflow or underflow)",
+            [name],
+        )
+        return None
+
+
+def finite_or_none(value: float) -> float | None:
+    """``value`` as a float if finite, else ``None`` (the caller says why)."""
+    return float(value) if math.isfinite(value) else None
+
+
+def note_degenerate(basis: Basis, constant: bool, notes: Notes) -> None:
+    """Say why spread or shape is undefined: one observation (or one bin), or no spread at all."""
+    if basis.single_bin:
+        notes.add(
+            WarningCode.SINGLE_BIN,
+            "every count lies in one bin, so the spread and shape within it are unknown",
+            UNDEFINED_FOR_ONE,
+        )
+    elif basis.single:
+        notes.add(
+            WarningCode.SINGLE_OBSERVATION,
+            "a single observation carries no information on spread or shape",
+            UNDEFINED_FOR_ONE,
+        )
+    elif constant:
+        notes.add(
+            WarningCode.CONSTANT_DATA,
+            "all values are equal: the spread is zero, so shape (skewness, kurtosis), "
+            "standardized moments and autocorrelation are undefined",
+            UNDEFINED_FOR_CONSTANT + ("tail_contributions",),
+        )
+
+
+def explain_remaining_nulls(descriptors: dict[str, Descriptor], notes: Notes) -> None:
+    """Safety net of the contract "every null has a reason": name any null no warning covers."""
+    covered = {name for note in notes.items for name in note.descriptors}
+    silent = [name for name, d in descriptors.items() if d.value is None and name not in covered]
+    if silent:
+        notes.add(
+            WarningCode.UNDEFINED_FOR_THESE_DATA,
+            "these descriptors cannot be computed for these data (a quantity they divide by is zero "
+            "or outside float64's range)",
+            silent,
+        )

@@ -1,0 +1,481 @@
+"""The descriptor registry: every descriptor, response member and warning code of the service, once.
+
+Each descriptor is named here with its family, what it needs (the power sums, the extremes, the
+quantiles, the values themselves, their order, whole counts), whether the bootstrap gives it an
+interval (and why not), whether it has a classical interval, whether it is a scale in the data's
+units, and its catalog text (definition, conventions, when it is undefined, reference) as served
+by GET /v1/catalog. The descriptor lists the rest of the core uses (``SCALAR_DESCRIPTORS`` and its
+subsets, the interval eligibility, what partial states cannot give) are derived from this table,
+so a new descriptor is one entry here plus the code that computes it.
+
+This module is a data table and exceeds the house's ~500-line guide on purpose: splitting the
+table would only spread one fact over several files.
+"""
+
+from __future__ import annotations
+
+import enum
+from collections.abc import Callable
+from dataclasses import dataclass
+from typing import Literal
+
+Family = Literal["location", "spread", "shape", "extremes", "serial", "robust_shape", "l_moment"]
+# What a descriptor is computed from. "sums": the shifted central power sums (what partial states
+# carry); "extremes": the minimum and maximum; "quantiles": order statistics (a quantile sketch
+# can stand in); "values": the observed values themselves; "order": their order of observation;
+# "whole_counts": observations with whole counts (not fractional weights).
+Need = Literal["sums", "extremes", "quantiles", "values", "order", "whole_counts"]
+
+_SUMS: frozenset[Need] = frozenset({"sums"})
+_EXTREMES: frozenset[Need] = frozenset({"extremes"})
+_QUANTILES: frozenset[Need] = frozenset({"quantiles"})
+_VALUES: frozenset[Need] = frozenset({"values"})
+
+# Why the ordinary bootstrap gives some descriptors no interval (Bickel & Freedman 1981 for extremes).
+_INCONSISTENT_FOR_EXTREMES = "the bootstrap is inconsistent for sample extremes (Bickel & Freedman 1981)"
+_SERIAL_ORDER_DESTROYED = "resampling independent observations destroys the serial order it measures"
+NOT_RESAMPLED = "the resampling engine does not resample this descriptor (describe gives it no interval either)"
+
+
+@dataclass(frozen=True)
+class CatalogEntry:
+    """One entry of GET /v1/catalog: exactly the fields served, in the order served."""
+
+    name: str
+    member: str  # where it appears in a descriptor response
+    definition: str
+    conventions: tuple[str, ...]
+    undefined_when: tuple[str, ...]
+    reference: str
+
+
+@dataclass(frozen=True)
+class DescriptorFacts:
+    """Everything the service states about one scalar descriptor."""
+
+    name: str
+    family: Family
+    needs: frozenset[Need]
+    # The bootstrap engine resamples it; ``bootstrap_fails`` says why it must not where the
+    # ordinary bootstrap is known to fail (otherwise the engine simply has no rule for it).
+    bootstrap: bool
+    bootstrap_fails: str | None
+    classical: bool  # a classical (t, chi-square or order-statistic) interval exists for it
+    scale: bool  # a spread in the data's own units: two inputs compare by ratio too
+    definition: str
+    conventions: tuple[str, ...]
+    undefined_when: tuple[str, ...]
+    reference: str
+
+    @property
+    def undefined_for_one(self) -> bool:
+        """A single observation (sample convention) leaves it undefined."""
+        return _ONE in self.undefined_when
+
+    @property
+    def undefined_for_constant(self) -> bool:
+        """Constant data (zero spread) leave it undefined."""
+        return _CONSTANT in self.undefined_when
+
+    def catalog_entry(self) -> CatalogEntry:
+        return CatalogEntry(
+            self.name, "descriptors", self.definition, self.conventions, self.undefined_when, self.reference
+        )
+
+
+def _descriptor(
+    name: str,
+    definition: str,
+    conventions: tuple[str, ...],
+    undefined_when: tuple[str, ...],
+    reference: str,
+    *,
+    family: Family,
+    needs: frozenset[Need],
+    bootstrap: bool = True,
+    bootstrap_fails: str | None = None,
+    classical: bool = False,
+    scale: bool = False,
+) -> DescriptorFacts:
+    resampled = bootstrap and bootstrap_fails is None
+    return DescriptorFacts(
+        name, family, needs, resampled, bootstrap_fails, classical, scale, definition, conventions, undefined_when,
+        reference,
+    )
+
+
+_ONE = "a single observation (sample convention)"
+_CONSTANT = "constant data (zero spread)"
+_OPEN = "an open-ended bin holds data"
+
+# In the order of every response's ``descriptors`` and of the catalog.
+DESCRIPTORS: tuple[DescriptorFacts, ...] = (
+    _descriptor(
+        "mean", "sum w x / sum w (bins: at their midpoints)", (), (_OPEN,),
+          "arithmetic mean; shifted-data summation (Chan, Golub & LeVeque 1983)",
+        family="location", needs=_SUMS, classical=True,
+    ),
+    _descriptor(
+        "median", "average of the two middle order statistics; weighted: smallest x with F(x) >= 1/2 (averaged at an "
+          "exact half); probabilities: smallest x with F(x) >= 1/2; bins: interpolated within the bin holding N/2",
+          ("weights",), ("bins: the median falls inside an open-ended bin",), "Hyndman & Fan 1996",
+        family="location", needs=_QUANTILES, classical=True,
+    ),
+    _descriptor(
+        "variance", "sum w (x - mean)^2 / divisor; divisor n - 1 (sample), n (population), V1 - V2/V1 (reliability weights)",
+          ("convention", "weights", "sheppard_correction"), (_ONE, _OPEN),
+          "Bessel's correction; reliability weights: e.g. GNU Scientific Library manual, weighted samples",
+        family="spread", needs=_SUMS, classical=True, scale=True,
+    ),
+    _descriptor(
+        "standard_deviation", "square root of the variance", ("convention", "weights"), (_ONE, _OPEN),
+          "as variance",
+        family="spread", needs=_SUMS, classical=True, scale=True,
+    ),
+    _descriptor(
+        "coefficient_of_variation", "standard deviation / mean", ("convention",),
+          (_ONE, _OPEN, "negative values (not a ratio scale)", "mean zero"), "Pearson 1896",
+        family="spread", needs=_SUMS,
+    ),
+    _descriptor(
+        "skewness", "g1 = m3 / m2^1.5; G1 = g1 sqrt(n(n-1))/(n-2); b1 = g1 ((n-1)/n)^1.5",
+          ("convention", "skewness_estimator"), (_ONE, _CONSTANT, "n < 3 (sample estimators)", _OPEN),
+          "Joanes & Gill, The Statistician 47, 1998",
+        family="shape", needs=_SUMS,
+    ),
+    _descriptor(
+        "kurtosis", "excess kurtosis + 3 (normal = 3)", ("convention", "kurtosis_estimator"),
+          (_ONE, _CONSTANT, "n < 4 (sample estimators)", _OPEN), "Joanes & Gill 1998",
+        family="shape", needs=_SUMS,
+    ),
+    _descriptor(
+        "excess_kurtosis", "g2 = m4 / m2^2 - 3; G2 = (n-1)/((n-2)(n-3)) ((n+1) g2 + 6); b2 = (g2 + 3)((n-1)/n)^2 - 3",
+          ("convention", "kurtosis_estimator"), (_ONE, _CONSTANT, "n < 4 (sample estimators)", _OPEN),
+          "Joanes & Gill 1998",
+        family="shape", needs=_SUMS,
+    ),
+    _descriptor(
+        "minimum", "smallest value", (), ("bins (values unknown)",), "order statistic x(1)",
+        family="extremes", needs=_EXTREMES, bootstrap_fails=_INCONSISTENT_FOR_EXTREMES,
+    ),
+    _descriptor(
+        "maximum", "largest value", (), ("bins (values unknown)",), "order statistic x(n)",
+        family="extremes", needs=_EXTREMES, bootstrap_fails=_INCONSISTENT_FOR_EXTREMES,
+    ),
+    _descriptor(
+        "range", "maximum - minimum", (), (_ONE, "bins"), "order statistics",
+        family="spread", needs=_EXTREMES, bootstrap_fails=_INCONSISTENT_FOR_EXTREMES, scale=True,
+    ),
+    _descriptor(
+        "interquartile_range", "Q(0.75) - Q(0.25) by the quantile rule in use",
+          ("quantile_type",), (_ONE, "a quartile in an open bin", "types 3-9 with fractional weights"),
+          "Hyndman & Fan 1996",
+        family="spread", needs=_QUANTILES, scale=True,
+    ),
+    _descriptor(
+        "median_absolute_deviation", "median of |x - median| (raw)", ("weights",),
+          (_ONE, "bins: it reaches into an open bin"), "Hampel 1974",
+        family="spread", needs=_VALUES, scale=True,
+    ),
+    _descriptor(
+        "median_absolute_deviation_normal", "1.482602218505602 x median |x - median| = MAD / Phi^-1(3/4), consistent for the normal sigma", (),
+          (_ONE,), "Hampel 1974; Rousseeuw & Croux 1993",
+        family="spread", needs=_VALUES, scale=True,
+    ),
+    _descriptor(
+        "lag1_autocorrelation", "r(1) = sum_{i<n} (x_i - mean)(x_{i+1} - mean) / sum (x_i - mean)^2", (),
+          (_ONE, _CONSTANT, "weighted data, tables and bins (no observation order)"),
+          "NIST StRD univariate summary statistics",
+        family="serial", needs=frozenset({"values", "order"}), bootstrap_fails=_SERIAL_ORDER_DESTROYED,
+    ),
+    _descriptor(
+        "quartile_skewness", "(Q3 + Q1 - 2 Q2) / (Q3 - Q1)", ("quantile_type",),
+          (_ONE, _CONSTANT, "Q3 = Q1"), "Bowley 1901",
+        family="robust_shape", needs=_QUANTILES, bootstrap=False,
+    ),
+    _descriptor(
+        "octile_kurtosis", "((E7 - E5) + (E3 - E1)) / (E6 - E2), E_i the i/8 quantile",
+          ("quantile_type",), (_ONE, _CONSTANT, "E6 = E2"), "Moors, The Statistician 37, 1988",
+        family="robust_shape", needs=_QUANTILES, bootstrap=False,
+    ),
+    _descriptor(
+        "octile_excess_kurtosis", "octile kurtosis - 1.2330951... (its value for any normal)",
+          ("quantile_type",), (_ONE, _CONSTANT, "E6 = E2"), "Moors 1988",
+        family="robust_shape", needs=_QUANTILES, bootstrap=False,
+    ),
+    _descriptor(
+        "medcouple", "median of h(l, u) = ((u - m) + (l - m)) / (u - l) over l <= m <= u; sign kernel for ties at the median",
+          (), (_ONE, _CONSTANT, "bins (values unknown)"), "Brys, Hubert & Struyf, JCGS 13, 2004",
+        family="robust_shape", needs=_VALUES, bootstrap=False,
+    ),
+    _descriptor(
+        "half_sample_mode", "repeatedly keep the shortest window holding half the observations; mean of the final two or "
+          "closest pair of three", (), ("bins, probabilities and fractional weights",),
+          "Bickel & Fruhwirth, CSDA 50, 2006",
+        family="location", needs=frozenset({"values", "whole_counts"}), bootstrap=False,
+    ),
+    _descriptor(
+        "mean_median_gap", "(mean - median) / standard deviation", ("convention",),
+          (_ONE, _CONSTANT, _OPEN), "Pearson's second skewness coefficient / 3",
+        family="robust_shape", needs=frozenset({"sums", "quantiles"}), bootstrap=False,
+    ),
+    _descriptor(
+        "l_location", "l1 = b0 (PWM b_r = n^-1 sum C(j-1, r)/C(n-1, r) x_(j))", ("weights",),
+          ("n < 4 (sample estimators)", _OPEN), "Hosking, JRSS-B 52, 1990",
+        family="l_moment", needs=_VALUES, bootstrap=False,
+    ),
+    _descriptor(
+        "l_scale", "l2 = 2 b1 - b0", ("weights",), (_ONE, "n < 4", _OPEN), "Hosking 1990",
+        family="l_moment", needs=_VALUES, bootstrap=False, scale=True,
+    ),
+    _descriptor(
+        "l_skewness", "t3 = l3 / l2, l3 = 6 b2 - 6 b1 + b0", ("weights",),
+          (_ONE, _CONSTANT, "n < 4", _OPEN), "Hosking 1990",
+        family="l_moment", needs=_VALUES, bootstrap=False,
+    ),
+    _descriptor(
+        "l_kurtosis", "t4 = l4 / l2, l4 = 20 b3 - 30 b2 + 12 b1 - b0", ("weights",),
+          (_ONE, _CONSTANT, "n < 4", _OPEN), "Hosking 1990",
+        family="l_moment", needs=_VALUES, bootstrap=False,
+    ),
+)
+
+
+# The response members beside the scalar descriptors, as the catalog describes them.
+MEMBERS: tuple[CatalogEntry, ...] = (
+    CatalogEntry("moments.raw", "moments", "plug-in E[x^k], k = 1 .. moment_order", ("moment_order",),
+          (_OPEN, "beyond float64's range"), "moments about zero"),
+    CatalogEntry("moments.central", "moments", "plug-in E[(x - mean)^k]", ("moment_order", "sheppard_correction"),
+          (_OPEN, "beyond float64's range"), "central moments; Sheppard 1898 for orders 2 and 4 of bins"),
+    CatalogEntry("moments.standardized", "moments", "E[(x - mean)^k] / sigma^k (plug-in sigma)", ("moment_order",),
+          (_ONE, _CONSTANT, _OPEN), "standardized moments"),
+    CatalogEntry("quantiles", "quantiles", "Q(p) at each requested probability by the quantile rule in use",
+          ("probabilities", "quantile_type"), ("p falls in an open bin", "types 3-9 with fractional weights"),
+          "Hyndman & Fan, The American Statistician 50, 1996"),
+    CatalogEntry("modes", "modes",
+          "every value with the largest count; bins: the interpolated mode of each modal class (largest density)",
+          (), ("every value occurs once",), "grouped mode: Kendall & Stuart, vol. 1"),
+    CatalogEntry("shape_estimators", "shape_estimators", "g1, G1, b1 and g2, G2, b2 side by side, with normal-theory "
+          "standard errors", (), (_ONE, _CONSTANT, "n < 3 or 4"), "Joanes & Gill 1998"),
+    CatalogEntry("tail_contributions", "tail_contributions",
+          "per outcome: third = w (x - mean)^3 / (W sigma^3), fourth = w (x - mean)^4 / (W sigma^4); they sum to "
+          "g1 and g2 + 3", (), (_ONE, _CONSTANT, _OPEN), "decomposition of the plug-in standardized moments"),
+    CatalogEntry("grouping", "grouping", "bin width, open ends, modal classes, whether Sheppard's corrections applied",
+          ("sheppard_correction",), ("input other than bins",), "Sheppard, Proc. London Math. Soc. 29, 1898"),
+    CatalogEntry("normality.skewness_test", "normality", "D'Agostino's z transform of g1", (),
+          ("n < 8", "not a sample with whole counts"), "D'Agostino, Biometrika 57, 1970"),
+    CatalogEntry("normality.kurtosis_test", "normality", "Anscombe & Glynn's z transform of b2", (),
+          ("n < 5", "not a sample with whole counts"), "Anscombe & Glynn, Biometrika 70, 1983"),
+    CatalogEntry("normality.omnibus_k2", "normality", "K^2 = Z_skew^2 + Z_kurt^2, chi-square(2)", (),
+          ("n < 8", "not a sample with whole counts"), "D'Agostino & Pearson, Biometrika 60, 1973"),
+    CatalogEntry("normality.jarque_bera", "normality", "JB = n/6 (g1^2 + (b2 - 3)^2 / 4), chi-square(2)", (),
+          ("n < 2", "not a sample with whole counts"), "Jarque & Bera, Economics Letters 6, 1980"),
+    CatalogEntry("interval", "descriptors.*, quantiles[*]",
+          "bootstrap interval: percentile, basic (2 estimate - reversed percentile) or BCa", ("interval",),
+          ("no options.interval", "minimum, maximum, range, lag-1 autocorrelation, p = 0 or 1",
+           "a probability table (a population)"),
+          "Efron & Tibshirani 1993 (eq. 14.10); bag of little bootstraps: Kleiner et al., JRSS-B 76, 2014"),
+    CatalogEntry("standard_error", "descriptors.*, quantiles[*]", "standard deviation of the bootstrap replicates",
+          ("interval",), ("no options.interval",), "Efron & Tibshirani 1993"),
+    CatalogEntry("classical_interval", "descriptors.*, quantiles[*]",
+          "Student's t (mean), chi-square (variance, sd; normal data only), order statistics x(l), x(u) with "
+          "coverage P(l <= Binomial(n, p) <= u - 1) (median, quantiles)", ("interval",),
+          ("no options.interval", "weights that are not whole counts", "n too small for the level"),
+          "Conover, Practical Nonparametric Statistics, 3rd ed., section 3.2"),
+    CatalogEntry("differences", "comparison",
+          "second minus first, for every scalar descriptor; interval from independent resampling of both inputs "
+          "(replicate k: stat(second*_k) - stat(first*_k)); Welch's t interval for the mean", ("interval",),
+          ("either input leaves the descriptor undefined",),
+          "Efron & Tibshirani 1993, ch. 8 (two-sample bootstrap); Welch, Biometrika 34, 1947"),
+    CatalogEntry("ratios", "comparison", "second / first, for the scale descriptors (variance, sd, range, IQR, MAD, "
+          "l_scale)", ("interval",), ("the first input's value is zero", "either input leaves it undefined"),
+          "Efron & Tibshirani 1993, ch. 8"),
+    CatalogEntry("standardized_mean_difference", "comparison",
+          "Hedges' g = J(m) (mean2 - mean1) / s_pooled, J(m) = Gamma(m/2) / (sqrt(m/2) Gamma((m-1)/2)), "
+          "m = n1 + n2 - 2; Cohen's d without J; n = counts, Kish's effective n for reliability weights",
+          ("interval",), ("a probability table (no sample size)", "no spread in either input", "m <= 1"),
+          "Hedges & Olkin, Statistical Methods for Meta-Analysis, 1985, ch. 5; Borenstein et al. 2009, ch. 4"),
+    CatalogEntry("quantile_shifts", "comparison", "q2(p) - q1(p) at each requested probability", ("probabilities",),
+          ("a quantile of either input is undefined",), "Doksum, Annals of Statistics 2, 1974 (shift function)"),
+    CatalogEntry("standardized_quantiles", "comparison",
+          "each input's quantiles as (q - mean) / sd and (q - median) / normal-consistent MAD, and second minus "
+          "first: shapes compared free of location and scale", ("probabilities",),
+          ("zero or undefined spread",), "standardization; Hampel 1974 for the MAD"),
+    CatalogEntry("distribution_test", "comparison",
+          "two-sample Kolmogorov-Smirnov (whole counts; exact up to 10000 per input, else asymptotic) or Pearson's "
+          "chi-square test of homogeneity (bins on the same edges)", (),
+          ("probabilities, reliability or fractional weights", "bins against other kinds or other edges"),
+          "scipy.stats.ks_2samp, scipy.stats.chi2_contingency; Hodges, Arkiv for Matematik 3, 1958"),
+    CatalogEntry("scores", "scores", "z = (x - mean) / sd and robust z = (x - median) / normal-consistent MAD",
+          ("convention",), ("zero or undefined spread",), "standard scores; Hampel 1974 for the MAD"),
+    CatalogEntry("partial_state", "partial_state",
+          "count n, mean, central sums M_j = sum (x - mean)^j for j = 2 .. p (p = max(4, moment_order)), minimum, "
+          "maximum; two states merge by M_p = M_p,a + M_p,b + sum_{k=1}^{p-2} C(p,k) [(-n_b/n)^k M_{p-k},a + "
+          "(n_a/n)^k M_{p-k},b] d^k + (n_a n_b d / n)^p [n_b^(1-p) - (-n_a)^(1-p)], d = mean_b - mean_a", ("partial_state", "moment_order"),
+          ("reliability weights, probability tables or bins (no count of observations)",),
+          "Chan, Golub & LeVeque 1979; Pebay, Sandia report SAND2008-6212, 2008"),
+    CatalogEntry("sketches", "sketches",
+          "quantiles of the pooled KLL sketches by the inclusive rank rule; rank error at most "
+          "normalized_rank_error x n with 99% confidence", ("probabilities",),
+          ("no sketches sent with the states",),
+          "Karnin, Lang & Liberty, FOCS 2016; Apache DataSketches KLL"),
+)
+
+
+class WarningCode(enum.StrEnum):
+    """The closed vocabulary of warning codes, each with its meaning (served by GET /v1/catalog).
+
+    A member is its code string (``WarningCode.CONSTANT_DATA == "constant_data"``), so responses
+    carry the plain code. Codes are API: never rename one; add instead.
+    """
+
+    meaning: str
+
+    def __new__(cls, code: str, meaning: str) -> WarningCode:
+        member = str.__new__(cls, code)
+        member._value_ = code
+        member.meaning = meaning
+        return member
+
+    MISSING_VALUES_OMITTED = "missing_values_omitted", "nulls in values were dropped under options.missing = omit"
+    ZERO_WEIGHTS_DROPPED = "zero_weights_dropped", "entries of weight zero were left out"
+    PROBABILITIES_NORMALIZED = (
+        "probabilities_normalized",
+        "probabilities not summing to 1 were divided by their sum on request",
+    )
+    SINGLE_OBSERVATION = "single_observation", "one observation: spread and shape are undefined"
+    SINGLE_BIN = "single_bin", "every count in one bin: the spread within it is unknown"
+    CONSTANT_DATA = "constant_data", "all values equal: shape and standardized quantities are undefined"
+    TOO_FEW_OBSERVATIONS = "too_few_observations", "n below what an estimator needs"
+    COEFFICIENT_OF_VARIATION_UNDEFINED = (
+        "coefficient_of_variation_undefined",
+        "negative values, a zero mean, or an unrepresentable spread",
+    )
+    NOT_REPRESENTABLE = "not_representable", "a result outside float64's range"
+    UNDEFINED_FOR_THESE_DATA = "undefined_for_these_data", "a ratio's denominator is zero or outside float64's range"
+    NO_REPEATED_VALUES = "no_repeated_values", "every value occurs once: no mode"
+    MODES_TRUNCATED = "modes_truncated", "more tied modes than the server lists"
+    NO_OBSERVATION_ORDER = "no_observation_order", "lag-1 autocorrelation needs unweighted observations in order"
+    PLUG_IN_ESTIMATOR = (
+        "plug_in_estimator",
+        "no bias-corrected form for reliability weights; the plug-in value is given",
+    )
+    INTEGER_COUNTS_REQUIRED = (
+        "integer_counts_required",
+        "a quantile type that needs whole counts was asked for fractional weights",
+    )
+    OPEN_BIN_HOLDS_DATA = "open_bin_holds_data", "moments are undefined while an open-ended bin holds data"
+    QUANTILE_IN_OPEN_BIN = "quantile_in_open_bin", "a quantile falls inside an open-ended bin"
+    QUANTILE_SPREAD_ZERO = "quantile_spread_zero", "quartiles or octiles coincide: the robust ratio is undefined"
+    NEEDS_VALUES = "needs_values", "a descriptor that needs observed values was asked of bins or distributions"
+    GROUPED_EXTREMES = "grouped_extremes", "bins hide the minimum and maximum"
+    GROUPED_MODE_UNDEFINED = "grouped_mode_undefined", "a modal class has unknown or tied neighbours"
+    SHEPPARD_NOT_APPLICABLE = "sheppard_not_applicable", "unequal widths or bins too wide: no Sheppard correction"
+    ASYMMETRY_DESPITE_SMALL_SKEWNESS = (
+        "asymmetry_despite_small_skewness",
+        "skewness near zero while quartiles or the mean-median gap show asymmetry",
+    )
+    NORMALITY_SMALL_SAMPLE = "normality_small_sample", "n < 20: the kurtosis test's approximation is poor"
+    BCA_FALLBACK = "bca_fallback", "BCa could not be computed; the percentile interval is given"
+    INTERVAL_UNDEFINED = "interval_undefined", "some resamples leave the descriptor undefined"
+    INTERVAL_NOT_OFFERED = (
+        "interval_not_offered",
+        "the bootstrap fails for this descriptor (extremes, serial order), "
+        "or the engine does not resample it (comparisons)",
+    )
+    RESAMPLING_SCHEME = "resampling_scheme", "how fractional weights were resampled"
+    BOOTSTRAP_SMALL_SAMPLE = "bootstrap_small_sample", "n < 20: intervals may cover less than their level"
+    BOOTSTRAP_DISCRETE = "bootstrap_discrete", "few distinct values: order-statistic intervals are coarse"
+    NOT_AVAILABLE_FROM_STATES = (
+        "not_available_from_states",
+        "merged partial states carry no values: order statistics, L-moments and resampling are undefined",
+    )
+    APPROXIMATE_QUANTILES = (
+        "approximate_quantiles",
+        "quantiles from KLL sketches: within the stated normalized rank error, not exact",
+    )
+    BEYOND_STATE_ORDER = "beyond_state_order", "a moment above the highest order the partial states carry"
+    DIFFERENCE_UNDEFINED = (
+        "difference_undefined",
+        "a contrast of two inputs is undefined because an input leaves its descriptor undefined",
+    )
+    RATIO_UNDEFINED = "ratio_undefined", "the first input's value is zero: the ratio second / first is undefined"
+    EFFECT_SIZE_UNDEFINED = (
+        "effect_size_undefined",
+        "no sample sizes (probabilities) or no spread: no standardized mean difference",
+    )
+    CONVENTIONS_DIFFER = "conventions_differ", "the two inputs are described by different estimators"
+    DISTRIBUTION_TEST_TIES = (
+        "distribution_test_ties",
+        "ties in the pooled data: the Kolmogorov-Smirnov p-value is conservative",
+    )
+    CHI_SQUARE_SMALL_EXPECTED = (
+        "chi_square_small_expected",
+        "expected counts below 5: the chi-square approximation may be poor",
+    )
+    SCORE_UNDEFINED = "score_undefined", "the reference's spread is zero or undefined: no z-score"
+
+
+# --- derived lists -------------------------------------------------------------------------
+
+BY_NAME: dict[str, DescriptorFacts] = {facts.name: facts for facts in DESCRIPTORS}
+
+
+def names(*families: Family, where: Callable[[DescriptorFacts], bool] = lambda facts: True) -> tuple[str, ...]:
+    """Descriptor names family by family in the order given (every family if none), each family in
+    response order, keeping those ``where`` accepts."""
+    chosen = families or tuple(dict.fromkeys(facts.family for facts in DESCRIPTORS))
+    return tuple(facts.name for family in chosen for facts in DESCRIPTORS if facts.family == family and where(facts))
+
+
+SCALAR_DESCRIPTORS = tuple(facts.name for facts in DESCRIPTORS)
+SPREAD_DESCRIPTORS = names("spread")
+SHAPE_DESCRIPTORS = names("shape")
+# The robust shape measures and the L-moments beyond location: what a single observation leaves
+# undefined besides spread and moment shape.
+ROBUST_SHAPE_DESCRIPTORS = names("robust_shape", "l_moment", where=lambda facts: facts.undefined_for_one)
+# Computed from the central power sums alone (so also from merged partial states).
+MOMENT_DESCRIPTORS = tuple(facts.name for facts in DESCRIPTORS if facts.needs == _SUMS)
+# Spreads in the data's own units: a comparison reports their ratio second / first too.
+SCALE_DESCRIPTORS = tuple(facts.name for facts in DESCRIPTORS if facts.scale)
+# What the bootstrap engine resamples (its statistics must cover exactly these).
+BOOTSTRAP_DESCRIPTORS = tuple(facts.name for facts in DESCRIPTORS if facts.bootstrap)
+# Where the ordinary bootstrap is known to fail, and why.
+BOOTSTRAP_FAILS = {facts.name: facts.bootstrap_fails for facts in DESCRIPTORS if facts.bootstrap_fails is not None}
+CLASSICAL_DESCRIPTORS = tuple(facts.name for facts in DESCRIPTORS if facts.classical)
+# Undefined for a single observation, and for constant data, in the order the warnings list them.
+UNDEFINED_FOR_ONE = names(
+    "spread", "shape", "robust_shape", "l_moment", "serial", where=lambda facts: facts.undefined_for_one
+)
+UNDEFINED_FOR_CONSTANT = names(
+    "shape", "robust_shape", "l_moment", "serial", where=lambda facts: facts.undefined_for_constant
+)
+# What partial states cannot give: descriptors needing the values (serial order last), and those
+# that a quantile sketch of the same data can stand in for.
+NEEDS_VALUES = tuple(
+    facts.name for facts in DESCRIPTORS if "values" in facts.needs and "order" not in facts.needs
+) + tuple(facts.name for facts in DESCRIPTORS if "order" in facts.needs)
+FROM_QUANTILES = tuple(
+    facts.name for facts in DESCRIPTORS if "quantiles" in facts.needs and "values" not in facts.needs
+)
+
+
+def bootstrap_reason(name: str) -> str | None:
+    """Why ``name`` gets no bootstrap interval (``None`` when the engine resamples it)."""
+    facts = BY_NAME[name]
+    if facts.bootstrap:
+        return None
+    return facts.bootstrap_fails or NOT_RESAMPLED
+
+
+def extremes_reason() -> str:
+    """Why quantiles at p = 0 or 1 (the minimum and maximum again) get no bootstrap interval."""
+    return _INCONSISTENT_FOR_EXTREMES
+
+
+def catalog_descriptors() -> tuple[CatalogEntry, ...]:
+    return tuple(facts.catalog_entry() for facts in DESCRIPTORS)
+
+
+def catalog_warnings() -> dict[str, str]:
+    return {code.value: code.meaning for code in WarningCode}
