@@ -1,8 +1,5 @@
-"""The comparison's copies of descriptor facts and its warning codes
-(tailgauge.core.compare.vocabulary), held equal to what describe, resample and the catalog say.
-
-These checks stand in for the descriptor registry: when the vocabulary is derived from it, they
-become checks of the registry itself.
+"""What the comparison takes from the descriptor registry and what is its own
+(tailgauge.core.compare.vocabulary), held equal to what describe, resample and the catalog do.
 """
 
 from __future__ import annotations
@@ -15,17 +12,17 @@ import pytest
 from tailgauge.core import DescribeOptions, compare, describe, from_array, resample
 from tailgauge.core.catalog import WARNINGS
 from tailgauge.core.compare import COMPARISON_WARNINGS
-from tailgauge.core.compare.notes import Notes
+from tailgauge.core.compare.warnings import Warnings
 from tailgauge.core.compare.vocabulary import (
     CONVENTION_MEMBERS,
     DIFFERENCE_DESCRIPTORS,
-    EXTREMES,
-    NO_RULE,
     SCALE_DESCRIPTORS,
     no_interval_reason,
     no_quantile_interval_reason,
 )
 from tailgauge.core.describe import SCALAR_DESCRIPTORS
+from tailgauge.core.registry import NOT_RESAMPLED as NO_RULE
+from tailgauge.core.registry import WarningCode, extremes_reason
 from tailgauge.core.scoring import SCORE_WARNINGS
 from tests.core.comparison_cases import SAMPLES, interval, named, table
 
@@ -36,10 +33,12 @@ def test_every_warning_code_of_comparisons_and_scores_is_catalogued():
 
 
 def test_the_collector_refuses_a_code_outside_the_vocabulary():
-    notes = Notes()
-    notes.add("ratio_undefined", "why", ["ratios.variance"])
-    with pytest.raises(AssertionError):
+    notes = Warnings()
+    notes.add(WarningCode.RATIO_UNDEFINED, "why", ["ratios.variance"])
+    with pytest.raises(TypeError):
         notes.add("ratio_not_defined", "a misspelt code", ["ratios.variance"])
+    with pytest.raises(TypeError):  # in the vocabulary, but not a comparison's own warning
+        notes.add(WarningCode.SCORE_UNDEFINED, "not the comparison's", ["ratios.variance"])
     assert [(n.code, n.descriptors) for n in notes.items] == [("ratio_undefined", ["ratios.variance"])]
 
 
@@ -50,6 +49,7 @@ def test_contrasted_descriptors_are_the_described_ones():
 
 
 def test_interval_reasons_equal_those_describe_gives_word_for_word():
+    EXTREMES = extremes_reason()
     """describe on one input with intervals: each descriptor it names under interval_not_offered
     carries the reason the comparison gives its difference; descriptors the engine resamples get
     an interval from both; the rest get none from describe and NO_RULE here."""

@@ -31,7 +31,7 @@ from tailgauge.core import (
     standardize,
 )
 from tailgauge.core import combine_sketches, kll_sketch_bytes, registry, resample
-from tailgauge.core.describe.notes import Notes
+from tailgauge.core.describe.warnings import Warnings
 from tailgauge.core.registry import WarningCode
 
 INTERVAL = IntervalOptions(method="bca", resamples=200, seed=11, level=0.9)
@@ -135,7 +135,7 @@ def test_codes_are_unique_snake_case_with_a_meaning():
 
 
 def test_the_collector_accepts_only_the_vocabulary():
-    notes = Notes()
+    notes = Warnings()
     notes.add(WarningCode.CONSTANT_DATA, "all equal", ["skewness"])
     assert notes.items[0].code == "constant_data"
     with pytest.raises(TypeError):

@@ -14,16 +14,15 @@ from __future__ import annotations
 import math
 from collections.abc import Sequence
 from dataclasses import dataclass
-from typing import Literal, get_args
 
 import numpy as np
 
-from tailgauge.core.describe import Description, Note
+from tailgauge.core.describe import Description, ResultWarning
+from tailgauge.core.describe.warnings import Warnings
+from tailgauge.core.registry import WarningCode
 
-# The warning codes scoring emits, each with its meaning in catalog.py. The descriptor registry
-# will own the one closed vocabulary; until then scoring names its own.
-ScoreWarning = Literal["score_undefined", "not_representable"]
-SCORE_WARNINGS: frozenset[str] = frozenset(get_args(ScoreWarning))
+# The registry's warning codes that scoring emits.
+SCORE_WARNINGS: frozenset[WarningCode] = frozenset({WarningCode.SCORE_UNDEFINED, WarningCode.NOT_REPRESENTABLE})
 
 
 @dataclass(frozen=True)
@@ -48,18 +47,7 @@ class Scores:
     median: float | None
     median_absolute_deviation_normal: float | None
     points: list[Score]
-    warnings: list[Note]
-
-
-class _Notes:
-    """The scores' warnings (every ``add`` names its code as a literal, for the catalog check)."""
-
-    def __init__(self) -> None:
-        self.items: list[Note] = []
-
-    def add(self, code: ScoreWarning, message: str, descriptors: Sequence[str] = ()) -> None:
-        assert code in SCORE_WARNINGS, code
-        self.items.append(Note(code, message, list(descriptors)))
+    warnings: list[ResultWarning]
 
 
 def standardized(x, centre, scale):
@@ -80,7 +68,7 @@ def standardize(description: Description, points: Sequence[float]) -> Scores:
     ``score_undefined`` warning; a score beyond float64's range is ``None`` with
     ``not_representable``.
     """
-    notes = _Notes()
+    notes = Warnings(SCORE_WARNINGS)
     descriptors = description.descriptors
     mean, sd = descriptors["mean"].value, descriptors["standard_deviation"].value
     median, mad = descriptors["median"].value, descriptors["median_absolute_deviation_normal"].value
@@ -92,7 +80,7 @@ def standardize(description: Description, points: Sequence[float]) -> Scores:
             why = f"the reference's {scale_name} is zero, so no value can be scaled by it"
         else:
             return True
-        notes.add("score_undefined", f"{member} cannot be computed: {why}", [member])
+        notes.add(WarningCode.SCORE_UNDEFINED, f"{member} cannot be computed: {why}", [member])
         return False
 
     z_ok = usable(mean, sd, "scores.z", "mean", "standard deviation")
@@ -110,8 +98,8 @@ def standardize(description: Description, points: Sequence[float]) -> Scores:
             robust = robust if robust is not None and math.isfinite(robust) else None
         scored.append(Score(float(x), z, robust))
     if overflowed:
-        notes.add("not_representable", "a score is outside the range of float64", overflowed)
+        notes.add(WarningCode.NOT_REPRESENTABLE, "a score is outside the range of float64", overflowed)
     return Scores(mean, sd, median, mad, scored, notes.items)
 
 
-__all__ = ["SCORE_WARNINGS", "Score", "ScoreWarning", "Scores", "standardize", "standardized"]
+__all__ = ["SCORE_WARNINGS", "Score", "Scores", "standardize", "standardized"]

@@ -13,7 +13,7 @@ Modules (each imports only those above it; none imports this package's ``__init_
 
     vocabulary    the comparison's copies of descriptor facts and its warning codes (the
                   descriptor registry's stand-in: switching to it changes this module alone)
-    notes         the warnings collector, why a contrast is undefined or has no interval
+    warnings      the warnings collector, why a contrast is undefined or has no interval
     paired        the two inputs' resamples paired into replicates of a contrast, and its interval
     contrasts     differences, ratios, quantile shifts, standardized quantiles
     effect_size   Cohen's d and Hedges' g, Welch's interval of the difference of means
@@ -37,9 +37,9 @@ B. L. Welch, Biometrika 34, 1947 (the t interval for a difference of means with 
 from tailgauge.core.compare.assembly import Comparison, compare, side_seeds
 from tailgauge.core.compare.contrasts import Difference, QuantileShift, StandardizedPair, StandardizedQuantile
 from tailgauge.core.compare.effect_size import StandardizedMeanDifference, hedges_correction
-from tailgauge.core.compare.notes import ComparisonNote
+from tailgauge.core.compare.warnings import ComparisonWarning
 from tailgauge.core.compare.two_sample import KS_EXACT_LIMIT, SMALL_EXPECTED_COUNT, DistributionTest
-from tailgauge.core.compare.vocabulary import COMPARISON_WARNINGS, SCALE_DESCRIPTORS, ComparisonWarning
+from tailgauge.core.compare.vocabulary import COMPARISON_WARNINGS, SCALE_DESCRIPTORS
 from tailgauge.core.scoring import Score, Scores, standardize
 
 __all__ = [
@@ -48,7 +48,6 @@ __all__ = [
     "SCALE_DESCRIPTORS",
     "SMALL_EXPECTED_COUNT",
     "Comparison",
-    "ComparisonNote",
     "ComparisonWarning",
     "Difference",
     "DistributionTest",

@@ -18,7 +18,7 @@ from tailgauge.core.compare.contrasts import (
     standardized_quantiles,
 )
 from tailgauge.core.compare.effect_size import StandardizedMeanDifference, standardized_mean_difference, welch
-from tailgauge.core.compare.notes import ComparisonNote, IntervalNotes, Notes, note_conventions
+from tailgauge.core.compare.warnings import ComparisonWarning, IntervalWarnings, Warnings, note_conventions
 from tailgauge.core.compare.paired import Resampled
 from tailgauge.core.compare.two_sample import DistributionTest, distribution_test
 from tailgauge.core.describe import Description, DescribeOptions, Resampling, admit, describe
@@ -45,7 +45,7 @@ class Comparison:
     quantile_shifts: list[QuantileShift]
     standardized_quantiles: list[StandardizedQuantile]
     distribution_test: DistributionTest
-    warnings: list[ComparisonNote]
+    warnings: list[ComparisonWarning]
     resampling: Resampling | None
 
 
@@ -145,8 +145,8 @@ def compare(
         _for_side("second", describe, second, side_options[1], kind=kinds[1]),
     )
     estimates = (_estimates(described[0]), _estimates(described[1]))
-    notes = Notes()
-    pending = IntervalNotes()
+    notes = Warnings()
+    pending = IntervalWarnings()
     resampled = None
     if interval is not None:
         replicates = [d.resampling.replicates if d.resampling is not None else None for d in described]
@@ -164,7 +164,7 @@ def compare(
     pending.emit(notes)
 
     inherited = [
-        ComparisonNote(side, note.code, note.message, list(note.descriptors))
+        ComparisonWarning(side, note.code, note.message, list(note.descriptors))
         for side, description in zip(("first", "second"), described)
         for note in description.warnings
     ]

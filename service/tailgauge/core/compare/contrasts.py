@@ -14,7 +14,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from tailgauge.core.compare.notes import IntervalNotes, Notes, finite_or_none, side_of, undefined_by_side
+from tailgauge.core.compare.warnings import IntervalWarnings, Warnings, finite_or_none, side_of, undefined_by_side
 from tailgauge.core.compare.paired import Contrast, Resampled, Stats
 from tailgauge.core.compare.vocabulary import (
     DIFFERENCE_DESCRIPTORS,
@@ -26,6 +26,7 @@ from tailgauge.core.classical import ClassicalInterval
 from tailgauge.core.describe import Description
 from tailgauge.core.resample import Interval
 from tailgauge.core.scoring import standardized
+from tailgauge.core.registry import WarningCode
 
 
 @dataclass(frozen=True)
@@ -95,7 +96,7 @@ def standardized_gap(quantile: str, centre: str, scale: str) -> Contrast:
 
 
 def differences(
-    estimates: tuple[Stats, Stats], resampled: Resampled | None, notes: Notes, pending: IntervalNotes
+    estimates: tuple[Stats, Stats], resampled: Resampled | None, notes: Warnings, pending: IntervalWarnings
 ) -> dict[str, Difference]:
     first, second = estimates
     out: dict[str, Difference] = {}
@@ -119,12 +120,12 @@ def differences(
         )
     undefined_by_side(missing, "differences", notes)
     if overflowed:
-        notes.add("not_representable", "the difference is outside the range of float64", overflowed)
+        notes.add(WarningCode.NOT_REPRESENTABLE, "the difference is outside the range of float64", overflowed)
     return out
 
 
 def ratios(
-    estimates: tuple[Stats, Stats], resampled: Resampled | None, notes: Notes, pending: IntervalNotes
+    estimates: tuple[Stats, Stats], resampled: Resampled | None, notes: Warnings, pending: IntervalWarnings
 ) -> dict[str, Difference]:
     first, second = estimates
     out: dict[str, Difference] = {}
@@ -153,12 +154,12 @@ def ratios(
     undefined_by_side(missing, "ratios", notes)
     if zero:
         notes.add(
-            "ratio_undefined",
+            WarningCode.RATIO_UNDEFINED,
             "the first input's value is zero, so the ratio second / first is undefined",
             zero,
         )
     if overflowed:
-        notes.add("not_representable", "the ratio is outside the range of float64", overflowed)
+        notes.add(WarningCode.NOT_REPRESENTABLE, "the ratio is outside the range of float64", overflowed)
     return out
 
 
@@ -169,7 +170,7 @@ def _with_interval(
     name: str,
     member: str,
     resampled: Resampled | None,
-    pending: IntervalNotes,
+    pending: IntervalWarnings,
 ) -> Difference:
     """``result`` with the bootstrap interval of ``contrast`` where the engine resamples ``name``."""
     if resampled is None:
@@ -188,8 +189,8 @@ def _with_interval(
 def quantile_shifts(
     described: tuple[Description, Description],
     resampled: Resampled | None,
-    notes: Notes,
-    pending: IntervalNotes,
+    notes: Warnings,
+    pending: IntervalWarnings,
 ) -> list[QuantileShift]:
     out = []
     missing: dict[str, list[str]] = {}
@@ -220,7 +221,7 @@ def quantile_shifts(
         out.append(shift)
     undefined_by_side(missing, "quantile shifts", notes)
     if overflowed:
-        notes.add("not_representable", "the quantile shift is outside the range of float64", overflowed)
+        notes.add(WarningCode.NOT_REPRESENTABLE, "the quantile shift is outside the range of float64", overflowed)
     return out
 
 
@@ -228,8 +229,8 @@ def standardized_quantiles(
     described: tuple[Description, Description],
     estimates: tuple[Stats, Stats],
     resampled: Resampled | None,
-    notes: Notes,
-    pending: IntervalNotes,
+    notes: Warnings,
+    pending: IntervalWarnings,
 ) -> list[StandardizedQuantile]:
     first, second = estimates
     undefined: dict[str, list[str]] = {}
@@ -281,7 +282,7 @@ def standardized_quantiles(
             )
         )
     for reason, members in undefined.items():
-        notes.add("difference_undefined", f"standardized quantiles are undefined where {reason}", members)
+        notes.add(WarningCode.DIFFERENCE_UNDEFINED, f"standardized quantiles are undefined where {reason}", members)
     if overflowed:
-        notes.add("not_representable", "a standardized quantile is outside the range of float64", overflowed)
+        notes.add(WarningCode.NOT_REPRESENTABLE, "a standardized quantile is outside the range of float64", overflowed)
     return out

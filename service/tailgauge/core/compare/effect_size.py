@@ -21,12 +21,13 @@ from scipy import special, stats
 
 from tailgauge.core.classical import ClassicalInterval
 from tailgauge.core.compare.contrasts import Difference
-from tailgauge.core.compare.notes import IntervalNotes, Notes, finite_or_none
+from tailgauge.core.compare.warnings import IntervalWarnings, Warnings, finite_or_none
 from tailgauge.core.compare.paired import Resampled, Stats
 from tailgauge.core.compare.vocabulary import EFFECT_ESTIMATOR, WELCH_ASSUMPTIONS
 from tailgauge.core.describe import Description
 from tailgauge.core.resample import Interval, IntervalOptions
 from tailgauge.core.weighted import WeightedData, WeightMeaning
+from tailgauge.core.registry import WarningCode
 
 
 @dataclass(frozen=True)
@@ -84,8 +85,8 @@ def standardized_mean_difference(
     described: tuple[Description, Description],
     estimates: tuple[Stats, Stats],
     resampled: Resampled | None,
-    notes: Notes,
-    pending: IntervalNotes,
+    notes: Warnings,
+    pending: IntervalWarnings,
 ) -> StandardizedMeanDifference:
     """Cohen's d and Hedges' g of second minus first.
 
@@ -111,7 +112,7 @@ def standardized_mean_difference(
     n1, n2 = (_sample_size(description) for description in described)
 
     def undefined(why: str) -> StandardizedMeanDifference:
-        notes.add("effect_size_undefined", f"the standardized mean difference is undefined: {why}",
+        notes.add(WarningCode.EFFECT_SIZE_UNDEFINED, f"the standardized mean difference is undefined: {why}",
                   ["standardized_mean_difference"])
         m = None if n1 is None or n2 is None else n1 + n2 - 2.0
         return StandardizedMeanDifference(None, None, None, None, m, n1, n2, None, EFFECT_ESTIMATOR)
@@ -120,7 +121,7 @@ def standardized_mean_difference(
         return undefined("a probability table is a population and has no sample size for the pooled variance")
     m = n1 + n2 - 2.0
     if not math.isfinite(m):
-        notes.add("not_representable", "n1 + n2 is beyond float64's range, so the standardized mean "
+        notes.add(WarningCode.NOT_REPRESENTABLE, "n1 + n2 is beyond float64's range, so the standardized mean "
                   "difference is not computed", ["standardized_mean_difference"])
         return StandardizedMeanDifference(None, None, None, None, None, n1, n2, None, EFFECT_ESTIMATOR)
     if m <= 1.0:
@@ -152,7 +153,7 @@ def standardized_mean_difference(
         spread = float(pooled(first, second))
         d = float((np.float64(second["mean"]) - np.float64(first["mean"])) / spread)
     if not (math.isfinite(spread) and math.isfinite(d)):
-        notes.add("not_representable", "the standardized mean difference is outside the range of float64",
+        notes.add(WarningCode.NOT_REPRESENTABLE, "the standardized mean difference is outside the range of float64",
                   ["standardized_mean_difference"])
         return StandardizedMeanDifference(
             None, None, correction, finite_or_none(spread), m, n1, n2, None, EFFECT_ESTIMATOR
@@ -164,7 +165,7 @@ def standardized_mean_difference(
     q = d / math.sqrt(2.0 * total)
     error = correction * math.sqrt(1.0 / sizes[0] + 1.0 / sizes[1] + q * q)
     if not math.isfinite(error):
-        notes.add("not_representable", "the standard error of the standardized mean difference is outside "
+        notes.add(WarningCode.NOT_REPRESENTABLE, "the standard error of the standardized mean difference is outside "
                   "float64's range", ["standardized_mean_difference"])
         error = None
     result = StandardizedMeanDifference(g, d, correction, spread, m, n1, n2, error, EFFECT_ESTIMATOR)

@@ -14,9 +14,10 @@ from dataclasses import dataclass
 import numpy as np
 from scipy import stats
 
-from tailgauge.core.compare.notes import Notes
+from tailgauge.core.compare.warnings import Warnings
 from tailgauge.core.compare.vocabulary import CHI_SQUARE_REFERENCE, KS_REFERENCE
 from tailgauge.core.weighted import WeightedData, WeightMeaning
+from tailgauge.core.registry import WarningCode
 
 # scipy's ks_2samp uses the exact null distribution up to this many observations per sample
 # (its method="auto"); beyond it, Smirnov's asymptotic distribution, as scipy does.
@@ -38,7 +39,7 @@ class DistributionTest:
     reason: str | None
 
 
-def distribution_test(first: WeightedData, second: WeightedData, notes: Notes) -> DistributionTest:
+def distribution_test(first: WeightedData, second: WeightedData, notes: Warnings) -> DistributionTest:
     """Kolmogorov-Smirnov for observations with whole counts; chi-square for bins on the same edges."""
     if first.binned or second.binned:
         if not (first.binned and second.binned):
@@ -72,7 +73,7 @@ def _no_test(test: str, reason: str) -> DistributionTest:
     return DistributionTest(test, None, None, None, None, reference, reason)
 
 
-def _kolmogorov_smirnov(first: WeightedData, second: WeightedData, notes: Notes) -> DistributionTest:
+def _kolmogorov_smirnov(first: WeightedData, second: WeightedData, notes: Warnings) -> DistributionTest:
     """Two-sided two-sample KS test; counts stand for repeated observations.
 
     Up to ``KS_EXACT_LIMIT`` observations per input: scipy.stats.ks_2samp on the repeated
@@ -110,7 +111,7 @@ def _kolmogorov_smirnov(first: WeightedData, second: WeightedData, notes: Notes)
     distinct = np.union1d(a.values, b.values).size
     if distinct < n + m:
         notes.add(
-            "distribution_test_ties",
+            WarningCode.DISTRIBUTION_TEST_TIES,
             f"the pooled observations hold ties ({distinct} distinct values among {n + m}); the "
             "Kolmogorov-Smirnov p-value assumes continuous data and is conservative (too large) for tied "
             "or discrete data",
@@ -128,7 +129,7 @@ def _bin_columns(data: WeightedData) -> np.ndarray:
     return np.concatenate(([weights[0] if open_low else 0.0], closed, [weights[-1] if open_high else 0.0]))
 
 
-def _chi_square(first: WeightedData, second: WeightedData, notes: Notes) -> DistributionTest:
+def _chi_square(first: WeightedData, second: WeightedData, notes: Warnings) -> DistributionTest:
     """Pearson's chi-square test of homogeneity on the 2 x k table of bin counts.
 
     The bins must share their finite edges; an open-ended bin present in one input only counts
@@ -148,7 +149,7 @@ def _chi_square(first: WeightedData, second: WeightedData, notes: Notes) -> Dist
     result = stats.chi2_contingency(table, correction=False)
     if float(np.min(result.expected_freq)) < SMALL_EXPECTED_COUNT:
         notes.add(
-            "chi_square_small_expected",
+            WarningCode.CHI_SQUARE_SMALL_EXPECTED,
             f"some expected counts are below {SMALL_EXPECTED_COUNT:g} (smallest "
             f"{float(np.min(result.expected_freq)):.3g}): the chi-square approximation may be poor "
             "(Cochran 1954); merging sparse bins helps",

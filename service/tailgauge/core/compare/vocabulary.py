@@ -1,54 +1,31 @@
 """The comparison's copies of facts about descriptors and warnings, gathered in one place.
 
-Everything here restates what the descriptor registry is to own once (which descriptors are
-contrasted and how, which get a bootstrap interval and why not, estimator labels and test
-references, and the closed vocabulary of warning codes). The rest of the package asks this
-module, never ``describe`` or ``resample`` directly, so switching to the registry changes this
-module alone.
+Which descriptors are contrasted and which get a bootstrap interval (and why not) are read from
+the descriptor registry; what is the comparison's own lives here: which conventions affect which
+members, the effect size's estimator label, the tests' references, and which of the registry's
+warning codes a comparison emits. The rest of the package asks this module.
 """
 
 from __future__ import annotations
 
-from typing import Literal, get_args
+from tailgauge.core import registry
+from tailgauge.core.registry import WarningCode
 
-from tailgauge.core import resample
-from tailgauge.core.describe import SCALAR_DESCRIPTORS
-
-# Every scalar descriptor has a difference, second minus first.
-DIFFERENCE_DESCRIPTORS = SCALAR_DESCRIPTORS
-# Descriptors measuring spread in the data's own units: their ratio second / first is reported too.
-SCALE_DESCRIPTORS = (
-    "variance",
-    "standard_deviation",
-    "range",
-    "interquartile_range",
-    "median_absolute_deviation",
-    "median_absolute_deviation_normal",
-    "l_scale",
-)
-
-# Why some contrasts get no bootstrap interval (the rules ``describe`` applies to descriptors).
-EXTREMES = "the bootstrap is inconsistent for sample extremes (Bickel & Freedman 1981)"
-NOT_RESAMPLED = {
-    "minimum": EXTREMES,
-    "maximum": EXTREMES,
-    "range": EXTREMES,
-    "lag1_autocorrelation": "resampling independent observations destroys the serial order it measures",
-}
-NO_RULE = "the resampling engine does not resample this descriptor (describe gives it no interval either)"
+# Every scalar descriptor has a difference, second minus first; the scales have a ratio too.
+DIFFERENCE_DESCRIPTORS = registry.SCALAR_DESCRIPTORS
+SCALE_DESCRIPTORS = registry.SCALE_DESCRIPTORS
 
 
 def no_interval_reason(name: str) -> str | None:
-    """Why a contrast of descriptor ``name`` gets no bootstrap interval; ``None`` when it gets one."""
-    if name in resample.INTERVAL_DESCRIPTORS:
-        return None
-    return NOT_RESAMPLED.get(name, NO_RULE)
+    """Why a contrast of descriptor ``name`` gets no bootstrap interval (the registry's reason for
+    the descriptor itself); ``None`` when it gets one."""
+    return registry.bootstrap_reason(name)
 
 
 def no_quantile_interval_reason(probability: float) -> str | None:
     """Why a contrast of the quantile at ``probability`` gets no bootstrap interval (the
     quantiles at 0 and 1 are the extremes); ``None`` when it gets one."""
-    return EXTREMES if probability in (0.0, 1.0) else None
+    return registry.extremes_reason() if probability in (0.0, 1.0) else None
 
 
 # Which differences mix definitions when the two inputs' estimators differ: for each of the
@@ -75,17 +52,16 @@ CHI_SQUARE_REFERENCE = (
 )
 
 # The warning codes the comparison emits for its own contrasts (each input's description brings
-# its own warnings), each with its meaning in catalog.py.
-ComparisonWarning = Literal[
-    "difference_undefined",
-    "ratio_undefined",
-    "effect_size_undefined",
-    "not_representable",
-    "conventions_differ",
-    "distribution_test_ties",
-    "chi_square_small_expected",
-    "bca_fallback",
-    "interval_undefined",
-    "interval_not_offered",
-]
-COMPARISON_WARNINGS: frozenset[str] = frozenset(get_args(ComparisonWarning))
+# its own warnings); all come from the registry's vocabulary, which gives each its meaning.
+COMPARISON_WARNINGS: frozenset[WarningCode] = frozenset({
+    WarningCode.DIFFERENCE_UNDEFINED,
+    WarningCode.RATIO_UNDEFINED,
+    WarningCode.EFFECT_SIZE_UNDEFINED,
+    WarningCode.NOT_REPRESENTABLE,
+    WarningCode.CONVENTIONS_DIFFER,
+    WarningCode.DISTRIBUTION_TEST_TIES,
+    WarningCode.CHI_SQUARE_SMALL_EXPECTED,
+    WarningCode.BCA_FALLBACK,
+    WarningCode.INTERVAL_UNDEFINED,
+    WarningCode.INTERVAL_NOT_OFFERED,
+})

@@ -10,7 +10,7 @@ Modules, in the order a description is made:
     options        DescribeOptions and the typed option values
     validation     the rules options and data must meet together, checked before computing
     basis          the estimator basis (conventions, divisors, quantile rule, families)
-    notes          the warnings collector and the warnings every description shares
+    warnings       the warnings collector and the warnings every description shares
     moment_based   mean, variance, shape families, moments, tail contributions, lag-1
     order_based    median, extremes, IQR, MAD, quantiles, modes, grouping
     robust_shape   quartile skewness, octile kurtosis, medcouple, half-sample mode, L-moments
@@ -42,7 +42,7 @@ from tailgauge.core.describe.results import (
     ModalClass,
     Modes,
     Moments,
-    Note,
+    ResultWarning,
     NormalityTest,
     Quantile,
     QuantileSketches,
@@ -86,7 +86,7 @@ __all__ = [
     "Modes",
     "Moments",
     "NormalityTest",
-    "Note",
+    "ResultWarning",
     "Quantile",
     "QuantileSketches",
     "QuantileType",

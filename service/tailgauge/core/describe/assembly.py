@@ -12,7 +12,7 @@ import numpy as np
 from tailgauge.core import cost, order_statistics
 from tailgauge.core.describe import evidence, intervals, moment_based, order_based, robust_shape
 from tailgauge.core.describe.basis import Basis
-from tailgauge.core.describe.notes import Notes, explain_remaining_nulls, finite_or_none, note_degenerate
+from tailgauge.core.describe.warnings import Warnings, explain_remaining_nulls, finite_or_none, note_degenerate
 from tailgauge.core.describe.options import DescribeOptions
 from tailgauge.core.describe.results import (
     Conventions,
@@ -86,7 +86,7 @@ def describe(data: WeightedData, options: DescribeOptions, *, kind: str) -> Desc
     basis = check_description(data, options)
     if not options.admitted:
         admit([data], options)
-    notes = Notes()
+    notes = Warnings()
     _note_input(data, notes)
 
     moments_defined = data.open_bin_weight == 0.0
@@ -196,7 +196,7 @@ def assemble(
     constant: bool,
     descriptors: dict[str, Descriptor],
     quantiles: list[Quantile],
-    notes: Notes,
+    notes: Warnings,
     moments: Callable[[], Moments | None],
     modes: Modes | None,
     normality: Callable[[], list[NormalityTest]],
@@ -253,7 +253,7 @@ def _count_value(data: WeightedData) -> float:
     return int(total) if data.integer_weights else total
 
 
-def _note_input(data: WeightedData, notes: Notes) -> None:
+def _note_input(data: WeightedData, notes: Warnings) -> None:
     if data.omitted:
         notes.add(
             WarningCode.MISSING_VALUES_OMITTED,

@@ -10,7 +10,7 @@ from scipy import stats
 
 from tailgauge.core import grouped, normality, order_statistics
 from tailgauge.core.describe.basis import Basis
-from tailgauge.core.describe.notes import Notes, finite_or_none
+from tailgauge.core.describe.warnings import Warnings, finite_or_none
 from tailgauge.core.describe.results import Descriptor, NormalityTest
 from tailgauge.core.moments import CentralSums
 from tailgauge.core.registry import WarningCode
@@ -23,7 +23,7 @@ POPULATION_SYMMETRY_THRESHOLD = 0.05
 
 
 def normality_of(
-    data: WeightedData, sums: CentralSums | None, basis: Basis, constant: bool, notes: Notes
+    data: WeightedData, sums: CentralSums | None, basis: Basis, constant: bool, notes: Warnings
 ) -> list[NormalityTest]:
     """The four tests; a p-value is evidence against normality, not a verdict."""
     reason = None
@@ -38,7 +38,7 @@ def normality_of(
 
 
 def normality_tests(
-    reason: str | None, sums: CentralSums | None, basis: Basis, constant: bool, n: float, notes: Notes
+    reason: str | None, sums: CentralSums | None, basis: Basis, constant: bool, n: float, notes: Warnings
 ) -> list[NormalityTest]:
     """The tests from g1 and b2 of a sample of ``n`` whole observations, unless ``reason`` says why not."""
     if reason is None and (sums is None or basis.single or constant):
@@ -94,7 +94,7 @@ _MEAN_MEDIAN_GAP_SD = math.sqrt(math.pi / 2.0 - 1.0)
 
 
 def check_symmetry(
-    descriptors: dict[str, Descriptor], data: WeightedData, basis: Basis, notes: Notes
+    descriptors: dict[str, Descriptor], data: WeightedData, basis: Basis, notes: Warnings
 ) -> None:
     """Warn when skewness is near zero while quartiles or the mean-median gap show asymmetry."""
     if not _symmetry_checkable(descriptors):
@@ -117,7 +117,7 @@ def _symmetry_checkable(descriptors: dict[str, Descriptor]) -> bool:
 
 
 def note_asymmetry(
-    descriptors: dict[str, Descriptor], quartiles: np.ndarray, basis: Basis, notes: Notes
+    descriptors: dict[str, Descriptor], quartiles: np.ndarray, basis: Basis, notes: Warnings
 ) -> None:
     """The comparison behind ``check_symmetry``, given Q1, Q2, Q3 by whatever rule the data allow."""
     if not _symmetry_checkable(descriptors):

@@ -11,7 +11,7 @@ import numpy as np
 
 from tailgauge.core import classical, grouped, resample
 from tailgauge.core.describe.basis import Basis
-from tailgauge.core.describe.notes import Notes, finite_or_none
+from tailgauge.core.describe.warnings import Warnings, finite_or_none
 from tailgauge.core.describe.options import DescribeOptions
 from tailgauge.core.describe.results import Descriptor, Quantile, Resampling
 from tailgauge.core.moments import CentralSums, central_sums
@@ -29,7 +29,7 @@ def intervals(
     descriptors: dict[str, Descriptor],
     quantiles: list[Quantile],
     probabilities: np.ndarray,
-    notes: Notes,
+    notes: Warnings,
 ) -> Resampling:
     """Bootstrap and classical intervals for every defined descriptor and quantile.
 
@@ -130,7 +130,7 @@ def _classical_intervals(
     descriptors: dict[str, Descriptor],
     quantiles: list[Quantile],
     probabilities: np.ndarray,
-    notes: Notes,
+    notes: Warnings,
 ) -> None:
     counted = data.meaning in (WeightMeaning.UNIT, WeightMeaning.FREQUENCY)
     n = data.total_weight

@@ -11,7 +11,7 @@ import numpy as np
 
 from tailgauge.core import grouped, shape, tail
 from tailgauge.core.describe.basis import Basis
-from tailgauge.core.describe.notes import Notes, finite_or_none
+from tailgauge.core.describe.warnings import Warnings, finite_or_none
 from tailgauge.core.describe.options import DescribeOptions
 from tailgauge.core.describe.results import Contribution, Descriptor, Moments, ShapeEstimate, ShapeEstimators, TailContributions
 from tailgauge.core.moments import CentralSums
@@ -32,7 +32,7 @@ def moment_descriptors(
     sums: CentralSums | None,
     basis: Basis,
     constant: bool,
-    notes: Notes,
+    notes: Warnings,
     *,
     mean_label: str,
     lowest: float,
@@ -60,7 +60,7 @@ def moment_descriptors(
 
 
 def coefficient_of_variation(
-    lowest: float, sums: CentralSums | None, sd: float | None, basis: Basis, notes: Notes
+    lowest: float, sums: CentralSums | None, sd: float | None, basis: Basis, notes: Warnings
 ) -> float | None:
     """``sd / mean`` for data on a ratio scale (no negative values) with a non-zero mean.
 
@@ -92,7 +92,7 @@ def shape_descriptors(
     sums: CentralSums | None,
     basis: Basis,
     undefined: bool,
-    notes: Notes,
+    notes: Warnings,
 ) -> None:
     for name, family, plug_in_family in (
         ("skewness", basis.skewness_family, "g1"),
@@ -168,7 +168,7 @@ def shape_estimators(sums: CentralSums | None, basis: Basis, constant: bool) -> 
 
 
 
-def moments_member(sums: CentralSums, top: int, single: bool, constant: bool, notes: Notes) -> Moments:
+def moments_member(sums: CentralSums, top: int, single: bool, constant: bool, notes: Warnings) -> Moments:
     raw, central, standardized = [], [], []
     for k in range(1, top + 1):
         raw.append(notes.finite(sums.raw_moment(k), f"moments.raw[{k - 1}] (order {k})"))
@@ -183,7 +183,7 @@ def moments_member(sums: CentralSums, top: int, single: bool, constant: bool, no
 
 
 
-def sheppard(data: WeightedData, sums: CentralSums, notes: Notes) -> tuple[CentralSums, bool]:
+def sheppard(data: WeightedData, sums: CentralSums, notes: Warnings) -> tuple[CentralSums, bool]:
     width = grouped.equal_width(data)
     if width is None:
         notes.add(
@@ -217,7 +217,7 @@ def tail_contributions(
     undefined: bool,
     options: DescribeOptions,
     kind: str,
-    notes: Notes,
+    notes: Warnings,
 ) -> TailContributions | None:
     if sums is None or undefined:
         return None
@@ -259,7 +259,7 @@ def lowest_value(data: WeightedData) -> float:
 
 
 def lag1(
-    data: WeightedData, sums: CentralSums | None, single: bool, constant: bool, notes: Notes
+    data: WeightedData, sums: CentralSums | None, single: bool, constant: bool, notes: Warnings
 ) -> float | None:
     if single or constant or sums is None:
         return None

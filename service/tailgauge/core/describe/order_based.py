@@ -9,7 +9,7 @@ import numpy as np
 
 from tailgauge.core import grouped, order_statistics
 from tailgauge.core.describe.basis import Basis
-from tailgauge.core.describe.notes import Notes, finite_or_none
+from tailgauge.core.describe.warnings import Warnings, finite_or_none
 from tailgauge.core.describe.options import DescribeOptions
 from tailgauge.core.describe.results import Descriptor, Grouping, ModalClass, Modes
 from tailgauge.core.registry import WarningCode
@@ -30,7 +30,7 @@ def order_descriptors(
     data: WeightedData,
     basis: Basis,
     options: DescribeOptions,
-    notes: Notes,
+    notes: Warnings,
 ) -> tuple[np.ndarray, np.ndarray]:
     """Median, extremes, IQR, MAD and the requested quantiles, all from one sort of the data.
 
@@ -94,7 +94,7 @@ def order_descriptors(
 
 
 def sample_quantiles(
-    data: WeightedData, probabilities: np.ndarray, basis: Basis, notes: Notes
+    data: WeightedData, probabilities: np.ndarray, basis: Basis, notes: Warnings
 ) -> tuple[np.ndarray, np.ndarray]:
     quantile_type = basis.quantile_type
     assert quantile_type is not None
@@ -117,7 +117,7 @@ def sample_quantiles(
 
 
 
-def modes(data: WeightedData, limit: int, notes: Notes) -> tuple[Modes, list[grouped.ModalClass]]:
+def modes(data: WeightedData, limit: int, notes: Warnings) -> tuple[Modes, list[grouped.ModalClass]]:
     if data.binned:
         classes = grouped.modal_classes(data)
         values = np.array([c.mode for c in classes if math.isfinite(c.mode)])

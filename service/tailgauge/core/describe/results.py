@@ -22,7 +22,7 @@ class Descriptor:
 
 
 @dataclass
-class Note:
+class ResultWarning:
     code: WarningCode
     message: str
     descriptors: list[str] = field(default_factory=list)
@@ -176,6 +176,6 @@ class Description:
     grouping: Grouping | None
     normality: list[NormalityTest]
     conventions: Conventions
-    warnings: list[Note]
+    warnings: list[ResultWarning]
     resampling: Resampling | None = None
     sketches: QuantileSketches | None = None

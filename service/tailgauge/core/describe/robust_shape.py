@@ -10,7 +10,7 @@ from scipy import stats
 
 from tailgauge.core import lmoments, robust
 from tailgauge.core.describe.basis import Basis
-from tailgauge.core.describe.notes import Notes, finite_or_none
+from tailgauge.core.describe.warnings import Warnings, finite_or_none
 from tailgauge.core.describe.results import Descriptor
 from tailgauge.core.moments import CentralSums, scale_by_power_of_two
 from tailgauge.core.registry import WarningCode, names
@@ -40,7 +40,7 @@ def robust_descriptors(
     basis: Basis,
     quantiles: np.ndarray,
     constant: bool,
-    notes: Notes,
+    notes: Warnings,
 ) -> None:
     """Quartile skewness, octile kurtosis, medcouple, half-sample mode, mean-median gap, L-moments."""
     method = "grouped quantiles" if data.binned else f"quantiles type {basis.quantile_type}"
@@ -89,7 +89,7 @@ def quantile_shape(
     quantiles: np.ndarray,
     method: str,
     undefined: str | None,
-    notes: Notes,
+    notes: Warnings,
 ) -> None:
     """Quartile skewness and octile kurtosis from the quantiles at ``ROBUST_PROBABILITIES``."""
     q1, q2, q3, e1, e2, e3, e5, e6, e7 = np.asarray(quantiles, dtype=np.float64)  # numpy scalars: no ZeroDivisionError
@@ -136,7 +136,7 @@ def l_moments(
     sums: CentralSums | None,
     basis: Basis,
     undefined: str | None,
-    notes: Notes,
+    notes: Warnings,
 ) -> None:
     # L-moments are linear in the data: compute them on data scaled by a power of two (exact),
     # so nothing overflows near float64's limit, and scale l1 and l2 back.

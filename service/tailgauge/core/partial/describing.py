@@ -21,7 +21,7 @@ from tailgauge.core.describe import (
 )
 from tailgauge.core.describe import evidence, moment_based, order_based, robust_shape
 from tailgauge.core.describe.assembly import PLUG_IN_CENTRAL_MOMENTS
-from tailgauge.core.describe.notes import Notes, note_degenerate
+from tailgauge.core.describe.warnings import Warnings, note_degenerate
 from tailgauge.core.describe.order_based import ROBUST_PROBABILITIES
 from tailgauge.core.moments import CentralSums
 from tailgauge.core.partial.state import PartialState
@@ -118,7 +118,7 @@ def describe_state(
     basis = dataclasses.replace(
         basis, quantile_type=None, quantile_definition=quantile_rule, median_rule=median_rule
     )
-    notes = Notes()
+    notes = Warnings()
     sums = as_central_sums(state)
     constant = sums.scaled_central_moment(2) == 0.0
     note_degenerate(basis, constant, notes)

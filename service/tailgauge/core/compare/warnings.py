@@ -7,17 +7,19 @@ once and name every member they concern.
 
 from __future__ import annotations
 
-import math
 from collections.abc import Sequence
 from dataclasses import dataclass
 
-from tailgauge.core.compare.vocabulary import COMPARISON_WARNINGS, CONVENTION_MEMBERS, ComparisonWarning
-from tailgauge.core.describe import Description, Note
+from tailgauge.core.compare.vocabulary import COMPARISON_WARNINGS, CONVENTION_MEMBERS
+from tailgauge.core.describe import Description
+from tailgauge.core.describe.warnings import Warnings as DescriptionWarnings
+from tailgauge.core.describe.warnings import finite_or_none
 from tailgauge.core.resample import BootstrapResult
+from tailgauge.core.registry import WarningCode
 
 
 @dataclass(frozen=True)
-class ComparisonNote:
+class ComparisonWarning:
     """A warning of the comparison: ``side`` is "first" or "second" for a warning of that input's
     description (``descriptors`` name its members), or "comparison" for the contrasts' own
     (``descriptors`` name comparison members, e.g. "differences.mean", "quantile_shifts[2]")."""
@@ -28,24 +30,14 @@ class ComparisonNote:
     descriptors: list[str]
 
 
-class Notes:
-    """Warnings raised here (every ``add`` names its code as a literal, for the catalog check)."""
+class Warnings(DescriptionWarnings):
+    """The comparison's own warnings: the registry's codes that a comparison emits."""
 
     def __init__(self) -> None:
-        self.items: list[Note] = []
+        super().__init__(COMPARISON_WARNINGS)
 
-    def add(self, code: ComparisonWarning, message: str, descriptors: Sequence[str] = ()) -> None:
-        assert code in COMPARISON_WARNINGS, code
-        self.items.append(Note(code, message, list(descriptors)))
-
-    def of_comparison(self) -> list[ComparisonNote]:
-        return [ComparisonNote("comparison", n.code, n.message, n.descriptors) for n in self.items]
-
-
-def finite_or_none(value) -> float | None:
-    """``value`` as a float when finite, else ``None`` (the caller says why)."""
-    value = float(value)
-    return value if math.isfinite(value) else None
+    def of_comparison(self) -> list[ComparisonWarning]:
+        return [ComparisonWarning("comparison", n.code, n.message, n.descriptors) for n in self.items]
 
 
 def side_of(a, b) -> str:
@@ -55,19 +47,19 @@ def side_of(a, b) -> str:
     return "the first input" if a is None else "the second input"
 
 
-def undefined_by_side(missing: dict[str, list[str]], what: str, notes: Notes) -> None:
+def undefined_by_side(missing: dict[str, list[str]], what: str, notes: Warnings) -> None:
     """One ``difference_undefined`` warning per cause (first, second or both inputs)."""
     for cause, members in missing.items():
         if members:
             notes.add(
-                "difference_undefined",
+                WarningCode.DIFFERENCE_UNDEFINED,
                 f"these {what} are undefined because {cause} leaves the descriptor undefined "
                 "(see its warnings)",
                 members,
             )
 
 
-def note_conventions(described: tuple[Description, Description], notes: Notes) -> None:
+def note_conventions(described: tuple[Description, Description], notes: Warnings) -> None:
     """Warn when the inputs' estimators differ, so their differences mix definitions."""
     a, b = described[0].conventions, described[1].conventions
     parts = []
@@ -77,14 +69,14 @@ def note_conventions(described: tuple[Description, Description], notes: Notes) -
             parts.append((f"{label}: first {x!r}, second {y!r}", affected))
     if parts:
         notes.add(
-            "conventions_differ",
+            WarningCode.CONVENTIONS_DIFFER,
             "the inputs are described by different estimators, so these differences mix definitions ("
             + "; ".join(text for text, _ in parts) + ")",
             [n if n == "quantile_shifts" else f"differences.{n}" for _, names in parts for n in names],
         )
 
 
-class IntervalNotes:
+class IntervalWarnings:
     """Collects why contrasts lack an interval or fell back, then words the warnings once."""
 
     def __init__(self) -> None:
@@ -100,14 +92,14 @@ class IntervalNotes:
     def skip(self, member: str, reason: str) -> None:
         self.not_offered.setdefault(reason, []).append(member)
 
-    def emit(self, notes: Notes) -> None:
+    def emit(self, notes: Warnings) -> None:
         for reason, members in self.fallbacks.items():
             notes.add(
-                "bca_fallback",
+                WarningCode.BCA_FALLBACK,
                 f"BCa could not be computed ({reason}); the percentile interval is given",
                 members,
             )
         for reason, members in self.undefined.items():
-            notes.add("interval_undefined", f"no bootstrap interval: {reason}", members)
+            notes.add(WarningCode.INTERVAL_UNDEFINED, f"no bootstrap interval: {reason}", members)
         for reason, members in self.not_offered.items():
-            notes.add("interval_not_offered", f"no bootstrap interval: {reason}", members)
+            notes.add(WarningCode.INTERVAL_NOT_OFFERED, f"no bootstrap interval: {reason}", members)

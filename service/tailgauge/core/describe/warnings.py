@@ -10,20 +10,24 @@ import math
 from collections.abc import Sequence
 
 from tailgauge.core.describe.basis import Basis
-from tailgauge.core.describe.results import Descriptor, Note
+from tailgauge.core.describe.results import Descriptor, ResultWarning
 from tailgauge.core.registry import UNDEFINED_FOR_CONSTANT, UNDEFINED_FOR_ONE, WarningCode
 
 
-class Notes:
+class Warnings:
     """Collects warnings; turns every non-finite number into ``None`` with a reason."""
 
-    def __init__(self) -> None:
-        self.items: list[Note] = []
+    def __init__(self, allowed: frozenset[WarningCode] | None = None) -> None:
+        """``allowed``: the codes this collector's owner may emit (every code when ``None``)."""
+        self.items: list[ResultWarning] = []
+        self.allowed = allowed
 
     def add(self, code: WarningCode, message: str, descriptors: Sequence[str] = ()) -> None:
         if not isinstance(code, WarningCode):
             raise TypeError(f"warning codes come from the registry's vocabulary, not {code!r}")
-        self.items.append(Note(code=code, message=message, descriptors=list(descriptors)))
+        if self.allowed is not None and code not in self.allowed:
+            raise TypeError(f"{code.value!r} is not among the warnings this collector's owner emits")
+        self.items.append(ResultWarning(code=code, message=message, descriptors=list(descriptors)))
 
     def finite(self, value: float | None, name: str) -> float | None:
         """``value`` if finite; otherwise ``None`` and a warning that float64 cannot hold it."""
@@ -44,7 +48,7 @@ def finite_or_none(value: float) -> float | None:
     return float(value) if math.isfinite(value) else None
 
 
-def note_degenerate(basis: Basis, constant: bool, notes: Notes) -> None:
+def note_degenerate(basis: Basis, constant: bool, notes: Warnings) -> None:
     """Say why spread or shape is undefined: one observation (or one bin), or no spread at all."""
     if basis.single_bin:
         notes.add(
@@ -67,7 +71,7 @@ def note_degenerate(basis: Basis, constant: bool, notes: Notes) -> None:
         )
 
 
-def explain_remaining_nulls(descriptors: dict[str, Descriptor], notes: Notes) -> None:
+def explain_remaining_nulls(descriptors: dict[str, Descriptor], notes: Warnings) -> None:
     """Safety net of the contract "every null has a reason": name any null no warning covers."""
     covered = {name for note in notes.items for name in note.descriptors}
     silent = [name for name, d in descriptors.items() if d.value is None and name not in covered]
