@@ -132,6 +132,29 @@ def test_the_descriptors_member_has_the_registry_descriptors():
     assert schemas.Descriptors.__struct_fields__ == registry.SCALAR_DESCRIPTORS
 
 
+def test_answers_carry_the_registry_descriptors_intervals_and_contrasts(client):
+    """One answer of each shape against the registry: the descriptors (in its order, each
+    described in the published schema by its definition there), which get a bootstrap interval,
+    and which a comparison contrasts by difference and by ratio."""
+    rng = np.random.default_rng(5)
+    first, second = rng.gamma(2.0, 3.0, 80).tolist(), rng.gamma(2.5, 3.0, 70).tolist()
+    body = client.post(SAMPLES, json={"values": first, "options": INTERVAL}).json()
+    assert tuple(body["descriptors"]) == registry.SCALAR_DESCRIPTORS
+    with_interval = {name for name, d in body["descriptors"].items() if d["interval"] is not None}
+    assert with_interval == set(registry.BOOTSTRAP_DESCRIPTORS)
+    comparison = client.post(
+        "/v1/comparisons",
+        json={"first": {"kind": "samples", "values": first}, "second": {"kind": "samples", "values": second}},
+    ).json()
+    assert tuple(comparison["differences"]) == registry.SCALAR_DESCRIPTORS
+    assert tuple(comparison["ratios"]) == registry.SCALE_DESCRIPTORS
+    document = client.get("/openapi.json").json()
+    members = document["components"]["schemas"]["Descriptors"]["properties"]
+    assert {name: member["description"] for name, member in members.items()} == {
+        facts.name: facts.definition for facts in registry.DESCRIPTORS
+    }
+
+
 def test_warnings_in_responses_are_catalogued(catalog, responses):
     catalogued = {w["code"] for w in catalog["warnings"]}
     seen = {w["code"] for body in responses.values() for w in body["warnings"]}

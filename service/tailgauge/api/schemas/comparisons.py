@@ -6,6 +6,7 @@ from typing import Annotated, Literal
 
 from msgspec import Meta
 
+from tailgauge.core import registry
 from tailgauge.api.schemas.common import MaybeNumber, Message
 from tailgauge.api.schemas.results import ClassicalInterval, DescriptionResponse, Interval, Resampling, Scores
 
@@ -83,10 +84,13 @@ class ComparisonResponse(Message):
     first: DescriptionResponse
     second: DescriptionResponse
     differences: Annotated[
-        dict[str, Contrast], Meta(description="Descriptor name -> second minus first, with its interval.")
+        dict[str, Contrast],
+        Meta(description="Descriptor name (every member of descriptors) -> second minus first, with its interval."),
     ]
     ratios: Annotated[
-        dict[str, Contrast], Meta(description="Scale descriptor name -> second / first, with its interval.")
+        dict[str, Contrast],
+        Meta(description=f"Scale descriptor name ({', '.join(registry.SCALE_DESCRIPTORS)}) -> second / first, "
+             "with its interval."),
     ]
     standardized_mean_difference: StandardizedMeanDifference
     quantile_shifts: list[QuantileShift]

@@ -8,8 +8,10 @@ from __future__ import annotations
 
 from typing import Annotated, Literal
 
+import msgspec
 from msgspec import Meta
 
+from tailgauge.core import registry
 from tailgauge.api.schemas.common import SCHEMA_MAX_MOMENT_ORDER, Finite, MaybeNumber, Message, NonNegative
 
 
@@ -48,32 +50,17 @@ class DescriptorValue(Message):
     ] = None
 
 
-class Descriptors(Message):
-    mean: DescriptorValue
-    median: DescriptorValue
-    variance: DescriptorValue
-    standard_deviation: DescriptorValue
-    coefficient_of_variation: DescriptorValue
-    skewness: DescriptorValue
-    kurtosis: DescriptorValue
-    excess_kurtosis: DescriptorValue
-    minimum: DescriptorValue
-    maximum: DescriptorValue
-    range: DescriptorValue
-    interquartile_range: DescriptorValue
-    median_absolute_deviation: DescriptorValue
-    median_absolute_deviation_normal: DescriptorValue
-    lag1_autocorrelation: DescriptorValue
-    quartile_skewness: DescriptorValue
-    octile_kurtosis: DescriptorValue
-    octile_excess_kurtosis: DescriptorValue
-    medcouple: DescriptorValue
-    half_sample_mode: DescriptorValue
-    mean_median_gap: DescriptorValue
-    l_location: DescriptorValue
-    l_scale: DescriptorValue
-    l_skewness: DescriptorValue
-    l_kurtosis: DescriptorValue
+# One member per descriptor of the registry, in its order, each described by its definition there
+# (the catalog's text): adding a descriptor to the registry adds it here.
+Descriptors = msgspec.defstruct(
+    "Descriptors",
+    [
+        (facts.name, Annotated[DescriptorValue, Meta(description=facts.definition)])
+        for facts in registry.DESCRIPTORS
+    ],
+    bases=(Message,),
+    module=__name__,
+)
 
 
 class Size(Message):
