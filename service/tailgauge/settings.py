@@ -8,6 +8,12 @@ from collections.abc import Mapping
 from dataclasses import dataclass, field, fields
 
 PREFIX = "TAILGAUGE_"
+# Ceilings of the published schema (the request Structs use them as maxima); the settings of the
+# same name may only lower them, since a higher setting could never be reached.
+SCHEMA_MAX_MOMENT_ORDER = 12
+SCHEMA_MAX_PROBABILITIES = 1000
+SCHEMA_MAX_SCORES = 10_000
+SCHEMA_MAX_STATES = 100_000
 MIN_TOKEN_LENGTH = 16
 _TOKEN = re.compile(r"[A-Za-z0-9\-._~+/]+=*")
 _ORIGIN = re.compile(r"https?://[A-Za-z0-9.\-]+(:[0-9]{1,5})?")
@@ -62,8 +68,8 @@ class Settings:
     _BOUNDS = {
         "max_body_bytes": (1024, 1024**3),
         "max_values": (1, 100_000_000),
-        "max_moment_order": (4, 40),
-        "max_probabilities": (1, 100_000),
+        "max_moment_order": (4, SCHEMA_MAX_MOMENT_ORDER),
+        "max_probabilities": (1, SCHEMA_MAX_PROBABILITIES),
         "max_modes_listed": (1, 100_000),
         "max_contributions_listed": (1, 100_000),
         "max_resample_work": (1_000, 10**12),

@@ -10,11 +10,14 @@ from typing import Annotated
 import msgspec
 from msgspec import Meta
 
-# Hard ceilings of the published schema; settings may only lower them.
-SCHEMA_MAX_MOMENT_ORDER = 12
-SCHEMA_MAX_PROBABILITIES = 1000
-SCHEMA_MAX_SCORES = 10_000
-SCHEMA_MAX_STATES = 100_000
+# Hard ceilings of the published schema, defined beside the settings that may only lower them.
+from tailgauge.settings import (
+    SCHEMA_MAX_MOMENT_ORDER,
+    SCHEMA_MAX_PROBABILITIES,
+    SCHEMA_MAX_SCORES,
+    SCHEMA_MAX_STATES,
+)
+
 MAX_SEED = 2**53 - 1
 
 Probability = Annotated[float, Meta(ge=0.0, le=1.0, description="A probability in [0, 1].")]
