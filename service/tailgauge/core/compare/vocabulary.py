@@ -1,4 +1,4 @@
-"""The comparison's copies of facts about descriptors and warnings, gathered in one place.
+"""What a comparison contrasts, how, and which warnings it emits.
 
 Which descriptors are contrasted and which get a bootstrap interval (and why not) are read from
 the descriptor registry; what is the comparison's own lives here: which conventions affect which
