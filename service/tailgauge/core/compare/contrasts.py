@@ -98,60 +98,51 @@ def standardized_gap(quantile: str, centre: str, scale: str) -> Contrast:
 def differences(
     estimates: tuple[Stats, Stats], resampled: Resampled | None, notes: Warnings, pending: IntervalWarnings
 ) -> dict[str, Difference]:
-    first, second = estimates
-    out: dict[str, Difference] = {}
-    missing: dict[str, list[str]] = {}
-    overflowed = []
-    for name in DIFFERENCE_DESCRIPTORS:
-        a, b = first[name], second[name]
-        member = f"differences.{name}"
-        if a is None or b is None:
-            missing.setdefault(side_of(a, b), []).append(member)
-            out[name] = Difference(None)
-            continue
-        with np.errstate(over="ignore"):
-            value = finite_or_none(np.float64(b) - np.float64(a))
-        if value is None:
-            overflowed.append(member)
-            out[name] = Difference(None)
-            continue
-        out[name] = _with_interval(
-            Difference(value), difference_of(name), value, name, member, resampled, pending
-        )
-    undefined_by_side(missing, "differences", notes)
-    if overflowed:
-        notes.add(WarningCode.NOT_REPRESENTABLE, "the difference is outside the range of float64", overflowed)
-    return out
+    """Second minus first for every scalar descriptor."""
+    return _contrasts("differences", DIFFERENCE_DESCRIPTORS, estimates, resampled, notes, pending)
 
 
 def ratios(
     estimates: tuple[Stats, Stats], resampled: Resampled | None, notes: Warnings, pending: IntervalWarnings
 ) -> dict[str, Difference]:
+    """Second / first for every scale descriptor (undefined where the first is zero)."""
+    return _contrasts("ratios", SCALE_DESCRIPTORS, estimates, resampled, notes, pending)
+
+
+def _contrasts(
+    what: str,
+    names: tuple[str, ...],
+    estimates: tuple[Stats, Stats],
+    resampled: Resampled | None,
+    notes: Warnings,
+    pending: IntervalWarnings,
+) -> dict[str, Difference]:
+    """One rule for differences and ratios: undefined by side, zero first (ratios), overflow."""
+    ratio = what == "ratios"
     first, second = estimates
     out: dict[str, Difference] = {}
     missing: dict[str, list[str]] = {}
     zero, overflowed = [], []
-    for name in SCALE_DESCRIPTORS:
+    for name in names:
         a, b = first[name], second[name]
-        member = f"ratios.{name}"
+        member = f"{what}.{name}"
         if a is None or b is None:
             missing.setdefault(side_of(a, b), []).append(member)
             out[name] = Difference(None)
             continue
-        if a == 0.0:
+        if ratio and a == 0.0:
             zero.append(member)
             out[name] = Difference(None)
             continue
         with np.errstate(over="ignore", under="ignore"):
-            value = finite_or_none(np.float64(b) / np.float64(a))
+            value = finite_or_none(np.float64(b) / np.float64(a) if ratio else np.float64(b) - np.float64(a))
         if value is None:
             overflowed.append(member)
             out[name] = Difference(None)
             continue
-        out[name] = _with_interval(
-            Difference(value), ratio_of(name), value, name, member, resampled, pending
-        )
-    undefined_by_side(missing, "ratios", notes)
+        contrast = ratio_of(name) if ratio else difference_of(name)
+        out[name] = _with_interval(Difference(value), contrast, value, name, member, resampled, pending)
+    undefined_by_side(missing, what, notes)
     if zero:
         notes.add(
             WarningCode.RATIO_UNDEFINED,
@@ -159,7 +150,8 @@ def ratios(
             zero,
         )
     if overflowed:
-        notes.add(WarningCode.NOT_REPRESENTABLE, "the ratio is outside the range of float64", overflowed)
+        kind = "ratio" if ratio else "difference"
+        notes.add(WarningCode.NOT_REPRESENTABLE, f"the {kind} is outside the range of float64", overflowed)
     return out
 
 
