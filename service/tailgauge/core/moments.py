@@ -206,8 +206,11 @@ def _blocked_abs_max(values: np.ndarray, pre_exponent: int, shift: float) -> flo
     return result
 
 
-def _weighted_mean(values: np.ndarray, weights: np.ndarray | None, pre_exponent: int) -> float:
-    """Mean of ``values * 2**pre_exponent``, refined by one correction pass."""
+def weighted_mean(values: np.ndarray, weights: np.ndarray | None, pre_exponent: int) -> float:
+    """Mean of ``values * 2**pre_exponent``, refined by one correction pass.
+
+    Called only by the two-pass fallback of :func:`central_sums`: tests wrap it (looked up on
+    this module at call time) to see which path the data took."""
     weight = float(values.size) if weights is None else float(np.sum(weights))
     estimate = 0.0
     for refine in range(2):
@@ -306,7 +309,7 @@ def central_sums(values: np.ndarray, weights: np.ndarray | None, order: int) -> 
                 sums = candidate
         if sums is None:
             pre = _exponent_to_unit(float(np.max(np.abs(values))))
-            shift = _weighted_mean(values, weights, pre)
+            shift = weighted_mean(values, weights, pre)
             post = _exponent_to_unit(_blocked_abs_max(values, pre, shift))
             sums = _power_sums(values, weights, pre, shift, post, order)
     centre = float(sums[1] / sums[0])
