@@ -48,8 +48,11 @@ def whole_counts(weights: np.ndarray | None, total: float) -> bool:
 def middle_ranks(total: np.ndarray) -> np.ndarray:
     """The two middle ranks ``floor((n + 1) / 2)`` and ``ceil((n + 1) / 2)`` (1-based), stacked
     on a new last axis: equal for odd ``n``, the two around the middle for even ``n``."""
-    total = np.asarray(total, dtype=np.float64)
-    return np.stack((np.floor((total + 1.0) / 2.0), np.ceil((total + 1.0) / 2.0)), axis=-1)
+    middle = (np.asarray(total, dtype=np.float64) + 1.0) / 2.0
+    ranks = np.empty(middle.shape + (2,))
+    np.floor(middle, out=ranks[..., 0])
+    np.ceil(middle, out=ranks[..., 1])
+    return ranks
 
 
 def snap_to_whole(h: np.ndarray) -> np.ndarray:
