@@ -31,6 +31,9 @@ from tailgauge.core import (
     from_table,
 )
 from tailgauge.core import cost, resample
+from tailgauge.core.resample import little
+from tailgauge.core.resample.rows import LeaveOneOut
+from tailgauge.core.resample.statistics import Statistics
 
 RNG_SEED = 20261204
 
@@ -119,7 +122,7 @@ def test_resample_advice_is_admitted_when_resent(name):
     with pytest.raises(LimitExceeded) as refused:
         admit([data], limited)
     path, allowed = _advice(refused.value)
-    assert path == "$.options.interval.resamples"
+    assert path == "options.interval.resamples"
     assert 100 <= allowed < 50_000
     resent = dataclasses.replace(limited, interval=dataclasses.replace(limited.interval, resamples=allowed))
     assert admit([data], resent).peak_bytes <= limited.max_memory_bytes
@@ -167,7 +170,7 @@ def test_probability_and_method_advice():
     with pytest.raises(LimitExceeded) as refused:
         admit([data], limited)
     path, allowed = _advice(refused.value)
-    assert path == "$.options.probabilities" and 0 < allowed < 1000
+    assert path == "options.probabilities" and 0 < allowed < 1000
     admit([data], dataclasses.replace(limited, probabilities=limited.probabilities[:allowed]))
 
 
@@ -175,7 +178,7 @@ def test_values_beyond_any_plan_are_refused_naming_the_input():
     data, _ = INPUTS["samples"]
     with pytest.raises(LimitExceeded) as refused:
         admit([data], dataclasses.replace(_options(9, None, 0), max_memory_bytes=1e5))
-    assert refused.value.locations[0].path == "$"
+    assert refused.value.locations[0].path == ""  # the input as a whole (logical name)
     assert "fewer values" in refused.value.detail
 
 
@@ -194,7 +197,7 @@ def test_little_bootstraps_in_batches_draw_the_same_resamples(monkeypatch):
     data, kind = INPUTS["samples"]
     options = dataclasses.replace(_options(20, "percentile", 400, subset_rows=1000), admitted=True)
     whole = describe(data, options, kind=kind)
-    monkeypatch.setattr(resample, "_BATCH_ELEMENTS", 500)
+    monkeypatch.setattr(little, "BATCH_ELEMENTS", 500)  # the batch bound the little bootstraps read
     batched = describe(data, options, kind=kind)
     for name, descriptor in whole.descriptors.items():
         other = batched.descriptors[name]
@@ -221,16 +224,16 @@ def test_deadline_stops_a_stage_the_model_let_through(stage, monkeypatch):
             )
         return
     # The jackknife: the clock passes between the bootstrap and the jackknife's first part.
-    real = resample._Statistics.evaluate
+    real = Statistics.evaluate
     calls = []
 
     def evaluate(self, view, probabilities, names, deadline=None):
         calls.append(type(view).__name__)
-        if type(view).__name__ == "_LeaveOneOut":
+        if isinstance(view, LeaveOneOut):
             deadline = time.monotonic() - 1.0
         return real(self, view, probabilities, names, deadline)
 
-    monkeypatch.setattr(resample._Statistics, "evaluate", evaluate)
+    monkeypatch.setattr(Statistics, "evaluate", evaluate)
     with pytest.raises(LimitExceeded, match="time limit"):
         describe(data, options, kind=kind)
-    assert calls[-1] == "_LeaveOneOut"
+    assert calls[-1] == "LeaveOneOut"

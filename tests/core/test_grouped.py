@@ -303,7 +303,7 @@ def test_modal_class_with_unequal_widths_uses_densities():
 def test_all_counts_in_open_bins_are_rejected():
     with pytest.raises(UncomputableInput) as raised:
         from_bins([None, 0.0, 1.0, None], [3.0, 0.0, 4.0])
-    assert raised.value.locations[0].path == "$.counts"
+    assert raised.value.locations[0].path == "counts"
 
 
 def test_all_counts_in_one_bin_give_unknown_spread_not_zero():

@@ -229,8 +229,8 @@ def test_well_conditioned_offset_matches_exact_arithmetic(monkeypatch):
     """Mean 1e9, sd 1: the naive two-pass is limited by rounding the mean (k u |mean| / sd is
     about 1e-6 at order 8); the service must do better, so compare with exact arithmetic."""
     calls = []
-    original = moments._weighted_mean
-    monkeypatch.setattr(moments, "_weighted_mean", lambda *a: (calls.append(1), original(*a))[1])
+    original = moments.weighted_mean
+    monkeypatch.setattr(moments, "weighted_mean", lambda *a: (calls.append(1), original(*a))[1])
     rng = np.random.default_rng(41)
     x = 1e9 + rng.normal(size=20000)
     sums = central_sums(x, None, 8)
@@ -344,8 +344,8 @@ def clustered(weighted: bool):
 @pytest.mark.parametrize("weighted", (False, True), ids=("unweighted", "weighted"))
 def test_fallback_when_the_shift_is_far_from_the_mean(weighted, monkeypatch):
     calls = []
-    original = moments._weighted_mean
-    monkeypatch.setattr(moments, "_weighted_mean", lambda *a: (calls.append(1), original(*a))[1])
+    original = moments.weighted_mean
+    monkeypatch.setattr(moments, "weighted_mean", lambda *a: (calls.append(1), original(*a))[1])
     x, weights = clustered(weighted)
     sums = central_sums(x, weights, 8)
     assert calls, "the data were meant to force the two-pass fallback"
@@ -356,3 +356,18 @@ def test_fallback_when_the_shift_is_far_from_the_mean(weighted, monkeypatch):
     assert relative_error(sums.mean, float(mean)) <= 2.0 * U
     for k in range(2, 9):
         assert abs(sums.central_moment(k) - float(central[k])) <= 1e-13 * absolute[k], k
+
+
+def test_variance_factor_is_the_divisor_of_each_rule():
+    # Reference: the divisors by definition, n (population), n - 1 (sample) and V1 - V2 / V1
+    # (reliability weights), as the plug-in variance's factor n / divisor.
+    assert moments.variance_factor("population", 10.0) == 1.0
+    assert moments.variance_factor("sample", 10.0) == 10.0 / 9.0
+    w = np.array([0.5, 1.0, 2.5])
+    v1, v2 = float(np.sum(w)), float(np.sum(w * w))
+    assert moments.variance_factor("reliability", v1, v2 / v1**2) == pytest.approx(v1 / (v1 - v2 / v1), rel=1e-15)
+    rows = moments.variance_factor("sample", np.array([2.0, 4.0, 1.0]))
+    assert rows.tolist() == [2.0, 4.0 / 3.0, np.inf]  # one observation: no divisor
+    with pytest.raises(ValueError):
+        moments.variance_factor("median", 3.0)
+

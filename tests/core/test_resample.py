@@ -38,6 +38,9 @@ from tailgauge.core import (
     from_table,
 )
 from tailgauge.core import resample
+from tailgauge.core.resample.draws import POISSON_DRAWS, TOPPED_UP_BATCH_ELEMENTS, BATCH_ELEMENTS, plan_of
+from tailgauge.core.resample.rows import LeaveOneOut, Rows
+from tailgauge.core.resample.statistics import Statistics
 
 REPO = Path(__file__).resolve().parents[2]
 
@@ -88,11 +91,11 @@ def run(data, *, kind="samples", method="bca", level=0.95, resamples=999, seed=1
 def statistics_for(args, kwargs):
     """The engine's plan and statistics, built from the very arguments ``describe`` used."""
     data, sums = args[0], args[1]
-    plan, _ = resample._plan(data, sums)
+    plan, _ = plan_of(data, sums)
     extra = {}
     if kwargs.get("sheppard_width") is not None:
         extra["sheppard_width"] = kwargs["sheppard_width"]
-    statistics = resample._Statistics(
+    statistics = Statistics(
         plan, kwargs["families"], kwargs["quantile_type"], kwargs["factor_rule"], **extra
     )
     return plan, statistics
@@ -306,7 +309,7 @@ def _leave_one_out(args, kwargs):
     """The engine's jackknife rows (as ``bootstrap`` builds them), for the descriptors it resamples."""
     plan, statistics = statistics_for(args, kwargs)
     removed = np.where(plan.base > 0, plan.unit, 0.0)
-    view = resample._LeaveOneOut(plan.base, removed, plan.powers)
+    view = LeaveOneOut(plan.base, removed, plan.powers)
     everything = statistics.evaluate(view, args[4], wanted_names(args))
     names = wanted_names(args) + tuple(f"quantile:{i}" for i in range(len(args[4])))
     return plan, {name: everything[name] for name in names}
@@ -451,7 +454,7 @@ def test_statistics_of_the_original_weights_reproduce_describe(case):
     description, args, kwargs, _ = run(data, kind=kind, method="percentile", resamples=200, **options)
     plan, statistics = statistics_for(args, kwargs)
     names = wanted_names(args)
-    original = resample._Rows(plan.base[None, :].copy(), plan.powers, plan.integer)
+    original = Rows(plan.base[None, :].copy(), plan.powers, plan.integer)
     row = statistics.evaluate(original, args[4], names)
     want = point_values(description)
     compared = names + tuple(f"quantile:{i}" for i in range(len(description.quantiles)))
@@ -512,8 +515,8 @@ def test_same_seed_same_intervals_bit_for_bit_across_runs_and_threads(method, n,
     x = np.random.default_rng(31337).gamma(3.0, 2.0, n)
     _, args, kwargs, first = run(from_array(x), method=method, resamples=resamples, seed=271828, level=0.9)
     # The weights exceed one batch, so threads really split the work.
-    topped_up = n >= resample._POISSON_DRAWS
-    assert resamples * n > (resample._TOPPED_UP_BATCH_ELEMENTS if topped_up else resample._BATCH_ELEMENTS)
+    topped_up = n >= POISSON_DRAWS
+    assert resamples * n > (TOPPED_UP_BATCH_ELEMENTS if topped_up else BATCH_ELEMENTS)
     outcomes = []
     for threads in (1, 2, 3):
         outcomes.append(resample.bootstrap(*args, **{**kwargs, "threads": threads}))
@@ -747,140 +750,3 @@ def test_percentile_intervals_cover_the_true_mean_and_median(scenario):
         assert median_rate >= level - 3 * sd, (scenario, median_rate)
     else:
         assert level - median_allowance - 3 * sd <= median_rate <= level + 3 * sd, (scenario, median_rate)
-
-
-# ----------------------------------------------------------------------------------------------
-# The batched median absolute deviation, row by row against numpy
-# ----------------------------------------------------------------------------------------------
-
-MAD_SUPPORTS = {
-    "continuous": np.sort(np.random.default_rng(41).gamma(2.0, 3.0, 300)),
-    "few values": np.arange(7, dtype=np.float64),
-    "huge magnitude, tiny spread": 1e16 + np.arange(0.0, 64.0, 2.0),
-    "mixed signs and scales": np.array([-3e5, -2.5, -1e-9, 0.0, 1e-9, 0.5, 2.5, 7.0, 1e3, 4e8]),
-}
-
-
-@pytest.mark.parametrize("support", list(MAD_SUPPORTS))
-def test_batched_mad_of_whole_count_rows_matches_numpy_row_by_row(support):
-    # Reference: numpy's median of |x - median(x)| of each row's counts written out (np.repeat).
-    values = MAD_SUPPORTS[support]
-    rng = np.random.default_rng(17)
-    data = from_table(values, np.ones(values.size), probabilities=False, normalise=False)
-    plan, _ = resample._plan(data, central_sums(data.values, data.weights, 4))
-    statistics = resample._Statistics(plan, ("sample", "sample"), 7, "sample")
-    counts = rng.poisson(rng.uniform(0.0, 3.0, (400, values.size)))
-    counts[:, rng.integers(0, values.size, 400)] += 1  # no empty row
-    counts[:50, :] = 0
-    counts[:50, values.size // 2] = 1 + np.arange(50) % 3  # rows whose deviations are all 0
-    view = resample._Rows(counts.astype(np.float64), plan.powers, True, counts)
-    median = statistics.median(view)
-    got = statistics.mad(view, median)
-    want = []
-    for row in counts:
-        expanded = np.repeat(values, row)
-        want.append(np.median(np.abs(expanded - np.median(expanded))))
-    assert np.array_equal(median, [np.median(np.repeat(values, row)) for row in counts])
-    assert np.array_equal(got, np.array(want))
-
-
-def test_batched_median_and_mad_of_fractional_weight_rows_match_the_point_estimates():
-    # Reference: order_statistics.median_absolute_deviation of each row as its own weighted sample (the
-    # point estimate's rule; checked against numpy and statsmodels in test_order).
-    from tailgauge.core import order_statistics
-
-    rng = np.random.default_rng(23)
-    values = np.sort(rng.normal(0.0, 1.0, 40))
-    weights = rng.uniform(0.2, 2.0, 40)
-    data = from_samples(list(values), omit_missing=False, weights=list(weights), meaning=WeightMeaning.FREQUENCY)
-    plan, _ = resample._plan(data, central_sums(data.values, data.weights, 4))
-    statistics = resample._Statistics(plan, ("sample", "sample"), 7, "sample")
-    rows = rng.poisson(1.0, (300, plan.values.size)) * plan.unit[None, :]
-    rows[rows.sum(axis=1) == 0, 0] = plan.unit[0]
-    rows[:20] = np.where(np.arange(plan.values.size) % 2 == 0, 1.0, 0.0)  # exact halves: averaged
-    view = resample._Rows(rows, plan.powers, False)
-    median = statistics.median(view)
-    got = statistics.mad(view, median)
-    for i, row in enumerate(rows):
-        keep = row > 0
-        one = from_samples(list(plan.values[keep]), omit_missing=False, weights=list(row[keep]), meaning=WeightMeaning.FREQUENCY)
-        assert median[i] == order_statistics.median(one), i
-        assert got[i] == order_statistics.median_absolute_deviation(one, float(median[i])), i
-
-
-# ----------------------------------------------------------------------------------------------
-# Multinomial counts from Poisson counts topped up to n
-# ----------------------------------------------------------------------------------------------
-
-
-def _topped_up_plan(n: int):
-    x = np.random.default_rng(5).normal(0.0, 1.0, n)
-    data = from_array(x)
-    plan, _ = resample._plan(data, central_sums(data.values, None, 4))
-    assert plan.poisson_edges is not None
-    return plan
-
-
-def test_poisson_edges_are_the_poisson_distribution_function_in_units_of_two_to_the_64():
-    # Reference: scipy.stats.poisson.cdf, the definition of the edges.
-    rate = 0.96
-    edges = resample._poisson_edges(rate)
-    cdf = stats.poisson.cdf(np.arange(edges.size), rate)
-    assert np.allclose(edges.astype(np.float64) / 2.0**64, cdf, rtol=0.0, atol=1e-15)
-    assert np.all(np.diff(edges.astype(np.float64)) >= 0)
-    assert stats.poisson.sf(edges.size, rate) < 2.0**-64
-
-
-def test_topped_up_counts_are_multinomial():
-    # Reference: the multinomial(n; 1/n, ...) laws, from scipy.stats.binom: each row sums to n,
-    # one value's count is binomial(n, 1/n) and the count of the first half of the values is
-    # binomial(n, 1/2) (Poisson counts without the top-up would have twice that variance).
-    n, rows = 4096, 6000
-    plan = _topped_up_plan(n)
-    rng = np.random.default_rng(99)
-    scratch = resample._Scratch()
-    blocks = [resample._topped_up_counts(plan, rng, 500, scratch).astype(np.int64) for _ in range(rows // 500)]
-    counts = np.concatenate(blocks)
-    assert np.all(counts.sum(axis=1) == n)
-    half = counts[:, : n // 2].sum(axis=1)
-    assert stats.kstest(half, stats.binom(n, 0.5).cdf).pvalue > 1e-3
-    assert np.var(half) == pytest.approx(n / 4.0, rel=0.08)
-    one = counts[:, :64].ravel()  # 384,000 single-value counts
-    observed = np.bincount(one, minlength=6)[:6].astype(np.float64)
-    observed = np.append(observed, one.size - observed.sum())
-    expected = stats.binom(n, 1.0 / n).pmf(np.arange(6)) * one.size
-    expected = np.append(expected, one.size - expected.sum())
-    assert stats.chisquare(observed, expected).pvalue > 1e-3
-
-
-def test_draws_fall_back_to_direct_counts_when_topped_up_counts_decline(monkeypatch):
-    # _topped_up_counts returns None when a byte could have wrapped; _draw must then count
-    # direct draws, still multinomial(n) (every row sums to n, weights equal counts).
-    plan = _topped_up_plan(4096)
-    monkeypatch.setattr(resample, "_topped_up_counts", lambda *args: None)
-    weights, counts = resample._draw(plan, np.random.default_rng(3), 8, resample._Scratch())
-    assert np.all(counts.sum(axis=1) == 4096)
-    assert np.array_equal(weights, counts.astype(np.float64))
-
-
-def test_topped_up_counts_fit_in_bytes_for_large_samples():
-    # A shortfall of about 4 sqrt(n) draws per row (1,000 at n = 65,536) spreads over the values.
-    plan = _topped_up_plan(65_536)
-    counts = resample._topped_up_counts(plan, np.random.default_rng(3), 4, resample._Scratch())
-    assert counts.dtype == np.uint8
-    assert np.all(counts.sum(axis=1, dtype=np.int64) == 65_536)
-
-
-
-def test_first_reaching_stays_in_its_row_for_every_target():
-    # Reference: np.searchsorted on each row's own cumulative counts (written out per row).
-    counts = np.array([[0, 2, 0, 1, 0, 0], [3, 0, 0, 0, 1, 0], [0, 0, 0, 0, 0, 4]])
-    view = resample._Rows(counts.astype(np.float64), None, True, counts)
-    targets = np.array([[0.0, 0.5, 1.0, 2.0, 3.0, 3.0]] * 3)
-    targets[1, 5] = 4.0
-    targets[2, 4:] = [3.5, 4.0]
-    got = view.first_reaching(targets)
-    cumulative = np.cumsum(counts, axis=1)
-    want = np.stack([np.minimum(np.searchsorted(cumulative[r], targets[r], side="left"), 5) for r in range(3)])
-    assert np.array_equal(got, want)
-    assert np.array_equal(view.cumulative_at(got), np.take_along_axis(cumulative, got, axis=1).astype(np.float64))

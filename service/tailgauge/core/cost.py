@@ -20,6 +20,7 @@ import math
 from dataclasses import dataclass
 
 from tailgauge.core import resample
+from tailgauge.core.resample.draws import BATCH_ELEMENTS, batch_size, tops_up
 from tailgauge.core.errors import LimitExceeded, Location
 from tailgauge.core.weighted import WeightedData, WeightMeaning
 
@@ -84,7 +85,7 @@ class Shape:
 
 
 def shape_of(data: WeightedData, subset_rows: int) -> Shape:
-    """The cost-driving sizes of ``data``, by the rules of ``resample._plan`` and ``_draw``
+    """The cost-driving sizes of ``data``, by the rules of ``resample.draws.plan_of`` and ``draw``
     (without building the plan's arrays)."""
     if data.binned:
         rows = int(data.values.size)
@@ -99,7 +100,8 @@ def shape_of(data: WeightedData, subset_rows: int) -> Shape:
     else:
         rows = draws = int(data.count)
     multinomial = integer
-    poisson = multinomial and draws == rows and draws >= resample._POISSON_DRAWS
+    # Whole counts as many as the rows: each row holds one (bins aside, where empty bins count).
+    poisson = tops_up(multinomial, draws, rows, unit_rows=True)
     picks = not ((multinomial and draws > 8 * rows) or poisson)
     subsets = 0
     if rows > subset_rows and not data.binned:
@@ -150,7 +152,7 @@ def resampling_stages(
         m = shape.subset_rows
         per_subset = -(-resamples // resample.SUBSETS)
         drawn = per_subset * resample.SUBSETS
-        batch = max(1, min(per_subset, resample._BATCH_ELEMENTS // m))
+        batch = max(1, min(per_subset, BATCH_ELEMENTS // m))
         row_bytes = resample.evaluation_row_bytes(m, probabilities, bins=False)
         working = batch * m * 32.0 + min(batch, max(1, part // row_bytes)) * row_bytes
         # The whole sample's plan (powers, cumulative counts), choosing a subset, its plan.
@@ -160,10 +162,7 @@ def resampling_stages(
         memory = STAGE_BYTES + subset + working + stored + 2 * batch * recorded
         stages.append(Stage("bag of little bootstraps", memory, STAGE_SECONDS + seconds))
         return stages
-    elements = resample._TOPPED_UP_BATCH_ELEMENTS if shape.poisson else resample._BATCH_ELEMENTS
-    batch = max(1, min(resamples, elements // max(k, 1)))
-    if resamples >= 2000:
-        batch = min(batch, -(-resamples // 2))
+    batch = batch_size(k, resamples, shape.poisson)
     batches = -(-resamples // batch)
     busy = max(1, min(threads, batches))
     row_bytes = resample.evaluation_row_bytes(k, probabilities, bins=shape.bins)

@@ -18,6 +18,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
+from tailgauge.core import deviation_rules, order_rules
 from tailgauge.core.weighted import WeightedData
 
 
@@ -26,58 +27,26 @@ def _parts(data: WeightedData) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
     return data.edges[:-1], data.edges[1:], data.weights
 
 
+def rows_of(data: WeightedData, total: float | None = None) -> order_rules.CumulativeRow:
+    """The bins as one row of the order-statistic rules (:mod:`tailgauge.core.order_rules`):
+    one position per bin, empty bins included; ``total`` defaults to the last cumulative count."""
+    assert data.weights is not None
+    return order_rules.CumulativeRow(data.weights, np.cumsum(data.weights), total)
+
+
 def quantiles(data: WeightedData, probabilities: np.ndarray) -> np.ndarray:
     """Interpolated grouped quantiles: ``L + (p N - C_before) / f * width`` in the bin holding ``p N``."""
-    lower, upper, counts = _parts(data)
-    occupied = counts > 0
-    lower, upper, counts = lower[occupied], upper[occupied], counts[occupied]
-    cumulative = np.cumsum(counts)
-    total = cumulative[-1]
-    target = np.asarray(probabilities, dtype=np.float64) * total
-    index = np.minimum(np.searchsorted(cumulative, target, side="left"), counts.size - 1)
-    before = cumulative[index] - counts[index]
-    fraction = np.clip((target - before) / counts[index], 0.0, 1.0)
-    low, high = lower[index], upper[index]
-    with np.errstate(invalid="ignore"):
-        inside = low + fraction * (high - low)
-    # At a bin's own edge the answer is that edge, even when the other edge is open.
-    return np.where(fraction == 0.0, low, np.where(fraction == 1.0, high, inside))
-
-
-def _distribution_function(data: WeightedData) -> tuple[np.ndarray, np.ndarray]:
-    """Finite edges and the cumulative count at each (the piecewise-linear F, unnormalised)."""
-    edges = data.edges
-    assert edges is not None and data.weights is not None
-    cumulative = np.concatenate(([0.0], np.cumsum(data.weights)))
-    finite = np.isfinite(edges)
-    return edges[finite], cumulative[finite]
+    assert data.edges is not None
+    return order_rules.grouped_quantiles(rows_of(data), data.edges, probabilities)[0]
 
 
 def median_absolute_deviation(data: WeightedData, centre: float) -> float:
-    """Smallest ``d`` with ``F(centre + d) - F(centre - d) >= N / 2`` under even spread in bins.
-
-    ``G(d) = F(centre + d) - F(centre - d)`` is piecewise linear between the distances from
-    ``centre`` to the finite edges, so the root is found exactly by linear interpolation
-    between the two breakpoints around it. NaN when it would lie inside an open bin.
-    """
-    edges, cumulative = _distribution_function(data)
-    total = float(np.sum(data.weights))
-    low_known = -np.inf if np.isfinite(data.edges[0]) else edges[0]
-    high_known = np.inf if np.isfinite(data.edges[-1]) else edges[-1]
-
-    distances = np.concatenate(([0.0], np.unique(np.abs(edges - centre))))
-    known = (centre - distances >= low_known) & (centre + distances <= high_known)
-    spread = np.interp(centre + distances, edges, cumulative) - np.interp(centre - distances, edges, cumulative)
-    reached = np.flatnonzero(spread >= 0.5 * total)
-    if reached.size == 0:
-        return math.nan
-    k = int(reached[0])
-    if not known[: k + 1].all():
-        return math.nan
-    if k == 0:
-        return 0.0
-    d0, d1, g0, g1 = distances[k - 1], distances[k], spread[k - 1], spread[k]
-    return float(d0 + (0.5 * total - g0) / (g1 - g0) * (d1 - d0))
+    """Smallest ``d`` with ``F(centre + d) - F(centre - d) >= N / 2`` under even spread in bins
+    (see :func:`tailgauge.core.order_rules.grouped_median_absolute_deviations`); ``N`` is the
+    data's total weight. NaN when it would lie inside an open bin."""
+    assert data.edges is not None
+    row = rows_of(data, data.total_weight)
+    return float(deviation_rules.grouped_median_absolute_deviations(row, data.edges, np.array([centre]))[0])
 
 
 @dataclass(frozen=True)

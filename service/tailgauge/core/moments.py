@@ -13,6 +13,7 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass
+from typing import Literal
 
 import numpy as np
 
@@ -36,6 +37,36 @@ def scale_by_power_of_two(value: float, exponent: int) -> float:
     if not -1021 < math.frexp(value)[1] + exponent <= 1024:
         return math.nan
     return math.ldexp(value, exponent)
+
+
+# How the plug-in variance (divisor: the total weight) becomes the reported variance.
+VarianceRule = Literal["sample", "population", "reliability"]
+
+
+def variance_factor(rule: VarianceRule, total, inverse_effective=None):
+    """The factor with ``variance = plug-in variance * factor``, for one total or an array of them.
+
+    * ``"population"``: 1 (divisor n);
+    * ``"sample"``: ``n / (n - 1)`` with ``n`` the total weight (divisor n - 1);
+    * ``"reliability"``: ``1 / (1 - V2 / V1**2)`` (divisor ``V1 - V2 / V1``), given
+      ``inverse_effective = V2 / V1**2``, the reciprocal of Kish's effective size.
+
+    The divisor is positive only for ``n > 1`` (an effective size above 1); at exactly 1 the
+    factor is ``inf``, and below it the formula's value is returned as it stands: a caller for
+    which such data have no sample variance says so itself (``describe`` marks them single, and
+    a resample of them gets a replicate that is not a variance). A float for a float total.
+    """
+    with np.errstate(divide="ignore", invalid="ignore"):
+        if rule == "population":
+            factor = np.ones_like(np.asarray(total, dtype=np.float64))
+        elif rule == "reliability":
+            factor = 1.0 / (1.0 - np.asarray(inverse_effective, dtype=np.float64))
+        elif rule == "sample":
+            total = np.asarray(total, dtype=np.float64)
+            factor = total / (total - 1.0)
+        else:
+            raise ValueError(f"unknown variance rule {rule!r}")
+    return float(factor) if np.ndim(factor) == 0 else factor
 
 
 @dataclass(frozen=True)
@@ -175,8 +206,11 @@ def _blocked_abs_max(values: np.ndarray, pre_exponent: int, shift: float) -> flo
     return result
 
 
-def _weighted_mean(values: np.ndarray, weights: np.ndarray | None, pre_exponent: int) -> float:
-    """Mean of ``values * 2**pre_exponent``, refined by one correction pass."""
+def weighted_mean(values: np.ndarray, weights: np.ndarray | None, pre_exponent: int) -> float:
+    """Mean of ``values * 2**pre_exponent``, refined by one correction pass.
+
+    Called only by the two-pass fallback of :func:`central_sums`: tests wrap it (looked up on
+    this module at call time) to see which path the data took."""
     weight = float(values.size) if weights is None else float(np.sum(weights))
     estimate = 0.0
     for refine in range(2):
@@ -275,7 +309,7 @@ def central_sums(values: np.ndarray, weights: np.ndarray | None, order: int) -> 
                 sums = candidate
         if sums is None:
             pre = _exponent_to_unit(float(np.max(np.abs(values))))
-            shift = _weighted_mean(values, weights, pre)
+            shift = weighted_mean(values, weights, pre)
             post = _exponent_to_unit(_blocked_abs_max(values, pre, shift))
             sums = _power_sums(values, weights, pre, shift, post, order)
     centre = float(sums[1] / sums[0])

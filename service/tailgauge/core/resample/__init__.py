@@ -1,0 +1,191 @@
+"""Bootstrap intervals for every descriptor at once, by resampling the support rather than the rows.
+
+A resample is a vector of weights over the k support rows (distinct values with their counts,
+or, for reliability or fractional weights, the entries themselves). A batch of resamples is a
+b x k weight matrix; every moment descriptor of the whole batch comes from one matrix product
+with the powers of the scaled deviations, and every order statistic from the cumulative
+weights. So the cost grows with resamples x k, not with the total count.
+
+The BCa acceleration comes from the jackknife over the support rows with their multiplicities
+(leaving out one observation of row i changes only row i), so it costs O(k), never O(n^2).
+
+References
+----------
+B. Efron and R. J. Tibshirani, *An Introduction to the Bootstrap*, Chapman & Hall, 1993:
+percentile (eq. 13.5), basic (Davison & Hinkley 1997, eq. 5.6) and BCa (eq. 14.10-14.15)
+intervals; the acceleration from the jackknife (eq. 14.15).
+
+The package, by concept: ``rows`` (batches of weight rows and the jackknife's rows, as the
+order-statistic rules read them), ``draws`` (the plan, batches and their draws), ``statistics``
+(every descriptor of many rows), ``intervals`` (interval methods and results), ``little`` (bag
+of little bootstraps), ``budget`` (work, advice, deadline, working memory) and ``pool`` (the
+process's threads); :func:`bootstrap` here runs them.
+"""
+
+from __future__ import annotations
+
+import threading
+
+import numpy as np
+
+from tailgauge.core.moments import CentralSums
+from tailgauge.core.resample.budget import (
+    EVALUATION_PART_BYTES,
+    SUBSET_EXPONENT,
+    SUBSETS,
+    allowed_resamples,
+    deadline_check,
+    evaluation_row_bytes,
+    over_budget,
+    resampling_work,
+    uses_subsets,
+    work_of,
+)
+from tailgauge.core.resample.draws import batches, draw, plan_of
+from tailgauge.core.resample.intervals import (
+    FEW_DISTINCT,
+    INTERVAL_DESCRIPTORS,
+    SMALL_SAMPLE,
+    BootstrapOutcome,
+    BootstrapResult,
+    Interval,
+    IntervalOptions,
+    Replicates,
+    acceleration,
+    interval_from_replicates,
+)
+from tailgauge.core.resample.little import little_bootstraps
+from tailgauge.core.resample.pool import pool
+from tailgauge.core.resample.rows import LeaveOneOut, Rows, Scratch
+from tailgauge.core.resample.statistics import Statistics
+from tailgauge.core.weighted import WeightedData
+
+__all__ = [
+    "EVALUATION_PART_BYTES",
+    "FEW_DISTINCT",
+    "INTERVAL_DESCRIPTORS",
+    "SMALL_SAMPLE",
+    "SUBSETS",
+    "SUBSET_EXPONENT",
+    "BootstrapOutcome",
+    "BootstrapResult",
+    "Interval",
+    "IntervalOptions",
+    "Replicates",
+    "acceleration",
+    "allowed_resamples",
+    "bootstrap",
+    "evaluation_row_bytes",
+    "interval_from_replicates",
+    "resampling_work",
+]
+
+
+def bootstrap(
+    data: WeightedData,
+    sums: CentralSums,
+    estimates: dict[str, float | None],
+    quantile_estimates: list[float | None],
+    probabilities: np.ndarray,
+    *,
+    families: tuple[str, str],
+    quantile_type: int | None,
+    factor_rule: str,
+    options: IntervalOptions,
+    max_work: float,
+    deadline: float | None,
+    threads: int = 2,
+    subset_rows: int = 100_000,
+    sheppard_width: float | None = None,
+) -> BootstrapOutcome:
+    """Bootstrap every defined scalar descriptor and requested quantile of ``data`` in one pass.
+
+    With more than ``subset_rows`` support rows the bag of little bootstraps replaces the
+    ordinary bootstrap (percentile or basic intervals; BCa falls back to percentile).
+
+    ``estimates`` are the point estimates from ``describe``; a descriptor whose estimate is
+    ``None`` gets no interval. Raises :class:`LimitExceeded` when resamples x support rows exceed
+    ``max_work`` or the wall clock passes ``deadline`` (``time.monotonic()`` seconds).
+    """
+    plan, notes = plan_of(data, sums)
+    k = plan.values.size
+    work, per_resample, counted = work_of(plan, options.resamples, subset_rows)
+    if work > max_work:
+        raise over_budget(work, max_work, allowed_resamples(max_work, per_resample, plan, subset_rows), counted)
+    if uses_subsets(plan, subset_rows):
+        return little_bootstraps(
+            plan, notes, estimates, quantile_estimates, probabilities,
+            Statistics(plan, families, quantile_type, factor_rule), options, deadline,
+        )
+    statistics = Statistics(plan, families, quantile_type, factor_rule, sheppard_width)
+    wanted = tuple(name for name in INTERVAL_DESCRIPTORS if estimates.get(name) is not None)
+
+    own = threading.local()
+
+    def run(batch: tuple[np.random.Generator, int]) -> dict[str, np.ndarray]:
+        deadline_check(deadline)
+        if not hasattr(own, "scratch"):
+            own.scratch = Scratch()
+        # Weights near float64's limit can overflow in a resample; such replicates are non-finite
+        # and reported as undefined below, so the floating-point flags carry no news. (errstate
+        # is per thread: it must be set here, in the worker.)
+        with np.errstate(all="ignore"):
+            weights, counts = draw(plan, *batch, own.scratch)
+            if plan.integer:
+                view = Rows(weights, plan.powers, True, counts, plan.draws, own.scratch)
+            else:
+                view = Rows(weights, plan.powers, False)
+            return statistics.evaluate(view, probabilities, wanted, deadline)
+
+    # numpy releases the GIL in the heavy loops, so batches overlap on the cores; each batch has
+    # its own generator, so the result does not depend on which thread ran it.
+    planned = batches(plan, options.seed, options.resamples)
+    if threads <= 1 or len(planned) == 1:
+        outputs = [run(batch) for batch in planned]
+    else:
+        futures = [pool(threads).submit(run, batch) for batch in planned]
+        try:
+            outputs = [future.result() for future in futures]
+        finally:
+            for future in futures:  # after an error (a passed deadline), drop the batches not started
+                future.cancel()
+    replicates = {name: np.concatenate([out[name] for out in outputs]) for name in outputs[0]}
+    # The threads' scratch buffers (a batch's draws each) go before the jackknife runs.
+    del own, outputs
+
+    jackknife = jackknife_weights = None
+    if options.method == "bca":
+        present = plan.base > 0
+        removed = np.where(present, plan.unit, 0.0)
+        # A row whose removal leaves a total that rounds to 0 (weights 1e17 and 0.5), or power
+        # sums that overflow (weights near 1.8e308), has no finite leave-one-out value, which
+        # makes BCa fall back with its reason.
+        with np.errstate(all="ignore"):
+            view = LeaveOneOut(plan.base, removed, plan.powers)
+            jackknife = statistics.evaluate(view, probabilities, wanted, deadline)
+        # Each row stands for its observations: row i's leave-one-out value counts base/unit times.
+        jackknife_weights = np.where(present, plan.base / plan.unit, 0.0)
+    results: dict[str, BootstrapResult] = {}
+    for name in wanted:
+        estimate = estimates[name]
+        assert estimate is not None
+        results[name] = interval_from_replicates(
+            estimate, replicates[name], None if jackknife is None else [(jackknife[name], jackknife_weights)], options
+        )
+    quantile_results = []
+    for i, estimate in enumerate(quantile_estimates):
+        if estimate is None:
+            quantile_results.append(BootstrapResult(None, None, "the quantile itself is undefined"))
+            continue
+        name = f"quantile:{i}"
+        quantile_results.append(
+            interval_from_replicates(
+                estimate, replicates[name], None if jackknife is None else [(jackknife[name], jackknife_weights)], options
+            )
+        )
+    accelerations = {name: r.acceleration for name, r in results.items() if r.acceleration is not None}
+    scheme = (
+        f"multinomial counts over {k} distinct values" if plan.multinomial else f"uniform draws of {k} weighted entries"
+    )
+    kept = Replicates({name: values[None, :] for name, values in replicates.items()}, jackknife, jackknife_weights, False)
+    return BootstrapOutcome(results, quantile_results, options.resamples, scheme, notes, accelerations, kept)

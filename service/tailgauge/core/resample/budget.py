@@ -1,0 +1,83 @@
+"""The resampling budget: the work a bootstrap would spend, the advice when it is over, the
+wall-clock deadline, and the working memory of evaluating statistics over many rows.
+"""
+
+from __future__ import annotations
+
+import math
+import time
+
+from tailgauge.core.errors import LimitExceeded, Location
+from tailgauge.core.moments import central_sums
+from tailgauge.core.resample.draws import Plan, plan_of
+from tailgauge.core.weighted import WeightedData
+
+# Working memory of one part of ``Statistics.evaluate`` (rows of a batch or of the jackknife
+# evaluated together); see ``evaluation_row_bytes``.
+EVALUATION_PART_BYTES = 16 << 20
+# Bag of little bootstraps (Kleiner, Talwalkar, Sarkar & Jordan, JRSS-B 76, 2014): subsets of
+# size n**0.7, 20 of them (the paper's experiments find s = 10-20 and r = 50-100 enough).
+SUBSET_EXPONENT = 0.7
+SUBSETS = 20
+
+
+def evaluation_row_bytes(rows: int, probabilities: int, *, bins: bool) -> int:
+    """Working memory of ``Statistics.evaluate`` per evaluated row (measured with tracemalloc,
+    rounded up; tests/core/test_cost.py checks it): about 128 bytes per order statistic looked up
+    (the quartiles and the requested quantiles, and the median and MAD searches), plus, for
+    binned data, the grouped MAD's arrays over every bin edge."""
+    per_row = 128 * (probabilities + 12)
+    if bins:
+        per_row += 192 * (rows + 1)
+    return per_row
+
+
+def deadline_check(deadline: float | None) -> None:
+    if deadline is not None and time.monotonic() > deadline:
+        raise LimitExceeded(
+            detail="the resampling did not finish within this server's time limit; lower options.interval.resamples",
+            locations=[Location("options.interval.resamples", "lower it")],
+        )
+
+
+def over_budget(work: float, max_work: float, allowed: int, description: str) -> LimitExceeded:
+    return LimitExceeded(
+        detail=(
+            f"{description} = {work:.3g} exceeds this server's resampling budget of {max_work:.3g}; "
+            f"lower options.interval.resamples to at most {allowed}"
+        ),
+        locations=[Location("options.interval.resamples", f"at most {allowed} for these data")],
+    )
+
+
+def uses_subsets(plan: Plan, subset_rows: int) -> bool:
+    """Whether the bag of little bootstraps replaces the ordinary bootstrap for this plan."""
+    return plan.values.size > subset_rows and plan.edges is None
+
+
+def work_of(plan: Plan, resamples: int, subset_rows: int) -> tuple[float, float, str]:
+    """The work ``bootstrap`` spends (rows touched), the work per resample, and how it was counted."""
+    if uses_subsets(plan, subset_rows):
+        m = int(math.ceil(plan.draws**SUBSET_EXPONENT))
+        drawn = SUBSETS * int(math.ceil(resamples / SUBSETS))
+        return float(drawn) * m, float(m), f"{drawn} resamples x {m} subset rows"
+    k = plan.values.size
+    return float(resamples) * float(k), float(k), f"{resamples} resamples x {k} support rows"
+
+
+def allowed_resamples(max_work: float, per_resample: float, plan: Plan, subset_rows: int) -> int:
+    """The most resamples within ``max_work``: the bag of little bootstraps draws a whole
+    number per subset (requests are rounded up to a multiple of ``SUBSETS``), so its advice is
+    rounded down to one, and a resent request with that count stays within the budget."""
+    allowed = int(max_work // per_resample)
+    if uses_subsets(plan, subset_rows):
+        allowed -= allowed % SUBSETS
+    return allowed
+
+
+def resampling_work(data: WeightedData, resamples: int, subset_rows: int) -> tuple[float, float]:
+    """(work, work per resample) that ``bootstrap`` would spend on ``data``: the measure its budget
+    ``max_work`` is compared with, so a caller resampling several inputs can budget them together."""
+    plan, _ = plan_of(data, central_sums(data.values, data.weights, 4))
+    work, per_resample, _ = work_of(plan, resamples, subset_rows)
+    return work, per_resample

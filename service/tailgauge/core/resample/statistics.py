@@ -1,0 +1,147 @@
+"""Every descriptor of many rows of weights at once, by the rules ``describe`` uses for one.
+
+Moment descriptors of a whole batch come from one matrix product with the powers of the scaled
+deviations (``Rows.sums``); order statistics from the rules of
+:mod:`tailgauge.core.order_rules`, applied to all rows at once.
+"""
+
+from __future__ import annotations
+
+import math
+
+import numpy as np
+
+from tailgauge.core import deviation_rules, grouped, order_rules, shape
+from tailgauge.core.moments import variance_factor
+from tailgauge.core.order_statistics import NORMAL_MAD_FACTOR
+from tailgauge.core.resample.budget import EVALUATION_PART_BYTES, deadline_check, evaluation_row_bytes
+from tailgauge.core.resample.draws import Plan
+
+
+class Statistics:
+    """Every descriptor of a batch of weight rows, by the same rules as ``describe``."""
+
+    def __init__(
+        self,
+        plan: Plan,
+        families: tuple[str, str],
+        quantile_type: int | None,
+        factor_rule: str,
+        sheppard_width: float | None = None,
+    ):
+        self.plan = plan
+        self.sheppard_width = sheppard_width  # in the scaled units of the plan's deviations
+        self.skewness_family, self.kurtosis_family = families
+        self.quantile_type = quantile_type
+        self.factor_rule = factor_rule  # a tailgauge.core.moments.VarianceRule
+
+    def quantiles(self, view, p: np.ndarray) -> np.ndarray:
+        plan = self.plan
+        if plan.edges is not None:
+            return order_rules.grouped_quantiles(view, plan.edges, p)
+        if plan.integer:
+            return order_rules.hf_quantiles(view, plan.values, p, self.quantile_type)
+        return order_rules.cdf_quantiles(view, plan.values, p, average=self.quantile_type == 2)
+
+    def median(self, view) -> np.ndarray:
+        plan = self.plan
+        if plan.edges is not None:
+            return order_rules.grouped_quantiles(view, plan.edges, np.array([0.5]))[:, 0]
+        # Resampled data are never a probability table: other weights average at an exact half.
+        return order_rules.median(view, plan.values, whole=plan.integer, average=True)
+
+    def mad(self, view, median: np.ndarray) -> np.ndarray:
+        """Median absolute deviation of each row about its own median, by the rule of
+        ``order_statistics.median_absolute_deviation`` (``grouped`` for bins)."""
+        plan = self.plan
+        if plan.edges is not None:
+            return deviation_rules.grouped_median_absolute_deviations(view, plan.edges, median)
+        return deviation_rules.median_absolute_deviations(
+            view, plan.values, median, whole=plan.integer, average=True, part_bytes=EVALUATION_PART_BYTES
+        )
+
+    def part_rows(self, view, probabilities: int) -> int:
+        """How many rows of ``view`` one part of ``evaluate`` takes: parts of at most
+        ``EVALUATION_PART_BYTES`` of working memory (see ``evaluation_row_bytes``)."""
+        row = evaluation_row_bytes(
+            self.plan.values.size, probabilities, bins=self.plan.edges is not None
+        )
+        return max(1, EVALUATION_PART_BYTES // row)
+
+    def evaluate(
+        self, view, probabilities: np.ndarray, names: tuple[str, ...], deadline: float | None = None
+    ) -> dict[str, np.ndarray]:
+        """Every requested statistic for each row of ``view``; ``quantile:i`` for probabilities[i].
+
+        Rows are taken a part at a time (``part_rows``), so the working memory of order
+        statistics (rows x probabilities, and rows x bins for binned data) stays bounded
+        whatever the batch; every statistic is per row, so parts change no value. The wall
+        clock is checked before each part.
+        """
+        rows = view.count
+        per_part = self.part_rows(view, probabilities.size)
+        if rows <= per_part:
+            deadline_check(deadline)
+            return self._evaluate(view, probabilities, names)
+        # Each part's values are copied into arrays of all rows at once: no list of parts is
+        # held beside their concatenation.
+        result: dict[str, np.ndarray] = {}
+        for start in range(0, rows, per_part):
+            deadline_check(deadline)
+            part = self._evaluate(view.rows(slice(start, start + per_part)), probabilities, names)
+            for name, values in part.items():
+                if name not in result:
+                    result[name] = np.empty(rows, dtype=values.dtype)
+                result[name][start : start + values.size] = values
+            del part
+        return result
+
+    def _evaluate(self, view, probabilities: np.ndarray, names: tuple[str, ...]) -> dict[str, np.ndarray]:
+        plan = self.plan
+        sums = view.sums
+        weight = sums[:, 0]
+        delta = sums[:, 1] / weight
+        # Central moments of each row about its own mean, from sums about the full-sample mean.
+        m = {}
+        for k in (2, 3, 4):
+            total = np.zeros_like(weight)
+            for j in range(k + 1):
+                total = total + math.comb(k, j) * sums[:, j] * (-delta) ** (k - j)
+            m[k] = total / weight
+        if self.sheppard_width is not None:
+            m[2], m[4] = grouped.sheppard_corrected(m[2], m[4], self.sheppard_width)
+        exponent = plan.sums.scale_exponent
+        mean = plan.sums.mean + np.ldexp(delta, exponent)
+        out: dict[str, np.ndarray] = {}
+        with np.errstate(invalid="ignore", divide="ignore", over="ignore"):
+            # A jackknife row of a two-point sample has weight 1: its variance is undefined (inf/NaN).
+            inverse_effective = (
+                view.sum_squared_weights() / (weight * weight) if self.factor_rule == "reliability" else None
+            )
+            variance_scaled = m[2] * variance_factor(self.factor_rule, weight, inverse_effective)
+            out["mean"] = mean
+            out["variance"] = np.ldexp(variance_scaled, 2 * exponent)
+            sd = np.ldexp(np.sqrt(variance_scaled), exponent)
+            out["standard_deviation"] = sd
+            out["coefficient_of_variation"] = sd / mean
+            g1 = m[3] / m[2] ** 1.5
+            g2 = m[4] / (m[2] * m[2]) - 3.0
+            # n of the bias corrections: each row's total weight (one fewer observation in a
+            # jackknife row); reliability weights use the plug-in g1/g2, which need only n >= 3 entries.
+            n = np.full_like(weight, float(plan.draws)) if plan.reliability else weight
+            skew = np.where(n >= 3, shape.skewness(g1, n, self.skewness_family).value, np.nan)
+            kurt = np.where(n >= 4, shape.excess_kurtosis(g2, n, self.kurtosis_family).value, np.nan)
+            out["skewness"] = skew
+            out["excess_kurtosis"] = kurt
+            out["kurtosis"] = kurt + 3.0
+        median = self.median(view)
+        out["median"] = median
+        if "median_absolute_deviation" in names or "median_absolute_deviation_normal" in names:
+            mad = self.mad(view, median)
+            out["median_absolute_deviation"] = mad
+            out["median_absolute_deviation_normal"] = mad * NORMAL_MAD_FACTOR
+        quartiles_and_requested = self.quantiles(view, np.concatenate(([0.25, 0.75], probabilities)))
+        out["interquartile_range"] = quartiles_and_requested[:, 1] - quartiles_and_requested[:, 0]
+        for i in range(probabilities.size):
+            out[f"quantile:{i}"] = quartiles_and_requested[:, 2 + i]
+        return out
