@@ -166,13 +166,13 @@ def bench_order_statistics() -> None:
     import statsmodels.stats.stattools as stattools
 
     from tailgauge.core import DescribeOptions, from_array, lmoments, order_statistics, robust
-    from tailgauge.core.describe import ROBUST_PROBABILITIES as _ROBUST_PROBABILITIES
+    from tailgauge.core.describe import ROBUST_PROBABILITIES
 
     rng = np.random.default_rng(20261204)
     print("order statistics: median, quantiles, IQR, MAD, quartile/octile shape, L-moments, medcouple")
     for n in (1_000_000, 10_000_000):
         x = rng.lognormal(0.0, 0.6, n)
-        probabilities = np.concatenate(([0.25, 0.75], _ROBUST_PROBABILITIES, DescribeOptions().probabilities))
+        probabilities = np.concatenate(([0.25, 0.75], ROBUST_PROBABILITIES, DescribeOptions().probabilities))
 
         def without_medcouple():
             # The calls describe() makes for a raw sample's order statistics, in its order.

@@ -19,6 +19,8 @@ import math
 
 import numpy as np
 
+from tailgauge.core.order_rules import middle_ranks, whole_counts
+
 def medcouple(values: np.ndarray, weights: np.ndarray | None, median: float) -> float:
     """The medcouple of sorted ``values`` (support values with ``weights``, or raw with ``None``).
 
@@ -36,7 +38,7 @@ def medcouple(values: np.ndarray, weights: np.ndarray | None, median: float) -> 
     exponent = -math.frexp(largest)[1] if largest > 0.0 else 0
     z = np.ldexp(values, exponent) - math.ldexp(median, exponent)
     w = np.ones_like(z) if weights is None else weights
-    whole = weights is None or (bool(np.all(w == np.floor(w))) and float(np.sum(w)) < 2.0**53)
+    whole = weights is None or whole_counts(w, float(np.sum(w)))
     if not whole:
         # Only ratios of pair weights matter; rescale so products of weights cannot overflow.
         w = w / float(np.max(w))
@@ -132,7 +134,7 @@ def medcouple(values: np.ndarray, weights: np.ndarray | None, median: float) -> 
         return select(low, high, low_bounds, high_bounds, rank - at_most(low, low_bounds))
 
     if whole:
-        lower_rank, upper_rank = math.floor((total + 1.0) / 2.0), math.ceil((total + 1.0) / 2.0)
+        lower_rank, upper_rank = (int(rank) for rank in middle_ranks(total))
         first, last = kth(lower_rank, upper_rank)
         return first if upper_rank == lower_rank else 0.5 * first + 0.5 * last
     return kth(0.5 * total, 0.5 * total)[0]  # the smallest kernel value with at least half the pair weight at or below it

@@ -22,6 +22,7 @@ from functools import cached_property
 import numpy as np
 
 from tailgauge.core.errors import Location, UncomputableInput
+from tailgauge.core.order_rules import whole_counts
 
 
 class WeightMeaning(enum.Enum):
@@ -92,7 +93,7 @@ class WeightedData:
             return True
         if self.meaning not in (WeightMeaning.FREQUENCY, WeightMeaning.UNIT):
             return False
-        return bool(np.all(self.weights == np.floor(self.weights))) and self.total_weight < 2.0**53
+        return whole_counts(self.weights, self.total_weight)
 
     @cached_property
     def effective_size(self) -> float:

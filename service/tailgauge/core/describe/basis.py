@@ -13,6 +13,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from tailgauge.core import order_statistics
+from tailgauge.core.moments import VarianceRule, variance_factor
 from tailgauge.core.describe.options import DescribeOptions
 from tailgauge.core.weighted import WeightedData, WeightMeaning
 
@@ -25,6 +26,7 @@ class Basis:
     reliability: bool
     sample_size: float | None  # n in bias corrections and normal-theory standard errors
     variance_factor: float  # sample variance = plug-in variance * variance_factor
+    variance_rule: VarianceRule  # which divisor: the rule of tailgauge.core.moments.variance_factor
     variance_label: str
     divisor_label: str
     bias_correctable: bool
@@ -77,15 +79,14 @@ def basis_of(
     reliability = meaning is WeightMeaning.RELIABILITY
     population = probability or options.convention == "population"
 
+    rule: VarianceRule = "population" if population else "reliability" if reliability else "sample"
     if population:
-        factor, divisor = 1.0, "total weight (population)"
+        divisor = "total weight (population)"
         variance_label = "population (divisor n)" if not probability else "population (exact)"
     elif reliability:
-        factor = 1.0 / (1.0 - 1.0 / effective) if effective > 1.0 else math.inf
         divisor = "V1 - V2 / V1 (reliability weights)"
         variance_label = "sample, reliability weights (divisor V1 - V2/V1)"
     else:
-        factor = total / (total - 1.0) if total > 1.0 else math.inf
         divisor = "n - 1"
         variance_label = "sample (divisor n - 1)"
 
@@ -96,6 +97,9 @@ def basis_of(
         single = entries <= 1 or effective <= 1.0
     else:
         single = total <= 1.0
+    # No sample variance without a positive divisor: the factor is then infinite (never read).
+    positive = total > 1.0 if rule == "sample" else effective > 1.0 if rule == "reliability" else True
+    factor = variance_factor(rule, total, 1.0 / effective if reliability else None) if positive else math.inf
 
     if binned:
         quantile_type = None
@@ -130,6 +134,7 @@ def basis_of(
         reliability=reliability,
         sample_size=None if probability else (effective if reliability else total),
         variance_factor=factor,
+        variance_rule=rule,
         variance_label=variance_label,
         divisor_label=divisor,
         bias_correctable=bias_correctable,

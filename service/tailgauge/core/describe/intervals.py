@@ -47,7 +47,6 @@ def intervals(
     families = (
         (basis.skewness_family, basis.kurtosis_family) if basis.bias_correctable else ("g1", "g2")
     )
-    factor_rule = "population" if basis.population else "reliability" if basis.reliability else "sample"
     outcome = resample.bootstrap(
         data,
         plan_sums,
@@ -56,7 +55,7 @@ def intervals(
         probabilities,
         families=families,
         quantile_type=basis.quantile_type,
-        factor_rule=factor_rule,
+        factor_rule=basis.variance_rule,
         options=interval,
         max_work=options.max_resample_work,
         deadline=options.deadline,

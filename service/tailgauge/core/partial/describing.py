@@ -24,6 +24,7 @@ from tailgauge.core.describe.assembly import PLUG_IN_CENTRAL_MOMENTS
 from tailgauge.core.describe.warnings import Warnings, note_degenerate
 from tailgauge.core.describe.order_based import ROBUST_PROBABILITIES
 from tailgauge.core.moments import CentralSums
+from tailgauge.core.order_rules import whole_counts
 from tailgauge.core.partial.state import PartialState
 from tailgauge.core.partial.validation import check_state_request
 from tailgauge.core.registry import FROM_QUANTILES, NEEDS_VALUES, SCALAR_DESCRIPTORS, WarningCode
@@ -94,7 +95,7 @@ def describe_state(
     """
     check_state_request(state, options, quantiles_from)
     count = state.count
-    integer = count == math.floor(count) and count < 2.0**53
+    integer = whole_counts(np.array([count]), count)
     basis = basis_of(
         WeightMeaning.FREQUENCY,
         total=count,
