@@ -1,6 +1,6 @@
 """The numeric core: pure numpy/scipy functions on the one weighted form; no HTTP here."""
 
-from tailgauge.core.compare import Comparison, Scores, compare, standardize
+from tailgauge.core.compare import Comparison, compare
 from tailgauge.core.cost import Estimate
 from tailgauge.core.describe import DEFAULT_PROBABILITIES, Description, DescribeOptions, admit, describe
 from tailgauge.core.errors import DescriptorError, LimitExceeded, Location, UncomputableInput
@@ -15,6 +15,7 @@ from tailgauge.core.partial import (
     state_of,
 )
 from tailgauge.core.resample import IntervalOptions
+from tailgauge.core.scoring import Scores, standardize
 from tailgauge.core.sketches import (
     KllSketchContents,
     SketchUnion,

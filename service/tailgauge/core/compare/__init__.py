@@ -20,8 +20,8 @@ Modules (each imports only those above it; none imports this package's ``__init_
     two_sample    Kolmogorov-Smirnov and chi-square tests of equal distributions
     assembly      compare(): describe both, contrast, gather the warnings
 
-Scores of values against one description (:func:`standardize`) compare nothing; they live in
-:mod:`tailgauge.core.scoring` and are re-exported here only so existing imports keep working.
+Scores of values against one description (:func:`~tailgauge.core.scoring.standardize`) compare
+nothing; they live in :mod:`tailgauge.core.scoring`.
 
 References
 ----------
@@ -40,7 +40,6 @@ from tailgauge.core.compare.effect_size import StandardizedMeanDifference, hedge
 from tailgauge.core.compare.warnings import ComparisonWarning
 from tailgauge.core.compare.two_sample import KS_EXACT_LIMIT, SMALL_EXPECTED_COUNT, DistributionTest
 from tailgauge.core.compare.vocabulary import COMPARISON_WARNINGS, SCALE_DESCRIPTORS
-from tailgauge.core.scoring import Score, Scores, standardize
 
 __all__ = [
     "COMPARISON_WARNINGS",
@@ -52,13 +51,10 @@ __all__ = [
     "Difference",
     "DistributionTest",
     "QuantileShift",
-    "Score",
-    "Scores",
     "StandardizedMeanDifference",
     "StandardizedPair",
     "StandardizedQuantile",
     "compare",
     "hedges_correction",
     "side_seeds",
-    "standardize",
 ]
