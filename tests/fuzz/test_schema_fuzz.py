@@ -21,8 +21,8 @@ exact signature that identifies each (the service function where a numpy Runtime
 escaped, or the answer member that carried a NaN or infinity), while they are open: a case
 showing such a signature is rejected (not counted) and tallied; anything else fails. Open bugs
 are pinned below by strict xfails; when one passes, remove its entry in hooks and keep its case
-as a regression test. Bugs 1-10 are fixed (d160901, cfd3554) and are regression tests; bug 11
-is open.
+as a regression test. Every bug pinned here so far is fixed and kept below as a regression test
+(test_fixed_bug_*); none is open.
 """
 
 from __future__ import annotations
