@@ -39,4 +39,4 @@ EXPOSE 8000
 STOPSIGNAL SIGTERM
 HEALTHCHECK --interval=30s --timeout=5s --start-period=30s --retries=3 \
     CMD ["python", "-c", "import urllib.request; urllib.request.urlopen('http://127.0.0.1:8000/health/ready', timeout=4)"]
-CMD ["gunicorn", "--config", "deploy/gunicorn.conf.py", "tailgauge.runtime.asgi:app"]
+CMD ["gunicorn", "--config", "deploy/gunicorn.conf.py", "tailgauge.asgi:app"]

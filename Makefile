@@ -14,7 +14,7 @@ $(STAMP): pyproject.toml requirements.lock
 	touch $(STAMP)
 
 serve: $(STAMP)
-	$(VENV)/bin/gunicorn --config deploy/gunicorn.conf.py tailgauge.runtime.asgi:app
+	$(VENV)/bin/gunicorn --config deploy/gunicorn.conf.py tailgauge.asgi:app
 
 test: $(STAMP)
 	$(PY) -m pytest

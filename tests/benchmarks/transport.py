@@ -66,7 +66,7 @@ def main(n: int = 1_000_000, repeats: int = 5) -> None:
     env = {k: v for k, v in os.environ.items() if not k.startswith("TAILGAUGE_")}
     env.update(BIND=f"127.0.0.1:{port}", WEB_CONCURRENCY="1", TAILGAUGE_REQUEST_LOG="false")
     server = subprocess.Popen(
-        [sys.executable, "-m", "gunicorn", "--config", "deploy/gunicorn.conf.py", "tailgauge.runtime.asgi:app"],
+        [sys.executable, "-m", "gunicorn", "--config", "deploy/gunicorn.conf.py", "tailgauge.asgi:app"],
         cwd=ROOT, env=env, stdout=subprocess.DEVNULL, stderr=subprocess.DEVNULL,
     )
     base = f"http://127.0.0.1:{port}"

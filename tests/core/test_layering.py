@@ -129,3 +129,43 @@ def test_core_modules_import_without_circles():
 def test_the_circle_check_finds_a_circle():
     assert _circle({"a": {"b"}, "b": {"c"}, "c": {"a"}}) == ["a", "b", "c", "a"]
     assert _circle({"a": {"b"}, "b": {"c"}, "c": set()}) is None
+
+
+# The floors of the house, top to bottom: what each part of the package may import of the others.
+# The entry point (tailgauge.asgi) builds the app; the api uses the core, the settings and the
+# runtime helpers (logs, metrics files, draining); nothing below imports anything above it.
+FLOORS = {
+    "asgi": {"api", "settings"},
+    "api": {"core", "settings", "runtime"},
+    "recipes": {"core"},
+    "runtime": set(),
+    "settings": set(),
+    "core": set(),
+}
+
+
+def _part(module: str) -> str | None:
+    parts = module.split(".")
+    return parts[1] if parts[0] == "tailgauge" and len(parts) > 1 else None
+
+
+def test_no_import_runs_back_up_the_floors():
+    package = CORE.parent
+    offenders = []
+    for path in sorted(package.rglob("*.py")):
+        relative = path.relative_to(package)
+        own = relative.parts[0].removesuffix(".py")
+        if own == "__init__":
+            continue
+        assert own in FLOORS, f"{relative}: a new part of the package needs its floor in FLOORS"
+        for node in ast.walk(ast.parse(path.read_text())):
+            modules = []
+            if isinstance(node, ast.ImportFrom) and node.level == 0 and node.module:
+                modules = [node.module] + [f"{node.module}.{alias.name}" for alias in node.names]
+            elif isinstance(node, ast.Import):
+                modules = [alias.name for alias in node.names]
+            for module in modules:
+                part = _part(module)
+                if part is not None and part != own and part in FLOORS and part not in FLOORS[own]:
+                    offenders.append(f"{relative} imports {module}")
+    assert offenders == []

@@ -46,7 +46,7 @@ def test_environment_overrides_bind_and_worker_count(monkeypatch):
 
 
 def test_the_app_module_builds_the_app():
-    from tailgauge.runtime import asgi
+    from tailgauge import asgi
 
     assert asgi.app is not None
 
@@ -73,7 +73,7 @@ def test_gunicorn_refuses_to_start_with_no_workers(tmp_path):
     for value in ("0", "-1", "none"):
         environ = {**os.environ, "WEB_CONCURRENCY": value, "BIND": f"127.0.0.1:{free_port()}",
                    "PROMETHEUS_MULTIPROC_DIR": str(tmp_path), "HOME": str(tmp_path)}
-        result = subprocess.run([sys.executable, "-m", "gunicorn", "--config", str(CONFIG), "tailgauge.runtime.asgi:app"],
+        result = subprocess.run([sys.executable, "-m", "gunicorn", "--config", str(CONFIG), "tailgauge.asgi:app"],
                                 cwd=CONFIG.parents[1], env=environ, capture_output=True, text=True, timeout=60)
         assert result.returncode != 0, value
         assert "Booting worker" not in result.stderr

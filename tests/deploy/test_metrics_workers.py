@@ -49,7 +49,7 @@ def server(tmp_path):
     }
     log = open(tmp_path / "gunicorn.log", "wb")
     process = subprocess.Popen(
-        [sys.executable, "-m", "gunicorn", "--config", "deploy/gunicorn.conf.py", "tailgauge.runtime.asgi:app"],
+        [sys.executable, "-m", "gunicorn", "--config", "deploy/gunicorn.conf.py", "tailgauge.asgi:app"],
         cwd=ROOT,
         env=env,
         stdout=log,

@@ -45,7 +45,7 @@ def _die_with_parent() -> None:
 def _gunicorn_command() -> list[str]:
     script = Path(sys.executable).with_name("gunicorn")
     launcher = [str(script)] if script.exists() else [sys.executable, "-m", "gunicorn"]
-    return [*launcher, "--config", str(CONFIG), "tailgauge.runtime.asgi:app"]
+    return [*launcher, "--config", str(CONFIG), "tailgauge.asgi:app"]
 
 
 def children_of(pid: int) -> set[int]:

@@ -1,1 +1,1 @@
-"""Process concerns: the ASGI entry point, the gunicorn worker, draining, JSON logs and metrics files."""
+"""Process concerns below the HTTP layer: the gunicorn worker, draining, JSON logs and metrics files."""
