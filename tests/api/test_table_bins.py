@@ -492,3 +492,20 @@ def test_no_asymmetry_warning_for_a_symmetric_table(api):
     body = {"outcomes": outcomes(values, [1000 * 8 * p for p in probabilities]), "weight_kind": "counts"}
     counts = ok(api, TABLE, body)
     assert "asymmetry_despite_small_skewness" not in codes(counts)
+
+
+def test_fractional_bin_counts_with_intervals_are_an_input_problem_not_a_budget_rejection(api):
+    """Resampling bins needs whole counts: that is a rule of the input (422 uncomputable-input at
+    $.counts, checked before anything is computed), not a limit of the server, so the budget
+    rejection counter does not move."""
+    from prometheus_client import REGISTRY
+
+    before = REGISTRY.get_sample_value("tailgauge_budget_rejections_total")
+    assert before is not None
+    body = {"edges": [0, 1, 2, 3], "counts": [1.5, 2.0, 1.0], "options": {"interval": {"resamples": 200}}}
+    status, media, problem = post(api, BINS, body)
+    assert status == 422 and media.startswith(PROBLEM), problem
+    assert problem["type"] == "urn:tailgauge:problem:uncomputable-input", problem
+    assert [e["path"] for e in problem["errors"]] == ["$.counts"], problem
+    assert "whole" in problem["detail"], problem
+    assert REGISTRY.get_sample_value("tailgauge_budget_rejections_total") == before
