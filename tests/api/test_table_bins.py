@@ -224,7 +224,7 @@ BAD_INPUTS = [
         },
         400,
         "$.outcomes[3].weight",
-        ">= 0",
+        "at least 0",
         id="negative-weight",
     ),
     pytest.param(

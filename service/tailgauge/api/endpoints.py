@@ -72,7 +72,7 @@ def _decode(body: bytes, kind: type[Request], codec: Codec) -> Request:
     try:
         return codec.decode(body, kind)
     except msgspec.MsgspecError as error:
-        raise invalid_body(error, body, codec) from None
+        raise invalid_body(error, body, codec, kind) from None
 
 
 def _float64s(raw: list | bytes, path: str, *, missing: bool) -> np.ndarray | list:

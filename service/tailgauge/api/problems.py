@@ -18,7 +18,7 @@ import msgspec
 from litestar import Request, Response
 from litestar.exceptions import HTTPException
 
-from tailgauge.api import metrics
+from tailgauge.api import metrics, wording
 from tailgauge.api.media import JSON_CODEC, PROBLEM_JSON, Codec, problem_codec
 from tailgauge.api.schemas import Problem, ProblemLocation
 from tailgauge.core.errors import DescriptorError, LimitExceeded
@@ -47,8 +47,6 @@ for _slug, (_status, _) in PROBLEM_TYPES.items():
     _SLUG_BY_STATUS.setdefault(_status, _slug)
 _LOCATION = re.compile(r"^(?P<message>.*?) - at `(?P<path>\$[^`]*)`$", re.DOTALL)
 _NAMED_FIELD = re.compile(r"^Object (?:contains unknown|missing required) field `(?P<field>[^`]*)`")
-# The bounds of schemas.Finite, as msgspec words a NaN or an infinity that breaks them.
-_FINITE_BOUND = re.compile(r"^Expected `float` [<>]= -?1\.7976931348623157e\+308$")
 _BYTE = re.compile(r"\(byte (?P<offset>\d+)\)")
 
 logger = logging.getLogger("tailgauge.api")
@@ -149,35 +147,40 @@ def json_path_at(body: bytes, offset: int) -> str:
     return path
 
 
-def locate_msgspec_error(error: msgspec.MsgspecError, body: bytes = b"") -> ProblemLocation:
-    """Split msgspec's ``"<message> - at `$.path`"`` into a path and a message.
+def locate_msgspec_error(
+    error: msgspec.MsgspecError, body: bytes = b"", kind: type | None = None, codec: Codec = JSON_CODEC
+) -> ProblemLocation:
+    """Split msgspec's ``"<message> - at `$.path`"`` into a path and a message in plain words.
 
     An unknown or missing field is reported at the field's own path, so the caller sees which
-    name was misspelled or left out; a syntax error at the path of the value being read.
+    name was misspelled or left out; a syntax error at the path of the value being read (JSON
+    only: MessagePack errors name their path already). ``kind``, the type the body was decoded
+    as, tells the message what is allowed at the path (see :mod:`tailgauge.api.wording`).
     """
     text = str(error)
     match = _LOCATION.match(text)
     message, path = (match["message"], match["path"]) if match else (text, "$")
-    if _FINITE_BOUND.match(message):
-        message = "must be a finite number (NaN and Infinity are not accepted; null marks a missing value)"
     named = _NAMED_FIELD.match(message)
     if named:
         path = f"{path}.{named['field']}"
-    elif not match and isinstance(error, msgspec.DecodeError):
+    elif not match and isinstance(error, msgspec.DecodeError) and codec is JSON_CODEC:
         byte = _BYTE.search(message)
         if byte:
             path = json_path_at(body, int(byte["offset"]))
-    return ProblemLocation(path=path, message=message)
+    return ProblemLocation(path=path, message=wording.plain(message, path, kind, body, codec.name))
 
 
-def invalid_body(error: msgspec.MsgspecError, body: bytes = b"", codec: Codec = JSON_CODEC) -> ApiProblem:
-    # Byte offsets are turned into paths for JSON only; MessagePack errors name their path already.
-    location = locate_msgspec_error(error, body if codec is JSON_CODEC else b"")
+def invalid_body(
+    error: msgspec.MsgspecError, body: bytes = b"", codec: Codec = JSON_CODEC, kind: type | None = None
+) -> ApiProblem:
+    """The 400 of a body msgspec refused, decoded as ``kind`` (when known, the message says what is allowed)."""
+    location = locate_msgspec_error(error, body, kind, codec)
     if isinstance(error, msgspec.ValidationError):
-        kind = "does not match the schema"
+        kind_of = "does not match the schema"
     else:
-        kind = f"is not valid {codec.name}"
-    return ApiProblem("invalid-body", f"The request body {kind}: {location.message}", [location])
+        kind_of = f"is not valid {codec.name}"
+    where = f" at {location.path}" if location.path != "$" else ""
+    return ApiProblem("invalid-body", f"The request body {kind_of}{where}: {location.message}", [location])
 
 
 def problem_response(
