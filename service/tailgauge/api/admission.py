@@ -88,7 +88,8 @@ def decoding_bytes(body: bytes, codec: Codec, settings: Settings) -> float:
     if largest > limit:
         raise ApiProblem(
             "body-too-large",
-            f"the body holds {largest} entries in {path}; this server accepts at most {settings.max_values} values",
+            f"the body holds {largest} entries{'' if path == '$' else ' in ' + path}; this server accepts at most "
+            f"{settings.max_values} values",
             [ProblemLocation(path=path, message=f"at most {settings.max_values} entries")],
         )
     total = estimate + len(body)

@@ -87,31 +87,40 @@ def _float64s(raw: list | bytes, path: str, *, missing: bool) -> np.ndarray | li
         raise ApiProblem(
             "invalid-body",
             f"{path} holds {len(raw)} bytes, not a whole number of 8-byte float64 values",
-            [ProblemLocation(path=path, message="length must be a multiple of 8 bytes")],
+            [ProblemLocation(path=path, message="must be a whole number of 8-byte float64 values (a multiple of 8 bytes)")],
         )
     array = np.frombuffer(raw, dtype="<f8").astype(np.float64, copy=False)
     if missing:
         bad = np.flatnonzero(np.isinf(array))
-        why = "infinite; only finite numbers (or NaN for a missing value) are accepted"
+        why = "is infinite; send finite numbers (in float64 bytes, NaN marks a missing value)"
     else:
         bad = np.flatnonzero(~(np.isfinite(array) & (array >= 0.0)))
-        why = "must be a finite number >= 0"
+        why = "must be a finite number, at least 0"
     if bad.size:
         first = int(bad[0])
         raise ApiProblem(
             "invalid-body",
             f"{bad.size} of the {array.size} float64 values in {path} are not accepted; the first is "
-            f"{path}[{first}] = {float(array[first])!r}",
+            f"{path}[{first}] = {_shown(float(array[first]))}",
             [ProblemLocation(path=f"{path}[{int(i)}]", message=why) for i in bad[:10]],
         )
     return array
 
 
-def _check_count(count: int, path: str, settings: Settings) -> None:
+def _shown(value: float) -> str:
+    """A float64 as a caller would write it: NaN and Infinity by their IEEE names."""
+    if np.isnan(value):
+        return "NaN"
+    if np.isinf(value):
+        return "Infinity" if value > 0 else "-Infinity"
+    return repr(value)
+
+
+def _check_count(count: int, path: str, settings: Settings, what: str | None = None) -> None:
     if count > settings.max_values:
         raise ApiProblem(
             "body-too-large",
-            f"{count} entries sent in {path}; this server accepts at most {settings.max_values}",
+            f"{count} entries sent in {what or path}; this server accepts at most {settings.max_values}",
             [ProblemLocation(path=path, message=f"at most {settings.max_values} entries")],
         )
 
@@ -139,7 +148,9 @@ def describe_options(options: CoreChoices, settings: Settings, decoding: float =
     if len(options.probabilities) > settings.max_probabilities:
         raise LimitExceeded(
             detail=f"at most {settings.max_probabilities} probabilities per request on this server",
-            locations=[Location("options.probabilities", "too many probabilities; send fewer")],
+            locations=[
+                Location("options.probabilities", f"at most {settings.max_probabilities} on this server; send fewer")
+            ],
         )
     interval = None
     requested = options.interval
@@ -320,7 +331,7 @@ def _compare(body: bytes, codec: Codec, answer: Codec, settings: Settings, ticke
     request = _decode(body, ComparisonRequest, codec)
     first, first_count, first_kind = _input_data(request.first, settings, "$.first")
     second, second_count, second_kind = _input_data(request.second, settings, "$.second")
-    _check_count(first_count + second_count, "$.second", settings)
+    _check_count(first_count + second_count, "$.second", settings, "$.first and $.second together")
     options = describe_options(request.options, settings, ticket.amount)
     options = _admitted([first, second], options, ticket)
     comparison = compare(first, second, options, kinds=(first_kind, second_kind))
