@@ -228,7 +228,7 @@ _WORDS = {
     "uuid": "a UUID",
     "decimal": "a decimal number",
 }
-_GOT = {**_WORDS, "bool": "a boolean", "bytes": "binary data", "float": "a number with a fractional part"}
+_GOT = {**_WORDS, "bool": "a boolean", "bytes": "binary data"}
 _ORDER = ("choice", "object", "array", "number", "integer", "string", "boolean", "bytes", "unknown", "null")
 
 
@@ -398,7 +398,10 @@ def _expected_got(match: re.Match, context: _Context) -> str:
     if got is not None:
         message += f"; got {_got(got)}"
         if got == "float" and all(a.kind == "integer" for a in found if a.kind != "null") and found:
-            message = f"expected {wanted}, written without a decimal point; got a number with a decimal point"
+            if context.codec_name == "JSON":
+                message = f"expected {wanted}, written without a decimal point; got a number with a decimal point"
+            else:
+                message = f"expected {wanted} (a MessagePack integer); got a floating-point number"
     return message
 
 
