@@ -3,7 +3,9 @@
 Each case's file is sent byte for byte with the case's Content-Type and Accept headers to an app
 with the corpus's limits (tests/corpus/cases.json, written by tests/corpus/make_corpus.py). The
 answer must be an RFC 9457 problem of the expected status and type, in the media type the Accept
-header asks for, whose errors name every expected path. After the whole corpus the same app, and
+header asks for, whose errors name every expected path, whose texts hold the case's ``says`` and
+no library or internal names (msgspec's backtick type syntax, Python type names, our
+underscore-prefixed identifiers). After the whole corpus the same app, and
 in one test a real gunicorn server, still answer /health/live and a valid request.
 """
 
@@ -12,6 +14,7 @@ from __future__ import annotations
 import collections
 import http.client
 import json
+import re
 from pathlib import Path
 
 import msgspec
@@ -30,6 +33,10 @@ PROBLEM = "urn:tailgauge:problem:"
 MSGPACK_ANSWERS = ("application/msgpack", "application/x-msgpack")
 # Categories of the issue that every compute endpoint has cases of, in JSON and in MessagePack.
 EVERY_ENDPOINT = ("malformed-msgpack", "wrong-types", "over-limits", "unknown-fields", "wrong-media-types")
+# Texts that belong to the implementation, never to a problem a caller reads.
+JARGON = ("`", "Expected `", "msgspec", "Struct", "NoneType", "float |", "int |", "| None", "typing.", "<class",
+          "Traceback", "tailgauge.")
+PRIVATE_NAME = re.compile(r"(?<![\w$.\[])_[A-Za-z]\w*")
 VALID_BODY = {"values": [502.1, 498.7, 505.3, 499.9, 501.4, 497.2, 503.8]}  # a fictional bakery's loaves
 
 
@@ -86,6 +93,14 @@ def problems_with(case: dict, status: int, content_type: str, content: bytes) ->
     missing = [path for path in case["paths"] if path not in paths]
     if missing:
         wrong.append(f"paths {missing} not named; named {paths} ({problem.get('detail')})")
+    texts = [str(problem.get("detail", "")), *(str(error.get("message", "")) for error in errors)]
+    for text in texts:
+        found = [word for word in JARGON if word in text] + PRIVATE_NAME.findall(text)
+        if found:
+            wrong.append(f"{found} in {text!r}")
+    for fragment in case.get("says", []):
+        if not any(fragment in text for text in texts):
+            wrong.append(f"{fragment!r} said nowhere in {texts}")
     return wrong
 
 
