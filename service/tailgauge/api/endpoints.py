@@ -87,7 +87,7 @@ def _float64s(raw: list | bytes, path: str, *, missing: bool) -> np.ndarray | li
         raise ApiProblem(
             "invalid-body",
             f"{path} holds {len(raw)} bytes, not a whole number of 8-byte float64 values",
-            [ProblemLocation(path=path, message="must be a whole number of 8-byte float64 values (a multiple of 8 bytes)")],
+            [ProblemLocation(path=path, message="must be whole 8-byte float64 values (a multiple of 8 bytes)")],
         )
     array = np.frombuffer(raw, dtype="<f8").astype(np.float64, copy=False)
     if missing:

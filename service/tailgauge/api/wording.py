@@ -393,13 +393,15 @@ def _expected_got(match: re.Match, context: _Context) -> str:
     else:
         wanted = _type_words(match["spec"], context.codec_name)
     message = f"expected {wanted}"
-    if context.path == "$" and context.codec_name != "JSON" and (context.body or b"").lstrip()[:1] in (b"{", b"["):
+    looks_like_json = (context.body or b"").lstrip()[:1] in (b"{", b"[")
+    if context.path == "$" and context.codec_name != "JSON" and looks_like_json:
         return message + "; the body looks like JSON (if it is, say so in Content-Type)"
     if got is not None:
         message += f"; got {_got(got)}"
         if got == "float" and all(a.kind == "integer" for a in found if a.kind != "null") and found:
             if context.codec_name == "JSON":
-                message = f"expected {wanted}, written without a decimal point; got a number with a decimal point"
+                message = (f"expected {wanted}, written without a decimal point; "
+                           "got a number with a decimal point")
             else:
                 message = f"expected {wanted} (a MessagePack integer); got a floating-point number"
     return message
@@ -409,8 +411,11 @@ def _base64(match: re.Match, context: _Context) -> str:
     found = context.at()
     if any(a.float64_bytes for a in found):
         other = [a for a in found if a.kind == "array"]
-        usual = f"; the usual form is {phrase(other[0], context.codec_name)}, e.g. [1.5, 2, 3]" if other else ""
-        return ("a string here must be base64 of little-endian float64 bytes (8 bytes per value), and this one "
+        usual = ""
+        if other:
+            usual = f"; the usual form is {phrase(other[0], context.codec_name)}, e.g. [1.5, 2, 3]"
+        return ("a string here must be base64 of little-endian float64 bytes (8 bytes per value), and this "
+                "one "
                 "is not valid base64" + usual)
     return "a string here must be valid base64 (standard alphabet, padded with =), and this one is not"
 
@@ -433,7 +438,8 @@ def _number_bound(match: re.Match, context: _Context) -> str:
 
 
 def _length_bound(match: re.Match, context: _Context) -> str:
-    unit = {"array": "entry", "bytes": "byte", "str": "character", "object": "field"}.get(match["type"], "entry")
+    units = {"array": "entry", "bytes": "byte", "str": "character", "object": "field"}
+    unit = units.get(match["type"], "entry")
     found = [a for a in context.at() if a.kind == {"array": "array", "bytes": "bytes", "str": "string",
                                                      "object": "object"}.get(match["type"])]
     bounds = found[0].bounds if found else {}
@@ -528,7 +534,8 @@ _TABLE: list[tuple[re.Pattern, Any]] = [
     (re.compile(r"^Expected `(?P<type>\w+)` of length (?P<operator>[<>]=) (?P<count>\d+)$"), _length_bound),
     (re.compile(r"^Object contains unknown field `(?P<field>[^`]*)`$", re.DOTALL), _unknown_field),
     (re.compile(r"^Object missing required field `(?P<field>[^`]*)`$", re.DOTALL), _missing_field),
-    (re.compile(r"^(?:JSON|MessagePack) (?:data )?is malformed: (?P<reason>.*) \(byte (?P<byte>\d+)\)$"), _malformed),
+    (re.compile(r"^(?:JSON|MessagePack) (?:data )?is malformed: (?P<reason>.*) \(byte (?P<byte>\d+)\)$"),
+     _malformed),
     (re.compile(r"^Input data was truncated$"), _truncated),
     (re.compile(r"^(?:Number|Integer value) out of range$"), _number_range),
     (re.compile(r"^Invalid UTF-8 encoded string$"), lambda m, c: "a string is not valid UTF-8"),
