@@ -33,7 +33,9 @@ LOAD_SECONDS ?= 30
 load: $(STAMP)
 	$(PY) -m tests.system.load --seconds $(LOAD_SECONDS) --concurrency 8 --output test-artifacts/load.json
 
+# The response examples are the app's answers, recorded in process first; then the document that shows them.
 openapi: $(STAMP)
+	$(PY) -c 'from tailgauge.api import examples; examples.write()'
 	$(PY) -c 'import sys; from tailgauge.api.openapi import document_bytes; sys.stdout.buffer.write(document_bytes())' > openapi/openapi.json
 
 clean:

@@ -217,3 +217,167 @@ def test_every_compute_operation_has_an_example_that_the_server_accepts(client, 
         assert example == examples[path]
         response = client.post(path, content=json.dumps(example), headers={"content-type": "application/json"})
         assert response.status_code == 200, (path, response.text)
+
+
+# ---- What generated clients and the schema page rely on ----
+
+
+def test_committed_examples_are_the_apps_answers_today():
+    """The response examples are recorded from the app; a change of any answer needs `make openapi`."""
+    from tailgauge.api import examples
+
+    recorded = examples.record()
+    if not examples.EXAMPLES_FILE.is_file() or examples.EXAMPLES_FILE.read_bytes() != examples.examples_bytes(recorded):
+        pytest.fail(f"{examples.EXAMPLES_FILE.name} is stale; {REGENERATE}")
+
+
+def test_every_json_answer_and_problem_has_the_apps_example(client, document):
+    for op in OPERATIONS:
+        responses = document["paths"][op.path][op.method]["responses"]
+        for status, response in responses.items():
+            content = response["content"]
+            if PROBLEM in content:
+                example = content[PROBLEM]["example"]
+                assert example["status"] == int(status), (op.path, status)
+                assert example["type"].startswith("urn:tailgauge:problem:") and example["errors"], (op.path, status)
+            elif "application/json" in content:
+                assert "example" in content["application/json"], (op.path, status)
+        if op.example is not None:
+            answer = client.post(op.path, json=op.example)
+            assert responses["200"]["content"]["application/json"]["example"] == answer.json(), op.path
+        elif op.response is not None:
+            assert responses["200"]["content"]["application/json"]["example"] == client.get(op.path).json()
+
+
+def test_problem_examples_are_answered_by_the_app(client, document):
+    for op in OPERATIONS:
+        for status, body in op.problem_examples.items():
+            answer = client.post(op.path, json=body)
+            assert answer.status_code == status, (op.path, answer.text)
+            shown = document["paths"][op.path][op.method]["responses"][str(status)]["content"][PROBLEM]["example"]
+            assert shown == answer.json()
+
+
+def _objects_reached(document: dict, roots: list[dict]) -> set[str]:
+    schemas = document["components"]["schemas"]
+    seen: set[str] = set()
+    pending = list(roots)
+    while pending:
+        for _, ref in _walk(pending.pop()):
+            name = ref.rsplit("/", 1)[-1]
+            if ref.startswith("#/components/schemas/") and name not in seen:
+                seen.add(name)
+                pending.append(schemas[name])
+    return {name for name in seen if schemas[name].get("type") == "object"}
+
+
+def test_requests_are_strict_and_answers_open_with_every_member_required(document):
+    schemas = document["components"]["schemas"]
+    requests, answers = [], []
+    for item in document["paths"].values():
+        for operation in item.values():
+            if "requestBody" in operation:
+                requests.extend(c["schema"] for c in operation["requestBody"]["content"].values())
+            for response in operation["responses"].values():
+                answers.extend(c["schema"] for c in response.get("content", {}).values())
+    asked, answered = _objects_reached(document, requests), _objects_reached(document, answers)
+    assert asked and answered and not asked & answered
+    for name in asked:
+        assert schemas[name]["additionalProperties"] is False, name
+        assert not any("default" in p for p in schemas[name]["properties"].values()), name
+    for name in answered:
+        assert "additionalProperties" not in schemas[name], name
+        assert set(schemas[name]["required"]) == set(schemas[name]["properties"]), name
+
+
+def test_enumerations_are_named_components_with_distinct_varnames(document):
+    schemas = document["components"]["schemas"]
+    enums = {name: s for name, s in schemas.items() if "enum" in s}
+    assert {"SkewnessEstimator", "KurtosisEstimator", "Convention", "IntervalMethod", "InputKind"} <= set(enums)
+    for name, schema in enums.items():
+        names = schema["x-enum-varnames"]
+        assert len(names) == len(schema["enum"]) == len({n.upper() for n in names}), name
+    skewness = dict(zip(schemas["SkewnessEstimator"]["enum"], schemas["SkewnessEstimator"]["x-enum-varnames"]))
+    assert skewness == {"g1": "G1_PLUG_IN", "G1": "G1_ADJUSTED", "b1": "B1_SAMPLE_SD"}
+    # No enumeration is left inline, except tags, which are constants.
+    for where, node in _nodes(schemas):
+        if "enum" in node:
+            assert where.count("/") == 1, f"inline enum at {where}"
+
+
+def _nodes(node, where="#"):
+    if isinstance(node, dict):
+        yield where, node
+        for key, value in node.items():
+            yield from _nodes(value, f"{where}/{key}")
+    elif isinstance(node, list):
+        for index, value in enumerate(node):
+            yield from _nodes(value, f"{where}/{index}")
+
+
+@pytest.mark.parametrize("op", [op for op in OPERATIONS if op.request is not None], ids=lambda op: op.path)
+def test_null_options_mean_the_defaults(client, op):
+    body = dict(op.example)
+    body["options"] = None
+    nulled = client.post(op.path, json=body)
+    del body["options"]
+    absent = client.post(op.path, json=body)
+    assert nulled.status_code == absent.status_code == 200, nulled.text
+    assert nulled.json() == absent.json()
+
+
+def test_comparison_inputs_take_null_options(client):
+    body = {
+        "first": {"kind": "samples", "values": [1, 2, 3, 5], "options": None},
+        "second": {"kind": "table", "outcomes": [{"value": 1, "weight": 2}], "weight_kind": "counts", "options": None},
+    }
+    assert client.post("/v1/comparisons", json=body).status_code == 200
+
+
+def test_servers_license_and_tags(document):
+    assert document["servers"] == [{"url": "/", "description": "The server that serves this document."}]
+    assert document["info"]["license"]["name"]
+    tags = {tag["name"]: tag["description"] for tag in document["tags"]}
+    used = {tag for item in document["paths"].values() for op in item.values() for tag in op["tags"]}
+    assert used == set(tags) and all(tags.values())
+
+
+@pytest.mark.parametrize("metrics_token", [False, True])
+def test_security_follows_the_apps_token_rule(make_client, metrics_token):
+    """An operation is under the (optional) bearer scheme exactly when the app asks it for a token."""
+    document = json.loads(openapi.document_bytes(metrics_require_token=metrics_token))
+    assert document["security"] == [{}, {"bearerToken": []}]
+    assert "TAILGAUGE_API_TOKENS" in document["components"]["securitySchemes"]["bearerToken"]["description"]
+    guarded = make_client(api_tokens=("a-token-of-sixteen-chars",), metrics_require_token=metrics_token)
+    for op in OPERATIONS:
+        operation = document["paths"][op.path][op.method]
+        if op.method == "post":
+            answer = guarded.post(op.path, json=op.example)
+        else:
+            answer = guarded.get(op.path)
+        asks = answer.status_code == 401
+        assert ("security" not in operation) == asks, (op.path, answer.status_code)
+        if not asks:
+            assert operation["security"] == []
+        else:
+            assert "401" in operation["responses"]
+    served = guarded.get("/openapi.json")
+    assert served.status_code == 200 and served.json() == document
+
+
+def test_the_served_document_follows_the_metrics_setting(make_client):
+    protected = make_client(metrics_require_token=True).get("/openapi.json").json()
+    assert "security" not in protected["paths"]["/metrics"]["get"]
+    assert make_client().get("/openapi.json").json()["paths"]["/metrics"]["get"]["security"] == []
+
+
+def test_every_operation_declares_its_problems_with_the_problem_schema(document):
+    problem = "#/components/schemas/Problem"
+    for op in OPERATIONS:
+        responses = document["paths"][op.path][op.method]["responses"]
+        declared = {int(s) for s in responses if 400 <= int(s) < 500}
+        assert declared == {s for s in op.problems if s < 500}, op.path
+        for status in op.problems:
+            content = responses[str(status)]["content"]
+            assert set(content) == {PROBLEM, "application/problem+msgpack"}
+            assert all(c["schema"] == {"$ref": problem} for c in content.values())

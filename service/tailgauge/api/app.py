@@ -111,7 +111,7 @@ def create_app(settings: Settings | None = None) -> Litestar:
     settings = settings or Settings()
     if settings.request_log:
         logs.configure()
-    document = openapi.document_bytes()
+    document = openapi.document_bytes(metrics_require_token=settings.metrics_require_token)
 
     @get("/openapi.json", include_in_schema=False, sync_to_thread=False)
     def openapi_document() -> Response[bytes]:

@@ -39,9 +39,16 @@ class Operation:
     other_answers: dict[int, str] = field(default_factory=dict)
     # Whether the operation asks for a bearer token when the server is configured with tokens.
     protected: bool = True
+    # A setting (of tailgauge.settings.Settings) that makes an unprotected operation ask for a
+    # token too when it is true; the served document follows the server's settings.
+    protected_when: str | None = None
     # A valid body (an invented scenario), shown by the schema page's "Try it out"; a test
     # sends each one and expects a 200.
     example: dict | None = None
+    # Bodies the operation answers with a problem, by status (400: a schema violation, 422: a
+    # rule the schema cannot express). The published examples are the app's real answers to
+    # them (tailgauge.api.examples records them; other statuses come from the example itself).
+    problem_examples: dict[int, dict] = field(default_factory=dict)
 
 
 _EXAMPLES = {
@@ -69,6 +76,43 @@ _EXAMPLES = {
 }
 
 
+# A request per compute operation that breaks the schema (400) and one that breaks a rule only
+# the data can (422); the answers to them are the document's problem examples.
+_PROBLEM_EXAMPLES = {
+    "/v1/descriptors/samples": {
+        400: {"values": [251.2, 249.8, 250.4], "options": {"skewness_estimator": "G3"}},
+        422: {"values": [251.2, None, 250.4]},
+    },
+    "/v1/descriptors/table": {
+        400: {"outcomes": [{"value": 0, "weight": 412}, {"value": 1, "weight": -3}], "weight_kind": "counts"},
+        422: {"outcomes": [{"value": 0, "weight": 0.5}, {"value": 1, "weight": 0.25}], "weight_kind": "probabilities"},
+    },
+    "/v1/descriptors/bins": {
+        400: {"edges": [0, 15, 30], "counts": [18, 64], "options": {"sheppard": True}},
+        422: {"edges": [0, 30, 15], "counts": [18, 64]},
+    },
+    "/v1/descriptors/merge": {
+        400: {"states": [{"count": 4, "central_sums": [5.0, 0.0, 10.25], "minimum": 1, "maximum": 4}]},
+        422: {
+            "states": [
+                {"count": 4, "mean": 2.5, "central_sums": [5.0, 0.0, 10.25], "minimum": 1, "maximum": 4},
+                {"count": 2, "mean": 15.0, "central_sums": [50.0, 0.0, 1250.0], "minimum": 20, "maximum": 10},
+            ]
+        },
+    },
+    "/v1/comparisons": {
+        400: {
+            "first": {"kind": "histogram", "values": [34, 41, 38]},
+            "second": {"kind": "samples", "values": [31, 35, 33]},
+        },
+        422: {
+            "first": {"kind": "samples", "values": [34, 41, 38, 45]},
+            "second": {"kind": "samples", "values": [31, None, 33, 40]},
+        },
+    },
+}
+
+
 OPERATIONS = (
     Operation(
         method="post",
@@ -85,6 +129,7 @@ OPERATIONS = (
         response=schemas.DescriptionResponse,
         problems=COMPUTE_PROBLEMS,
         example=_EXAMPLES["/v1/descriptors/samples"],
+        problem_examples=_PROBLEM_EXAMPLES["/v1/descriptors/samples"],
         tag="descriptors",
     ),
     Operation(
@@ -101,6 +146,7 @@ OPERATIONS = (
         response=schemas.DescriptionResponse,
         problems=COMPUTE_PROBLEMS,
         example=_EXAMPLES["/v1/descriptors/table"],
+        problem_examples=_PROBLEM_EXAMPLES["/v1/descriptors/table"],
         tag="descriptors",
     ),
     Operation(
@@ -117,6 +163,7 @@ OPERATIONS = (
         response=schemas.DescriptionResponse,
         problems=COMPUTE_PROBLEMS,
         example=_EXAMPLES["/v1/descriptors/bins"],
+        problem_examples=_PROBLEM_EXAMPLES["/v1/descriptors/bins"],
         tag="descriptors",
     ),
     Operation(
@@ -135,6 +182,7 @@ OPERATIONS = (
         response=schemas.MergedDescriptionResponse,
         problems=COMPUTE_PROBLEMS,
         example=_EXAMPLES["/v1/descriptors/merge"],
+        problem_examples=_PROBLEM_EXAMPLES["/v1/descriptors/merge"],
         tag="descriptors",
     ),
     Operation(
@@ -153,6 +201,7 @@ OPERATIONS = (
         response=schemas.ComparisonResponse,
         problems=COMPUTE_PROBLEMS,
         example=_EXAMPLES["/v1/comparisons"],
+        problem_examples=_PROBLEM_EXAMPLES["/v1/comparisons"],
         tag="comparisons",
     ),
     Operation(
@@ -163,7 +212,7 @@ OPERATIONS = (
         description="The meaning of every name a descriptor response can carry, and every warning code.",
         request=None,
         response=schemas.Catalog,
-        problems=(401, 406),
+        problems=(400, 401, 406),
         tag="catalog",
     ),
     Operation(
@@ -180,8 +229,10 @@ OPERATIONS = (
         request=None,
         response=None,
         answers=(TEXT,),
+        problems=(400, 401),
         tag="operations",
         protected=False,
+        protected_when="metrics_require_token",
     ),
     Operation(
         method="get",

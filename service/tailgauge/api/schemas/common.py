@@ -46,11 +46,21 @@ MaybeNumber = Annotated[
 
 
 class Message(msgspec.Struct, forbid_unknown_fields=True, kw_only=True):
-    """Base of every wire message: unknown fields are errors, never silently ignored."""
+    """Base of every request message: unknown fields are errors, never silently ignored."""
+
+
+class Answer(msgspec.Struct, kw_only=True):
+    """Base of every response message: open to members added later.
+
+    A client reading an answer must ignore a member it does not know (the API-change rules add
+    members, never rename them), so the published response schemas do not forbid them; only
+    requests are strict.
+    """
 
 
 __all__ = [
     "LARGEST",
+    "Answer",
     "MAX_SEED",
     "SCHEMA_MAX_MOMENT_ORDER",
     "SCHEMA_MAX_PROBABILITIES",

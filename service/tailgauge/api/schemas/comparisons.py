@@ -2,16 +2,17 @@
 
 from __future__ import annotations
 
-from typing import Annotated, Literal
+from enum import StrEnum
+from typing import Annotated
 
 from msgspec import Meta
 
 from tailgauge.core import registry
-from tailgauge.api.schemas.common import MaybeNumber, Message
+from tailgauge.api.schemas.common import Answer, MaybeNumber
 from tailgauge.api.schemas.results import ClassicalInterval, DescriptionResponse, Interval, Resampling, Scores
 
 
-class Contrast(Message):
+class Contrast(Answer):
     value: MaybeNumber
     interval: Annotated[
         Interval | None, Meta(description="Bootstrap interval from independent resampling of both inputs.")
@@ -25,21 +26,21 @@ class Contrast(Message):
     ] = None
 
 
-class QuantileShift(Message):
+class QuantileShift(Answer):
     probability: float
     value: Annotated[MaybeNumber, Meta(description="Quantile of the second minus that of the first.")]
     interval: Interval | None = None
     standard_error: float | None = None
 
 
-class StandardizedPair(Message):
+class StandardizedPair(Answer):
     first: MaybeNumber
     second: MaybeNumber
     difference: MaybeNumber
     interval: Annotated[Interval | None, Meta(description="Bootstrap interval of the difference.")] = None
 
 
-class StandardizedQuantile(Message):
+class StandardizedQuantile(Answer):
     probability: float
     z: Annotated[StandardizedPair, Meta(description="(quantile - mean) / standard deviation, per input.")]
     robust_z: Annotated[
@@ -47,7 +48,7 @@ class StandardizedQuantile(Message):
     ]
 
 
-class StandardizedMeanDifference(Message):
+class StandardizedMeanDifference(Answer):
     value: Annotated[MaybeNumber, Meta(description="Hedges' g: J x Cohen's d.")]
     uncorrected: Annotated[MaybeNumber, Meta(description="Cohen's d with the pooled standard deviation.")]
     correction_factor: Annotated[
@@ -63,7 +64,7 @@ class StandardizedMeanDifference(Message):
     standard_error: float | None = None
 
 
-class DistributionTest(Message):
+class DistributionTest(Answer):
     test: Annotated[str, Meta(description="kolmogorov_smirnov or chi_square_homogeneity.")]
     statistic: MaybeNumber
     p_value: Annotated[MaybeNumber, Meta(description="Evidence against equal distributions, not a verdict.")]
@@ -73,14 +74,22 @@ class DistributionTest(Message):
     reason: Annotated[str | None, Meta(description="Why the test could not be computed.")]
 
 
-class ComparisonWarning(Message):
-    side: Literal["first", "second", "comparison"]
+class WarningSide(StrEnum):
+    """What a comparison warning is about: the first input, the second, or the comparison itself."""
+
+    FIRST = "first"
+    SECOND = "second"
+    COMPARISON = "comparison"
+
+
+class ComparisonWarning(Answer):
+    side: WarningSide
     code: Annotated[str, Meta(description="Stable machine-readable reason (see GET /v1/catalog).")]
     message: str
     descriptors: list[str]
 
 
-class ComparisonResponse(Message):
+class ComparisonResponse(Answer):
     first: DescriptionResponse
     second: DescriptionResponse
     differences: Annotated[
@@ -112,4 +121,5 @@ __all__ = [
     "StandardizedMeanDifference",
     "StandardizedPair",
     "StandardizedQuantile",
+    "WarningSide",
 ]

@@ -2,16 +2,24 @@
 
 from __future__ import annotations
 
-from typing import Annotated, Literal
+from enum import StrEnum
+from typing import Annotated
 
 import msgspec
 from msgspec import Meta
 
-from tailgauge.api.schemas.common import Message
+from tailgauge.api.schemas.common import Answer
 
 
-class Health(Message):
-    status: Literal["ok", "draining"]
+class HealthStatus(StrEnum):
+    """ok: serving; draining: stopping, send new work elsewhere."""
+
+    OK = "ok"
+    DRAINING = "draining"
+
+
+class Health(Answer):
+    status: HealthStatus
 
 
 class Readiness(Health):
@@ -21,7 +29,7 @@ class Readiness(Health):
     ] = msgspec.field(default_factory=list)
 
 
-class CatalogEntry(Message):
+class CatalogEntry(Answer):
     name: Annotated[str, Meta(description="Response name (member.name for non-descriptor results).")]
     member: Annotated[str, Meta(description="Where it appears in a descriptor response.")]
     definition: Annotated[str, Meta(description="The formula in plain text.")]
@@ -30,16 +38,16 @@ class CatalogEntry(Message):
     reference: Annotated[str, Meta(description="Published source of the definition.")]
 
 
-class WarningCode(Message):
+class WarningCode(Answer):
     code: str
     meaning: str
 
 
-class Catalog(Message):
+class Catalog(Answer):
     descriptors: list[CatalogEntry]
     members: list[CatalogEntry]
     warnings: list[WarningCode]
     note: str
 
 
-__all__ = ["Catalog", "CatalogEntry", "Health", "Readiness", "WarningCode"]
+__all__ = ["Catalog", "CatalogEntry", "Health", "HealthStatus", "Readiness", "WarningCode"]

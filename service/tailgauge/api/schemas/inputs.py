@@ -8,7 +8,8 @@ field means, checks and reads the same in both places.
 
 from __future__ import annotations
 
-from typing import Annotated, Literal
+from enum import StrEnum
+from typing import Annotated
 
 import msgspec
 from msgspec import Meta
@@ -22,6 +23,25 @@ from tailgauge.api.schemas.options import (
     TableInputOptions,
     TableOptions,
 )
+
+
+class SampleWeightKind(StrEnum):
+    """What the weights of a raw sample mean."""
+
+    FREQUENCY = "frequency"
+    RELIABILITY = "reliability"
+
+
+class TableWeightKind(StrEnum):
+    """What the weights of a table of outcomes are."""
+
+    COUNTS = "counts"
+    PROBABILITIES = "probabilities"
+
+
+# An optional object of a request may also be sent as null, which means the same as leaving it
+# out: every default (model-based clients send null for a member they were not given).
+NULL_MEANS_DEFAULTS = "null or absent: every default."
 
 
 class SamplesData(Message):
@@ -41,14 +61,14 @@ class SamplesData(Message):
         Meta(description="Optional weight per value (same length as values), a list or float64 bytes; see weight_kind."),
     ] = None
     weight_kind: Annotated[
-        Literal["frequency", "reliability"],
+        SampleWeightKind,
         Meta(
             description=(
                 "frequency: a weight w is the same as repeating the value w times; reliability: "
                 "analytic weights (inverse-variance), effective size (sum w)^2 / sum w^2."
             )
         ),
-    ] = "frequency"
+    ] = SampleWeightKind.FREQUENCY
 
 
 class Outcome(Message):
@@ -61,7 +81,7 @@ class TableData(Message):
 
     outcomes: Annotated[list[Outcome], Meta(min_length=1, description="Outcomes in any order.")]
     weight_kind: Annotated[
-        Literal["counts", "probabilities"],
+        TableWeightKind,
         Meta(
             description=(
                 "counts: a sample summarised as a frequency table (sample estimators, as if each "
@@ -92,26 +112,56 @@ class BinsData(Message):
 
 
 class SamplesRequest(SamplesData):
-    options: SampleOptions = msgspec.field(default_factory=SampleOptions)
+    options: Annotated[SampleOptions | None, Meta(description=NULL_MEANS_DEFAULTS)] = msgspec.field(
+        default_factory=SampleOptions
+    )
+
+    def __post_init__(self) -> None:
+        if self.options is None:
+            self.options = SampleOptions()
 
 
 class TableRequest(TableData):
-    options: TableOptions = msgspec.field(default_factory=TableOptions)
+    options: Annotated[TableOptions | None, Meta(description=NULL_MEANS_DEFAULTS)] = msgspec.field(
+        default_factory=TableOptions
+    )
+
+    def __post_init__(self) -> None:
+        if self.options is None:
+            self.options = TableOptions()
 
 
 class BinsRequest(BinsData):
-    options: BinOptions = msgspec.field(default_factory=BinOptions)
+    options: Annotated[BinOptions | None, Meta(description=NULL_MEANS_DEFAULTS)] = msgspec.field(
+        default_factory=BinOptions
+    )
+
+    def __post_init__(self) -> None:
+        if self.options is None:
+            self.options = BinOptions()
 
 
 # ---- Comparisons: two inputs of any kind, contrasted second against first ----
 
 
 class SamplesInput(SamplesData, tag_field="kind", tag="samples"):
-    options: SamplesInputOptions = msgspec.field(default_factory=SamplesInputOptions)
+    options: Annotated[SamplesInputOptions | None, Meta(description=NULL_MEANS_DEFAULTS)] = msgspec.field(
+        default_factory=SamplesInputOptions
+    )
+
+    def __post_init__(self) -> None:
+        if self.options is None:
+            self.options = SamplesInputOptions()
 
 
 class TableInput(TableData, tag_field="kind", tag="table"):
-    options: TableInputOptions = msgspec.field(default_factory=TableInputOptions)
+    options: Annotated[TableInputOptions | None, Meta(description=NULL_MEANS_DEFAULTS)] = msgspec.field(
+        default_factory=TableInputOptions
+    )
+
+    def __post_init__(self) -> None:
+        if self.options is None:
+            self.options = TableInputOptions()
 
 
 class BinsInput(BinsData, tag_field="kind", tag="bins"):
@@ -128,9 +178,13 @@ class ComparisonRequest(Message):
     first: ComparisonInput
     second: ComparisonInput
     options: Annotated[
-        ComparisonOptions,
-        Meta(description="score values are scored against the first input."),
+        ComparisonOptions | None,
+        Meta(description="score values are scored against the first input; " + NULL_MEANS_DEFAULTS),
     ] = msgspec.field(default_factory=ComparisonOptions)
+
+    def __post_init__(self) -> None:
+        if self.options is None:
+            self.options = ComparisonOptions()
 
 
 __all__ = [
@@ -140,10 +194,12 @@ __all__ = [
     "ComparisonInput",
     "ComparisonRequest",
     "Outcome",
+    "SampleWeightKind",
     "SamplesData",
     "SamplesInput",
     "SamplesRequest",
     "TableData",
+    "TableWeightKind",
     "TableInput",
     "TableRequest",
 ]

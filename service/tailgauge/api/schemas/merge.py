@@ -7,9 +7,18 @@ from typing import Annotated, Literal
 import msgspec
 from msgspec import Meta
 
-from tailgauge.api.schemas.common import SCHEMA_MAX_STATES, Message
+from tailgauge.api.schemas.common import SCHEMA_MAX_STATES, Answer, Message
+from tailgauge.api.schemas.inputs import NULL_MEANS_DEFAULTS
 from tailgauge.api.schemas.options import MergeOptions
 from tailgauge.api.schemas.results import DescriptionResponse, Modes, PartialState, Size
+
+
+class PartialStateInput(PartialState, forbid_unknown_fields=True):
+    """A partial state as a request sends it: the members of an answer's partial_state, strictly.
+
+    The answer's form (PartialState) is open to members added later, like every answer; a
+    request is strict, so a misspelled member is an error, never ignored.
+    """
 
 KllSketch = Annotated[
     bytes,
@@ -26,7 +35,7 @@ KllSketch = Annotated[
 
 class MergeRequest(Message):
     states: Annotated[
-        list[PartialState],
+        list[PartialStateInput],
         Meta(min_length=1, max_length=SCHEMA_MAX_STATES, description="Partial states of disjoint parts of one sample."),
     ]
     sketches: Annotated[
@@ -38,14 +47,20 @@ class MergeRequest(Message):
             ),
         ),
     ] = None
-    options: MergeOptions = msgspec.field(default_factory=MergeOptions)
+    options: Annotated[MergeOptions | None, Meta(description=NULL_MEANS_DEFAULTS)] = msgspec.field(
+        default_factory=MergeOptions
+    )
+
+    def __post_init__(self) -> None:
+        if self.options is None:
+            self.options = MergeOptions()
 
 
 class MergedSize(Size):
     distinct_values: Annotated[int | None, Meta(description="null: partial states carry no values.")]
 
 
-class QuantileSketches(Message):
+class QuantileSketches(Answer):
     method: Annotated[str, Meta(description="How the quantiles were read from the pooled sketches.")]
     sketches: int
     n: int
@@ -68,4 +83,4 @@ class MergedDescriptionResponse(DescriptionResponse):
     ] = None
 
 
-__all__ = ["KllSketch", "MergeRequest", "MergedDescriptionResponse", "MergedSize", "QuantileSketches"]
+__all__ = ["KllSketch", "MergeRequest", "MergedDescriptionResponse", "MergedSize", "PartialStateInput", "QuantileSketches"]

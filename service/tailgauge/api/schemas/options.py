@@ -9,7 +9,8 @@ the same unknown-field error as any other misspelling.
 
 from __future__ import annotations
 
-from typing import Annotated, Literal, Protocol
+from enum import StrEnum
+from typing import Annotated, Protocol
 
 import msgspec
 from msgspec import Meta
@@ -26,11 +27,56 @@ from tailgauge.api.schemas.common import (
 from tailgauge.core import DEFAULT_PROBABILITIES
 
 
+# Closed sets of option values are named enumerations (each becomes a named component of the
+# published schema). The member names are what code generators call the values (the document's
+# x-enum-varnames), so they must stay distinct even where two values differ only in case.
+
+
+class IntervalMethod(StrEnum):
+    """Bootstrap interval method."""
+
+    PERCENTILE = "percentile"
+    BASIC = "basic"
+    BCA = "bca"
+
+
+class Convention(StrEnum):
+    """Estimator convention: sample (divisor n - 1, G1/G2) or population (divisor n, g1/g2)."""
+
+    SAMPLE = "sample"
+    POPULATION = "population"
+
+
+class SkewnessEstimator(StrEnum):
+    """Joanes & Gill (1998) skewness: g1 = m3 / m2^1.5 (plug-in), G1 = g1 sqrt(n(n-1))/(n-2)
+    (adjusted Fisher-Pearson), b1 = g1 ((n-1)/n)^1.5 (standardized by the sample standard deviation)."""
+
+    G1_PLUG_IN = "g1"
+    G1_ADJUSTED = "G1"
+    B1_SAMPLE_SD = "b1"
+
+
+class KurtosisEstimator(StrEnum):
+    """Joanes & Gill (1998) excess kurtosis: g2 = m4 / m2^2 - 3 (plug-in), G2 = (n-1)/((n-2)(n-3))
+    ((n+1) g2 + 6) (adjusted), b2 = (g2 + 3)((n-1)/n)^2 - 3 (standardized by the sample standard deviation)."""
+
+    G2_PLUG_IN = "g2"
+    G2_ADJUSTED = "G2"
+    B2_SAMPLE_SD = "b2"
+
+
+class Missing(StrEnum):
+    """What a null value means: reject (an error) or omit (dropped and counted)."""
+
+    REJECT = "reject"
+    OMIT = "omit"
+
+
 class IntervalRequest(Message):
     method: Annotated[
-        Literal["percentile", "basic", "bca"],
+        IntervalMethod,
         Meta(description="Bootstrap interval: percentile, basic, or bias-corrected and accelerated (BCa)."),
-    ] = "bca"
+    ] = IntervalMethod.BCA
     level: Annotated[float, Meta(gt=0.0, lt=1.0, description="Confidence level, e.g. 0.95.")] = 0.95
     resamples: Annotated[
         int, Meta(ge=100, le=1_000_000, description="Bootstrap resamples (the server's budget may allow fewer).")
@@ -53,7 +99,7 @@ QuantileType = Annotated[
 # Per input kind, the option that belongs to the data themselves: declared once, used by the
 # kind's own endpoint and by a comparison input of that kind.
 MissingPolicy = Annotated[
-    Literal["reject", "omit"],
+    Missing,
     Meta(description="reject: a null value is an error (422); omit: nulls are dropped and counted."),
 ]
 Normalize = Annotated[
@@ -91,7 +137,7 @@ class SummaryOptions(Message):
     """Options of every endpoint that reports descriptors, merged states included."""
 
     convention: Annotated[
-        Literal["sample", "population"] | None,
+        Convention | None,
         Meta(
             description=(
                 "sample: variance with divisor n - 1 (V1 - V2/V1 for reliability weights) and "
@@ -101,11 +147,11 @@ class SummaryOptions(Message):
         ),
     ] = None
     skewness_estimator: Annotated[
-        Literal["g1", "G1", "b1"] | None,
+        SkewnessEstimator | None,
         Meta(description="Joanes & Gill (1998) skewness family; null follows the convention."),
     ] = None
     kurtosis_estimator: Annotated[
-        Literal["g2", "G2", "b2"] | None,
+        KurtosisEstimator | None,
         Meta(description="Joanes & Gill (1998) kurtosis family; null follows the convention."),
     ] = None
     probabilities: Annotated[
@@ -146,7 +192,7 @@ class DescriptorOptions(SummaryOptions):
 
 class SampleOptions(DescriptorOptions):
     quantile_type: QuantileType = None
-    missing: MissingPolicy = "reject"
+    missing: MissingPolicy = Missing.REJECT
     partial_state: Annotated[
         bool,
         Meta(
@@ -223,7 +269,7 @@ class MergeOptions(SummaryOptions):
 
 
 class SamplesInputOptions(Message):
-    missing: MissingPolicy = "reject"
+    missing: MissingPolicy = Missing.REJECT
 
 
 class TableInputOptions(Message):
@@ -232,6 +278,11 @@ class TableInputOptions(Message):
 
 __all__ = [
     "BinOptions",
+    "Convention",
+    "IntervalMethod",
+    "KurtosisEstimator",
+    "Missing",
+    "SkewnessEstimator",
     "ComparisonOptions",
     "CoreChoices",
     "DescriptorOptions",

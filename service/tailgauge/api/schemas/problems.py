@@ -7,15 +7,15 @@ from typing import Annotated
 import msgspec
 from msgspec import Meta
 
-from tailgauge.api.schemas.common import Message
+from tailgauge.api.schemas.common import Answer
 
 
-class ProblemLocation(Message):
+class ProblemLocation(Answer):
     path: Annotated[str, Meta(description="JSON path of the offending input, e.g. $.values[3].")]
     message: str
 
 
-class Problem(Message):
+class Problem(Answer):
     """RFC 9457 problem details."""
 
     type: Annotated[str, Meta(description="Stable URI identifying the problem type.")]

@@ -6,23 +6,41 @@ pairs and fails loudly when a field is missing on either side.
 
 from __future__ import annotations
 
-from typing import Annotated, Literal
+from enum import StrEnum
+from typing import Annotated
 
 import msgspec
 from msgspec import Meta
 
 from tailgauge.core import registry
-from tailgauge.api.schemas.common import SCHEMA_MAX_MOMENT_ORDER, Finite, MaybeNumber, Message, NonNegative
+from tailgauge.api.schemas.common import SCHEMA_MAX_MOMENT_ORDER, Answer, Finite, MaybeNumber, NonNegative
 
 
-class Interval(Message):
+class InputKind(StrEnum):
+    """The kind of input a description is of."""
+
+    SAMPLES = "samples"
+    TABLE = "table"
+    BINS = "bins"
+
+
+class NormalityTestName(StrEnum):
+    """D'Agostino skewness z, Anscombe & Glynn kurtosis z, D'Agostino & Pearson K^2, Jarque & Bera."""
+
+    SKEWNESS_TEST = "skewness_test"
+    KURTOSIS_TEST = "kurtosis_test"
+    OMNIBUS_K2 = "omnibus_k2"
+    JARQUE_BERA = "jarque_bera"
+
+
+class Interval(Answer):
     low: MaybeNumber
     high: MaybeNumber
     level: float
     method: Annotated[str, Meta(description="The method actually used (BCa may fall back to percentile).")]
 
 
-class ClassicalInterval(Message):
+class ClassicalInterval(Answer):
     low: float
     high: float
     level: float
@@ -31,7 +49,7 @@ class ClassicalInterval(Message):
     assumption: Annotated[str, Meta(description="What the interval assumes.")]
 
 
-class DescriptorValue(Message):
+class DescriptorValue(Answer):
     value: MaybeNumber
     estimator: Annotated[str, Meta(description="The exact estimator or definition used.")]
     standard_error_under_normality: Annotated[
@@ -51,19 +69,23 @@ class DescriptorValue(Message):
 
 
 # One member per descriptor of the registry, in its order, each described by its definition there
-# (the catalog's text): adding a descriptor to the registry adds it here.
+# (the catalog's text): adding a descriptor to the registry adds it here. Unlike the other
+# answers it forbids unknown members in process: it is converted from the core's dict of
+# descriptors, where a key the Struct lacks must be an error, not a silently dropped result.
+# The published schema still leaves it open (tailgauge.api.openapi opens every answer).
 Descriptors = msgspec.defstruct(
     "Descriptors",
     [
         (facts.name, Annotated[DescriptorValue, Meta(description=facts.definition)])
         for facts in registry.DESCRIPTORS
     ],
-    bases=(Message,),
+    bases=(Answer,),
     module=__name__,
+    forbid_unknown_fields=True,
 )
 
 
-class Size(Message):
+class Size(Answer):
     n: Annotated[
         int | float | None,
         Meta(description="Observations used (the total count for counts and bins; null for probabilities)."),
@@ -77,7 +99,7 @@ class Size(Message):
     ]
 
 
-class Moments(Message):
+class Moments(Answer):
     order: Annotated[int, Meta(description="Highest order; element k - 1 of each list is order k.")]
     raw: Annotated[list[MaybeNumber], Meta(description="Plug-in raw moments E[x^k].")]
     central: Annotated[list[MaybeNumber], Meta(description="Plug-in central moments E[(x - mean)^k].")]
@@ -86,7 +108,7 @@ class Moments(Message):
     ]
 
 
-class Quantile(Message):
+class Quantile(Answer):
     probability: float
     value: MaybeNumber
     interval: Interval | None = None
@@ -94,9 +116,9 @@ class Quantile(Message):
     classical_interval: ClassicalInterval | None = None
 
 
-class NormalityTest(Message):
+class NormalityTest(Answer):
     test: Annotated[
-        Literal["skewness_test", "kurtosis_test", "omnibus_k2", "jarque_bera"],
+        NormalityTestName,
         Meta(description="D'Agostino skewness z, Anscombe & Glynn kurtosis z, D'Agostino & Pearson K^2, Jarque & Bera."),
     ]
     statistic: MaybeNumber
@@ -108,7 +130,7 @@ class NormalityTest(Message):
     reason: Annotated[str | None, Meta(description="Why the test could not be computed.")]
 
 
-class Resampling(Message):
+class Resampling(Answer):
     method: str
     level: float
     resamples: int
@@ -116,7 +138,7 @@ class Resampling(Message):
     scheme: Annotated[str, Meta(description="What was resampled and how.")]
 
 
-class Modes(Message):
+class Modes(Answer):
     values: Annotated[list[float], Meta(description="Every value attaining the largest count, ascending.")]
     count: Annotated[float, Meta(description="The count (weight) of each mode.")]
     distinct_values: int
@@ -124,39 +146,39 @@ class Modes(Message):
     truncated: Annotated[bool, Meta(description="True when more ties exist than are listed.")]
 
 
-class ShapeEstimate(Message):
+class ShapeEstimate(Answer):
     estimator: str
     value: MaybeNumber
     standard_error_under_normality: MaybeNumber
 
 
-class ShapeEstimators(Message):
+class ShapeEstimators(Answer):
     skewness: list[ShapeEstimate]
     excess_kurtosis: list[ShapeEstimate]
 
 
-class Contribution(Message):
+class Contribution(Answer):
     value: float
     weight: float
     third: Annotated[float, Meta(description="w (x - mean)^3 / (W sigma^3): signed share of the standardized third moment.")]
     fourth: Annotated[float, Meta(description="w (x - mean)^4 / (W sigma^4): share of the standardized fourth moment.")]
 
 
-class TailContributions(Message):
+class TailContributions(Answer):
     standardized_third: Annotated[float, Meta(description="Plug-in g1; the sum of every outcome's third.")]
     standardized_fourth: Annotated[float, Meta(description="Plug-in b2 = g2 + 3; the sum of every fourth.")]
     complete: Annotated[bool, Meta(description="False when only the largest contributors are listed.")]
     outcomes: list[Contribution]
 
 
-class ModalClass(Message):
+class ModalClass(Answer):
     lower: float
     upper: float
     count: float
     grouped_mode: MaybeNumber
 
 
-class Grouping(Message):
+class Grouping(Answer):
     bins: int
     bin_width: Annotated[float | None, Meta(description="Common width of the closed bins; null when widths differ.")]
     equal_widths: bool
@@ -169,7 +191,7 @@ class Grouping(Message):
     modal_classes: list[ModalClass]
 
 
-class Conventions(Message):
+class Conventions(Answer):
     convention: str
     variance_divisor: str
     skewness: str
@@ -182,13 +204,13 @@ class Conventions(Message):
     weights: str
 
 
-class Score(Message):
+class Score(Answer):
     value: float
     z: Annotated[MaybeNumber, Meta(description="(value - mean) / standard deviation.")]
     robust_z: Annotated[MaybeNumber, Meta(description="(value - median) / normal-consistent MAD.")]
 
 
-class Scores(Message):
+class Scores(Answer):
     mean: MaybeNumber
     standard_deviation: MaybeNumber
     median: MaybeNumber
@@ -196,7 +218,7 @@ class Scores(Message):
     points: Annotated[list[Score], Meta(description="One entry per value of options.score, in order.")]
 
 
-class PartialState(Message):
+class PartialState(Answer):
     """A mergeable summary of one part of a sample (Pebay 2008): enough for every moment of the union."""
 
     count: Annotated[NonNegative, Meta(description="Observations (or total frequency weight); 0 for an empty part.")]
@@ -213,14 +235,14 @@ class PartialState(Message):
     maximum: Annotated[Finite | None, Meta(description="Largest value; null for an empty part.")]
 
 
-class ResultWarning(Message):
+class ResultWarning(Answer):
     code: Annotated[str, Meta(description="Stable machine-readable reason.")]
     message: str
     descriptors: Annotated[list[str], Meta(description="The results this warning concerns.")]
 
 
-class DescriptionResponse(Message):
-    kind: Literal["samples", "table", "bins"]
+class DescriptionResponse(Answer):
+    kind: InputKind
     size: Size
     descriptors: Descriptors
     moments: Annotated[Moments | None, Meta(description="null when an open-ended bin holds data.")]
@@ -262,11 +284,13 @@ __all__ = [
     "DescriptorValue",
     "Descriptors",
     "Grouping",
+    "InputKind",
     "Interval",
     "ModalClass",
     "Modes",
     "Moments",
     "NormalityTest",
+    "NormalityTestName",
     "PartialState",
     "Quantile",
     "Resampling",
