@@ -103,7 +103,11 @@ def sample_quantiles(
     elif quantile_type in (1, 2):
         support = data.support
         values = order_statistics.cdf_quantiles(
-            support.values, support.cumulative, probabilities, average_at_steps=quantile_type == 2
+            support.values,
+            support.weights,
+            probabilities,
+            average_at_steps=quantile_type == 2,
+            cumulative=support.cumulative,
         )
     else:
         notes.add(
