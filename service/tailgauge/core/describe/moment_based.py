@@ -142,9 +142,7 @@ def family_estimate(
     assert n is not None
     minimum = shape.SKEWNESS_MIN_N[family] if skewness else shape.KURTOSIS_MIN_N[family]
     if n < minimum:
-        if basis.population and family in ("g1", "g2"):
-            # A population's own skewness needs only spread; its sampling error needs n.
-            return finite_or_none(plug_in), None, None
+        # The same for either convention: which families are defined depends on n alone.
         return None, None, f"needs at least {minimum} observations; n = {n:g}"
     estimate = (shape.skewness if skewness else shape.excess_kurtosis)(plug_in, n, family)
     return finite_or_none(float(estimate.value)), finite_or_none(float(estimate.standard_error)), None
