@@ -92,10 +92,12 @@ def describe(data: WeightedData, options: DescribeOptions, *, kind: str) -> Desc
     moments_defined = data.open_bin_weight == 0.0
     sums = midpoint_sums = None
     sheppard_applied = False
+    sheppard_width = None
     if moments_defined:
         sums = midpoint_sums = central_sums(data.values, data.weights, max(options.moment_order, 4))
         if data.binned and options.sheppard_correction:
-            sums, sheppard_applied = moment_based.sheppard(data, sums, notes)
+            sums, sheppard_width = moment_based.sheppard(data, sums, notes)
+            sheppard_applied = sheppard_width is not None
     else:
         notes.add(
             WarningCode.OPEN_BIN_HOLDS_DATA,
@@ -119,6 +121,7 @@ def describe(data: WeightedData, options: DescribeOptions, *, kind: str) -> Desc
             "mean of bin midpoints" if data.binned else "weighted arithmetic mean" if weighted else "arithmetic mean"
         ),
         lowest=moment_based.lowest_value(data),
+        sheppard_width=sheppard_width,
     )
     _on_time(options)
     quantile_values, robust_quantiles = order_based.order_descriptors(descriptors, data, basis, options, notes)

@@ -14,7 +14,7 @@ from tailgauge.core.describe.basis import Basis
 from tailgauge.core.describe.warnings import Warnings, finite_or_none
 from tailgauge.core.describe.options import DescribeOptions
 from tailgauge.core.describe.results import Contribution, Descriptor, Moments, ShapeEstimate, ShapeEstimators, TailContributions
-from tailgauge.core.moments import CentralSums
+from tailgauge.core.moments import CentralSums, scale_by_power_of_two
 from tailgauge.core.registry import WarningCode
 from tailgauge.core.serial import lag1_autocorrelation
 from tailgauge.core.weighted import WeightedData
@@ -36,20 +36,29 @@ def moment_descriptors(
     *,
     mean_label: str,
     lowest: float,
+    sheppard_width: float | None = None,
 ) -> None:
     """Mean, variance, standard deviation, coefficient of variation, skewness and kurtosis from ``sums``.
 
     ``lowest`` is the smallest value (for bins, the lower edge of the lowest occupied bin): the
-    coefficient of variation is defined only on a ratio scale.
+    coefficient of variation is defined only on a ratio scale. ``sheppard_width``: the bin width
+    in the scaled units of ``sums`` when they carry Sheppard's corrections (the variance is then
+    ``grouped.sheppard_variance``: s^2 - h^2/12 under the sample convention).
     """
     mean = None if sums is None else notes.finite(sums.mean, "mean")
     descriptors["mean"] = Descriptor(mean, mean_label)
     variance = sd = None
+    variance_label = basis.variance_label
     if sums is not None and not basis.single:
-        variance = notes.finite(sums.central_moment(2) * basis.variance_factor, "variance")
-        # Square root taken in scaled units, so it is representable even when the variance is not.
-        sd = notes.finite(sums.standard_deviation(basis.variance_factor), "standard_deviation")
-    descriptors["variance"] = Descriptor(variance, basis.variance_label)
+        # In scaled units, so the square root is representable even when the variance is not.
+        scaled = sums.scaled_central_moment(2) * basis.variance_factor
+        if sheppard_width is not None:
+            scaled = grouped.sheppard_variance(sums.scaled_central_moment(2), sheppard_width, basis.variance_factor)
+            variance_label += ", Sheppard-corrected (" + ("m2" if basis.population else "s^2") + " - h^2/12)"
+        exponent = sums.scale_exponent
+        variance = notes.finite(scale_by_power_of_two(scaled, 2 * exponent), "variance")
+        sd = notes.finite(scale_by_power_of_two(math.sqrt(scaled), exponent), "standard_deviation")
+    descriptors["variance"] = Descriptor(variance, variance_label)
     descriptors["standard_deviation"] = Descriptor(sd, f"square root of the {basis.variance_label} variance")
     descriptors["coefficient_of_variation"] = Descriptor(
         coefficient_of_variation(lowest, sums, sd, basis, notes),
@@ -181,7 +190,9 @@ def moments_member(sums: CentralSums, top: int, single: bool, constant: bool, no
 
 
 
-def sheppard(data: WeightedData, sums: CentralSums, notes: Warnings) -> tuple[CentralSums, bool]:
+def sheppard(data: WeightedData, sums: CentralSums, notes: Warnings) -> tuple[CentralSums, float | None]:
+    """The sums with Sheppard's corrections of orders 2 and 4, and the bin width in their scaled
+    units (``None``, with the sums unchanged, where the corrections do not apply)."""
     width = grouped.equal_width(data)
     if width is None:
         notes.add(
@@ -189,7 +200,7 @@ def sheppard(data: WeightedData, sums: CentralSums, notes: Warnings) -> tuple[Ce
             "Sheppard's corrections assume bins of equal width; these widths differ, so no correction was applied",
             ["variance", "standard_deviation", "kurtosis", "excess_kurtosis", "moments"],
         )
-        return sums, False
+        return sums, None
     # In the scaled units of the sums, so the correction is exact wherever float64 can hold it.
     scaled_width = math.ldexp(width, -sums.scale_exponent)
     m2, m4 = sums.scaled_central_moment(2), sums.scaled_central_moment(4)
@@ -201,11 +212,11 @@ def sheppard(data: WeightedData, sums: CentralSums, notes: Warnings) -> tuple[Ce
             "fourth moment would not be positive, so no correction was applied",
             ["variance", "standard_deviation", "kurtosis", "excess_kurtosis", "moments"],
         )
-        return sums, False
+        return sums, None
     corrected = sums.sums.copy()
     corrected[2] = corrected2 * sums.total_weight
     corrected[4] = corrected4 * sums.total_weight
-    return dataclasses.replace(sums, sums=corrected), True
+    return dataclasses.replace(sums, sums=corrected), scaled_width
 
 
 
