@@ -31,7 +31,7 @@ from tailgauge.core.describe.results import (
 from tailgauge.core.describe.validation import check_description
 from tailgauge.core.errors import LimitExceeded, Location
 from tailgauge.core.moments import CentralSums, central_sums
-from tailgauge.core.registry import MOMENT_DESCRIPTORS, WarningCode
+from tailgauge.core.registry import UNDEFINED_FOR_OPEN_BIN, WarningCode
 from tailgauge.core.weighted import WeightedData, WeightMeaning
 
 PLUG_IN_CENTRAL_MOMENTS = "plug-in: sum of w (x - mean)^k divided by the total weight"
@@ -103,7 +103,7 @@ def describe(data: WeightedData, options: DescribeOptions, *, kind: str) -> Desc
             WarningCode.OPEN_BIN_HOLDS_DATA,
             f"open-ended bins hold {data.open_bin_weight:g} of the {data.total_weight:g} counts, so their "
             "values are unknown and no moment can be computed; quantiles in closed bins are still given",
-            MOMENT_DESCRIPTORS + ("moments", "shape_estimators", "tail_contributions"),
+            UNDEFINED_FOR_OPEN_BIN + ("moments", "shape_estimators", "tail_contributions"),
         )
     # Every count in one bin: its midpoint would read as zero spread, but the spread is unknown.
     constant = sums is not None and sums.scaled_central_moment(2) == 0.0 and not basis.single_bin

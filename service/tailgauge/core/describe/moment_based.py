@@ -112,7 +112,15 @@ def shape_descriptors(
         label = f"{family} (plug-in)" if basis.reliability and family == plug_in_family else family
         if sums is not None:
             value, error, reason = family_estimate(family, sums, basis, undefined)
-            if reason == "bias-corrected":
+            if reason is None and value is not None and basis.reliability and not basis.population:
+                # The sample convention asks for a bias-corrected value, which these weights lack.
+                notes.add(
+                    WarningCode.PLUG_IN_ESTIMATOR,
+                    f"reliability weights have no published bias-corrected {name.replace('_', ' ')}; "
+                    f"the plug-in {plug_in_family} is reported",
+                    affected,
+                )
+            elif reason == "bias-corrected":
                 # No published bias correction for these weights: the plug-in value, named as such.
                 value, error, _ = family_estimate(plug_in_family, sums, basis, undefined)
                 label = f"{plug_in_family} (plug-in)"
@@ -270,13 +278,15 @@ def lowest_value(data: WeightedData) -> float:
 def lag1(
     data: WeightedData, sums: CentralSums | None, single: bool, constant: bool, notes: Warnings
 ) -> float | None:
-    if single or constant or sums is None:
-        return None
+    # No order first: it leaves r(1) undefined whatever else the data are (tables, bins with an
+    # open bin, weighted samples).
     if not data.ordered or data.weights is not None:
         notes.add(
             WarningCode.NO_OBSERVATION_ORDER,
             "lag-1 autocorrelation needs unweighted observations in their original order",
             ["lag1_autocorrelation"],
         )
+        return None
+    if single or constant or sums is None:
         return None
     return finite_or_none(lag1_autocorrelation(data.values, sums))

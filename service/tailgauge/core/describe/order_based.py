@@ -20,6 +20,8 @@ NORMAL_MAD_LABEL = (
 )
 
 
+# The robust shape measures built on those quantiles.
+QUANTILE_SHAPE_DESCRIPTORS = ("quartile_skewness", "octile_kurtosis", "octile_excess_kurtosis")
 # Probabilities behind quartile skewness (Q1, Q2, Q3) and octile kurtosis (E1 .. E7).
 ROBUST_PROBABILITIES = np.array([0.25, 0.5, 0.75, 1 / 8, 2 / 8, 3 / 8, 5 / 8, 6 / 8, 7 / 8])
 
@@ -114,7 +116,7 @@ def sample_quantiles(
             WarningCode.INTEGER_COUNTS_REQUIRED,
             f"quantile type {quantile_type} is defined through the order statistics of whole observations; "
             "these weights are not whole counts, so use quantile_type 1 or 2",
-            ["quantiles", "interquartile_range"],
+            ["quantiles", "interquartile_range", *QUANTILE_SHAPE_DESCRIPTORS],
         )
         values = np.full(probabilities.size, np.nan)
     return values[:2], values[2:]
