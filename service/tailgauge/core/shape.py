@@ -75,4 +75,8 @@ def excess_kurtosis(g2: float, n: float, family: str) -> Estimate:
     else:
         factor = ((n - 1.0) / n) ** 2
         value = (g2 + 3.0) * factor - 3.0
-    return Estimate(value=value, standard_error=factor * np.sqrt(variance_g2))
+    # A total frequency weight between 2 and 3 (fractional counts) has no normal-theory variance
+    # (the formula turns negative): its standard error is NaN, which the caller reports as null.
+    with np.errstate(invalid="ignore"):
+        error = factor * np.sqrt(variance_g2)
+    return Estimate(value=value, standard_error=error)
