@@ -355,3 +355,16 @@ def test_all_counts_in_one_bin_give_unknown_spread_not_zero():
     assert result.descriptors["median"].value == 0.5  # grouped median: half way through the bin
     single_bin = [w for w in result.warnings if w.code == "single_bin"]
     assert single_bin and "variance" in single_bin[0].descriptors
+
+
+def test_grouping_reports_the_bins_as_sent_with_an_empty_open_bin():
+    """Issue 15 regression: 4 bins whose open last bin is empty were reported as 3 closed bins.
+    Reference: the request itself (4 counts, last edge null)."""
+    upper = bins([0.0, 1.0, 2.0, 3.0, None], [1.0, 2.0, 3.0, 0.0]).grouping
+    assert (upper.bins, upper.open_lower, upper.open_upper, upper.open_bin_weight) == (4, False, True, 0.0)
+    both = bins([None, 0.0, 1.0, 2.0, 3.0, None], [0.0, 1.0, 2.0, 3.0, 0.0]).grouping
+    assert (both.bins, both.open_lower, both.open_upper, both.open_bin_weight) == (5, True, True, 0.0)
+    # The empty open bins hold nothing: every other answer is that of the closed bins alone.
+    closed = bins([0.0, 1.0, 2.0, 3.0], [1.0, 2.0, 3.0])
+    assert bins([0.0, 1.0, 2.0, 3.0, None], [1.0, 2.0, 3.0, 0.0]).descriptors == closed.descriptors
+    assert closed.grouping.bins == 3 and not closed.grouping.open_upper

@@ -166,12 +166,14 @@ def grouping(data: WeightedData, classes: list[grouped.ModalClass], sheppard_app
     lowest = edges[occupied[0]]
     highest = edges[occupied[-1] + 1]
     width = grouped.equal_width(data)
+    # The bins as sent: empty open-ended bins were left out of the data but are still reported.
+    empty_lower, empty_upper = data.empty_open_ends
     return Grouping(
-        bins=int(data.weights.size),
+        bins=int(data.weights.size) + int(empty_lower) + int(empty_upper),
         bin_width=width,
         equal_widths=width is not None,
-        open_lower=bool(np.isinf(edges[0])),
-        open_upper=bool(np.isinf(edges[-1])),
+        open_lower=bool(np.isinf(edges[0])) or empty_lower,
+        open_upper=bool(np.isinf(edges[-1])) or empty_upper,
         open_bin_weight=data.open_bin_weight,
         lowest_edge=finite_or_none(float(lowest)),
         highest_edge=finite_or_none(float(highest)),
