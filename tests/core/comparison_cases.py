@@ -39,6 +39,9 @@ def table(values, weights, *, probabilities=False):
 
 
 def codes(comparison, side="comparison") -> set[str]:
+    """The codes of the comparison's own warnings, or of one input's (in its description)."""
+    if side in ("first", "second"):
+        return {note.code for note in getattr(comparison, side).warnings}
     return {note.code for note in comparison.warnings if note.side == side}
 
 

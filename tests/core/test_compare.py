@@ -16,6 +16,7 @@ import numpy as np
 import pytest
 
 from tailgauge.core import (
+    DescribeOptions,
     IntervalOptions,
     LimitExceeded,
     UncomputableInput,
@@ -37,17 +38,23 @@ from tests.core.comparison_cases import (  # noqa: F401 (two_samples is a fixtur
 )
 
 
-def test_warnings_of_each_input_are_kept_with_their_side(two_samples):
+def test_each_warning_is_said_once_where_it_belongs(two_samples):
+    """Issue 15: the comparison repeated both inputs' warnings (17 in all for two samples). Each
+    input's warnings stay in its description; the comparison lists only its contrasts' own."""
     before, _ = two_samples
     result = of_arrays(before, [1.0, 2.0, 2.0])
-    for side, description in (("first", result.first), ("second", result.second)):
-        mine = [(n.code, n.message, n.descriptors) for n in result.warnings if n.side == side]
-        assert mine == [(n.code, n.message, n.descriptors) for n in description.warnings]
+    alone = [describe(from_array(np.asarray(x, dtype=np.float64)), DescribeOptions(), kind="samples")
+             for x in (before, [1.0, 2.0, 2.0])]
+    for description, own in zip((result.first, result.second), alone):
+        assert [(n.code, n.descriptors) for n in description.warnings] == [(n.code, n.descriptors) for n in own.warnings]
     assert "too_few_observations" in codes(result, "second")  # G2 needs n >= 4 (Joanes & Gill 1998)
     assert "too_few_observations" not in codes(result, "first")
     assert "differences.excess_kurtosis" in named(result, "difference_undefined")
-    # ...and the comparison's own warnings carry the comparison side.
-    assert all(n.side in ("first", "second", "comparison") for n in result.warnings)
+    assert {n.side for n in result.warnings} == {"comparison"}
+    # Every warning of the comparison names comparison members, never an input's descriptor.
+    contrasts = ("differences.", "ratios.", "quantile_shifts", "standardized_quantiles", "standardized_mean_difference",
+                 "distribution_test")
+    assert all(name.startswith(contrasts) for n in result.warnings for name in n.descriptors)
 
 
 # ----------------------------------------------------------------------------------------------

@@ -7,6 +7,8 @@ class, and moments read every bin at its midpoint.
 
 from __future__ import annotations
 
+import math
+
 import numpy as np
 import pytest
 from scipy import stats
@@ -236,6 +238,44 @@ def test_sheppard_corrected_excess_kurtosis_of_the_binned_normal_is_zero():
     assert result.descriptors["variance"].value == pytest.approx(1.0, abs=1e-9)
 
 
+@pytest.mark.parametrize(
+    ("edges", "counts"),
+    [
+        (np.linspace(0.0, 30.0, 7), [4.0, 18.0, 30.0, 21.0, 9.0, 3.0]),
+        (np.linspace(-2.5, 2.5, 11), [1.0, 3.0, 7.0, 12.0, 17.0, 16.0, 11.0, 6.0, 2.0, 1.0]),
+        (np.array([10.1, 10.4, 10.7, 11.0]), [5.0, 2.0, 4.0]),
+    ],
+)
+def test_sheppard_corrected_variance_is_s2_minus_h2_over_12_in_exact_arithmetic(edges, counts):
+    """Issue 15 regression: under the sample convention the corrected variance is the unbiased
+    grouped form s^2 - h^2/12 (Kendall & Stuart vol. 1, section 3.18), not (m2 - h^2/12) N/(N - 1);
+    the population form m2 - h^2/12 is unchanged. Reference: exact rational arithmetic
+    (fractions.Fraction of the float64 edges and counts)."""
+    from fractions import Fraction
+
+    exact_edges = [Fraction(float(e)) for e in edges]
+    exact_counts = [Fraction(float(c)) for c in counts]
+    midpoints = [(a + b) / 2 for a, b in zip(exact_edges[:-1], exact_edges[1:])]
+    width = exact_edges[1] - exact_edges[0]
+    total = sum(exact_counts)
+    mean = sum(c * x for c, x in zip(exact_counts, midpoints)) / total
+    squares = sum(c * (x - mean) ** 2 for c, x in zip(exact_counts, midpoints))
+    correction = width * width / 12
+    sample = bins(edges, counts, sheppard_correction=True)
+    population = bins(edges, counts, convention="population", sheppard_correction=True)
+    assert sample.grouping.sheppard_correction_applied and population.grouping.sheppard_correction_applied
+    s2_form = float(squares / (total - 1) - correction)
+    assert sample.descriptors["variance"].value == pytest.approx(s2_form, rel=1e-13)
+    assert sample.descriptors["standard_deviation"].value == pytest.approx(math.sqrt(s2_form), rel=1e-13)
+    old_form = float((squares / total - correction) * total / (total - 1))
+    assert abs(sample.descriptors["variance"].value - old_form) > 1e-6 * s2_form  # the two forms differ here
+    assert population.descriptors["variance"].value == pytest.approx(float(squares / total - correction), rel=1e-13)
+    # The central moments stay the plug-in corrected m2 - h^2/12 under either convention.
+    for described in (sample, population):
+        assert described.moments.central[1] == pytest.approx(float(squares / total - correction), rel=1e-13)
+    assert "s^2 - h^2/12" in sample.descriptors["variance"].estimator
+
+
 def test_sheppard_not_applicable_for_unequal_widths():
     edges, counts = [0.0, 1.0, 3.0, 4.0, 7.0], [2.0, 5.0, 3.0, 4.0]
     asked = bins(edges, counts, sheppard_correction=True)
@@ -315,3 +355,16 @@ def test_all_counts_in_one_bin_give_unknown_spread_not_zero():
     assert result.descriptors["median"].value == 0.5  # grouped median: half way through the bin
     single_bin = [w for w in result.warnings if w.code == "single_bin"]
     assert single_bin and "variance" in single_bin[0].descriptors
+
+
+def test_grouping_reports_the_bins_as_sent_with_an_empty_open_bin():
+    """Issue 15 regression: 4 bins whose open last bin is empty were reported as 3 closed bins.
+    Reference: the request itself (4 counts, last edge null)."""
+    upper = bins([0.0, 1.0, 2.0, 3.0, None], [1.0, 2.0, 3.0, 0.0]).grouping
+    assert (upper.bins, upper.open_lower, upper.open_upper, upper.open_bin_weight) == (4, False, True, 0.0)
+    both = bins([None, 0.0, 1.0, 2.0, 3.0, None], [0.0, 1.0, 2.0, 3.0, 0.0]).grouping
+    assert (both.bins, both.open_lower, both.open_upper, both.open_bin_weight) == (5, True, True, 0.0)
+    # The empty open bins hold nothing: every other answer is that of the closed bins alone.
+    closed = bins([0.0, 1.0, 2.0, 3.0], [1.0, 2.0, 3.0])
+    assert bins([0.0, 1.0, 2.0, 3.0, None], [1.0, 2.0, 3.0, 0.0]).descriptors == closed.descriptors
+    assert closed.grouping.bins == 3 and not closed.grouping.open_upper

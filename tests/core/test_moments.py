@@ -371,3 +371,14 @@ def test_variance_factor_is_the_divisor_of_each_rule():
     with pytest.raises(ValueError):
         moments.variance_factor("median", 3.0)
 
+
+
+def test_subnormal_mean_and_first_raw_moment_agree():
+    """Issue 15 regression: subnormal data gave descriptors.mean = 1.5e-323 but moments.raw[0]
+    null. Both are the representable mean; numpy 2.x np.mean (reference library) gives the same."""
+    from tailgauge.core import DescribeOptions, describe, from_array
+
+    x = np.array([1e-323, 1e-323, 2e-323])
+    described = describe(from_array(x), DescribeOptions(), kind="samples")
+    assert described.descriptors["mean"].value == described.moments.raw[0] == float(np.mean(x)) == 1.5e-323
+    assert not any("moments.raw[0]" in name for note in described.warnings for name in note.descriptors)

@@ -51,8 +51,7 @@ def test_batched_cdf_quantiles_equal_each_row_as_its_own_weighted_sample(average
     got = order_rules.cdf_quantiles(Rows(weights, None, False), values, PROBABILITIES, average=average)
     for i, row in enumerate(weights):
         keep = row > 0
-        cumulative = np.cumsum(row[keep])
-        want = order_statistics.cdf_quantiles(values[keep], cumulative, PROBABILITIES, average_at_steps=average)
+        want = order_statistics.cdf_quantiles(values[keep], row[keep], PROBABILITIES, average_at_steps=average)
         assert np.array_equal(_bits(got[i]), _bits(want)), (i, got[i], want)
 
 
@@ -112,3 +111,102 @@ def test_whole_counts_are_whole_and_exact():
 def test_snap_to_whole_absorbs_one_ulp_only():
     assert order_rules.snap_to_whole(np.array([100 * 0.07])).tolist() == [7.0]
     assert order_rules.snap_to_whole(np.array([7.0 + 1e-9])).tolist() == [7.0 + 1e-9]
+
+
+# --- issue 15: the upper quantiles of weighted distributions never stop below weight ------------
+
+
+def _exact_cdf_quantile(values: np.ndarray, weights: np.ndarray, p: float) -> float:
+    """Smallest x with F(x) >= p in exact rational arithmetic (fractions.Fraction of the float64
+    weights and of p): the definition the one-row and many-row rules approximate."""
+    from fractions import Fraction
+
+    exact = [Fraction(float(w)) for w in weights]
+    total = sum(exact)
+    wanted = Fraction(float(p)) * total
+    running = Fraction(0)
+    for x, w in zip(values, exact):
+        running += w
+        if running >= wanted:
+            return float(x)
+    raise AssertionError("p above 1")
+
+
+def _clear_of_steps(weights: np.ndarray, p: float) -> bool:
+    """No step of F lies within the rules' rounding allowance (a relative 1e-12 of the nearer
+    tail) of p, so the exact answer is the only right one."""
+    from fractions import Fraction
+
+    exact = [Fraction(float(w)) for w in weights]
+    total = sum(exact)
+    target = Fraction(float(p)) * total
+    allowance = Fraction(order_rules.CDF_TOLERANCE) * min(target, total - target)
+    running = Fraction(0)
+    for w in exact:
+        running += w
+        if running != target and abs(running - target) <= allowance:
+            return False
+    return True
+
+
+def test_p_one_is_the_largest_outcome_holding_weight():
+    # The case of the issue: 0.5 + 0.5 + 1e-17 sums to 1 in float64 before the last outcome.
+    values, weights = np.array([1.0, 2.0, 3.0]), np.array([0.5, 0.5, 1e-17])
+    for average in (False, True):
+        got = order_statistics.cdf_quantiles(values, weights, np.array([0.5, 1.0]), average_at_steps=average)
+        assert got[1] == 3.0 == _exact_cdf_quantile(values, weights, 1.0)
+    table = from_table(values, weights, probabilities=True, normalise=False)
+    from tailgauge.core import DescribeOptions, describe
+
+    described = describe(table, DescribeOptions(probabilities=(1.0,)), kind="table")
+    assert described.quantiles[0].value == 3.0 == described.descriptors["maximum"].value
+    weighted = from_samples([1.0, 2.0, 3.0], omit_missing=False, weights=[0.5, 0.5, 1e-17])
+    described = describe(weighted, DescribeOptions(probabilities=(1.0,), quantile_type=1), kind="samples")
+    assert described.quantiles[0].value == 3.0
+
+
+@pytest.mark.parametrize("seed", range(6))
+def test_cdf_quantiles_equal_exact_rational_arithmetic(seed):
+    """Tails of every size, down to weights far below the total's rounding: the answer is the
+    exact one (fractions.Fraction) wherever no step lies within the rounding allowance."""
+    rng = np.random.default_rng(seed)
+    k = 40
+    values = np.sort(rng.normal(0.0, 1.0, k))
+    weights = rng.uniform(0.1, 1.0, k)
+    tail = rng.integers(1, 8)
+    weights[-tail:] = 10.0 ** -rng.uniform(8.0, 300.0, tail)  # far tails: 1e-8 .. 1e-300 of the rest
+    weights[: rng.integers(0, 3)] = 1e-20  # and at the bottom
+    probabilities = np.array(
+        [0.0, 1e-25, 1e-15, 0.01, 0.25, 0.5, 0.75, 0.99, 1 - 1e-9, 1 - 1e-13, 1 - 2.0**-52, 1 - 2.0**-53, 1.0]
+    )
+    checked = [p for p in probabilities if _clear_of_steps(weights, p)]
+    assert 1.0 in checked and len(checked) >= 10
+    for average in (False, True):
+        got = order_statistics.cdf_quantiles(values, weights, np.array(checked), average_at_steps=average)
+        # Type 2 averages only where F(x) = p exactly: with these weights only at p = 0 and 1,
+        # where there is no value before or after, so it gives the type 1 answer too.
+        want = [_exact_cdf_quantile(values, weights, p) for p in checked]
+        assert got.tolist() == want, (checked, got, want)
+
+
+def test_truncated_poisson_table_against_its_closed_form():
+    """Poisson(4) truncated at 30, as a probability table of scipy.stats.poisson.pmf (scipy 1.17,
+    reference library). Closed form of the truncated distribution: P(X > k | X <= 30) =
+    (sf(k) - sf(30)) / cdf(30); Q(p) is the smallest k with that <= 1 - p, and Q(1) = 30."""
+    from scipy import stats
+
+    from tailgauge.core import DescribeOptions, describe
+
+    support = np.arange(31)
+    pmf = stats.poisson.pmf(support, 4.0)
+    probabilities = (0.5, 0.9, 0.99, 1 - 1e-6, 1 - 1e-9, 1 - 1e-12, 1 - 1e-14, 1.0)
+    described = describe(
+        from_table(support.astype(np.float64), pmf, probabilities=True, normalise=False),
+        DescribeOptions(probabilities=probabilities),
+        kind="table",
+    )
+    above = (stats.poisson.sf(support, 4.0) - stats.poisson.sf(30, 4.0)) / stats.poisson.cdf(30, 4.0)
+    for quantile, p in zip(described.quantiles, probabilities):
+        closed_form = int(np.flatnonzero(above <= 1.0 - p)[0])
+        assert quantile.value == float(closed_form) == _exact_cdf_quantile(support, pmf, p), p
+    assert described.quantiles[-1].value == 30.0

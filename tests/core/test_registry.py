@@ -180,6 +180,9 @@ def _produced() -> dict[str, str]:
             kind="samples"),
         "values near float64's limit": lambda: describe(
             from_array(np.array([1e308, -1e308, 1.7e308, 3.0])), DescribeOptions(moment_order=8), kind="samples"),
+        # The mean-median gap divides by a standard deviation beyond float64: no specific code.
+        "a spread beyond float64": lambda: describe(
+            from_array(np.array([-1.7e308, 1.7e308])), DescribeOptions(), kind="samples"),
         "unnormalized probabilities": lambda: describe(
             from_table(outcomes, counts / counts.sum() * 1.5, probabilities=True, normalise=True), DescribeOptions(),
             kind="table"),

@@ -128,13 +128,46 @@ def test_frequency_weights_give_the_repeated_sample_shape():
     assert found["g2"] == pytest.approx(scipy.stats.kurtosis(repeated, bias=True), rel=1e-12)
 
 
-def test_too_few_observations_give_none():
-    # G1 needs n >= 3 and G2 n >= 4 (their formulas divide by n - 2 and n - 3).
+def test_too_few_observations_give_none_only_for_the_adjusted_families():
+    # G1 needs n >= 3 and G2 n >= 4 (their formulas divide by n - 2 and n - 3); g1, b1, g2 and b2
+    # are defined from n = 2 (issue 15: they were null at n = 2, and g2, b2 at n = 3).
     three = estimators(np.array([1.0, 2.0, 4.0]))
-    assert all(three[f][0] is not None for f in ("g1", "G1", "b1"))
-    assert all(three[f] == (None, None) for f in ("g2", "G2", "b2"))
+    assert all(three[f][0] is not None for f in ("g1", "G1", "b1", "g2", "b2"))
+    assert three["G2"] == (None, None)
     two = estimators(np.array([1.0, 2.0]))
-    assert all(value == (None, None) for value in two.values())
+    assert two["G1"] == two["G2"] == (None, None)
+    assert all(two[f][0] is not None for f in ("g1", "b1", "g2", "b2"))
+
+
+@pytest.mark.parametrize("values", [[1.0, 2.0], [-3.5, 10.25], [1.0, 2.0, 4.0], [0.0, 0.0, 7.0], [5.0, -1.0, 2.5]])
+def test_families_at_two_and_three_values_match_scipy_and_joanes_gill(values):
+    """Issue 15 regression. scipy 1.17 (reference library) with bias=True gives g1 and g2 (for two
+    distinct values g1 = 0 and g2 = -2; for three, g2 = -1.5); b1 = g1 ((n-1)/n)^1.5 and
+    b2 = (g2 + 3)((n-1)/n)^2 - 3 (Joanes & Gill 1998). The exact normal-theory standard errors
+    are 0 there: every sample of that size gives the same g1 (n = 2) and g2 (n = 2, 3)."""
+    x = np.array(values)
+    n = x.size
+    g1 = float(scipy.stats.skew(x, bias=True))
+    g2 = float(scipy.stats.kurtosis(x, fisher=True, bias=True))
+    ratio = (n - 1) / n
+    reference = {"g1": g1, "b1": g1 * ratio**1.5, "g2": g2, "b2": (g2 + 3.0) * ratio**2 - 3.0}
+    for convention in ("sample", "population"):
+        result = describe(from_array(x), DescribeOptions(convention=convention), kind="samples")
+        rows = result.shape_estimators.skewness + result.shape_estimators.excess_kurtosis
+        found = {row.estimator: (row.value, row.standard_error_under_normality) for row in rows}
+        for family, expected in reference.items():
+            assert found[family][0] == pytest.approx(expected, rel=1e-12, abs=1e-15), (family, convention)
+        assert found["g2"][1] == 0.0 and math.copysign(1.0, found["g2"][1]) == 1.0
+        if n == 2:
+            assert found["g1"][1] == 0.0 and found["G1"] == (None, None)
+        else:
+            assert found["G1"][0] == pytest.approx(float(scipy.stats.skew(x, bias=False)), rel=1e-12)
+        assert found["G2"] == (None, None)
+        # Which families appear depends on n alone, not on the convention.
+        if convention == "sample":
+            sample_defined = {family for family, (value, _) in found.items() if value is not None}
+        else:
+            assert {family for family, (value, _) in found.items() if value is not None} == sample_defined
 
 
 # --- standard errors under normality: a seeded Monte Carlo ----------------------------------

@@ -449,7 +449,14 @@ def test_reliability_weights_shape_is_the_named_plug_in():
     assert "plug-in" in d["skewness"].estimator and d["skewness"].estimator.startswith("g1")
     assert "plug-in" in d["excess_kurtosis"].estimator and d["excess_kurtosis"].estimator.startswith("g2")
     assert d["skewness"].standard_error_under_normality is None
-    assert "plug_in_estimator" not in codes(result)
+    # The default (sample) convention asks for a bias correction these weights lack: the plug-in
+    # value is given and said to be one (issue 15: the warning was missing); the population
+    # convention asks for the plug-in itself.
+    (note,) = [n for n in result.warnings if n.code == "plug_in_estimator" and "skewness" in n.descriptors]
+    assert "g1" in note.message
+    population = samples(values, w, WeightMeaning.RELIABILITY, convention="population")
+    assert population.descriptors["skewness"].value == d["skewness"].value
+    assert "plug_in_estimator" not in codes(population)
 
     corrected = samples(
         values, w, WeightMeaning.RELIABILITY, skewness_estimator="G1", kurtosis_estimator="G2"

@@ -111,3 +111,18 @@ def sheppard_corrected(m2: float, m4: float, width: float) -> tuple[float, float
     """
     h2 = width * width
     return m2 - h2 / 12.0, m4 - 0.5 * h2 * m2 + 7.0 * h2 * h2 / 240.0
+
+
+def sheppard_variance(corrected_m2, width, factor):
+    """The variance of grouped data with Sheppard's correction, from the corrected second moment
+    ``m2 - h^2 / 12`` (:func:`sheppard_corrected`) and the variance factor (``moments.variance_factor``).
+
+    The correction applies to the variance itself, whatever its divisor: ``m2 - h^2 / 12`` under
+    the population convention (factor 1) and ``s^2 - h^2 / 12`` under the sample one (factor
+    ``N / (N - 1)``), not ``(m2 - h^2 / 12) N / (N - 1)``: the grouping adds ``h^2 / 12`` to the
+    expected variance of the midpoints, estimated without bias by ``s^2`` (Kendall & Stuart
+    vol. 1, section 3.18). Written as ``(m2 - h^2/12) f + (f - 1) h^2 / 12``, the same value.
+    Floats or arrays (the bootstrap's many rows).
+    """
+    return corrected_m2 * factor + (factor - 1.0) * (width * width / 12.0)
+

@@ -138,8 +138,11 @@ class CentralSums:
         """Plug-in raw moment ``E[x**order]``, from the central moments by the binomial theorem.
 
         Computed relative to ``R = 2**r >= max(|mean|, 2**scale_exponent)`` so no intermediate
-        overflows; the result is NaN only when the moment itself is beyond float64.
+        overflows; the result is NaN only when the moment itself is beyond float64. The first is
+        the mean itself, the same representable value (also when it is subnormal).
         """
+        if order == 1:
+            return self.mean
         if self.mean == 0.0:
             reference = self.scale_exponent
         else:

@@ -164,18 +164,34 @@ class CumulativeRow:
     unit_sorted = False
     count = 1
 
-    def __init__(
-        self, weights: np.ndarray | None, cumulative: np.ndarray | None = None, total: float | None = None
-    ) -> None:
-        if cumulative is None:
-            assert weights is not None
-            cumulative = np.cumsum(weights)
+    def __init__(self, weights: np.ndarray, cumulative: np.ndarray | None = None, total: float | None = None) -> None:
         self.weights = weights
-        self._cumulative = cumulative
-        self.total = np.array([cumulative[-1] if total is None else total], dtype=np.float64)
+        self._cumulative = np.cumsum(weights) if cumulative is None else cumulative
+        self.total = np.array([self._cumulative[-1] if total is None else total], dtype=np.float64)
+        self._after: np.ndarray | None = None
+
+    def _weight_after(self) -> np.ndarray:
+        """The weight held after each position, summed from the top (negated, so it increases)."""
+        if self._after is None:
+            after = np.zeros(self.weights.size)
+            np.cumsum(self.weights[:0:-1], out=after[-2::-1])
+            self._after = -after
+        return self._after
 
     def first_reaching(self, target: np.ndarray) -> np.ndarray:
-        return np.minimum(np.searchsorted(self._cumulative, target, side="left"), self._cumulative.size - 1)
+        """Below half the total from the cumulative weights; above it from the weight left after
+        each position, summed from the top: a float cumulative sum stops growing once the weights
+        left are below its rounding (0.5 + 0.5 + 1e-17 sums to 1), so it would reach a target near
+        the total before the last positions holding weight."""
+        last = self._cumulative.size - 1
+        target = np.asarray(target, dtype=np.float64)
+        upper = target > 0.5 * self.total[0]
+        found = np.searchsorted(self._cumulative, target, side="left")
+        if np.any(upper):
+            # C(i) >= t  <=>  weight after i <= T - t (exact in float64 for t >= T/2, Sterbenz).
+            left = self.total[0] - target[upper]
+            found[upper] = np.searchsorted(self._weight_after(), -left, side="left")
+        return np.minimum(found, last)
 
     def cumulative_at(self, index: np.ndarray) -> np.ndarray:
         return self._cumulative[index]
@@ -237,11 +253,16 @@ def cdf_quantiles(rows: Rows, values: np.ndarray, probabilities: np.ndarray, *, 
     with ``F(x) >= p`` (H&F type 1, the inverse of the distribution function); with
     ``average`` a ``p`` that equals ``F`` at a value exactly gives the average of that value
     and the next one holding weight (H&F type 2). For whole counts both equal H&F types 1 and 2
-    of the repeated sample. Cumulative sums carry rounding, so "exactly" allows a relative 1e-12.
+    of the repeated sample. Cumulative sums carry rounding, so "exactly" allows a relative 1e-12
+    of the nearer tail, never more: Q(p) does not stop below an outcome while the weight above it
+    exceeds (1 - p) T, and Q(1) is the largest outcome holding weight.
     """
     total = rows.total[:, None]
     target = np.asarray(probabilities, dtype=np.float64)[None, :] * total
-    slack = CDF_TOLERANCE * total
+    # The allowance is relative to the nearer tail, p T or (1 - p) T: one relative to the total
+    # would pass over outcomes holding less than 1e-12 of it (a Poisson table's far tail), and
+    # Q(1) must be the largest outcome holding weight.
+    slack = CDF_TOLERANCE * np.minimum(target, total - target)
     index = rows.first_reaching(target - slack)
     result = values[index]
     if average:

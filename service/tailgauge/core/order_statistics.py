@@ -59,12 +59,17 @@ def quantiles(data: WeightedData, probabilities: np.ndarray, quantile_type: int)
 
 
 def cdf_quantiles(
-    values: np.ndarray, cumulative: np.ndarray, probabilities: np.ndarray, *, average_at_steps: bool
+    values: np.ndarray,
+    weights: np.ndarray,
+    probabilities: np.ndarray,
+    *,
+    average_at_steps: bool,
+    cumulative: np.ndarray | None = None,
 ) -> np.ndarray:
     """Quantiles of a weighted empirical distribution given by sorted ``values`` (each holding
-    weight) and their ``cumulative`` weights: H&F type 1, or type 2 with ``average_at_steps``
-    (see :func:`tailgauge.core.order_rules.cdf_quantiles`)."""
-    row = order_rules.CumulativeRow(None, cumulative)
+    weight), their ``weights`` and (when at hand) ``cumulative`` weights: H&F type 1, or type 2
+    with ``average_at_steps`` (see :func:`tailgauge.core.order_rules.cdf_quantiles`)."""
+    row = order_rules.CumulativeRow(weights, cumulative)
     return order_rules.cdf_quantiles(row, values, probabilities, average=average_at_steps)[0]
 
 

@@ -124,7 +124,8 @@ DESCRIPTORS: tuple[DescriptorFacts, ...] = (
     _descriptor(
         "variance", "sum w (x - mean)^2 / divisor; divisor n - 1 (sample), n (population), V1 - V2/V1 (reliability weights)",
           ("convention", "weights", "sheppard_correction"), (_ONE, _OPEN),
-          "Bessel's correction; reliability weights: e.g. GNU Scientific Library manual, weighted samples",
+          "Bessel's correction; reliability weights: e.g. GNU Scientific Library manual, weighted samples; Sheppard "
+          "1898 for bins of equal width h: s^2 - h^2/12 (sample), m2 - h^2/12 (population)",
         family="spread", needs=_SUMS, classical=True, scale=True,
     ),
     _descriptor(
@@ -139,18 +140,18 @@ DESCRIPTORS: tuple[DescriptorFacts, ...] = (
     ),
     _descriptor(
         "skewness", "g1 = m3 / m2^1.5; G1 = g1 sqrt(n(n-1))/(n-2); b1 = g1 ((n-1)/n)^1.5",
-          ("convention", "skewness_estimator"), (_ONE, _CONSTANT, "n < 3 (sample estimators)", _OPEN),
+          ("convention", "skewness_estimator"), (_ONE, _CONSTANT, "n < 3 (G1; g1 and b1 need n >= 2)", _OPEN),
           "Joanes & Gill, The Statistician 47, 1998",
         family="shape", needs=_SUMS,
     ),
     _descriptor(
         "kurtosis", "excess kurtosis + 3 (normal = 3)", ("convention", "kurtosis_estimator"),
-          (_ONE, _CONSTANT, "n < 4 (sample estimators)", _OPEN), "Joanes & Gill 1998",
+          (_ONE, _CONSTANT, "n < 4 (G2; g2 and b2 need n >= 2)", _OPEN), "Joanes & Gill 1998",
         family="shape", needs=_SUMS,
     ),
     _descriptor(
         "excess_kurtosis", "g2 = m4 / m2^2 - 3; G2 = (n-1)/((n-2)(n-3)) ((n+1) g2 + 6); b2 = (g2 + 3)((n-1)/n)^2 - 3",
-          ("convention", "kurtosis_estimator"), (_ONE, _CONSTANT, "n < 4 (sample estimators)", _OPEN),
+          ("convention", "kurtosis_estimator"), (_ONE, _CONSTANT, "n < 4 (G2; g2 and b2 need n >= 2)", _OPEN),
           "Joanes & Gill 1998",
         family="shape", needs=_SUMS,
     ),
@@ -256,11 +257,13 @@ MEMBERS: tuple[CatalogEntry, ...] = (
           "every value with the largest count; bins: the interpolated mode of each modal class (largest density)",
           (), ("every value occurs once",), "grouped mode: Kendall & Stuart, vol. 1"),
     CatalogEntry("shape_estimators", "shape_estimators", "g1, G1, b1 and g2, G2, b2 side by side, with normal-theory "
-          "standard errors", (), (_ONE, _CONSTANT, "n < 3 or 4"), "Joanes & Gill 1998"),
+          "standard errors", (), (_ONE, _CONSTANT, "n < 2; G1: n < 3; G2: n < 4"), "Joanes & Gill 1998"),
     CatalogEntry("tail_contributions", "tail_contributions",
           "per outcome: third = w (x - mean)^3 / (W sigma^3), fourth = w (x - mean)^4 / (W sigma^4); they sum to "
           "g1 and g2 + 3", (), (_ONE, _CONSTANT, _OPEN), "decomposition of the plug-in standardized moments"),
-    CatalogEntry("grouping", "grouping", "bin width, open ends, modal classes, whether Sheppard's corrections applied",
+    CatalogEntry("grouping", "grouping", "bins and open ends as sent, bin width, modal classes, whether Sheppard's "
+          "corrections applied (central moments m2 - h^2/12 and m4 - h^2 m2/2 + 7 h^4/240; the variance s^2 - h^2/12 "
+          "under the sample convention, m2 - h^2/12 under the population one)",
           ("sheppard_correction",), ("input other than bins",), "Sheppard, Proc. London Math. Soc. 29, 1898"),
     CatalogEntry("normality.skewness_test", "normality", "D'Agostino's z transform of g1", (),
           ("n < 8", "not a sample with whole counts"), "D'Agostino, Biometrika 57, 1970"),
@@ -450,6 +453,8 @@ UNDEFINED_FOR_ONE = names(
 UNDEFINED_FOR_CONSTANT = names(
     "shape", "robust_shape", "l_moment", "serial", where=lambda facts: facts.undefined_for_constant
 )
+# Undefined while an open-ended bin holds data (its values are unknown), in response order.
+UNDEFINED_FOR_OPEN_BIN = tuple(facts.name for facts in DESCRIPTORS if _OPEN in facts.undefined_when)
 # What partial states cannot give: descriptors needing the values (serial order last), and those
 # that a quantile sketch of the same data can stand in for.
 NEEDS_VALUES = tuple(

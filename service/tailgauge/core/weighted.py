@@ -64,6 +64,8 @@ class WeightedData:
     For binned counts, ``edges`` holds the k + 1 bin edges (``-inf``/``+inf`` for an open end)
     and ``values`` the k bin midpoints; an open bin's value is its finite edge, a placeholder
     that is never used because moments are undefined while an open bin holds data.
+    ``empty_open_ends`` says which open-ended bins (lower, upper) were sent empty and left out,
+    so what was sent can still be reported.
     """
 
     values: np.ndarray
@@ -74,6 +76,7 @@ class WeightedData:
     zero_weight: int = 0
     normalised_from: float | None = None
     edges: np.ndarray | None = None
+    empty_open_ends: tuple[bool, bool] = (False, False)
 
     @property
     def count(self) -> int:
@@ -300,6 +303,7 @@ def from_bins(edges: list[float | None], counts: list[float]) -> WeightedData:
         keep[0] = False
     if np.isinf(edge_array[-1]) and count_array[-1] == 0.0:
         keep[-1] = False
+    empty_open_ends = (not keep[0], not keep[-1])
     if not keep.all():
         edge_keep = np.ones(edge_array.size, dtype=bool)
         if not keep[0]:
@@ -322,6 +326,7 @@ def from_bins(edges: list[float | None], counts: list[float]) -> WeightedData:
         meaning=WeightMeaning.FREQUENCY,
         ordered=False,
         edges=edge_array,
+        empty_open_ends=empty_open_ends,
     )
 
 

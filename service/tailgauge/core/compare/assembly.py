@@ -34,7 +34,8 @@ class Comparison:
     ``SCALE_DESCRIPTORS`` (values ``None`` where undefined); ``quantile_shifts`` and
     ``standardized_quantiles`` follow the requested probabilities; ``resampling`` echoes the
     interval request (``None`` without one) while each input's own ``resampling`` names the
-    seed spawned for it. ``warnings`` holds both inputs' warnings and the comparison's own.
+    seed spawned for it. ``warnings`` holds the comparison's own warnings, about its contrasts;
+    each input's warnings are in its description (``first.warnings``, ``second.warnings``).
     """
 
     first: Description
@@ -163,11 +164,6 @@ def compare(
     note_conventions(described, notes)
     pending.emit(notes)
 
-    inherited = [
-        ComparisonWarning(side, note.code, note.message, list(note.descriptors))
-        for side, description in zip(("first", "second"), described)
-        for note in description.warnings
-    ]
     resampling = None
     if interval is not None:
         schemes = [d.resampling.scheme for d in described if d.resampling is not None]
@@ -187,6 +183,8 @@ def compare(
         quantile_shifts=shifts,
         standardized_quantiles=standardized,
         distribution_test=test,
-        warnings=inherited + notes.of_comparison(),
+        # Each input's own warnings stay in its description (first, second): said once, where
+        # they belong; the comparison lists only what concerns its contrasts.
+        warnings=notes.of_comparison(),
         resampling=resampling,
     )

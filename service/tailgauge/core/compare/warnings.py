@@ -20,9 +20,9 @@ from tailgauge.core.registry import WarningCode
 
 @dataclass(frozen=True)
 class ComparisonWarning:
-    """A warning of the comparison: ``side`` is "first" or "second" for a warning of that input's
-    description (``descriptors`` name its members), or "comparison" for the contrasts' own
-    (``descriptors`` name comparison members, e.g. "differences.mean", "quantile_shifts[2]")."""
+    """A warning of the comparison about its contrasts: ``side`` is "comparison" and ``descriptors``
+    name comparison members, e.g. "differences.mean", "quantile_shifts[2]". (The values "first"
+    and "second" remain in the schema; each input's warnings are in its own description.)"""
 
     side: str
     code: str

@@ -31,7 +31,7 @@ from tailgauge.core.describe.results import (
 from tailgauge.core.describe.validation import check_description
 from tailgauge.core.errors import LimitExceeded, Location
 from tailgauge.core.moments import CentralSums, central_sums
-from tailgauge.core.registry import MOMENT_DESCRIPTORS, WarningCode
+from tailgauge.core.registry import UNDEFINED_FOR_OPEN_BIN, WarningCode
 from tailgauge.core.weighted import WeightedData, WeightMeaning
 
 PLUG_IN_CENTRAL_MOMENTS = "plug-in: sum of w (x - mean)^k divided by the total weight"
@@ -92,16 +92,18 @@ def describe(data: WeightedData, options: DescribeOptions, *, kind: str) -> Desc
     moments_defined = data.open_bin_weight == 0.0
     sums = midpoint_sums = None
     sheppard_applied = False
+    sheppard_width = None
     if moments_defined:
         sums = midpoint_sums = central_sums(data.values, data.weights, max(options.moment_order, 4))
         if data.binned and options.sheppard_correction:
-            sums, sheppard_applied = moment_based.sheppard(data, sums, notes)
+            sums, sheppard_width = moment_based.sheppard(data, sums, notes)
+            sheppard_applied = sheppard_width is not None
     else:
         notes.add(
             WarningCode.OPEN_BIN_HOLDS_DATA,
             f"open-ended bins hold {data.open_bin_weight:g} of the {data.total_weight:g} counts, so their "
             "values are unknown and no moment can be computed; quantiles in closed bins are still given",
-            MOMENT_DESCRIPTORS + ("moments", "shape_estimators", "tail_contributions"),
+            UNDEFINED_FOR_OPEN_BIN + ("moments", "shape_estimators", "tail_contributions"),
         )
     # Every count in one bin: its midpoint would read as zero spread, but the spread is unknown.
     constant = sums is not None and sums.scaled_central_moment(2) == 0.0 and not basis.single_bin
@@ -119,6 +121,7 @@ def describe(data: WeightedData, options: DescribeOptions, *, kind: str) -> Desc
             "mean of bin midpoints" if data.binned else "weighted arithmetic mean" if weighted else "arithmetic mean"
         ),
         lowest=moment_based.lowest_value(data),
+        sheppard_width=sheppard_width,
     )
     _on_time(options)
     quantile_values, robust_quantiles = order_based.order_descriptors(descriptors, data, basis, options, notes)

@@ -104,7 +104,9 @@ def check_symmetry(
         quartiles = grouped.quantiles(data, probabilities)
     else:
         support = data.support
-        quartiles = order_statistics.cdf_quantiles(support.values, support.cumulative, probabilities, average_at_steps=True)
+        quartiles = order_statistics.cdf_quantiles(
+            support.values, support.weights, probabilities, average_at_steps=True, cumulative=support.cumulative
+        )
     note_asymmetry(descriptors, quartiles, basis, notes)
 
 

@@ -14,7 +14,7 @@ from tailgauge.core.describe.basis import Basis
 from tailgauge.core.describe.warnings import Warnings, finite_or_none
 from tailgauge.core.describe.options import DescribeOptions
 from tailgauge.core.describe.results import Contribution, Descriptor, Moments, ShapeEstimate, ShapeEstimators, TailContributions
-from tailgauge.core.moments import CentralSums
+from tailgauge.core.moments import CentralSums, scale_by_power_of_two
 from tailgauge.core.registry import WarningCode
 from tailgauge.core.serial import lag1_autocorrelation
 from tailgauge.core.weighted import WeightedData
@@ -36,20 +36,29 @@ def moment_descriptors(
     *,
     mean_label: str,
     lowest: float,
+    sheppard_width: float | None = None,
 ) -> None:
     """Mean, variance, standard deviation, coefficient of variation, skewness and kurtosis from ``sums``.
 
     ``lowest`` is the smallest value (for bins, the lower edge of the lowest occupied bin): the
-    coefficient of variation is defined only on a ratio scale.
+    coefficient of variation is defined only on a ratio scale. ``sheppard_width``: the bin width
+    in the scaled units of ``sums`` when they carry Sheppard's corrections (the variance is then
+    ``grouped.sheppard_variance``: s^2 - h^2/12 under the sample convention).
     """
     mean = None if sums is None else notes.finite(sums.mean, "mean")
     descriptors["mean"] = Descriptor(mean, mean_label)
     variance = sd = None
+    variance_label = basis.variance_label
     if sums is not None and not basis.single:
-        variance = notes.finite(sums.central_moment(2) * basis.variance_factor, "variance")
-        # Square root taken in scaled units, so it is representable even when the variance is not.
-        sd = notes.finite(sums.standard_deviation(basis.variance_factor), "standard_deviation")
-    descriptors["variance"] = Descriptor(variance, basis.variance_label)
+        # In scaled units, so the square root is representable even when the variance is not.
+        scaled = sums.scaled_central_moment(2) * basis.variance_factor
+        if sheppard_width is not None:
+            scaled = grouped.sheppard_variance(sums.scaled_central_moment(2), sheppard_width, basis.variance_factor)
+            variance_label += ", Sheppard-corrected (" + ("m2" if basis.population else "s^2") + " - h^2/12)"
+        exponent = sums.scale_exponent
+        variance = notes.finite(scale_by_power_of_two(scaled, 2 * exponent), "variance")
+        sd = notes.finite(scale_by_power_of_two(math.sqrt(scaled), exponent), "standard_deviation")
+    descriptors["variance"] = Descriptor(variance, variance_label)
     descriptors["standard_deviation"] = Descriptor(sd, f"square root of the {basis.variance_label} variance")
     descriptors["coefficient_of_variation"] = Descriptor(
         coefficient_of_variation(lowest, sums, sd, basis, notes),
@@ -103,7 +112,15 @@ def shape_descriptors(
         label = f"{family} (plug-in)" if basis.reliability and family == plug_in_family else family
         if sums is not None:
             value, error, reason = family_estimate(family, sums, basis, undefined)
-            if reason == "bias-corrected":
+            if reason is None and value is not None and basis.reliability and not basis.population:
+                # The sample convention asks for a bias-corrected value, which these weights lack.
+                notes.add(
+                    WarningCode.PLUG_IN_ESTIMATOR,
+                    f"reliability weights have no published bias-corrected {name.replace('_', ' ')}; "
+                    f"the plug-in {plug_in_family} is reported",
+                    affected,
+                )
+            elif reason == "bias-corrected":
                 # No published bias correction for these weights: the plug-in value, named as such.
                 value, error, _ = family_estimate(plug_in_family, sums, basis, undefined)
                 label = f"{plug_in_family} (plug-in)"
@@ -142,9 +159,7 @@ def family_estimate(
     assert n is not None
     minimum = shape.SKEWNESS_MIN_N[family] if skewness else shape.KURTOSIS_MIN_N[family]
     if n < minimum:
-        if basis.population and family in ("g1", "g2"):
-            # A population's own skewness needs only spread; its sampling error needs n.
-            return finite_or_none(plug_in), None, None
+        # The same for either convention: which families are defined depends on n alone.
         return None, None, f"needs at least {minimum} observations; n = {n:g}"
     estimate = (shape.skewness if skewness else shape.excess_kurtosis)(plug_in, n, family)
     return finite_or_none(float(estimate.value)), finite_or_none(float(estimate.standard_error)), None
@@ -183,7 +198,9 @@ def moments_member(sums: CentralSums, top: int, single: bool, constant: bool, no
 
 
 
-def sheppard(data: WeightedData, sums: CentralSums, notes: Warnings) -> tuple[CentralSums, bool]:
+def sheppard(data: WeightedData, sums: CentralSums, notes: Warnings) -> tuple[CentralSums, float | None]:
+    """The sums with Sheppard's corrections of orders 2 and 4, and the bin width in their scaled
+    units (``None``, with the sums unchanged, where the corrections do not apply)."""
     width = grouped.equal_width(data)
     if width is None:
         notes.add(
@@ -191,7 +208,7 @@ def sheppard(data: WeightedData, sums: CentralSums, notes: Warnings) -> tuple[Ce
             "Sheppard's corrections assume bins of equal width; these widths differ, so no correction was applied",
             ["variance", "standard_deviation", "kurtosis", "excess_kurtosis", "moments"],
         )
-        return sums, False
+        return sums, None
     # In the scaled units of the sums, so the correction is exact wherever float64 can hold it.
     scaled_width = math.ldexp(width, -sums.scale_exponent)
     m2, m4 = sums.scaled_central_moment(2), sums.scaled_central_moment(4)
@@ -203,11 +220,11 @@ def sheppard(data: WeightedData, sums: CentralSums, notes: Warnings) -> tuple[Ce
             "fourth moment would not be positive, so no correction was applied",
             ["variance", "standard_deviation", "kurtosis", "excess_kurtosis", "moments"],
         )
-        return sums, False
+        return sums, None
     corrected = sums.sums.copy()
     corrected[2] = corrected2 * sums.total_weight
     corrected[4] = corrected4 * sums.total_weight
-    return dataclasses.replace(sums, sums=corrected), True
+    return dataclasses.replace(sums, sums=corrected), scaled_width
 
 
 
@@ -261,13 +278,15 @@ def lowest_value(data: WeightedData) -> float:
 def lag1(
     data: WeightedData, sums: CentralSums | None, single: bool, constant: bool, notes: Warnings
 ) -> float | None:
-    if single or constant or sums is None:
-        return None
+    # No order first: it leaves r(1) undefined whatever else the data are (tables, bins with an
+    # open bin, weighted samples).
     if not data.ordered or data.weights is not None:
         notes.add(
             WarningCode.NO_OBSERVATION_ORDER,
             "lag-1 autocorrelation needs unweighted observations in their original order",
             ["lag1_autocorrelation"],
         )
+        return None
+    if single or constant or sums is None:
         return None
     return finite_or_none(lag1_autocorrelation(data.values, sums))

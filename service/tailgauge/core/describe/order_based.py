@@ -20,6 +20,8 @@ NORMAL_MAD_LABEL = (
 )
 
 
+# The robust shape measures built on those quantiles.
+QUANTILE_SHAPE_DESCRIPTORS = ("quartile_skewness", "octile_kurtosis", "octile_excess_kurtosis")
 # Probabilities behind quartile skewness (Q1, Q2, Q3) and octile kurtosis (E1 .. E7).
 ROBUST_PROBABILITIES = np.array([0.25, 0.5, 0.75, 1 / 8, 2 / 8, 3 / 8, 5 / 8, 6 / 8, 7 / 8])
 
@@ -103,14 +105,18 @@ def sample_quantiles(
     elif quantile_type in (1, 2):
         support = data.support
         values = order_statistics.cdf_quantiles(
-            support.values, support.cumulative, probabilities, average_at_steps=quantile_type == 2
+            support.values,
+            support.weights,
+            probabilities,
+            average_at_steps=quantile_type == 2,
+            cumulative=support.cumulative,
         )
     else:
         notes.add(
             WarningCode.INTEGER_COUNTS_REQUIRED,
             f"quantile type {quantile_type} is defined through the order statistics of whole observations; "
             "these weights are not whole counts, so use quantile_type 1 or 2",
-            ["quantiles", "interquartile_range"],
+            ["quantiles", "interquartile_range", *QUANTILE_SHAPE_DESCRIPTORS],
         )
         values = np.full(probabilities.size, np.nan)
     return values[:2], values[2:]
@@ -160,12 +166,14 @@ def grouping(data: WeightedData, classes: list[grouped.ModalClass], sheppard_app
     lowest = edges[occupied[0]]
     highest = edges[occupied[-1] + 1]
     width = grouped.equal_width(data)
+    # The bins as sent: empty open-ended bins were left out of the data but are still reported.
+    empty_lower, empty_upper = data.empty_open_ends
     return Grouping(
-        bins=int(data.weights.size),
+        bins=int(data.weights.size) + int(empty_lower) + int(empty_upper),
         bin_width=width,
         equal_widths=width is not None,
-        open_lower=bool(np.isinf(edges[0])),
-        open_upper=bool(np.isinf(edges[-1])),
+        open_lower=bool(np.isinf(edges[0])) or empty_lower,
+        open_upper=bool(np.isinf(edges[-1])) or empty_upper,
         open_bin_weight=data.open_bin_weight,
         lowest_edge=finite_or_none(float(lowest)),
         highest_edge=finite_or_none(float(highest)),

@@ -45,7 +45,10 @@ def robust_descriptors(
     """Quartile skewness, octile kurtosis, medcouple, half-sample mode, mean-median gap, L-moments."""
     method = "grouped quantiles" if data.binned else f"quantiles type {basis.quantile_type}"
     undefined = "single" if basis.single else "constant" if constant else None
-    quantile_shape(descriptors, quantiles, method, undefined, notes)
+    missing = None
+    if data.binned:
+        missing = (WarningCode.QUANTILE_IN_OPEN_BIN, "a quantile behind the ratio falls inside an open-ended bin")
+    quantile_shape(descriptors, quantiles, method, undefined, notes, missing)
 
     mc = hsm = None
     if data.binned:
@@ -90,13 +93,22 @@ def quantile_shape(
     method: str,
     undefined: str | None,
     notes: Warnings,
+    missing: tuple[WarningCode, str] | None = None,
 ) -> None:
-    """Quartile skewness and octile kurtosis from the quantiles at ``ROBUST_PROBABILITIES``."""
+    """Quartile skewness and octile kurtosis from the quantiles at ``ROBUST_PROBABILITIES``.
+
+    A ratio left undefined gets its own reason: ``missing`` (code and message) where a quantile
+    behind it is unknown (``None``: the caller has already named these descriptors, as for
+    quantile types that need whole counts), ``quantile_spread_zero`` where its denominator is
+    zero, ``not_representable`` where the ratio overflows.
+    """
     q1, q2, q3, e1, e2, e3, e5, e6, e7 = np.asarray(quantiles, dtype=np.float64)  # numpy scalars: no ZeroDivisionError
     with np.errstate(over="ignore", invalid="ignore", divide="ignore"):
         # Halves first, so quantiles near +-1.8e308 do not overflow before the ratio.
-        bowley = (0.5 * q3 + 0.5 * q1 - q2) / (0.5 * q3 - 0.5 * q1)
-        moors = ((0.5 * e7 - 0.5 * e5) + (0.5 * e3 - 0.5 * e1)) / (0.5 * e6 - 0.5 * e2)
+        bowley_spread = 0.5 * q3 - 0.5 * q1
+        moors_spread = 0.5 * e6 - 0.5 * e2
+        bowley = (0.5 * q3 + 0.5 * q1 - q2) / bowley_spread
+        moors = ((0.5 * e7 - 0.5 * e5) + (0.5 * e3 - 0.5 * e1)) / moors_spread
     defined_bowley = undefined is None and math.isfinite(bowley)
     defined_moors = undefined is None and math.isfinite(moors)
     descriptors["quartile_skewness"] = Descriptor(
@@ -109,15 +121,32 @@ def quantile_shape(
         float(moors - NORMAL_OCTILE_KURTOSIS) if defined_moors else None,
         f"octile kurtosis - {NORMAL_OCTILE_KURTOSIS!r} (its normal value)",
     )
-    if undefined is None and not (defined_bowley and defined_moors):
-        affected = [n for n, ok in (("quartile_skewness", defined_bowley), ("octile_kurtosis", defined_moors)) if not ok]
-        if "octile_kurtosis" in affected:
-            affected.append("octile_excess_kurtosis")
+    if undefined is not None:
+        return
+    reasons: dict[str, list[str]] = {"missing": [], "zero": [], "overflow": []}
+    for names_, defined, behind, spread in (
+        (["quartile_skewness"], defined_bowley, (q1, q2, q3), bowley_spread),
+        (["octile_kurtosis", "octile_excess_kurtosis"], defined_moors, (e1, e2, e3, e5, e6, e7), moors_spread),
+    ):
+        if defined:
+            continue
+        reason = "missing" if not np.all(np.isfinite(behind)) else "zero" if spread == 0.0 else "overflow"
+        reasons[reason].extend(names_)
+    if reasons["missing"] and missing is not None:
+        notes.add(missing[0], missing[1], reasons["missing"])
+    if reasons["zero"]:
         notes.add(
             WarningCode.QUANTILE_SPREAD_ZERO,
-            "the quantiles in the denominator coincide (or fall in an open bin), so the ratio is undefined",
-            affected,
+            "the quantiles in the denominator coincide, so the ratio is undefined",
+            reasons["zero"],
         )
+    for name in reasons["overflow"]:
+        if name != "octile_excess_kurtosis":
+            notes.add(
+                WarningCode.NOT_REPRESENTABLE,
+                f"{name} is outside the range of float64 for these data (its denominator is too small)",
+                [name] + (["octile_excess_kurtosis"] if name == "octile_kurtosis" else []),
+            )
 
 
 
@@ -165,7 +194,7 @@ def l_moments(
                 support = data.support
                 values = lmoments.sample_lmoments(support.values, support.weights, exponent)
             label = "unbiased, from probability-weighted moments (Hosking 1990)"
-        elif not basis.single:
+        else:
             notes.add(
                 WarningCode.TOO_FEW_OBSERVATIONS,
                 f"the unbiased L-moments up to order 4 need at least 4 observations; n = {data.total_weight:g}",
