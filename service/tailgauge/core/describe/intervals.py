@@ -11,6 +11,8 @@ import numpy as np
 
 from tailgauge.core import classical, grouped, resample
 from tailgauge.core.describe.basis import Basis
+from tailgauge.core.describe.order_based import ROBUST_PROBABILITIES
+from tailgauge.core.describe.robust_shape import NORMAL_OCTILE_KURTOSIS
 from tailgauge.core.describe.warnings import Warnings, finite_or_none
 from tailgauge.core.describe.options import DescribeOptions
 from tailgauge.core.describe.results import Descriptor, Quantile, Resampling
@@ -62,6 +64,7 @@ def intervals(
         threads=options.resample_threads,
         subset_rows=options.subset_rows,
         sheppard_width=sheppard_width,
+        quantile_shape=resample.QuantileShape(ROBUST_PROBABILITIES, NORMAL_OCTILE_KURTOSIS),
     )
     fallbacks: dict[str, list[str]] = {}
     undefined: dict[str, list[str]] = {}

@@ -57,7 +57,7 @@ from tailgauge.core.resample.intervals import (
 from tailgauge.core.resample.little import little_bootstraps
 from tailgauge.core.resample.pool import pool
 from tailgauge.core.resample.rows import LeaveOneOut, Rows, Scratch
-from tailgauge.core.resample.statistics import Statistics
+from tailgauge.core.resample.statistics import QuantileShape, Statistics
 from tailgauge.core.weighted import WeightedData
 
 __all__ = [
@@ -71,6 +71,7 @@ __all__ = [
     "BootstrapResult",
     "Interval",
     "IntervalOptions",
+    "QuantileShape",
     "Replicates",
     "acceleration",
     "allowed_resamples",
@@ -97,6 +98,7 @@ def bootstrap(
     threads: int = 2,
     subset_rows: int = 100_000,
     sheppard_width: float | None = None,
+    quantile_shape: QuantileShape | None = None,
 ) -> BootstrapOutcome:
     """Bootstrap every defined scalar descriptor and requested quantile of ``data`` in one pass.
 
@@ -104,7 +106,8 @@ def bootstrap(
     ordinary bootstrap (percentile or basic intervals; BCa falls back to percentile).
 
     ``estimates`` are the point estimates from ``describe``; a descriptor whose estimate is
-    ``None`` gets no interval. Raises :class:`LimitExceeded` when resamples x support rows exceed
+    ``None`` gets no interval; so does a quantile-based shape measure without ``quantile_shape``
+    (the probabilities and constant of describe's definitions). Raises :class:`LimitExceeded` when resamples x support rows exceed
     ``max_work`` or the wall clock passes ``deadline`` (``time.monotonic()`` seconds).
     """
     plan, notes = plan_of(data, sums)
@@ -115,10 +118,10 @@ def bootstrap(
     if uses_subsets(plan, subset_rows):
         return little_bootstraps(
             plan, notes, estimates, quantile_estimates, probabilities,
-            Statistics(plan, families, quantile_type, factor_rule), options, deadline,
+            Statistics(plan, families, quantile_type, factor_rule, quantile_shape=quantile_shape), options, deadline,
         )
-    statistics = Statistics(plan, families, quantile_type, factor_rule, sheppard_width)
-    wanted = tuple(name for name in INTERVAL_DESCRIPTORS if estimates.get(name) is not None)
+    statistics = Statistics(plan, families, quantile_type, factor_rule, sheppard_width, quantile_shape)
+    wanted = statistics.wanted(estimates)
 
     own = threading.local()
 

@@ -19,14 +19,19 @@ EVALUATION_PART_BYTES = 16 << 20
 # size n**0.7, 20 of them (the paper's experiments find s = 10-20 and r = 50-100 enough).
 SUBSET_EXPONENT = 0.7
 SUBSETS = 20
+# Bytes per (row x support position) of the L-moments' dense rows (cumulative weights, their
+# plotting positions and powers; bins also the positions before each bin): the L-moments take
+# rows a part of at most EVALUATION_PART_BYTES at a time.
+LMOMENT_BYTES_PER_ELEMENT = 48
 
 
 def evaluation_row_bytes(rows: int, probabilities: int, *, bins: bool) -> int:
     """Working memory of ``Statistics.evaluate`` per evaluated row (measured with tracemalloc,
     rounded up; tests/core/test_cost.py checks it): about 128 bytes per order statistic looked up
-    (the quartiles and the requested quantiles, and the median and MAD searches), plus, for
-    binned data, the grouped MAD's arrays over every bin edge."""
-    per_row = 128 * (probabilities + 12)
+    (the quartiles, octiles and median of the quantile shape, the requested quantiles, and the
+    median and MAD searches), plus, for binned data, the grouped MAD's arrays over every bin
+    edge. The L-moments' dense rows are taken in parts of their own (``LMOMENT_BYTES_PER_ELEMENT``)."""
+    per_row = 128 * (probabilities + 19)
     if bins:
         per_row += 192 * (rows + 1)
     return per_row

@@ -13,6 +13,7 @@ import numpy as np
 from scipy import special
 
 from tailgauge.core.moments import scale_by_power_of_two
+from tailgauge.core.registry import BOOTSTRAP_DESCRIPTORS
 
 # Fewer observations than this make any bootstrap interval doubtful (common practice).
 SMALL_SAMPLE = 20
@@ -191,16 +192,5 @@ class BootstrapOutcome:
     replicates: Replicates | None = None
 
 
-INTERVAL_DESCRIPTORS = (
-    "mean",
-    "median",
-    "variance",
-    "standard_deviation",
-    "coefficient_of_variation",
-    "skewness",
-    "kurtosis",
-    "excess_kurtosis",
-    "interquartile_range",
-    "median_absolute_deviation",
-    "median_absolute_deviation_normal",
-)
+# What the engine resamples: the registry's bootstrap descriptors (in response order).
+INTERVAL_DESCRIPTORS = BOOTSTRAP_DESCRIPTORS

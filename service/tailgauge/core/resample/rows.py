@@ -194,6 +194,11 @@ class LeaveOneOut:
         return squares - own * own + remaining * remaining
 
     @property
+    def base_cumulative(self) -> np.ndarray:
+        """The full data's cumulative weights (k,), which every row changes at one position."""
+        return self._cumulative
+
+    @property
     def cumulative(self) -> np.ndarray:
         """Dense rows x k cumulative weights; only binned data (k = bins) ask for it."""
         dense = np.broadcast_to(self._cumulative, (self.positions.size, self.base.size)).copy()
