@@ -22,16 +22,17 @@ SUBSETS = 20
 # Bytes per (row x support position) of the L-moments' dense rows (cumulative weights, their
 # plotting positions and powers; bins also the positions before each bin): the L-moments take
 # rows a part of at most EVALUATION_PART_BYTES at a time.
-LMOMENT_BYTES_PER_ELEMENT = 48
+LMOMENT_BYTES_PER_ELEMENT = 32
 
 
 def evaluation_row_bytes(rows: int, probabilities: int, *, bins: bool) -> int:
     """Working memory of ``Statistics.evaluate`` per evaluated row (measured with tracemalloc,
-    rounded up; tests/core/test_cost.py checks it): about 128 bytes per order statistic looked up
-    (the quartiles, octiles and median of the quantile shape, the requested quantiles, and the
-    median and MAD searches), plus, for binned data, the grouped MAD's arrays over every bin
-    edge. The L-moments' dense rows are taken in parts of their own (``LMOMENT_BYTES_PER_ELEMENT``)."""
-    per_row = 128 * (probabilities + 19)
+    rounded up; tests/core/test_cost.py checks it): about 128 bytes per requested quantile, and
+    128 x 12 for the quartiles, the octiles and median of the quantile shape, and the median and
+    MAD searches (measured 104 bytes per quantile and 1,400-2,000 bytes besides, at k = 50 and
+    20,000), plus, for binned data, the grouped MAD's arrays over every bin edge. The L-moments'
+    dense rows are taken in parts of their own (``LMOMENT_BYTES_PER_ELEMENT``)."""
+    per_row = 128 * (probabilities + 12)
     if bins:
         per_row += 192 * (rows + 1)
     return per_row

@@ -132,8 +132,12 @@ def sample_pwms(view, deviations: np.ndarray, unbiased: bool) -> np.ndarray:
     order = np.arange(1.0, 5.0)
     if not unbiased:
         return (top - sums) / order
-    coefficients = unbiased_coefficients(total)
-    pwms = (top - np.einsum("rqp,rp->rq", coefficients, sums)) / order
+    # Resamples share one total (and the jackknife's rows another): one set of coefficients each.
+    totals, which = np.unique(total, return_inverse=True)
+    pwms = np.empty_like(sums)
+    for i, coefficients in enumerate(unbiased_coefficients(totals)):
+        rows = which == i
+        pwms[rows] = (top - sums[rows] @ coefficients.T) / order
     pwms[total < UNBIASED_MINIMUM] = np.nan
     return pwms
 

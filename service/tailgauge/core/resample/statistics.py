@@ -179,7 +179,11 @@ class Statistics:
         shaped = self.quantile_shape is not None and any(name in names for name in QUANTILE_SHAPE)
         if shaped:
             assert self.quantile_shape is not None
-            found = self.quantiles(view, np.concatenate((self.quantile_shape.probabilities, probabilities)))
+            # Each distinct probability is looked up once (the defaults share the quartiles and median).
+            distinct, where = np.unique(
+                np.concatenate((self.quantile_shape.probabilities, probabilities)), return_inverse=True
+            )
+            found = self.quantiles(view, distinct)[:, where]
             self._quantile_shape(out, found[:, :9])
             q1, q3, requested = found[:, 0], found[:, 2], found[:, 9:]
         else:
