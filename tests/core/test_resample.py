@@ -620,7 +620,7 @@ SCALE_POWER = {
     "variance": 2,
     **dict.fromkeys(
         ("skewness", "kurtosis", "excess_kurtosis", "coefficient_of_variation", "quartile_skewness", "octile_kurtosis",
-         "octile_excess_kurtosis", "mean_median_gap", "l_skewness", "l_kurtosis"),
+         "octile_excess_kurtosis", "mean_median_gap", "medcouple", "l_skewness", "l_kurtosis"),
         0,
     ),
 }

@@ -20,7 +20,13 @@ import math
 from dataclasses import dataclass
 
 from tailgauge.core import resample
-from tailgauge.core.resample.budget import LMOMENT_BYTES_PER_ELEMENT
+from tailgauge.core.resample.budget import (
+    LMOMENT_BYTES_PER_ELEMENT,
+    MEDCOUPLE_BYTES_PER_ELEMENT,
+    medcouple_fits,
+    medcouple_table_entries,
+    medcouple_work,
+)
 from tailgauge.core.resample.draws import BATCH_ELEMENTS, batch_size, tops_up
 from tailgauge.core.errors import LimitExceeded, Location
 from tailgauge.core.weighted import WeightedData, WeightMeaning
@@ -45,6 +51,9 @@ LMOMENT_SECONDS = 8e-9
 # Order statistics every resample looks up besides the requested quantiles: the median, and the
 # quartiles and octiles of the quantile-based shape (distinct from the requested ones or not).
 SHAPE_LOOKUPS = 10
+# Seconds per element of the medcouple's work (resample.budget.medcouple_work: bisection gathers
+# and table entries), when the engine resamples it.
+MEDCOUPLE_SECONDS = 10e-9
 # Seconds per leave-one-out row and order statistic (a search over the support each).
 JACKKNIFE_LOOKUP_SECONDS = 300e-9
 # Seconds per (row x bin) of the grouped MAD, in resamples and in the jackknife.
@@ -153,10 +162,22 @@ def _lmoment_part(rows: int, shape: Shape) -> float:
     return min(float(resample.EVALUATION_PART_BYTES), rows * shape.rows * float(LMOMENT_BYTES_PER_ELEMENT))
 
 
+def _medcouple(shape: Shape, rows: int, resamples: int, max_work: float, batch: int) -> tuple[float, float]:
+    """(seconds, working bytes) of the medcouple's replicates when the engine resamples it
+    (``resample.budget.medcouple_fits``; bins have none): its table of bounds and a part of
+    dense rows."""
+    if shape.bins or not medcouple_fits(rows, resamples, max_work):
+        return 0.0, 0.0
+    table = 2.0 * 4.0 * medcouple_table_entries(rows)
+    part = min(float(resample.EVALUATION_PART_BYTES), batch * rows * float(MEDCOUPLE_BYTES_PER_ELEMENT))
+    return MEDCOUPLE_SECONDS * medcouple_work(rows, resamples), table + part
+
+
 def resampling_stages(
-    shape: Shape, resamples: int, probabilities: int, method: str, threads: int
+    shape: Shape, resamples: int, probabilities: int, method: str, threads: int, max_work: float = math.inf
 ) -> list[Stage]:
-    """The bootstrap (or bag of little bootstraps) and, for BCa, the jackknife of one input."""
+    """The bootstrap (or bag of little bootstraps) and, for BCa, the jackknife of one input;
+    ``max_work``, the resampling budget, decides whether the medcouple is resampled."""
     q = probabilities + SHAPE_LOOKUPS
     recorded = (_RECORDED + probabilities) * 8.0
     k = shape.rows
@@ -170,10 +191,13 @@ def resampling_stages(
         row_bytes = resample.evaluation_row_bytes(m, probabilities, bins=False)
         working = batch * m * 32.0 + min(batch, max(1, part // row_bytes)) * row_bytes
         working += min(part, batch * m * float(LMOMENT_BYTES_PER_ELEMENT))
+        medcouple_seconds, medcouple_bytes = _medcouple(shape, m, drawn, max_work, batch)
+        working += medcouple_bytes
         # The whole sample's plan (powers, cumulative counts), choosing a subset, its plan.
         subset = 80.0 * k + 8.0 * shape.entries + 64.0 * m
         stored = 2.0 * drawn * recorded  # the rounds, then stacked
         seconds = drawn * (DRAW_SECONDS["subset"] * m + LOOKUP_SECONDS * q * _log2(m) + LMOMENT_SECONDS * m)
+        seconds += medcouple_seconds
         memory = STAGE_BYTES + subset + working + stored + 2 * batch * recorded
         stages.append(Stage("bag of little bootstraps", memory, STAGE_SECONDS + seconds))
         return stages
@@ -182,6 +206,8 @@ def resampling_stages(
     busy = max(1, min(threads, batches))
     row_bytes = resample.evaluation_row_bytes(k, probabilities, bins=shape.bins)
     evaluation = min(batch, max(1, part // row_bytes)) * row_bytes + _lmoment_part(batch, shape)
+    medcouple_seconds, medcouple_bytes = _medcouple(shape, k, resamples, max_work, batch)
+    evaluation += medcouple_bytes
     per_thread = batch * k * _per_element_bytes(shape) + evaluation + 2.0 * batch * recorded
     plan = 64.0 * k + (16.0 * shape.draws if shape.picks and shape.draws != k else 0.0)
     stored = 2.0 * resamples * recorded
@@ -194,7 +220,7 @@ def resampling_stages(
     seconds = resamples * (draw * k + LOOKUP_SECONDS * q * _log2(batch * k) + LMOMENT_SECONDS * k)
     if shape.bins:
         seconds += resamples * GROUPED_MAD_SECONDS * k
-    seconds /= busy
+    seconds = (seconds + medcouple_seconds) / busy
     stages.append(Stage("bootstrap", STAGE_BYTES + plan + busy * per_thread + stored, STAGE_SECONDS + seconds))
     if method == "bca":
         row_bytes = resample.evaluation_row_bytes(k, probabilities, bins=shape.bins)
@@ -203,9 +229,12 @@ def resampling_stages(
             evaluation += _lmoment_part(k, shape)
         else:
             evaluation += 8.0 * 5 * 4 * k  # five terms, their prefix and suffix sums, per position
+        # The leave-one-out rows share a few medians (the data's and its neighbours'): k rows.
+        jackknife_medcouple, medcouple_bytes = _medcouple(shape, k, k, max_work, k)
+        evaluation += medcouple_bytes
         # The leave-one-out values of every row (filled part by part), and the part in hand.
         kept = 1.25 * k * recorded
-        seconds = k * JACKKNIFE_LOOKUP_SECONDS * q
+        seconds = k * JACKKNIFE_LOOKUP_SECONDS * q + jackknife_medcouple
         if shape.bins:
             seconds += k * k * GROUPED_MAD_SECONDS
         memory = STAGE_BYTES + plan + stored / 2.0 + 48.0 * k + evaluation + kept
@@ -214,7 +243,13 @@ def resampling_stages(
 
 
 def estimate(
-    shapes: list[Shape], *, probabilities: int, resamples: int, method: str | None, threads: int
+    shapes: list[Shape],
+    *,
+    probabilities: int,
+    resamples: int,
+    method: str | None,
+    threads: int,
+    max_work: float = math.inf,
 ) -> Estimate:
     """The stages of describing (one shape) or comparing (two shapes) inputs of these sizes.
 
@@ -229,7 +264,7 @@ def estimate(
         stages.append(Stage(f"{_side(index, shapes)}{point.name}", point.bytes + kept, point.seconds))
         if method is None:
             continue
-        own = resampling_stages(shape, resamples, probabilities, method, threads)
+        own = resampling_stages(shape, resamples, probabilities, method, threads, max_work)
         for stage in own:
             stages.append(Stage(f"{_side(index, shapes)}{stage.name}", stage.bytes + kept, stage.seconds))
         kept += (_RECORDED + probabilities) * 8.0 * (resamples + (shape.rows if method == "bca" else 0))
@@ -274,7 +309,9 @@ def admit(
     failing that, the largest number of probabilities, or the percentile method instead of BCa;
     failing all, fewer values.
     """
-    wanted = estimate(shapes, probabilities=probabilities, resamples=resamples, method=method, threads=threads)
+    wanted = estimate(
+        shapes, probabilities=probabilities, resamples=resamples, method=method, threads=threads, max_work=max_work
+    )
     if wanted.peak_bytes <= max_bytes and wanted.seconds <= seconds:
         return wanted  # the resampling budget alone is checked by the bootstrap, as before
     heaviest = max(wanted.stages, key=lambda s: s.bytes)
@@ -295,7 +332,7 @@ def admit(
     def fits(**change) -> bool:
         arguments = dict(probabilities=probabilities, resamples=resamples, method=method, threads=threads)
         arguments.update(change)
-        e = estimate(shapes, **arguments)
+        e = estimate(shapes, max_work=max_work, **arguments)
         work = resampling_work(shapes, arguments["resamples"]) if arguments["method"] is not None else 0.0
         # Advice must still fit when resent against the same deadline a moment later: the time
         # it leaves is a little less than now (ADVICE_TIME_SHARE of it).

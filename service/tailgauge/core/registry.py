@@ -220,7 +220,7 @@ DESCRIPTORS: tuple[DescriptorFacts, ...] = (
     _descriptor(
         "medcouple", "median of h(l, u) = ((u - m) + (l - m)) / (u - l) over l <= m <= u; sign kernel for ties at the median",
           (), (_ONE, _CONSTANT, "bins (values unknown)"), "Brys, Hubert & Struyf, JCGS 13, 2004",
-        family="robust_shape", needs=_VALUES, bootstrap=False,
+        family="robust_shape", needs=_VALUES,
     ),
     _descriptor(
         "half_sample_mode", "repeatedly keep the shortest window holding half the observations; mean of the final two or "

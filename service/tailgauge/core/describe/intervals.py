@@ -88,10 +88,13 @@ def intervals(
     for reason, names in undefined.items():
         notes.add(WarningCode.INTERVAL_UNDEFINED, f"no bootstrap interval: {reason}", names)
     skipped = [name for name in BOOTSTRAP_FAILS if descriptors[name].value is not None]
+    skipped += [name for name in outcome.left_out if descriptors[name].value is not None]
     skipped += extremes
 
     def why(name: str) -> str:
-        return extremes_reason() if name in extremes else BOOTSTRAP_FAILS[name]
+        if name in extremes:
+            return extremes_reason()
+        return outcome.left_out[name] if name in outcome.left_out else BOOTSTRAP_FAILS[name]
 
     for reason in sorted({why(name) for name in skipped}):
         notes.add(WarningCode.INTERVAL_NOT_OFFERED, f"no bootstrap interval: {reason}", [n for n in skipped if why(n) == reason])

@@ -7,7 +7,7 @@ bootstrap hands back.
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 
 import numpy as np
 from scipy import special
@@ -190,6 +190,8 @@ class BootstrapOutcome:
     notes: list[str]
     accelerations: dict[str, float]
     replicates: Replicates | None = None
+    # Descriptors with an estimate that the engine left out for this request, and why.
+    left_out: dict[str, str] = field(default_factory=dict)
 
 
 # What the engine resamples: the registry's bootstrap descriptors (in response order).

@@ -72,7 +72,7 @@ def little_bootstraps(
         )
         statistics = Statistics(
             subset, (full.skewness_family, full.kurtosis_family), full.quantile_type, full.factor_rule,
-            quantile_shape=full.quantile_shape,
+            quantile_shape=full.quantile_shape, left_out=full.left_out,
         )
         # The subset's resamples in batches of at most BATCH_ELEMENTS counts (a subset of a
         # large sample would otherwise hold resamples x m counts at once); the generator's
@@ -125,4 +125,4 @@ def little_bootstraps(
         f"observations, {per_subset} multinomial resamples of size {observations} each"
     )
     kept = Replicates({name: np.stack([r[name] for r in rounds]) for name in rounds[0]}, None, None, True)
-    return BootstrapOutcome(results, quantiles, SUBSETS * per_subset, scheme, notes, {}, kept)
+    return BootstrapOutcome(results, quantiles, SUBSETS * per_subset, scheme, notes, {}, kept, dict(full.left_out))

@@ -120,6 +120,12 @@ class Rows:
     def sum_squared_weights(self) -> np.ndarray:
         return np.sum(self.weights * self.weights, axis=1)
 
+    def dense_weights(self, rows: np.ndarray) -> np.ndarray:
+        """The weights of the given rows (len(rows) x k); a view when they are consecutive."""
+        if rows.size and rows[-1] - rows[0] == rows.size - 1:
+            return self.weights[rows[0] : rows[-1] + 1]
+        return self.weights[rows]
+
     def reordered(self, rows: np.ndarray, order: np.ndarray) -> Rows:
         """The given rows with the support permuted into ``order`` (for sorted deviations)."""
         return Rows(self.weights[np.ix_(rows, order)], None, self.whole)
@@ -192,6 +198,12 @@ class LeaveOneOut:
         own = self.base[self.positions]
         remaining = own - self.removed
         return squares - own * own + remaining * remaining
+
+    def dense_weights(self, rows: np.ndarray) -> np.ndarray:
+        """The weights of the given rows (len(rows) x k): the data less one observation each."""
+        dense = np.broadcast_to(self.base, (rows.size, self.base.size)).copy()
+        dense[np.arange(rows.size), self.positions[rows]] -= self.removed[rows]
+        return dense
 
     @property
     def base_cumulative(self) -> np.ndarray:

@@ -15,7 +15,7 @@ import numpy as np
 from tailgauge.core import deviation_rules, grouped, order_rules, shape
 from tailgauge.core.moments import variance_factor
 from tailgauge.core.order_statistics import NORMAL_MAD_FACTOR
-from tailgauge.core.resample import lmoment_rows
+from tailgauge.core.resample import lmoment_rows, medcouple_rows
 from tailgauge.core.resample.budget import (
     EVALUATION_PART_BYTES,
     LMOMENT_BYTES_PER_ELEMENT,
@@ -54,21 +54,29 @@ class Statistics:
         factor_rule: str,
         sheppard_width: float | None = None,
         quantile_shape: QuantileShape | None = None,
+        left_out: dict[str, str] | None = None,
     ):
         self.plan = plan
         self.quantile_shape = quantile_shape
+        self.left_out = {} if left_out is None else left_out  # name -> why it is not resampled
+        # The data's own weights are whole counts (what robust.medcouple asks of the data): so are
+        # every resample's and leave-one-out row's.
+        self.whole_weights = order_rules.whole_counts(plan.base, float(np.sum(plan.base)))
         self.sheppard_width = sheppard_width  # in the scaled units of the plan's deviations
         self.skewness_family, self.kurtosis_family = families
         self.quantile_type = quantile_type
         self.factor_rule = factor_rule  # a tailgauge.core.moments.VarianceRule
 
     def wanted(self, estimates: dict[str, float | None]) -> tuple[str, ...]:
-        """The descriptors to resample: those the engine resamples whose estimate is defined (the
-        quantile-based shape only with its definition at hand), in the registry's order."""
+        """The descriptors to resample: those the engine resamples whose estimate is defined and
+        that this request does not leave out (the quantile-based shape only with its definition at
+        hand), in the registry's order."""
         return tuple(
             name
             for name in INTERVAL_DESCRIPTORS
-            if estimates.get(name) is not None and (self.quantile_shape is not None or name not in QUANTILE_SHAPE)
+            if estimates.get(name) is not None
+            and name not in self.left_out
+            and (self.quantile_shape is not None or name not in QUANTILE_SHAPE)
         )
 
     def quantiles(self, view, p: np.ndarray) -> np.ndarray:
@@ -198,6 +206,10 @@ class Statistics:
                 out["mean_median_gap"] = (0.5 * out["mean"] - 0.5 * median) / (0.5 * out["standard_deviation"])
         if any(name in names for name in L_MOMENTS):
             self._lmoments(out, view)
+        if "medcouple" in names:
+            out["medcouple"] = medcouple_rows.medcouples(
+                view, plan.values, median, self.whole_weights, EVALUATION_PART_BYTES
+            )
         return out
 
     def _quantile_shape(self, out: dict[str, np.ndarray], found: np.ndarray) -> None:
