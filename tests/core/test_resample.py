@@ -133,6 +133,15 @@ STATISTICS = {
     "mean": lambda a, axis=-1: np.mean(a, axis=axis),
     "standard_deviation": lambda a, axis=-1: np.std(a, ddof=1, axis=axis),
     "median": lambda a, axis=-1: np.median(a, axis=axis),
+    # Bowley's quartile skewness by H&F type 7 (np.percentile's default, the service's default).
+    "quartile_skewness": lambda a, axis=-1: (
+        (np.percentile(a, 75, axis=axis) + np.percentile(a, 25, axis=axis) - 2 * np.percentile(a, 50, axis=axis))
+        / (np.percentile(a, 75, axis=axis) - np.percentile(a, 25, axis=axis))
+    ),
+    "mean_median_gap": lambda a, axis=-1: (np.mean(a, axis=axis) - np.median(a, axis=axis)) / np.std(a, ddof=1, axis=axis),
+    # scipy 1.17.1 scipy.stats.lmoment: the unbiased sample L-moments (Hosking 1990).
+    "l_scale": lambda a, axis=-1: stats.lmoment(a, order=2, axis=axis, standardize=False),
+    "l_skewness": lambda a, axis=-1: stats.lmoment(a, order=3, axis=axis),
 }
 
 
@@ -333,7 +342,9 @@ def test_jackknife_rows_equal_describe_without_one_observation_on_a_tied_sample(
     assert plan.values.size < x.size  # ties really are merged into support rows
     names = set(rows)
     assert {"mean", "variance", "standard_deviation", "skewness", "kurtosis", "excess_kurtosis", "median",
-            "interquartile_range", "median_absolute_deviation"} <= names
+            "interquartile_range", "median_absolute_deviation", "quartile_skewness", "octile_kurtosis",
+            "octile_excess_kurtosis", "medcouple", "mean_median_gap", "l_location", "l_scale", "l_skewness",
+            "l_kurtosis"} <= names
     assert sum(name.startswith("quantile:") for name in names) == len(args[4])
     reduced = []
     for value in plan.values:
