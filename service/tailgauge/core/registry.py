@@ -286,7 +286,10 @@ MEMBERS: tuple[CatalogEntry, ...] = (
           ("n < 2", "not a sample with whole counts"), "Jarque & Bera, Economics Letters 6, 1980"),
     CatalogEntry("interval", "descriptors.*, quantiles[*]",
           "bootstrap interval: percentile, basic (2 estimate - reversed percentile) or BCa", ("interval",),
-          ("no options.interval", "minimum, maximum, range, lag-1 autocorrelation, p = 0 or 1",
+          ("no options.interval", "minimum, maximum, range, p = 0 or 1 (the bootstrap is inconsistent for extremes)",
+           "lag-1 autocorrelation (resampling destroys the order)",
+           "half-sample mode (the bootstrap is not known to be consistent for it)",
+           "medcouple, when resampling it is too costly for the data within the budget",
            "a probability table (a population)"),
           "Efron & Tibshirani 1993 (eq. 14.10); bag of little bootstraps: Kleiner et al., JRSS-B 76, 2014"),
     CatalogEntry("standard_error", "descriptors.*, quantiles[*]", "standard deviation of the bootstrap replicates",
@@ -394,8 +397,9 @@ class WarningCode(enum.StrEnum):
     INTERVAL_UNDEFINED = "interval_undefined", "some resamples leave the descriptor undefined"
     INTERVAL_NOT_OFFERED = (
         "interval_not_offered",
-        "the bootstrap fails for this descriptor (extremes, serial order), "
-        "or the engine does not resample it (comparisons)",
+        "the bootstrap is inconsistent, or not known to be consistent, for this descriptor (extremes, "
+        "serial order, the half-sample mode), or resampling it is too costly for these data within the "
+        "budget (the medcouple)",
     )
     RESAMPLING_SCHEME = "resampling_scheme", "how fractional weights were resampled"
     BOOTSTRAP_SMALL_SAMPLE = "bootstrap_small_sample", "n < 20: intervals may cover less than their level"
