@@ -35,6 +35,10 @@ import numpy as np
 
 from tailgauge.core.resample.rows import LeaveOneOut
 
+# Elements of a tile of plotting positions (two float64 buffers of 512 KiB), at least
+# TILE_ROWS rows of it: fewer, larger tiles cost less interpreter time per element.
+TILE_ELEMENTS = 1 << 16
+TILE_ROWS = 8
 # The unbiased PWMs up to order 3 need four observations (C(n - 1, 3) > 0).
 UNBIASED_MINIMUM = 4
 # l_r from the PWMs b_0 .. b_3 (Hosking 1990, eq. 2.3): l1 = b0, l2 = 2 b1 - b0, l3 = 6 b2 - 6 b1 + b0,
@@ -57,17 +61,40 @@ def gap_power_sums(view, gaps: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
     """
     if isinstance(view, LeaveOneOut):
         return _leave_one_out_sums(view, gaps)
-    u = np.array(view.cumulative, dtype=np.float64)  # a fresh array: scaled in place below
     total = np.asarray(view.total, dtype=np.float64)
-    u *= (1.0 / total)[:, None]
-    sums = np.empty((u.shape[0], 4))
-    sums[:, 0] = u @ gaps
-    power = u * u
-    sums[:, 1] = power @ gaps
-    power *= u
-    sums[:, 2] = power @ gaps
-    power *= u
-    sums[:, 3] = power @ gaps
+    inverse = 1.0 / total
+    rows, k = view.count, gaps.size
+    sums = np.zeros((rows, 4))
+    # Tiles of at most TILE_ELEMENTS: the passes over a tile stay in cache, and its two buffers
+    # are allocated once (fresh pages for every part cost more than the arithmetic).
+    width = min(k, TILE_ELEMENTS // TILE_ROWS)
+    height = max(TILE_ROWS, TILE_ELEMENTS // width)
+    positions = np.empty(min(rows, height) * width)
+    powers = np.empty_like(positions)
+    # Whole counts are summed as counts (their powers stay far inside float64's range) and
+    # scaled by the row totals' powers at the end; other weights are scaled in each tile.
+    whole = bool(getattr(view, "whole", False))
+    for first in range(0, rows, height):
+        band = slice(first, min(rows, first + height))
+        scale = inverse[band, None]
+        for start in range(0, k, width):
+            columns = slice(start, min(k, start + width))
+            shape = (band.stop - band.start, columns.stop - columns.start)
+            u = positions[: shape[0] * shape[1]].reshape(shape)
+            power = powers[: u.size].reshape(shape)
+            view.cumulative_into(band, columns, u)
+            if not whole:
+                u *= scale
+            tile_gaps = gaps[columns]
+            sums[band, 0] += u @ tile_gaps
+            np.multiply(u, u, out=power)
+            sums[band, 1] += power @ tile_gaps
+            power *= u
+            sums[band, 2] += power @ tile_gaps
+            power *= u
+            sums[band, 3] += power @ tile_gaps
+    if whole:
+        sums *= inverse[:, None] ** np.arange(1, 5)
     return sums, total
 
 

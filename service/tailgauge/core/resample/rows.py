@@ -89,6 +89,14 @@ class Rows:
             return (self._integer.astype(np.int64) - self._start[:, None]).astype(np.float64)
         return self._cumulative
 
+    def cumulative_into(self, rows: slice, columns: slice, out: np.ndarray) -> None:
+        """The cumulative weights of a tile of rows and support positions, written to ``out``
+        (float64, the tile's shape): cache-sized tiles cost no fresh pages (the L-moments)."""
+        if self.whole:
+            np.subtract(self._integer[rows, columns], self._start[rows, None], out=out)
+        else:
+            np.copyto(out, self._cumulative[rows, columns])
+
     def first_reaching(self, target: np.ndarray) -> np.ndarray:
         """Per row, the first support index whose cumulative weight reaches ``target`` (b x q)."""
         rows, k = self.weights.shape

@@ -223,28 +223,25 @@ class Statistics:
         out["octile_excess_kurtosis"] = moors - self.quantile_shape.normal_octile_kurtosis
 
     def _lmoments(self, out: dict[str, np.ndarray], view) -> None:
-        """l1, l2, t3, t4 of each row (see :mod:`tailgauge.core.resample.lmoment_rows`), taken
-        in parts of at most ``EVALUATION_PART_BYTES`` of dense rows."""
+        """l1, l2, t3, t4 of each row (see :mod:`tailgauge.core.resample.lmoment_rows`); bins'
+        rows are taken in dense parts of at most ``EVALUATION_PART_BYTES``."""
         plan = self.plan
-        if plan.edges is not None:
-            held = np.flatnonzero(plan.base > 0)
-            span = slice(int(held[0]), int(held[-1]) + 1)
-            edges = plan.sums.scaled_deviations(plan.edges[span.start : span.stop + 1])
-            width = span.stop - span.start
-        else:
-            deviations = plan.powers[:, 1]
-            width = deviations.size
         rows = view.count
-        per_part = max(1, EVALUATION_PART_BYTES // (LMOMENT_BYTES_PER_ELEMENT * width))
         moments = np.empty((rows, 4))
         with np.errstate(invalid="ignore", divide="ignore", over="ignore"):
-            for start in range(0, rows, per_part):
-                part = view if per_part >= rows else view.rows(slice(start, start + per_part))
-                if plan.edges is not None:
+            if plan.edges is None:  # tiles of their own (lmoment_rows.TILE_ELEMENTS)
+                pwms = lmoment_rows.sample_pwms(view, plan.powers[:, 1], unbiased=plan.integer)
+                moments[:] = lmoment_rows.lmoments_of(pwms)
+            else:  # dense parts of the bins holding data
+                held = np.flatnonzero(plan.base > 0)
+                span = slice(int(held[0]), int(held[-1]) + 1)
+                edges = plan.sums.scaled_deviations(plan.edges[span.start : span.stop + 1])
+                width = span.stop - span.start
+                per_part = max(1, EVALUATION_PART_BYTES // (LMOMENT_BYTES_PER_ELEMENT * width))
+                for start in range(0, rows, per_part):
+                    part = view if per_part >= rows else view.rows(slice(start, start + per_part))
                     pwms = lmoment_rows.binned_pwms(part, edges, span)
-                else:
-                    pwms = lmoment_rows.sample_pwms(part, deviations, unbiased=plan.integer)
-                moments[start : start + part.count] = lmoment_rows.lmoments_of(pwms)
+                    moments[start : start + part.count] = lmoment_rows.lmoments_of(pwms)
             exponent = plan.sums.scale_exponent
             scale = moments[:, 1]
             defined = scale > 0.0
