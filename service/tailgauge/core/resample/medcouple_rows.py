@@ -122,10 +122,13 @@ class _Kernels:
         before = counted.at(np.full(rows, low - 1)) if low > 0 else counted.minus_ones
         window = slice(low, high + 1)
         # Candidates by rows (window x rows): gathers of whole rows, running sums down them.
-        upper_w = np.ascontiguousarray(counted.upper_w.T)
-        steps = upper_w[self.pair_upper[window]] * lower_w[self.pair_lower[window]]
-        zeros = np.flatnonzero(self.is_zero[window])
-        steps[zeros] = counted.tie_zeros[None, :]
+        zero = self.is_zero[window]
+        steps = np.empty((zero.size, rows))
+        steps[zero] = counted.tie_zeros[None, :]
+        if not np.all(zero):  # (with no values on one side of the median there are no pairs)
+            upper_w = np.ascontiguousarray(counted.upper_w.T)
+            pairs = ~zero
+            steps[pairs] = upper_w[self.pair_upper[window][pairs]] * lower_w[self.pair_lower[window][pairs]]
         steps[0] += before
         reached = _running_sums(steps, steps)
         inside = signed.copy()
