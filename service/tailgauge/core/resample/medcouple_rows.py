@@ -68,10 +68,10 @@ class _Kernels:
             # Only ratios of pair weights matter: each row scaled by its largest weight.
             weights = weights / np.max(weights, axis=1, keepdims=True)
         upper_w = weights[:, self.upper]
-        # Lower values by rows (lower values x rows): running sums down contiguous rows are fast.
+        # Lower values by rows (lower values x rows), as the window's candidates below.
         lower_w = np.ascontiguousarray(weights[:, self.lower].T)
         lower_cumulative = np.zeros((self.lower.size + 1, weights.shape[0]))
-        _running_sums(lower_w, lower_cumulative[1:])
+        np.cumsum(lower_w, axis=0, out=lower_cumulative[1:])
         ties = weights[:, self.ties].sum(axis=1)
         total_lower, total_upper = lower_cumulative[-1], upper_w.sum(axis=1)
         total = (total_upper + ties) * (total_lower + ties)
@@ -121,7 +121,7 @@ class _Kernels:
             return _bisect_both(ranks, counted, np.arange(rows), last)
         before = counted.at(np.full(rows, low - 1)) if low > 0 else counted.minus_ones
         window = slice(low, high + 1)
-        # Candidates by rows (window x rows): gathers of whole rows, running sums down them.
+        # Candidates by rows (window x rows): gathers of whole rows, then running sums down them.
         zero = self.is_zero[window]
         steps = np.empty((zero.size, rows))
         steps[zero] = counted.tie_zeros[None, :]
@@ -130,7 +130,7 @@ class _Kernels:
             pairs = ~zero
             steps[pairs] = upper_w[self.pair_upper[window][pairs]] * lower_w[self.pair_lower[window][pairs]]
         steps[0] += before
-        reached = _running_sums(steps, steps)
+        reached = np.cumsum(steps, axis=0, out=steps)
         inside = signed.copy()
         for side in range(2):
             rank = ranks[:, side]
@@ -147,18 +147,6 @@ class _Kernels:
         falls among them."""
         value = np.where(rank <= minus_ones, -1.0, self.candidates[position])
         return np.where(rank > total - plus_ones, 1.0, value)
-
-
-def _running_sums(rows: np.ndarray, out: np.ndarray) -> np.ndarray:
-    """Running sums down the rows of ``rows`` into ``out`` (may be ``rows``): one vector addition
-    per row, much faster than np.cumsum along the first axis of short, wide arrays."""
-    if rows.shape[0] == 0:
-        return out
-    if out is not rows:
-        out[0] = rows[0]
-    for i in range(1, rows.shape[0]):
-        np.add(out[i - 1], rows[i], out=out[i])
-    return out
 
 
 def _bisect_both(ranks: np.ndarray, counted: _Counts, rows: np.ndarray, last: int) -> np.ndarray:
