@@ -28,12 +28,18 @@ import numpy as np
 import pytest
 from scipy import integrate, optimize, stats
 from statsmodels.stats.stattools import medcouple, robust_kurtosis, robust_skewness
-
-from tailgauge.core import DescribeOptions, IntervalOptions, central_sums, describe, from_array, from_table
-from tailgauge.core import resample
+from tailgauge.core import (
+    DescribeOptions,
+    IntervalOptions,
+    central_sums,
+    describe,
+    from_array,
+    from_table,
+    resample,
+)
 from tailgauge.core.describe.order_based import ROBUST_PROBABILITIES
 from tailgauge.core.describe.robust_shape import NORMAL_OCTILE_KURTOSIS
-from tailgauge.core.resample.draws import plan_of, draw
+from tailgauge.core.resample.draws import draw, plan_of
 from tailgauge.core.resample.rows import Rows, Scratch
 from tailgauge.core.resample.statistics import Statistics
 
@@ -164,14 +170,14 @@ def _exponential_medcouple() -> float:
 
     def below(t: float) -> float:
         ratio = (t - 1.0) / (t + 1.0)
-        integrand = lambda u: 4.0 * math.exp(-u) * -math.expm1(-max(0.0, m + (u - m) * ratio))  # noqa: E731
+        integrand = lambda u: 4.0 * math.exp(-u) * -math.expm1(-max(0.0, m + (u - m) * ratio))
         return integrate.quad(integrand, m, math.inf, limit=200)[0]
 
     return optimize.brentq(lambda t: below(t) - 0.5, -0.99, 0.99, xtol=1e-13)
 
 
 def _exponential_truths() -> dict[str, float]:
-    q = lambda p: -math.log1p(-p)  # noqa: E731  exponential quantile, rate 1
+    q = lambda p: -math.log1p(-p)
     e = [q(i / 8) for i in range(8)]
     moors = ((e[7] - e[5]) + (e[3] - e[1])) / (e[6] - e[2])
     return {

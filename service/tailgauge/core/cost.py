@@ -20,6 +20,7 @@ import math
 from dataclasses import dataclass
 
 from tailgauge.core import resample
+from tailgauge.core.errors import LimitExceeded, Location
 from tailgauge.core.resample.budget import (
     LMOMENT_BYTES_PER_ELEMENT,
     MEDCOUPLE_BYTES_PER_ELEMENT,
@@ -28,7 +29,6 @@ from tailgauge.core.resample.budget import (
     medcouple_work,
 )
 from tailgauge.core.resample.draws import BATCH_ELEMENTS, batch_size, tops_up
-from tailgauge.core.errors import LimitExceeded, Location
 from tailgauge.core.weighted import WeightedData, WeightMeaning
 
 # Statistics every resample records besides the quantiles (resample.INTERVAL_DESCRIPTORS and

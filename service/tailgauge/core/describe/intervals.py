@@ -11,11 +11,11 @@ import numpy as np
 
 from tailgauge.core import classical, grouped, resample
 from tailgauge.core.describe.basis import Basis
+from tailgauge.core.describe.options import DescribeOptions
 from tailgauge.core.describe.order_based import ROBUST_PROBABILITIES
+from tailgauge.core.describe.results import Descriptor, Quantile, Resampling
 from tailgauge.core.describe.robust_shape import NORMAL_OCTILE_KURTOSIS
 from tailgauge.core.describe.warnings import Warnings, finite_or_none
-from tailgauge.core.describe.options import DescribeOptions
-from tailgauge.core.describe.results import Descriptor, Quantile, Resampling
 from tailgauge.core.moments import CentralSums, central_sums
 from tailgauge.core.registry import BOOTSTRAP_FAILS, WarningCode, extremes_reason
 from tailgauge.core.weighted import WeightedData, WeightMeaning
