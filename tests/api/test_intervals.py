@@ -15,6 +15,7 @@ import pytest
 from litestar.testing import TestClient
 
 from tailgauge.api import create_app
+from tailgauge.core import registry
 from tailgauge.settings import Settings
 
 SAMPLES = "/v1/descriptors/samples"
@@ -23,20 +24,9 @@ BINS = "/v1/descriptors/bins"
 PROBLEM = "application/problem+json"
 MAX_SEED = 2**53 - 1
 
-RESAMPLED = (
-    "mean",
-    "median",
-    "variance",
-    "standard_deviation",
-    "coefficient_of_variation",
-    "skewness",
-    "kurtosis",
-    "excess_kurtosis",
-    "interquartile_range",
-    "median_absolute_deviation",
-    "median_absolute_deviation_normal",
-)
-NOT_RESAMPLED = ("minimum", "maximum", "range", "lag1_autocorrelation")
+# What the engine resamples and what it never does, from the registry (the one source of both).
+RESAMPLED = registry.BOOTSTRAP_DESCRIPTORS
+NOT_RESAMPLED = tuple(registry.BOOTSTRAP_FAILS)
 INTERVAL_KEYS = {"low", "high", "level", "method"}
 CLASSICAL_KEYS = {"low", "high", "level", "method", "coverage", "assumption"}
 RESAMPLING_KEYS = {"method", "level", "resamples", "seed", "scheme"}
@@ -331,3 +321,63 @@ def test_levels_at_the_edge_of_float_precision_fall_back_with_a_warning(level):
     if level > 0.5:
         assert mean["interval"]["method"] == "percentile"
         assert "bca_fallback" in [w["code"] for w in parsed["warnings"]]
+
+
+# ----------------------------------------------------------------------------------------------
+# Every scalar descriptor: an interval, or a warning naming it with the reason
+# ----------------------------------------------------------------------------------------------
+
+EVERY_INPUT = {
+    "samples": (SAMPLES, {"values": WAITS}),
+    "table": (TABLE, {"outcomes": PARCEL_TABLE, "weight_kind": "counts"}),
+    "bins": (BINS, {"edges": DISTANCE_EDGES, "counts": DISTANCE_COUNTS}),
+}
+
+
+def _without_interval(body) -> dict[str, list[tuple[str, str]]]:
+    named: dict[str, list[tuple[str, str]]] = {}
+    for warning in body["warnings"]:
+        if warning["code"] in ("interval_not_offered", "interval_undefined"):
+            for name in warning["descriptors"]:
+                named.setdefault(name, []).append((warning["code"], warning["message"]))
+    return named
+
+
+@pytest.mark.parametrize("method", ["percentile", "bca"])
+@pytest.mark.parametrize("kind", list(EVERY_INPUT))
+def test_every_scalar_descriptor_with_a_value_gets_an_interval_or_a_warning_naming_it(api, kind, method):
+    """The registry enumerates the descriptors; each one with a value has an interval, or is
+    named by interval_not_offered (with the registry's reason) or interval_undefined."""
+    path, data = EVERY_INPUT[kind]
+    body, _ = ok(api, path, {**data, "options": {"interval": {"method": method, "resamples": 999, "seed": 8}}})
+    named = _without_interval(body)
+    given = 0
+    for name in registry.SCALAR_DESCRIPTORS:
+        d = body["descriptors"][name]
+        if d["value"] is None:
+            assert d["interval"] is None, name
+            continue
+        if d["interval"] is not None:
+            assert name not in named, (name, named.get(name))
+            given += 1
+            continue
+        assert name in named, (kind, name)
+        for code, message in named[name]:
+            if code == "interval_not_offered":
+                assert message == f"no bootstrap interval: {registry.bootstrap_reason(name)}", (name, message)
+    # Everything the registry resamples and this input defines gets its interval here.
+    assert given == sum(body["descriptors"][n]["value"] is not None for n in registry.BOOTSTRAP_DESCRIPTORS)
+
+
+def test_the_medcouple_beyond_the_budget_is_named_with_its_reason():
+    """A server with a small resampling budget still resamples everything else, and says why the
+    medcouple has no interval."""
+    with TestClient(create_app(Settings(max_resample_work=1_000_000))) as client:
+        body, _ = ok(client, SAMPLES, samples_body(method="percentile", resamples=999, seed=2))
+    assert body["descriptors"]["medcouple"]["value"] is not None
+    assert body["descriptors"]["medcouple"]["interval"] is None
+    named = _without_interval(body)
+    assert named["medcouple"] == [("interval_not_offered", f"no bootstrap interval: {registry.TOO_COSTLY}")]
+    for name in RESAMPLED:
+        if name != "medcouple":
+            assert body["descriptors"][name]["interval"] is not None, name

@@ -37,6 +37,12 @@ def _inputs(rng: np.random.Generator):
         rng.normal(size=20_000), omit_missing=False, weights=rng.uniform(0.1, 2, 20_000), meaning=__import__(
             "tailgauge.core", fromlist=["WeightMeaning"]).WeightMeaning.RELIABILITY
     ), "samples"
+    # Small supports, where the medcouple is resampled (resample.budget.medcouple_fits): a table
+    # of 100 outcomes (few medians among the resamples) and 150 distinct values (hundreds).
+    yield "table k=100 (medcouple)", lambda: from_table(
+        np.arange(100.0), rng.integers(1, 400, 100).astype(float), probabilities=False, normalise=False
+    ), "table"
+    yield "samples n=150 (medcouple)", lambda: from_samples(rng.gamma(2.0, 1.0, 150), omit_missing=False), "samples"
 
 
 def _run(data, kind, options, traced: bool):

@@ -68,11 +68,20 @@ def test_intervals_of_shifts_and_standardized_quantiles_and_what_gets_none(two_s
     z = lambda r: (r["quantile:3"][0] - r["mean"][0]) / r["standard_deviation"][0]  # noqa: E731
     low, high = np.quantile(z(rep_b) - z(rep_a), [0.025, 0.975])
     assert (middle.z.interval.low, middle.z.interval.high) == pytest.approx((low, high), rel=1e-9)
-    # Extremes, serial order and descriptors the engine does not resample: null intervals, said why.
+    # Extremes, serial order and the half-sample mode (bootstrap not known to be consistent): null
+    # intervals, said why.
     not_offered = named(result, "interval_not_offered")
-    for name in ("minimum", "maximum", "range", "lag1_autocorrelation", "medcouple", "l_scale"):
+    for name in ("minimum", "maximum", "range", "lag1_autocorrelation", "half_sample_mode"):
         assert result.differences[name].interval is None
         assert f"differences.{name}" in not_offered
+    # The quantile-based shape, the mean-median gap and the L-moments: intervals of the differences
+    # of the two inputs' replicates, resample by resample.
+    for name in ("quartile_skewness", "octile_kurtosis", "octile_excess_kurtosis", "mean_median_gap",
+                 "l_location", "l_scale", "l_skewness", "l_kurtosis"):
+        low, high = np.quantile(rep_b[name][0] - rep_a[name][0], [0.025, 0.975])
+        got = result.differences[name].interval
+        assert (got.low, got.high) == pytest.approx((low, high), rel=1e-12), name
+        assert f"differences.{name}" not in not_offered
     effect = result.standardized_mean_difference
     assert effect.interval.low < effect.value < effect.interval.high
 

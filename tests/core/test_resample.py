@@ -96,14 +96,14 @@ def statistics_for(args, kwargs):
     if kwargs.get("sheppard_width") is not None:
         extra["sheppard_width"] = kwargs["sheppard_width"]
     statistics = Statistics(
-        plan, kwargs["families"], kwargs["quantile_type"], kwargs["factor_rule"], **extra
+        plan, kwargs["families"], kwargs["quantile_type"], kwargs["factor_rule"],
+        quantile_shape=kwargs.get("quantile_shape"), **extra
     )
     return plan, statistics
 
 
-def wanted_names(args) -> tuple[str, ...]:
-    estimates = args[2]
-    return tuple(name for name in resample.INTERVAL_DESCRIPTORS if estimates.get(name) is not None)
+def wanted_names(args, kwargs) -> tuple[str, ...]:
+    return statistics_for(args, kwargs)[1].wanted(args[2])
 
 
 def point_values(description) -> dict[str, float | None]:
@@ -133,6 +133,15 @@ STATISTICS = {
     "mean": lambda a, axis=-1: np.mean(a, axis=axis),
     "standard_deviation": lambda a, axis=-1: np.std(a, ddof=1, axis=axis),
     "median": lambda a, axis=-1: np.median(a, axis=axis),
+    # Bowley's quartile skewness by H&F type 7 (np.percentile's default, the service's default).
+    "quartile_skewness": lambda a, axis=-1: (
+        (np.percentile(a, 75, axis=axis) + np.percentile(a, 25, axis=axis) - 2 * np.percentile(a, 50, axis=axis))
+        / (np.percentile(a, 75, axis=axis) - np.percentile(a, 25, axis=axis))
+    ),
+    "mean_median_gap": lambda a, axis=-1: (np.mean(a, axis=axis) - np.median(a, axis=axis)) / np.std(a, ddof=1, axis=axis),
+    # scipy 1.17.1 scipy.stats.lmoment: the unbiased sample L-moments (Hosking 1990).
+    "l_scale": lambda a, axis=-1: stats.lmoment(a, order=2, axis=axis, standardize=False),
+    "l_skewness": lambda a, axis=-1: stats.lmoment(a, order=3, axis=axis),
 }
 
 
@@ -310,8 +319,8 @@ def _leave_one_out(args, kwargs):
     plan, statistics = statistics_for(args, kwargs)
     removed = np.where(plan.base > 0, plan.unit, 0.0)
     view = LeaveOneOut(plan.base, removed, plan.powers)
-    everything = statistics.evaluate(view, args[4], wanted_names(args))
-    names = wanted_names(args) + tuple(f"quantile:{i}" for i in range(len(args[4])))
+    everything = statistics.evaluate(view, args[4], wanted_names(args, kwargs))
+    names = wanted_names(args, kwargs) + tuple(f"quantile:{i}" for i in range(len(args[4])))
     return plan, {name: everything[name] for name in names}
 
 
@@ -333,7 +342,9 @@ def test_jackknife_rows_equal_describe_without_one_observation_on_a_tied_sample(
     assert plan.values.size < x.size  # ties really are merged into support rows
     names = set(rows)
     assert {"mean", "variance", "standard_deviation", "skewness", "kurtosis", "excess_kurtosis", "median",
-            "interquartile_range", "median_absolute_deviation"} <= names
+            "interquartile_range", "median_absolute_deviation", "quartile_skewness", "octile_kurtosis",
+            "octile_excess_kurtosis", "medcouple", "mean_median_gap", "l_location", "l_scale", "l_skewness",
+            "l_kurtosis"} <= names
     assert sum(name.startswith("quantile:") for name in names) == len(args[4])
     reduced = []
     for value in plan.values:
@@ -453,7 +464,7 @@ def test_statistics_of_the_original_weights_reproduce_describe(case):
     # Percentile: no jackknife, so this checks the resampled statistics alone.
     description, args, kwargs, _ = run(data, kind=kind, method="percentile", resamples=200, **options)
     plan, statistics = statistics_for(args, kwargs)
-    names = wanted_names(args)
+    names = wanted_names(args, kwargs)
     original = Rows(plan.base[None, :].copy(), plan.powers, plan.integer)
     row = statistics.evaluate(original, args[4], names)
     want = point_values(description)
@@ -591,10 +602,10 @@ def test_few_distinct_values_are_warned():
     assert "bootstrap_small_sample" not in codes(description)  # n = 100
 
 
-def test_extremes_and_lag1_get_no_interval_and_say_why():
+def test_extremes_lag1_and_the_half_sample_mode_get_no_interval_and_say_why():
     rng = np.random.default_rng(808)
     description, *_ = run(from_array(rng.normal(10.0, 1.0, 50)), resamples=500)
-    skipped = {"minimum", "maximum", "range", "lag1_autocorrelation"}
+    skipped = {"minimum", "maximum", "range", "lag1_autocorrelation", "half_sample_mode"}
     for name in skipped:
         d = description.descriptors[name]
         assert d.value is not None
@@ -616,7 +627,14 @@ def test_two_observations_with_bca_raise_no_numpy_warning():
 
 # Powers of two scale every float exactly, so the same seed must give the same resamples and
 # intervals scaled by 2**k (power 0 for the scale-free descriptors, 2 for the variance).
-SCALE_POWER = {"variance": 2, "skewness": 0, "kurtosis": 0, "excess_kurtosis": 0, "coefficient_of_variation": 0}
+SCALE_POWER = {
+    "variance": 2,
+    **dict.fromkeys(
+        ("skewness", "kurtosis", "excess_kurtosis", "coefficient_of_variation", "quartile_skewness", "octile_kurtosis",
+         "octile_excess_kurtosis", "mean_median_gap", "medcouple", "l_skewness", "l_kurtosis"),
+        0,
+    ),
+}
 
 
 @pytest.mark.parametrize("k", [10, -10, 400, -400, 1000, -1000])

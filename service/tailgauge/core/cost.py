@@ -20,8 +20,15 @@ import math
 from dataclasses import dataclass
 
 from tailgauge.core import resample
-from tailgauge.core.resample.draws import BATCH_ELEMENTS, batch_size, tops_up
 from tailgauge.core.errors import LimitExceeded, Location
+from tailgauge.core.resample.budget import (
+    LMOMENT_BYTES_PER_ELEMENT,
+    MEDCOUPLE_BYTES_PER_ELEMENT,
+    medcouple_fits,
+    medcouple_table_entries,
+    medcouple_work,
+)
+from tailgauge.core.resample.draws import BATCH_ELEMENTS, batch_size, tops_up
 from tailgauge.core.weighted import WeightedData, WeightMeaning
 
 # Statistics every resample records besides the quantiles (resample.INTERVAL_DESCRIPTORS and
@@ -38,12 +45,25 @@ POINT_SECONDS = 45e-9
 # drawn; and per order statistic looked up in a resample.
 DRAW_SECONDS = {"multinomial": 300e-9, "poisson": 25e-9, "picks": 60e-9, "subset": 220e-9}
 LOOKUP_SECONDS = 120e-9
+# Seconds per resampled element of the L-moments (plotting positions, their powers and four
+# matrix-vector products over each row; measured about 3.4 ns on the 2-core machine).
+LMOMENT_SECONDS = 8e-9
+# Order statistics every resample looks up besides the requested quantiles: the median, and the
+# quartiles and octiles of the quantile-based shape (distinct from the requested ones or not).
+SHAPE_LOOKUPS = 10
+# Seconds per element of the medcouple's work (resample.budget.medcouple_work: bisection gathers
+# and table entries), when the engine resamples it: tests/benchmarks/cost.py measured about 16 ns
+# for 150 distinct values (hundreds of medians, so mostly tables) and far less for a table of 100
+# outcomes (few medians).
+MEDCOUPLE_SECONDS = 20e-9
 # Seconds per leave-one-out row and order statistic (a search over the support each).
 JACKKNIFE_LOOKUP_SECONDS = 300e-9
 # Seconds per (row x bin) of the grouped MAD, in resamples and in the jackknife.
 GROUPED_MAD_SECONDS = 150e-9
 # What every stage takes whatever the sizes (small arrays, the interpreter's own work).
 STAGE_BYTES = 4 << 20
+# Advice fits in this share of the seconds left, so it is admitted when resent a moment later.
+ADVICE_TIME_SHARE = 0.95
 STAGE_SECONDS = 0.02
 
 
@@ -139,11 +159,28 @@ def _per_element_bytes(shape: Shape) -> float:
     return 32.0 + 16.0 * ratio  # picks and their rows (int64), then counts, weights, prefix sums
 
 
+def _lmoment_part(rows: int, shape: Shape) -> float:
+    """The L-moments' dense rows: a part of at most ``EVALUATION_PART_BYTES``."""
+    return min(float(resample.EVALUATION_PART_BYTES), rows * shape.rows * float(LMOMENT_BYTES_PER_ELEMENT))
+
+
+def _medcouple(shape: Shape, rows: int, resamples: int, max_work: float, batch: int) -> tuple[float, float]:
+    """(seconds, working bytes) of the medcouple's replicates when the engine resamples it
+    (``resample.budget.medcouple_fits``; bins have none): its table of bounds and a part of
+    dense rows."""
+    if shape.bins or not medcouple_fits(rows, resamples, max_work):
+        return 0.0, 0.0
+    table = 2.0 * 4.0 * medcouple_table_entries(rows)
+    part = min(float(resample.EVALUATION_PART_BYTES), batch * rows * float(MEDCOUPLE_BYTES_PER_ELEMENT))
+    return MEDCOUPLE_SECONDS * medcouple_work(rows, resamples), table + part
+
+
 def resampling_stages(
-    shape: Shape, resamples: int, probabilities: int, method: str, threads: int
+    shape: Shape, resamples: int, probabilities: int, method: str, threads: int, max_work: float = math.inf
 ) -> list[Stage]:
-    """The bootstrap (or bag of little bootstraps) and, for BCa, the jackknife of one input."""
-    q = probabilities + 3  # requested quantiles, the quartiles and the median
+    """The bootstrap (or bag of little bootstraps) and, for BCa, the jackknife of one input;
+    ``max_work``, the resampling budget, decides whether the medcouple is resampled."""
+    q = probabilities + SHAPE_LOOKUPS
     recorded = (_RECORDED + probabilities) * 8.0
     k = shape.rows
     stages = []
@@ -155,10 +192,14 @@ def resampling_stages(
         batch = max(1, min(per_subset, BATCH_ELEMENTS // m))
         row_bytes = resample.evaluation_row_bytes(m, probabilities, bins=False)
         working = batch * m * 32.0 + min(batch, max(1, part // row_bytes)) * row_bytes
+        working += min(part, batch * m * float(LMOMENT_BYTES_PER_ELEMENT))
+        medcouple_seconds, medcouple_bytes = _medcouple(shape, m, drawn, max_work, batch)
+        working += medcouple_bytes
         # The whole sample's plan (powers, cumulative counts), choosing a subset, its plan.
         subset = 80.0 * k + 8.0 * shape.entries + 64.0 * m
         stored = 2.0 * drawn * recorded  # the rounds, then stacked
-        seconds = drawn * (DRAW_SECONDS["subset"] * m + LOOKUP_SECONDS * q * _log2(m))
+        seconds = drawn * (DRAW_SECONDS["subset"] * m + LOOKUP_SECONDS * q * _log2(m) + LMOMENT_SECONDS * m)
+        seconds += medcouple_seconds
         memory = STAGE_BYTES + subset + working + stored + 2 * batch * recorded
         stages.append(Stage("bag of little bootstraps", memory, STAGE_SECONDS + seconds))
         return stages
@@ -166,7 +207,9 @@ def resampling_stages(
     batches = -(-resamples // batch)
     busy = max(1, min(threads, batches))
     row_bytes = resample.evaluation_row_bytes(k, probabilities, bins=shape.bins)
-    evaluation = min(batch, max(1, part // row_bytes)) * row_bytes
+    evaluation = min(batch, max(1, part // row_bytes)) * row_bytes + _lmoment_part(batch, shape)
+    medcouple_seconds, medcouple_bytes = _medcouple(shape, k, resamples, max_work, batch)
+    evaluation += medcouple_bytes
     per_thread = batch * k * _per_element_bytes(shape) + evaluation + 2.0 * batch * recorded
     plan = 64.0 * k + (16.0 * shape.draws if shape.picks and shape.draws != k else 0.0)
     stored = 2.0 * resamples * recorded
@@ -176,17 +219,24 @@ def resampling_stages(
         draw = DRAW_SECONDS["picks"] * max(1.0, shape.draws / max(k, 1))
     else:
         draw = DRAW_SECONDS["multinomial"]
-    seconds = resamples * (draw * k + LOOKUP_SECONDS * q * _log2(batch * k))
+    seconds = resamples * (draw * k + LOOKUP_SECONDS * q * _log2(batch * k) + LMOMENT_SECONDS * k)
     if shape.bins:
         seconds += resamples * GROUPED_MAD_SECONDS * k
-    seconds /= busy
+    seconds = (seconds + medcouple_seconds) / busy
     stages.append(Stage("bootstrap", STAGE_BYTES + plan + busy * per_thread + stored, STAGE_SECONDS + seconds))
     if method == "bca":
         row_bytes = resample.evaluation_row_bytes(k, probabilities, bins=shape.bins)
         evaluation = min(k, max(1, part // row_bytes)) * row_bytes
+        if shape.bins:  # bins' L-moments read dense leave-one-out rows; others sum in O(k)
+            evaluation += _lmoment_part(k, shape)
+        else:
+            evaluation += 8.0 * 5 * 4 * k  # five terms, their prefix and suffix sums, per position
+        # The leave-one-out rows share a few medians (the data's and its neighbours'): k rows.
+        jackknife_medcouple, medcouple_bytes = _medcouple(shape, k, k, max_work, k)
+        evaluation += medcouple_bytes
         # The leave-one-out values of every row (filled part by part), and the part in hand.
         kept = 1.25 * k * recorded
-        seconds = k * JACKKNIFE_LOOKUP_SECONDS * q
+        seconds = k * JACKKNIFE_LOOKUP_SECONDS * q + jackknife_medcouple
         if shape.bins:
             seconds += k * k * GROUPED_MAD_SECONDS
         memory = STAGE_BYTES + plan + stored / 2.0 + 48.0 * k + evaluation + kept
@@ -195,7 +245,13 @@ def resampling_stages(
 
 
 def estimate(
-    shapes: list[Shape], *, probabilities: int, resamples: int, method: str | None, threads: int
+    shapes: list[Shape],
+    *,
+    probabilities: int,
+    resamples: int,
+    method: str | None,
+    threads: int,
+    max_work: float = math.inf,
 ) -> Estimate:
     """The stages of describing (one shape) or comparing (two shapes) inputs of these sizes.
 
@@ -210,7 +266,7 @@ def estimate(
         stages.append(Stage(f"{_side(index, shapes)}{point.name}", point.bytes + kept, point.seconds))
         if method is None:
             continue
-        own = resampling_stages(shape, resamples, probabilities, method, threads)
+        own = resampling_stages(shape, resamples, probabilities, method, threads, max_work)
         for stage in own:
             stages.append(Stage(f"{_side(index, shapes)}{stage.name}", stage.bytes + kept, stage.seconds))
         kept += (_RECORDED + probabilities) * 8.0 * (resamples + (shape.rows if method == "bca" else 0))
@@ -255,7 +311,9 @@ def admit(
     failing that, the largest number of probabilities, or the percentile method instead of BCa;
     failing all, fewer values.
     """
-    wanted = estimate(shapes, probabilities=probabilities, resamples=resamples, method=method, threads=threads)
+    wanted = estimate(
+        shapes, probabilities=probabilities, resamples=resamples, method=method, threads=threads, max_work=max_work
+    )
     if wanted.peak_bytes <= max_bytes and wanted.seconds <= seconds:
         return wanted  # the resampling budget alone is checked by the bootstrap, as before
     heaviest = max(wanted.stages, key=lambda s: s.bytes)
@@ -276,9 +334,11 @@ def admit(
     def fits(**change) -> bool:
         arguments = dict(probabilities=probabilities, resamples=resamples, method=method, threads=threads)
         arguments.update(change)
-        e = estimate(shapes, **arguments)
+        e = estimate(shapes, max_work=max_work, **arguments)
         work = resampling_work(shapes, arguments["resamples"]) if arguments["method"] is not None else 0.0
-        return e.peak_bytes <= max_bytes and e.seconds <= seconds and work <= max_work
+        # Advice must still fit when resent against the same deadline a moment later: the time
+        # it leaves is a little less than now (ADVICE_TIME_SHARE of it).
+        return e.peak_bytes <= max_bytes and e.seconds <= ADVICE_TIME_SHARE * seconds and work <= max_work
 
     if method is not None:
         # Cost grows with the resamples: the largest count that fits, by bisection.

@@ -34,7 +34,21 @@ _VALUES: frozenset[Need] = frozenset({"values"})
 # Why the ordinary bootstrap gives some descriptors no interval (Bickel & Freedman 1981 for extremes).
 _INCONSISTENT_FOR_EXTREMES = "the bootstrap is inconsistent for sample extremes (Bickel & Freedman 1981)"
 _SERIAL_ORDER_DESTROYED = "resampling independent observations destroys the serial order it measures"
-NOT_RESAMPLED = "the resampling engine does not resample this descriptor (describe gives it no interval either)"
+# The half-sample mode is a mode estimator. No result we know of establishes that the ordinary
+# bootstrap is consistent for it, and for mode estimators it is known to fail: Romano, "Bootstrapping
+# the mode", Ann. Inst. Statist. Math. 40(3), 565-586, 1988 (kernel estimates of the mode resampled
+# from the empirical distribution, unless the bandwidth is suboptimal), and Leger & MacGibbon, "On the
+# bootstrap in cube root asymptotics", CRM-2561, 1998 (Chernoff's mode estimator, which converges at
+# n^(1/3)); both abstracts read when this was written. That no nonparametric mode estimator reaches
+# the root-n rate is recalled, not looked up.
+_MODE_NOT_ESTABLISHED = (
+    "the ordinary bootstrap is not known to be consistent for the half-sample mode, and it is inconsistent "
+    "for mode estimators that converge slower than root-n (Romano 1988; Leger & MacGibbon 1998)"
+)
+NOT_RESAMPLED = "bootstrap intervals are not offered for this descriptor"
+# Why the engine leaves out a descriptor it resamples when the request is large (see
+# ``resample.budget.costly_left_out``); the descriptor's facts mark it ``costly``.
+TOO_COSTLY = "resampling it is too costly for these data within the budget"
 
 
 @dataclass(frozen=True)
@@ -57,7 +71,7 @@ class DescriptorFacts:
     family: Family
     needs: frozenset[Need]
     # The bootstrap engine resamples it; ``bootstrap_fails`` says why it must not where the
-    # ordinary bootstrap is known to fail (otherwise the engine simply has no rule for it).
+    # ordinary bootstrap is known to fail or not known to be consistent.
     bootstrap: bool
     bootstrap_fails: str | None
     classical: bool  # a classical (t, chi-square or order-statistic) interval exists for it
@@ -192,52 +206,52 @@ DESCRIPTORS: tuple[DescriptorFacts, ...] = (
     _descriptor(
         "quartile_skewness", "(Q3 + Q1 - 2 Q2) / (Q3 - Q1)", ("quantile_type",),
           (_ONE, _CONSTANT, "Q3 = Q1"), "Bowley 1901",
-        family="robust_shape", needs=_QUANTILES, bootstrap=False,
+        family="robust_shape", needs=_QUANTILES,
     ),
     _descriptor(
         "octile_kurtosis", "((E7 - E5) + (E3 - E1)) / (E6 - E2), E_i the i/8 quantile",
           ("quantile_type",), (_ONE, _CONSTANT, "E6 = E2"), "Moors, The Statistician 37, 1988",
-        family="robust_shape", needs=_QUANTILES, bootstrap=False,
+        family="robust_shape", needs=_QUANTILES,
     ),
     _descriptor(
         "octile_excess_kurtosis", "octile kurtosis - 1.2330951... (its value for any normal)",
           ("quantile_type",), (_ONE, _CONSTANT, "E6 = E2"), "Moors 1988",
-        family="robust_shape", needs=_QUANTILES, bootstrap=False,
+        family="robust_shape", needs=_QUANTILES,
     ),
     _descriptor(
         "medcouple", "median of h(l, u) = ((u - m) + (l - m)) / (u - l) over l <= m <= u; sign kernel for ties at the median",
           (), (_ONE, _CONSTANT, "bins (values unknown)"), "Brys, Hubert & Struyf, JCGS 13, 2004",
-        family="robust_shape", needs=_VALUES, bootstrap=False,
+        family="robust_shape", needs=_VALUES,
     ),
     _descriptor(
         "half_sample_mode", "repeatedly keep the shortest window holding half the observations; mean of the final two or "
           "closest pair of three", (), ("bins, probabilities and fractional weights",),
           "Bickel & Fruhwirth, CSDA 50, 2006",
-        family="location", needs=frozenset({"values", "whole_counts"}), bootstrap=False,
+        family="location", needs=frozenset({"values", "whole_counts"}), bootstrap_fails=_MODE_NOT_ESTABLISHED,
     ),
     _descriptor(
         "mean_median_gap", "(mean - median) / standard deviation", ("convention",),
           (_ONE, _CONSTANT, _OPEN), "Pearson's second skewness coefficient / 3",
-        family="robust_shape", needs=frozenset({"sums", "quantiles"}), bootstrap=False,
+        family="robust_shape", needs=frozenset({"sums", "quantiles"}),
     ),
     _descriptor(
         "l_location", "l1 = b0 (PWM b_r = n^-1 sum C(j-1, r)/C(n-1, r) x_(j))", ("weights",),
           ("n < 4 (sample estimators)", _OPEN), "Hosking, JRSS-B 52, 1990",
-        family="l_moment", needs=_VALUES, bootstrap=False,
+        family="l_moment", needs=_VALUES,
     ),
     _descriptor(
         "l_scale", "l2 = 2 b1 - b0", ("weights",), (_ONE, "n < 4", _OPEN), "Hosking 1990",
-        family="l_moment", needs=_VALUES, bootstrap=False, scale=True,
+        family="l_moment", needs=_VALUES, scale=True,
     ),
     _descriptor(
         "l_skewness", "t3 = l3 / l2, l3 = 6 b2 - 6 b1 + b0", ("weights",),
           (_ONE, _CONSTANT, "n < 4", _OPEN), "Hosking 1990",
-        family="l_moment", needs=_VALUES, bootstrap=False,
+        family="l_moment", needs=_VALUES,
     ),
     _descriptor(
         "l_kurtosis", "t4 = l4 / l2, l4 = 20 b3 - 30 b2 + 12 b1 - b0", ("weights",),
           (_ONE, _CONSTANT, "n < 4", _OPEN), "Hosking 1990",
-        family="l_moment", needs=_VALUES, bootstrap=False,
+        family="l_moment", needs=_VALUES,
     ),
 )
 
@@ -275,7 +289,10 @@ MEMBERS: tuple[CatalogEntry, ...] = (
           ("n < 2", "not a sample with whole counts"), "Jarque & Bera, Economics Letters 6, 1980"),
     CatalogEntry("interval", "descriptors.*, quantiles[*]",
           "bootstrap interval: percentile, basic (2 estimate - reversed percentile) or BCa", ("interval",),
-          ("no options.interval", "minimum, maximum, range, lag-1 autocorrelation, p = 0 or 1",
+          ("no options.interval", "minimum, maximum, range, p = 0 or 1 (the bootstrap is inconsistent for extremes)",
+           "lag-1 autocorrelation (resampling destroys the order)",
+           "half-sample mode (the bootstrap is not known to be consistent for it)",
+           "medcouple, when resampling it is too costly for the data within the budget",
            "a probability table (a population)"),
           "Efron & Tibshirani 1993 (eq. 14.10); bag of little bootstraps: Kleiner et al., JRSS-B 76, 2014"),
     CatalogEntry("standard_error", "descriptors.*, quantiles[*]", "standard deviation of the bootstrap replicates",
@@ -383,8 +400,9 @@ class WarningCode(enum.StrEnum):
     INTERVAL_UNDEFINED = "interval_undefined", "some resamples leave the descriptor undefined"
     INTERVAL_NOT_OFFERED = (
         "interval_not_offered",
-        "the bootstrap fails for this descriptor (extremes, serial order), "
-        "or the engine does not resample it (comparisons)",
+        "the bootstrap is inconsistent, or not known to be consistent, for this descriptor (extremes, "
+        "serial order, the half-sample mode), or resampling it is too costly for these data within the "
+        "budget (the medcouple)",
     )
     RESAMPLING_SCHEME = "resampling_scheme", "how fractional weights were resampled"
     BOOTSTRAP_SMALL_SAMPLE = "bootstrap_small_sample", "n < 20: intervals may cover less than their level"

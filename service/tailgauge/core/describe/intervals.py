@@ -11,9 +11,11 @@ import numpy as np
 
 from tailgauge.core import classical, grouped, resample
 from tailgauge.core.describe.basis import Basis
-from tailgauge.core.describe.warnings import Warnings, finite_or_none
 from tailgauge.core.describe.options import DescribeOptions
+from tailgauge.core.describe.order_based import ROBUST_PROBABILITIES
 from tailgauge.core.describe.results import Descriptor, Quantile, Resampling
+from tailgauge.core.describe.robust_shape import NORMAL_OCTILE_KURTOSIS
+from tailgauge.core.describe.warnings import Warnings, finite_or_none
 from tailgauge.core.moments import CentralSums, central_sums
 from tailgauge.core.registry import BOOTSTRAP_FAILS, WarningCode, extremes_reason
 from tailgauge.core.weighted import WeightedData, WeightMeaning
@@ -62,6 +64,7 @@ def intervals(
         threads=options.resample_threads,
         subset_rows=options.subset_rows,
         sheppard_width=sheppard_width,
+        quantile_shape=resample.QuantileShape(ROBUST_PROBABILITIES, NORMAL_OCTILE_KURTOSIS),
     )
     fallbacks: dict[str, list[str]] = {}
     undefined: dict[str, list[str]] = {}
@@ -85,10 +88,13 @@ def intervals(
     for reason, names in undefined.items():
         notes.add(WarningCode.INTERVAL_UNDEFINED, f"no bootstrap interval: {reason}", names)
     skipped = [name for name in BOOTSTRAP_FAILS if descriptors[name].value is not None]
+    skipped += [name for name in outcome.left_out if descriptors[name].value is not None]
     skipped += extremes
 
     def why(name: str) -> str:
-        return extremes_reason() if name in extremes else BOOTSTRAP_FAILS[name]
+        if name in extremes:
+            return extremes_reason()
+        return outcome.left_out[name] if name in outcome.left_out else BOOTSTRAP_FAILS[name]
 
     for reason in sorted({why(name) for name in skipped}):
         notes.add(WarningCode.INTERVAL_NOT_OFFERED, f"no bootstrap interval: {reason}", [n for n in skipped if why(n) == reason])

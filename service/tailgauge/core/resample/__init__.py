@@ -29,6 +29,7 @@ import threading
 import numpy as np
 
 from tailgauge.core.moments import CentralSums
+from tailgauge.core.registry import TOO_COSTLY
 from tailgauge.core.resample.budget import (
     EVALUATION_PART_BYTES,
     SUBSET_EXPONENT,
@@ -36,6 +37,7 @@ from tailgauge.core.resample.budget import (
     allowed_resamples,
     deadline_check,
     evaluation_row_bytes,
+    medcouple_fits,
     over_budget,
     resampling_work,
     uses_subsets,
@@ -57,7 +59,7 @@ from tailgauge.core.resample.intervals import (
 from tailgauge.core.resample.little import little_bootstraps
 from tailgauge.core.resample.pool import pool
 from tailgauge.core.resample.rows import LeaveOneOut, Rows, Scratch
-from tailgauge.core.resample.statistics import Statistics
+from tailgauge.core.resample.statistics import QuantileShape, Statistics
 from tailgauge.core.weighted import WeightedData
 
 __all__ = [
@@ -71,6 +73,7 @@ __all__ = [
     "BootstrapResult",
     "Interval",
     "IntervalOptions",
+    "QuantileShape",
     "Replicates",
     "acceleration",
     "allowed_resamples",
@@ -97,6 +100,7 @@ def bootstrap(
     threads: int = 2,
     subset_rows: int = 100_000,
     sheppard_width: float | None = None,
+    quantile_shape: QuantileShape | None = None,
 ) -> BootstrapOutcome:
     """Bootstrap every defined scalar descriptor and requested quantile of ``data`` in one pass.
 
@@ -104,21 +108,30 @@ def bootstrap(
     ordinary bootstrap (percentile or basic intervals; BCa falls back to percentile).
 
     ``estimates`` are the point estimates from ``describe``; a descriptor whose estimate is
-    ``None`` gets no interval. Raises :class:`LimitExceeded` when resamples x support rows exceed
-    ``max_work`` or the wall clock passes ``deadline`` (``time.monotonic()`` seconds).
+    ``None`` gets no interval; so does a quantile-based shape measure without ``quantile_shape``
+    (the probabilities and constant of describe's definitions), and the medcouple when resampling
+    it does not fit the budget (``medcouple_fits``; the outcome's ``left_out`` says why). Raises
+    :class:`LimitExceeded` when resamples x support rows exceed ``max_work`` or the wall clock
+    passes ``deadline`` (``time.monotonic()`` seconds).
     """
     plan, notes = plan_of(data, sums)
     k = plan.values.size
     work, per_resample, counted = work_of(plan, options.resamples, subset_rows)
     if work > max_work:
         raise over_budget(work, max_work, allowed_resamples(max_work, per_resample, plan, subset_rows), counted)
+    left_out = {}
+    # The rows one resample weighs: the support, or a little bootstrap's subset.
+    rows = int(per_resample)
+    if estimates.get("medcouple") is not None and not medcouple_fits(rows, options.resamples, max_work):
+        left_out["medcouple"] = TOO_COSTLY
     if uses_subsets(plan, subset_rows):
         return little_bootstraps(
             plan, notes, estimates, quantile_estimates, probabilities,
-            Statistics(plan, families, quantile_type, factor_rule), options, deadline,
+            Statistics(plan, families, quantile_type, factor_rule, quantile_shape=quantile_shape, left_out=left_out),
+            options, deadline,
         )
-    statistics = Statistics(plan, families, quantile_type, factor_rule, sheppard_width)
-    wanted = tuple(name for name in INTERVAL_DESCRIPTORS if estimates.get(name) is not None)
+    statistics = Statistics(plan, families, quantile_type, factor_rule, sheppard_width, quantile_shape, left_out)
+    wanted = statistics.wanted(estimates)
 
     own = threading.local()
 
@@ -188,4 +201,6 @@ def bootstrap(
         f"multinomial counts over {k} distinct values" if plan.multinomial else f"uniform draws of {k} weighted entries"
     )
     kept = Replicates({name: values[None, :] for name, values in replicates.items()}, jackknife, jackknife_weights, False)
-    return BootstrapOutcome(results, quantile_results, options.resamples, scheme, notes, accelerations, kept)
+    return BootstrapOutcome(
+        results, quantile_results, options.resamples, scheme, notes, accelerations, kept, left_out
+    )

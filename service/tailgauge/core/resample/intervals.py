@@ -7,12 +7,13 @@ bootstrap hands back.
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 
 import numpy as np
 from scipy import special
 
 from tailgauge.core.moments import scale_by_power_of_two
+from tailgauge.core.registry import BOOTSTRAP_DESCRIPTORS
 
 # Fewer observations than this make any bootstrap interval doubtful (common practice).
 SMALL_SAMPLE = 20
@@ -189,18 +190,9 @@ class BootstrapOutcome:
     notes: list[str]
     accelerations: dict[str, float]
     replicates: Replicates | None = None
+    # Descriptors with an estimate that the engine left out for this request, and why.
+    left_out: dict[str, str] = field(default_factory=dict)
 
 
-INTERVAL_DESCRIPTORS = (
-    "mean",
-    "median",
-    "variance",
-    "standard_deviation",
-    "coefficient_of_variation",
-    "skewness",
-    "kurtosis",
-    "excess_kurtosis",
-    "interquartile_range",
-    "median_absolute_deviation",
-    "median_absolute_deviation_normal",
-)
+# What the engine resamples: the registry's bootstrap descriptors (in response order).
+INTERVAL_DESCRIPTORS = BOOTSTRAP_DESCRIPTORS

@@ -11,7 +11,6 @@ import numpy as np
 from tailgauge.core.resample.budget import SUBSET_EXPONENT, SUBSETS, deadline_check
 from tailgauge.core.resample.draws import BATCH_ELEMENTS, Plan
 from tailgauge.core.resample.intervals import (
-    INTERVAL_DESCRIPTORS,
     BootstrapOutcome,
     BootstrapResult,
     Interval,
@@ -42,7 +41,7 @@ def little_bootstraps(
     observations = plan.draws
     m = int(math.ceil(observations**SUBSET_EXPONENT))
     per_subset = int(math.ceil(options.resamples / SUBSETS))
-    wanted = tuple(name for name in INTERVAL_DESCRIPTORS if estimates.get(name) is not None)
+    wanted = full.wanted(estimates)
     names = wanted + tuple(f"quantile:{i}" for i, q in enumerate(quantile_estimates) if q is not None)
     method = "basic" if options.method == "basic" else "percentile"
     cumulative = np.cumsum(np.round(plan.base / plan.unit))
@@ -71,7 +70,10 @@ def little_bootstraps(
             row_of_draw=None,
             unit_weights=bool(np.all(plan.unit[rows] == 1.0)),
         )
-        statistics = Statistics(subset, (full.skewness_family, full.kurtosis_family), full.quantile_type, full.factor_rule)
+        statistics = Statistics(
+            subset, (full.skewness_family, full.kurtosis_family), full.quantile_type, full.factor_rule,
+            quantile_shape=full.quantile_shape, left_out=full.left_out,
+        )
         # The subset's resamples in batches of at most BATCH_ELEMENTS counts (a subset of a
         # large sample would otherwise hold resamples x m counts at once); the generator's
         # draws are the same in batches as in one call, so only the batch's matrix product
@@ -123,4 +125,4 @@ def little_bootstraps(
         f"observations, {per_subset} multinomial resamples of size {observations} each"
     )
     kept = Replicates({name: np.stack([r[name] for r in rounds]) for name in rounds[0]}, None, None, True)
-    return BootstrapOutcome(results, quantiles, SUBSETS * per_subset, scheme, notes, {}, kept)
+    return BootstrapOutcome(results, quantiles, SUBSETS * per_subset, scheme, notes, {}, kept, dict(full.left_out))

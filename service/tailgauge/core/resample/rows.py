@@ -89,6 +89,14 @@ class Rows:
             return (self._integer.astype(np.int64) - self._start[:, None]).astype(np.float64)
         return self._cumulative
 
+    def cumulative_into(self, rows: slice, columns: slice, out: np.ndarray) -> None:
+        """The cumulative weights of a tile of rows and support positions, written to ``out``
+        (float64, the tile's shape): cache-sized tiles cost no fresh pages (the L-moments)."""
+        if self.whole:
+            np.subtract(self._integer[rows, columns], self._start[rows, None], out=out)
+        else:
+            np.copyto(out, self._cumulative[rows, columns])
+
     def first_reaching(self, target: np.ndarray) -> np.ndarray:
         """Per row, the first support index whose cumulative weight reaches ``target`` (b x q)."""
         rows, k = self.weights.shape
@@ -119,6 +127,12 @@ class Rows:
 
     def sum_squared_weights(self) -> np.ndarray:
         return np.sum(self.weights * self.weights, axis=1)
+
+    def dense_weights(self, rows: np.ndarray) -> np.ndarray:
+        """The weights of the given rows (len(rows) x k); a view when they are consecutive."""
+        if rows.size and rows[-1] - rows[0] == rows.size - 1:
+            return self.weights[rows[0] : rows[-1] + 1]
+        return self.weights[rows]
 
     def reordered(self, rows: np.ndarray, order: np.ndarray) -> Rows:
         """The given rows with the support permuted into ``order`` (for sorted deviations)."""
@@ -192,6 +206,17 @@ class LeaveOneOut:
         own = self.base[self.positions]
         remaining = own - self.removed
         return squares - own * own + remaining * remaining
+
+    def dense_weights(self, rows: np.ndarray) -> np.ndarray:
+        """The weights of the given rows (len(rows) x k): the data less one observation each."""
+        dense = np.broadcast_to(self.base, (rows.size, self.base.size)).copy()
+        dense[np.arange(rows.size), self.positions[rows]] -= self.removed[rows]
+        return dense
+
+    @property
+    def base_cumulative(self) -> np.ndarray:
+        """The full data's cumulative weights (k,), which every row changes at one position."""
+        return self._cumulative
 
     @property
     def cumulative(self) -> np.ndarray:

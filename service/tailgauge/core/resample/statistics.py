@@ -8,14 +8,39 @@ deviations (``Rows.sums``); order statistics from the rules of
 from __future__ import annotations
 
 import math
+from dataclasses import dataclass
 
 import numpy as np
 
 from tailgauge.core import deviation_rules, grouped, order_rules, shape
 from tailgauge.core.moments import variance_factor
 from tailgauge.core.order_statistics import NORMAL_MAD_FACTOR
-from tailgauge.core.resample.budget import EVALUATION_PART_BYTES, deadline_check, evaluation_row_bytes
+from tailgauge.core.resample import lmoment_rows, medcouple_rows
+from tailgauge.core.resample.budget import (
+    EVALUATION_PART_BYTES,
+    LMOMENT_BYTES_PER_ELEMENT,
+    deadline_check,
+    evaluation_row_bytes,
+)
 from tailgauge.core.resample.draws import Plan
+from tailgauge.core.resample.intervals import INTERVAL_DESCRIPTORS
+
+QUANTILE_SHAPE = ("quartile_skewness", "octile_kurtosis", "octile_excess_kurtosis")
+L_MOMENTS = ("l_location", "l_scale", "l_skewness", "l_kurtosis")
+
+
+@dataclass(frozen=True, eq=False)
+class QuantileShape:
+    """What the quantile-based shape measures read, as ``describe`` defines them: the quantiles
+    at ``probabilities`` (Q1, Q2, Q3, then the octiles E1, E2, E3, E5, E6, E7) by the quantile
+    rule in use, and the octile kurtosis of any normal distribution (Moors 1988)."""
+
+    probabilities: np.ndarray
+    normal_octile_kurtosis: float
+
+    def __post_init__(self) -> None:
+        # Q1 and Q3 double as the quartiles of the interquartile range.
+        assert self.probabilities.size == 9 and (self.probabilities[0], self.probabilities[2]) == (0.25, 0.75)
 
 
 class Statistics:
@@ -28,12 +53,31 @@ class Statistics:
         quantile_type: int | None,
         factor_rule: str,
         sheppard_width: float | None = None,
+        quantile_shape: QuantileShape | None = None,
+        left_out: dict[str, str] | None = None,
     ):
         self.plan = plan
+        self.quantile_shape = quantile_shape
+        self.left_out = {} if left_out is None else left_out  # name -> why it is not resampled
+        # The data's own weights are whole counts (what robust.medcouple asks of the data): so are
+        # every resample's and leave-one-out row's.
+        self.whole_weights = order_rules.whole_counts(plan.base, float(np.sum(plan.base)))
         self.sheppard_width = sheppard_width  # in the scaled units of the plan's deviations
         self.skewness_family, self.kurtosis_family = families
         self.quantile_type = quantile_type
         self.factor_rule = factor_rule  # a tailgauge.core.moments.VarianceRule
+
+    def wanted(self, estimates: dict[str, float | None]) -> tuple[str, ...]:
+        """The descriptors to resample: those the engine resamples whose estimate is defined and
+        that this request does not leave out (the quantile-based shape only with its definition at
+        hand), in the registry's order."""
+        return tuple(
+            name
+            for name in INTERVAL_DESCRIPTORS
+            if estimates.get(name) is not None
+            and name not in self.left_out
+            and (self.quantile_shape is not None or name not in QUANTILE_SHAPE)
+        )
 
     def quantiles(self, view, p: np.ndarray) -> np.ndarray:
         plan = self.plan
@@ -140,8 +184,68 @@ class Statistics:
             mad = self.mad(view, median)
             out["median_absolute_deviation"] = mad
             out["median_absolute_deviation_normal"] = mad * NORMAL_MAD_FACTOR
-        quartiles_and_requested = self.quantiles(view, np.concatenate(([0.25, 0.75], probabilities)))
-        out["interquartile_range"] = quartiles_and_requested[:, 1] - quartiles_and_requested[:, 0]
+        shaped = self.quantile_shape is not None and any(name in names for name in QUANTILE_SHAPE)
+        if shaped:
+            assert self.quantile_shape is not None
+            # Each distinct probability is looked up once (the defaults share the quartiles and median).
+            distinct, where = np.unique(
+                np.concatenate((self.quantile_shape.probabilities, probabilities)), return_inverse=True
+            )
+            found = self.quantiles(view, distinct)[:, where]
+            self._quantile_shape(out, found[:, :9])
+            q1, q3, requested = found[:, 0], found[:, 2], found[:, 9:]
+        else:
+            found = self.quantiles(view, np.concatenate(([0.25, 0.75], probabilities)))
+            q1, q3, requested = found[:, 0], found[:, 1], found[:, 2:]
+        out["interquartile_range"] = q3 - q1
         for i in range(probabilities.size):
-            out[f"quantile:{i}"] = quartiles_and_requested[:, 2 + i]
+            out[f"quantile:{i}"] = requested[:, i]
+        if "mean_median_gap" in names:
+            with np.errstate(invalid="ignore", divide="ignore", over="ignore"):
+                # As describe: halves first, so values near float64's limit do not overflow.
+                out["mean_median_gap"] = (0.5 * out["mean"] - 0.5 * median) / (0.5 * out["standard_deviation"])
+        if any(name in names for name in L_MOMENTS):
+            self._lmoments(out, view)
+        if "medcouple" in names:
+            out["medcouple"] = medcouple_rows.medcouples(
+                view, plan.values, median, self.whole_weights, EVALUATION_PART_BYTES
+            )
         return out
+
+    def _quantile_shape(self, out: dict[str, np.ndarray], found: np.ndarray) -> None:
+        """Quartile skewness (Bowley) and octile kurtosis (Moors) by describe's arithmetic."""
+        assert self.quantile_shape is not None
+        q1, q2, q3, e1, e2, e3, e5, e6, e7 = found.T
+        with np.errstate(over="ignore", invalid="ignore", divide="ignore"):
+            out["quartile_skewness"] = (0.5 * q3 + 0.5 * q1 - q2) / (0.5 * q3 - 0.5 * q1)
+            moors = ((0.5 * e7 - 0.5 * e5) + (0.5 * e3 - 0.5 * e1)) / (0.5 * e6 - 0.5 * e2)
+        out["octile_kurtosis"] = moors
+        out["octile_excess_kurtosis"] = moors - self.quantile_shape.normal_octile_kurtosis
+
+    def _lmoments(self, out: dict[str, np.ndarray], view) -> None:
+        """l1, l2, t3, t4 of each row (see :mod:`tailgauge.core.resample.lmoment_rows`); bins'
+        rows are taken in dense parts of at most ``EVALUATION_PART_BYTES``."""
+        plan = self.plan
+        rows = view.count
+        moments = np.empty((rows, 4))
+        with np.errstate(invalid="ignore", divide="ignore", over="ignore"):
+            if plan.edges is None:  # tiles of their own (lmoment_rows.TILE_ELEMENTS)
+                pwms = lmoment_rows.sample_pwms(view, plan.powers[:, 1], unbiased=plan.integer)
+                moments[:] = lmoment_rows.lmoments_of(pwms)
+            else:  # dense parts of the bins holding data
+                held = np.flatnonzero(plan.base > 0)
+                span = slice(int(held[0]), int(held[-1]) + 1)
+                edges = plan.sums.scaled_deviations(plan.edges[span.start : span.stop + 1])
+                width = span.stop - span.start
+                per_part = max(1, EVALUATION_PART_BYTES // (LMOMENT_BYTES_PER_ELEMENT * width))
+                for start in range(0, rows, per_part):
+                    part = view if per_part >= rows else view.rows(slice(start, start + per_part))
+                    pwms = lmoment_rows.binned_pwms(part, edges, span)
+                    moments[start : start + part.count] = lmoment_rows.lmoments_of(pwms)
+            exponent = plan.sums.scale_exponent
+            scale = moments[:, 1]
+            defined = scale > 0.0
+            out["l_location"] = plan.sums.mean + np.ldexp(moments[:, 0], exponent)
+            out["l_scale"] = np.ldexp(scale, exponent)
+            out["l_skewness"] = np.where(defined, moments[:, 2] / scale, np.nan)
+            out["l_kurtosis"] = np.where(defined, moments[:, 3] / scale, np.nan)
