@@ -162,7 +162,12 @@ class Statistics:
             inverse_effective = (
                 view.sum_squared_weights() / (weight * weight) if self.factor_rule == "reliability" else None
             )
-            variance_scaled = m[2] * variance_factor(self.factor_rule, weight, inverse_effective)
+            factor = variance_factor(self.factor_rule, weight, inverse_effective)
+            # Sheppard's correction applies to the variance itself (s^2 - h^2/12), by describe's rule.
+            variance_scaled = (
+                m[2] * factor if self.sheppard_width is None
+                else grouped.sheppard_variance(m[2], self.sheppard_width, factor)
+            )
             out["mean"] = mean
             out["variance"] = np.ldexp(variance_scaled, 2 * exponent)
             sd = np.ldexp(np.sqrt(variance_scaled), exponent)
@@ -171,10 +176,13 @@ class Statistics:
             g1 = m[3] / m[2] ** 1.5
             g2 = m[4] / (m[2] * m[2]) - 3.0
             # n of the bias corrections: each row's total weight (one fewer observation in a
-            # jackknife row); reliability weights use the plug-in g1/g2, which need only n >= 3 entries.
+            # jackknife row); reliability weights use the plug-in g1/g2. Each family's smallest n
+            # is describe's (shape.SKEWNESS_MIN_N, KURTOSIS_MIN_N).
             n = np.full_like(weight, float(plan.draws)) if plan.reliability else weight
-            skew = np.where(n >= 3, shape.skewness(g1, n, self.skewness_family).value, np.nan)
-            kurt = np.where(n >= 4, shape.excess_kurtosis(g2, n, self.kurtosis_family).value, np.nan)
+            skew_min = shape.SKEWNESS_MIN_N[self.skewness_family]
+            kurt_min = shape.KURTOSIS_MIN_N[self.kurtosis_family]
+            skew = np.where(n >= skew_min, shape.skewness(g1, n, self.skewness_family).value, np.nan)
+            kurt = np.where(n >= kurt_min, shape.excess_kurtosis(g2, n, self.kurtosis_family).value, np.nan)
             out["skewness"] = skew
             out["excess_kurtosis"] = kurt
             out["kurtosis"] = kurt + 3.0
