@@ -20,6 +20,7 @@ from tests.core.comparison_cases import (  # noqa: F401 (two_samples is a fixtur
     interval,
     named,
     two_samples,
+    warned,
 )
 
 
@@ -123,3 +124,22 @@ def test_contrasts_beyond_float64_are_null_with_not_representable():
     middle = [i for i, s in enumerate(result.quantile_shifts) if s.probability == 0.5]
     assert middle and result.quantile_shifts[middle[0]].value is None
     assert f"quantile_shifts[{middle[0]}]" in named(result, "not_representable")
+
+
+def test_a_statistic_left_out_for_one_input_leaves_its_contrast_not_offered_with_that_reason():
+    """The medcouple of 300 distinct values is too costly to resample within the budget (the
+    engine leaves it out and says so); the comparison's difference of medcouples then gets no
+    interval, with interval_not_offered and the same reason, not interval_undefined."""
+    from tailgauge.core.registry import TOO_COSTLY
+
+    rng = np.random.default_rng(8)
+    first, second = from_array(rng.gamma(2.0, 3.0, 300)), from_array(rng.gamma(2.0, 3.0, 40))
+    result = compare(first, second, interval("percentile", 400, 5), kinds=("samples", "samples"))
+    assert result.first.descriptors["medcouple"].interval is None
+    assert result.differences["medcouple"].value is not None
+    assert result.differences["medcouple"].interval is None
+    offered_not = [n for n in warned(result, "interval_not_offered") if "differences.medcouple" in n.descriptors]
+    assert len(offered_not) == 1 and TOO_COSTLY in offered_not[0].message, result.warnings
+    assert "differences.medcouple" not in named(result, "interval_undefined")
+    # Every other difference the engine resamples still has its interval.
+    assert result.differences["mean"].interval is not None

@@ -167,7 +167,7 @@ def _with_interval(
     """``result`` with the bootstrap interval of ``contrast`` where the engine resamples ``name``."""
     if resampled is None:
         return result
-    reason = no_interval_reason(name)
+    reason = no_interval_reason(name) or resampled.left_out.get(name)
     if reason is not None:
         pending.skip(member, reason)
         return result

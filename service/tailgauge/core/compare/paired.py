@@ -35,6 +35,8 @@ class Resampled:
         self.options = options
         self.estimates = estimates
         self.subsets = first.subsets or second.subsets
+        # A statistic left out for either input leaves its contrasts without an interval, for that reason.
+        self.left_out = {**first.left_out, **second.left_out}
         self.rounds = paired_rounds(first, second)
         self.jackknives = None
         if not self.subsets and first.jackknife is not None and second.jackknife is not None:

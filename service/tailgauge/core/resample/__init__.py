@@ -200,7 +200,9 @@ def bootstrap(
     scheme = (
         f"multinomial counts over {k} distinct values" if plan.multinomial else f"uniform draws of {k} weighted entries"
     )
-    kept = Replicates({name: values[None, :] for name, values in replicates.items()}, jackknife, jackknife_weights, False)
+    kept = Replicates(
+        {name: values[None, :] for name, values in replicates.items()}, jackknife, jackknife_weights, False, left_out
+    )
     return BootstrapOutcome(
         results, quantile_results, options.resamples, scheme, notes, accelerations, kept, left_out
     )

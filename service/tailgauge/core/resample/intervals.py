@@ -179,6 +179,8 @@ class Replicates:
     jackknife: dict[str, np.ndarray] | None
     jackknife_weights: np.ndarray | None
     subsets: bool
+    # Statistics not resampled for this input, with the reason (e.g. too costly within the budget).
+    left_out: dict[str, str] = field(default_factory=dict)
 
 
 @dataclass(frozen=True)

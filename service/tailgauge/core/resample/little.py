@@ -124,5 +124,7 @@ def little_bootstraps(
         f"bag of little bootstraps (Kleiner et al. 2014): {SUBSETS} subsets of {m} = n^{SUBSET_EXPONENT} "
         f"observations, {per_subset} multinomial resamples of size {observations} each"
     )
-    kept = Replicates({name: np.stack([r[name] for r in rounds]) for name in rounds[0]}, None, None, True)
+    kept = Replicates(
+        {name: np.stack([r[name] for r in rounds]) for name in rounds[0]}, None, None, True, dict(full.left_out)
+    )
     return BootstrapOutcome(results, quantiles, SUBSETS * per_subset, scheme, notes, {}, kept, dict(full.left_out))
