@@ -22,20 +22,15 @@ from prometheus_client import CollectorRegistry, generate_latest
 from prometheus_client.parser import text_string_to_metric_families
 
 from tailgauge.runtime import metric_files
+from tests.tmpfs import on_tmpfs
 
 ROOT = Path(__file__).resolve().parents[1]
 
 FILL = """
 import os
+from tests.tmpfs import fill_until_full
 def fill(directory):
-    fd = os.open(os.path.join(directory, "filler"), os.O_WRONLY | os.O_CREAT | os.O_APPEND)
-    try:
-        while True:
-            os.write(fd, bytes(4096))
-    except OSError:
-        pass
-    finally:
-        os.close(fd)
+    fill_until_full(os.path.join(directory, "filler"))
 """
 
 
@@ -44,9 +39,7 @@ def on_tiny_tmpfs(tmp_path: Path, script: str) -> subprocess.CompletedProcess:
     directory = tmp_path / "metrics"
     directory.mkdir()
     program = FILL + "DIRECTORY = " + repr(str(directory)) + "\n" + textwrap.dedent(script)
-    shell = 'mount -t tmpfs -o size=64k tailgauge-test "$1" && shift && exec "$@"'
-    command = ["unshare", "--user", "--map-root-user", "--mount", "sh", "-c", shell, "sh", str(directory),
-               sys.executable, "-c", program]
+    command = on_tmpfs(directory, "64k", [sys.executable, "-c", program])
     environ = {**os.environ, "PYTHONPATH": str(ROOT), "PROMETHEUS_MULTIPROC_DIR": str(directory)}
     return subprocess.run(command, env=environ, capture_output=True, text=True, timeout=120)
 

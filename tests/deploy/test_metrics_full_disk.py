@@ -20,6 +20,7 @@ import httpx
 from prometheus_client.parser import text_string_to_metric_families
 
 from tests.system.server import GunicornServer
+from tests.tmpfs import fill_until_full, on_tmpfs
 
 BODY = b'{"values": [502.1, 498.7, 505.3, 499.9, 501.4, 497.2, 503.8]}'
 SAMPLES = "/v1/descriptors/samples"
@@ -39,21 +40,11 @@ class TmpfsMetricsServer(GunicornServer):
 
     def command(self) -> list[str]:
         fill = 'dd if=/dev/zero of="$1/filler" bs=4096 2>/dev/null; ' if self.fill_first else ""
-        shell = f'mount -t tmpfs -o size={self.size} tailgauge-test "$1" && {fill}shift && exec "$@"'
-        return ["unshare", "--user", "--map-root-user", "--mount", "sh", "-c", shell, "sh",
-                str(self.metrics_dir), *super().command()]
+        return on_tmpfs(self.metrics_dir, self.size, super().command(), before=fill)
 
     def fill(self) -> None:
         """Fill the tmpfs as the server sees it (through the master's root in its mount namespace)."""
-        seen = Path(f"/proc/{self.pid}/root") / self.metrics_dir.relative_to("/") / "late-filler"
-        fd = os.open(seen, os.O_WRONLY | os.O_CREAT | os.O_APPEND)
-        try:
-            while True:
-                os.write(fd, bytes(4096))
-        except OSError:
-            pass
-        finally:
-            os.close(fd)
+        fill_until_full(Path(f"/proc/{self.pid}/root") / self.metrics_dir.relative_to("/") / "late-filler")
 
 
 def _ready(base: str) -> dict:

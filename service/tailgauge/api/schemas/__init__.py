@@ -9,21 +9,25 @@ Modules, by concept: ``common`` (the strict base and the constrained number type
 (RFC 9457 bodies) and ``info`` (health, readiness, catalog). Import names from here.
 """
 
+from tailgauge.api.schemas import common, comparisons, info, inputs, merge, options, problems, results
 from tailgauge.api.schemas.common import *  # noqa: F403
-from tailgauge.api.schemas.common import __all__ as _common
 from tailgauge.api.schemas.comparisons import *  # noqa: F403
-from tailgauge.api.schemas.comparisons import __all__ as _comparisons
 from tailgauge.api.schemas.info import *  # noqa: F403
-from tailgauge.api.schemas.info import __all__ as _info
 from tailgauge.api.schemas.inputs import *  # noqa: F403
-from tailgauge.api.schemas.inputs import __all__ as _inputs
 from tailgauge.api.schemas.merge import *  # noqa: F403
-from tailgauge.api.schemas.merge import __all__ as _merge
 from tailgauge.api.schemas.options import *  # noqa: F403
-from tailgauge.api.schemas.options import __all__ as _options
 from tailgauge.api.schemas.problems import *  # noqa: F403
-from tailgauge.api.schemas.problems import __all__ as _problems
 from tailgauge.api.schemas.results import *  # noqa: F403
-from tailgauge.api.schemas.results import __all__ as _results
 
-__all__ = sorted({*_common, *_options, *_inputs, *_results, *_comparisons, *_merge, *_problems, *_info})
+__all__ = sorted(
+    {
+        *common.__all__,
+        *options.__all__,
+        *inputs.__all__,
+        *results.__all__,
+        *comparisons.__all__,
+        *merge.__all__,
+        *problems.__all__,
+        *info.__all__,
+    }
+)
