@@ -145,6 +145,15 @@ def test_the_python_client_calls_every_operation_and_parses_every_answer(python_
     assert isinstance(samples.parsed.descriptors.mean.value, float)
     assert [q.probability for q in samples.parsed.quantiles] == OPERATIONS[0].example["options"]["probabilities"]
 
+    # options.descriptors: what is not asked for is absent, which the generated model reads as unset.
+    op = OPERATIONS[0]
+    options = models.SampleOptions(descriptors=[models.DescriptorChoice.MEAN, models.DescriptorChoice.QUANTILES])
+    chosen = _call(python_client, op, client, models.SamplesRequest(values=op.example["values"], options=options))
+    assert chosen.status_code == 200, chosen.content[:500]
+    assert isinstance(chosen.parsed.descriptors.mean.value, float)
+    assert not chosen.parsed.descriptors.skewness and not chosen.parsed.moments  # Unset is falsy
+    assert chosen.parsed.to_dict() == json.loads(chosen.content)
+
 
 def test_enum_values_that_differ_only_in_case_are_distinct_members(python_client, server):
     models = python_client.models
@@ -242,12 +251,15 @@ const comparison: Schemas["ComparisonRequest"] = {
   second: { kind: "bins", edges: [0, 1, 2], counts: [1, 1] },
 };
 
-// Answers: members read with their types.
+// A request that asks only for some descriptors and members.
+const chosen: Schemas["SamplesRequest"] = { values: [1, 2, 3], options: { descriptors: ["mean", "quantiles", "spread"] } };
+
+// Answers: members read with their types; what options.descriptors can leave out may be undefined.
 declare const answer: SamplesAnswer;
-const mean: number | null = answer.descriptors.mean.value;
-const estimator: string = answer.descriptors.skewness.estimator;
+const mean: number | null | undefined = answer.descriptors.mean?.value;
+const estimator: string | undefined = answer.descriptors.skewness?.estimator;
 const kind: "samples" | "table" | "bins" = answer.kind;
-const firstQuantile: number | null | undefined = answer.quantiles[0]?.value;
+const firstQuantile: number | null | undefined = answer.quantiles?.[0]?.value;
 const warningCodes: string[] = answer.warnings.map((w) => w.code);
 declare const problem: Schemas["Problem"];
 const where: string[] = problem.errors.map((e) => e.path);
@@ -255,7 +267,7 @@ declare const compared: Schemas["ComparisonResponse"];
 const side: "first" | "second" | "comparison" | undefined = compared.warnings[0]?.side;
 const g: number | null = compared.standardized_mean_difference.value;
 
-export const used = [samples, defaults, table, bins, merge, comparison, mean, estimator, kind,
+export const used = [samples, defaults, chosen, table, bins, merge, comparison, mean, estimator, kind,
   firstQuantile, warningCodes, where, side, g];
 """
 
@@ -264,7 +276,8 @@ REJECTED = """\
 import type { components } from "./schema";
 const wrong: components["schemas"]["SampleOptions"] = { skewness_estimator: "G3" };
 const missing: components["schemas"]["SamplesRequest"] = { options: null };
-export const used = [wrong, missing];
+const unknown: components["schemas"]["SampleOptions"] = { descriptors: ["average"] };
+export const used = [wrong, missing, unknown];
 """
 
 
@@ -330,4 +343,4 @@ def test_typescript_types_reject_what_the_server_rejects(typescript):
     result = _tsc(tools, where, "rejected.ts", REJECTED)
     output = result.stdout + result.stderr
     assert result.returncode != 0
-    assert "rejected.ts(2," in output and "rejected.ts(3," in output, output[-4000:]
+    assert "rejected.ts(2," in output and "rejected.ts(3," in output and "rejected.ts(4," in output, output[-4000:]

@@ -10,8 +10,12 @@ result type must be read, except the exceptions declared below with their reason
 must still be true). A mismatch is a :class:`ConversionMismatch` naming both types and fields.
 
 A core mapping (``dict[str, Descriptor]``) sent as a Struct of named members (``Descriptors``)
-is checked by msgspec itself at each conversion: those Structs must have only required fields,
-so a missing key and an unknown key are both errors, never a default.
+is checked by msgspec itself at each conversion: an unknown key is an error. Its members may
+only default to UNSET (absent from the answer), for what ``options.descriptors`` leaves out; the
+core checks that every descriptor asked for is in its mapping (``describe.restricted``).
+
+Members a result lists in ``absent`` (left out by ``options.descriptors``) are sent as UNSET,
+so they are absent from the answer, not null.
 """
 
 from __future__ import annotations
@@ -25,6 +29,7 @@ import msgspec
 
 from tailgauge.api import schemas
 from tailgauge.core import Comparison, Description, PartialState, Scores
+from tailgauge.core.registry import SCALAR_DESCRIPTORS
 
 Message = TypeVar("Message", bound=msgspec.Struct)
 
@@ -42,10 +47,14 @@ FILLED_BY_EDGE: dict[type, dict[str, str]] = {
     schemas.ComparisonResponse: {"scores": "standardize() scores options.score against the first input"},
 }
 # Response Struct -> {core field: why it is not sent}.
+_ABSENT = "names the members options.descriptors leaves out: they are sent as absent (UNSET)"
 NOT_SENT: dict[type, dict[str, str]] = {
     schemas.DescriptionResponse: {
-        "sketches": "only merged states read quantiles from sketches (MergedDescriptionResponse.sketches)"
+        "sketches": "only merged states read quantiles from sketches (MergedDescriptionResponse.sketches)",
+        "absent": _ABSENT,
     },
+    schemas.MergedDescriptionResponse: {"absent": _ABSENT},
+    schemas.ComparisonResponse: {"absent": _ABSENT},
     schemas.Resampling: {"replicates": "the bootstrap replicates, kept in process for contrasts"},
     schemas.Scores: {"warnings": "added to the response's own warnings list"},
 }
@@ -110,7 +119,7 @@ def _record_members(record: type, result: type, field: str) -> list[msgspec.stru
     """A Struct of named members read from a core mapping: each member pairs with the mapping's values."""
     members = []
     for member in msgspec.structs.fields(record):
-        if member.required is False:
+        if member.required is False and member.default is not msgspec.UNSET:
             raise ConversionMismatch(
                 f"{record.__name__}.{member.name} has a default, so a key missing from the core's "
                 f"{result.__name__}.{field} mapping would be sent as that default instead of failing"
@@ -182,7 +191,29 @@ def to_message(result: Any, struct: type[Message]) -> Message:
     pair = (type(result), struct)
     if pair not in PAIRS:
         PAIRS = PAIRS | check((pair,))
-    return msgspec.convert(result, struct, from_attributes=True)
+    return msgspec.convert(_leave_out(result), struct, from_attributes=True)
+
+
+def _leave_out(result: Any) -> Any:
+    """``result`` as a mapping of its fields without the members it lists in ``absent`` (so the
+    Struct's UNSET default leaves them absent on the wire), nested descriptions too (a
+    comparison's first and second); ``result`` itself when nothing is absent.
+
+    A description's ``descriptors`` must hold every descriptor it does not list as absent: a
+    missing one is a :class:`ConversionMismatch`, never a member silently left out."""
+    absent = set(getattr(result, "absent", ()))
+    mapping = getattr(result, "descriptors", None)
+    if isinstance(mapping, dict):
+        missing = [name for name in SCALAR_DESCRIPTORS if name not in mapping and name not in absent]
+        if missing:
+            raise ConversionMismatch(f"{type(result).__name__}.descriptors lacks {missing}, which it does not list as absent")
+    nested = {side: getattr(result, side) for side in ("first", "second") if getattr(getattr(result, side, None), "absent", ())}
+    if not absent and not nested:
+        return result
+    names = {f.name for f in dataclasses.fields(result)}
+    fields = {name: getattr(result, name) for name in names if name not in absent}
+    fields.update({side: _leave_out(description) for side, description in nested.items()})
+    return fields
 
 
 __all__ = ["FILLED_BY_EDGE", "NOT_SENT", "PAIRS", "ROOTS", "ConversionMismatch", "check", "structs_in", "to_message"]

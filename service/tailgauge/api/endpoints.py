@@ -44,14 +44,19 @@ from tailgauge.core import (
     LimitExceeded,
     Location,
     WeightMeaning,
+    Selection,
     admit,
+    choose,
     compare,
     describe,
     from_bins,
     from_samples,
     from_table,
+    restricted,
+    restricted_comparison,
     standardize,
 )
+from tailgauge.core.scoring import READ_BY_SCORES
 from tailgauge.core.partial import MIN_ORDER, PartialState, describe_state, merge_states, state_of
 from tailgauge.core.sketches import combine_sketches
 from tailgauge.settings import Settings
@@ -178,6 +183,8 @@ def describe_options(options: CoreChoices, settings: Settings, decoding: float =
         modes_limit=settings.max_modes_listed,
         sheppard_correction=options.sheppard_correction,
         contributions_limit=settings.max_contributions_listed,
+        # The schema admits only known names; scores read four descriptors whether shown or not.
+        descriptors=choose(options.descriptors, also=READ_BY_SCORES if options.score else ()),
     )
 
 
@@ -200,9 +207,10 @@ def _with_scores(message: DescriptionResponse | ComparisonResponse, description,
 
 
 def _answer(
-    description, count: int, codec: Codec, points: list[float], state: PartialState | None = None
+    description, count: int, codec: Codec, points: list[float], state: PartialState | None = None,
+    selection: Selection | None = None,
 ) -> Computed:
-    message = to_message(description, DescriptionResponse)
+    message = to_message(restricted(description, selection), DescriptionResponse)
     message = _with_scores(message, description, points)
     if state is not None:
         message.partial_state = to_message(state, schemas.PartialState)
@@ -269,7 +277,7 @@ def describe_samples(body: bytes, codec: Codec, answer: Codec, settings: Setting
         state = None
         if request.options.partial_state:
             state = state_of(data, order=max(MIN_ORDER, request.options.moment_order))
-        return _answer(description, count, answer, request.options.score, state)
+        return _answer(description, count, answer, request.options.score, state, options.descriptors)
 
 
 def merge_states_request(body: bytes, codec: Codec, answer: Codec, settings: Settings) -> Computed:
@@ -292,7 +300,7 @@ def _merge_states(body: bytes, codec: Codec, answer: Codec, settings: Settings) 
     merged = merge_states(states, path="states")
     options = describe_options(request.options, settings)
     description = describe_state(merged, options, quantiles_from=sketches)
-    message = to_message(description, MergedDescriptionResponse)
+    message = to_message(restricted(description, options.descriptors), MergedDescriptionResponse)
     message = _with_scores(message, description, request.options.score)
     message.partial_state = to_message(merged, schemas.PartialState)
     return Computed(answer.encode(message), len(states), 0)
@@ -303,7 +311,8 @@ def describe_table(body: bytes, codec: Codec, answer: Codec, settings: Settings)
         request = _decode(body, TableRequest, codec)
         data, count = _table_data(request, request.options.normalize, settings)
         options = _admitted([data], describe_options(request.options, settings, ticket.amount), ticket)
-        return _answer(describe(data, options, kind="table"), count, answer, request.options.score)
+        description = describe(data, options, kind="table")
+        return _answer(description, count, answer, request.options.score, selection=options.descriptors)
 
 
 def describe_bins(body: bytes, codec: Codec, answer: Codec, settings: Settings) -> Computed:
@@ -311,7 +320,8 @@ def describe_bins(body: bytes, codec: Codec, answer: Codec, settings: Settings) 
         request = _decode(body, BinsRequest, codec)
         data, count = _bins_data(request, settings)
         options = _admitted([data], describe_options(request.options, settings, ticket.amount), ticket)
-        return _answer(describe(data, options, kind="bins"), count, answer, request.options.score)
+        description = describe(data, options, kind="bins")
+        return _answer(description, count, answer, request.options.score, selection=options.descriptors)
 
 
 def _input_data(message, settings: Settings, prefix: str):
@@ -335,7 +345,7 @@ def _compare(body: bytes, codec: Codec, answer: Codec, settings: Settings, ticke
     options = describe_options(request.options, settings, ticket.amount)
     options = _admitted([first, second], options, ticket)
     comparison = compare(first, second, options, kinds=(first_kind, second_kind))
-    message = to_message(comparison, ComparisonResponse)
+    message = to_message(restricted_comparison(comparison, options.descriptors), ComparisonResponse)
     message = _with_scores(message, comparison.first, request.options.score)
     resamples = 0 if comparison.resampling is None else 2 * comparison.resampling.resamples
     return Computed(answer.encode(message), first_count + second_count, resamples)

@@ -10,7 +10,8 @@ What the document adds to msgspec's schemas, so that code generated from it work
 
 * every answer's schema is open (no ``additionalProperties: false``): a client generated today
   must accept tomorrow's answer with one more member; requests stay strict. Every member of an
-  answer is listed as required (the server always sends it, null when undefined);
+  answer is listed as required (the server always sends it, null when undefined), except the
+  descriptors and members that ``options.descriptors`` can leave out (absent, never null);
 * a request member's default is said in its description, not as ``default``: generators make a
   member with a ``default`` required in request types (openapi-typescript) or send the default
   of the day they ran; the server applies its own default to an absent member;
@@ -116,8 +117,10 @@ def _finish_components(components: dict, requests: list[dict], answers: list[dic
         schema = components[name]
         if schema.get("type") == "object":
             schema.pop("additionalProperties", None)
-            # Every member is always sent (null when undefined), defaulted or not.
-            schema["required"] = list(schema.get("properties", {}))
+            # Every member is always sent (null when undefined), defaulted or not, except those
+            # options.descriptors may leave out (UNSET by default: absent, never null).
+            leaves_out = _may_be_absent(name)
+            schema["required"] = [member for member in schema.get("properties", {}) if member not in leaves_out]
     for name in asked:
         for prop in components[name].get("properties", {}).values():
             if "default" in prop:
@@ -125,6 +128,14 @@ def _finish_components(components: dict, requests: list[dict], answers: list[dic
                 # (openapi-typescript) or send the default of the day the client was generated.
                 value = msgspec.json.encode(prop.pop("default")).decode()
                 prop["description"] = f"{prop.get('description', '').rstrip()} Default: {value}.".lstrip()
+
+
+def _may_be_absent(component: str) -> set[str]:
+    """Members of an answer's Struct that default to UNSET: absent when not asked for."""
+    struct = getattr(schemas, component, None)
+    if not (isinstance(struct, type) and issubclass(struct, msgspec.Struct)):
+        return set()
+    return {f.encode_name for f in msgspec.structs.fields(struct) if f.default is msgspec.UNSET}
 
 
 def _problem_description(op: Operation, status: int) -> str:

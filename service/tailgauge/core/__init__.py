@@ -1,8 +1,8 @@
 """The numeric core: pure numpy/scipy functions on the one weighted form; no HTTP here."""
 
-from tailgauge.core.compare import Comparison, compare
+from tailgauge.core.compare import Comparison, compare, restricted_comparison
 from tailgauge.core.cost import Estimate
-from tailgauge.core.describe import DEFAULT_PROBABILITIES, Description, DescribeOptions, admit, describe
+from tailgauge.core.describe import DEFAULT_PROBABILITIES, Description, DescribeOptions, admit, describe, restricted
 from tailgauge.core.errors import DescriptorError, LimitExceeded, Location, UncomputableInput
 from tailgauge.core.moments import CentralSums, central_sums
 from tailgauge.core.partial import (
@@ -16,6 +16,7 @@ from tailgauge.core.partial import (
 )
 from tailgauge.core.resample import IntervalOptions
 from tailgauge.core.scoring import Scores, standardize
+from tailgauge.core.selection import Selection, UnknownName, choose
 from tailgauge.core.sketches import (
     KllSketchContents,
     SketchUnion,
@@ -48,13 +49,16 @@ __all__ = [
     "Location",
     "PartialState",
     "Scores",
+    "Selection",
     "SketchUnion",
     "UncomputableInput",
+    "UnknownName",
     "WeightMeaning",
     "WeightedData",
     "admit",
     "central_sums",
     "check_states",
+    "choose",
     "combine_sketches",
     "compare",
     "describe",
@@ -68,6 +72,8 @@ __all__ = [
     "merge_states",
     "partial_state",
     "read_kll_sketch",
+    "restricted",
+    "restricted_comparison",
     "standardize",
     "state_of",
 ]

@@ -104,12 +104,18 @@ class Shape:
     subset_rows: int  # m of the bag of little bootstraps, 0 for the ordinary bootstrap
 
 
-def shape_of(data: WeightedData, subset_rows: int) -> Shape:
+def shape_of(data: WeightedData, subset_rows: int, *, distinct: bool = True) -> Shape:
     """The cost-driving sizes of ``data``, by the rules of ``resample.draws.plan_of`` and ``draw``
-    (without building the plan's arrays)."""
+    (without building the plan's arrays).
+
+    ``distinct=False``: a raw sample's support rows are taken as its count, an upper bound, so the
+    data need not be sorted to plan a request that neither resamples nor asks for a sort."""
     if data.binned:
         rows = int(data.values.size)
         total = float(data.weights.sum()) if data.weights is not None else float(rows)
+    elif not distinct and data.weights is None and "support" not in data.__dict__:
+        rows = int(data.count)
+        total = float(rows)
     else:
         support = data.support
         rows = int(support.values.size)

@@ -21,6 +21,8 @@ from tailgauge.core.describe import Description, ResultWarning
 from tailgauge.core.describe.warnings import Warnings
 from tailgauge.core.registry import WarningCode
 
+# What scoring reads of a description (computed even where options.descriptors does not show them).
+READ_BY_SCORES = ("mean", "standard_deviation", "median", "median_absolute_deviation_normal")
 # The registry's warning codes that scoring emits.
 SCORE_WARNINGS: frozenset[WarningCode] = frozenset({WarningCode.SCORE_UNDEFINED, WarningCode.NOT_REPRESENTABLE})
 

@@ -5,7 +5,7 @@ from __future__ import annotations
 from enum import StrEnum
 from typing import Annotated
 
-from msgspec import Meta
+from msgspec import UNSET, Meta, UnsetType
 
 from tailgauge.core import registry
 from tailgauge.api.schemas.common import Answer, MaybeNumber
@@ -89,7 +89,7 @@ class ComparisonWarning(Answer):
     descriptors: list[str]
 
 
-class ComparisonResponse(Answer):
+class ComparisonResponse(Answer, kw_only=True):
     first: DescriptionResponse
     second: DescriptionResponse
     differences: Annotated[
@@ -102,8 +102,8 @@ class ComparisonResponse(Answer):
              "with its interval."),
     ]
     standardized_mean_difference: StandardizedMeanDifference
-    quantile_shifts: list[QuantileShift]
-    standardized_quantiles: list[StandardizedQuantile]
+    quantile_shifts: list[QuantileShift] | UnsetType = UNSET
+    standardized_quantiles: list[StandardizedQuantile] | UnsetType = UNSET
     distribution_test: DistributionTest
     warnings: list[ComparisonWarning]
     resampling: Resampling | None = None

@@ -5,7 +5,7 @@ from __future__ import annotations
 from typing import Annotated, Literal
 
 import msgspec
-from msgspec import Meta
+from msgspec import UNSET, Meta, UnsetType
 
 from tailgauge.api.schemas.common import SCHEMA_MAX_STATES, Answer, Message
 from tailgauge.api.schemas.inputs import NULL_MEANS_DEFAULTS
@@ -72,12 +72,12 @@ class QuantileSketches(Answer):
     item_types: list[str]
 
 
-class MergedDescriptionResponse(DescriptionResponse):
+class MergedDescriptionResponse(DescriptionResponse, kw_only=True):
     """A descriptor response for the union of merged partial states (same members, kind states)."""
 
     kind: Literal["states"]
     size: MergedSize
-    modes: Annotated[Modes | None, Meta(description="null: partial states carry no values.")]
+    modes: Annotated[Modes | None | UnsetType, Meta(description="null: partial states carry no values.")] = UNSET
     sketches: Annotated[
         QuantileSketches | None, Meta(description="Where approximate quantiles came from; null without sketches.")
     ] = None

@@ -25,6 +25,7 @@ from tailgauge.api.schemas.common import (
     Probability,
 )
 from tailgauge.core import DEFAULT_PROBABILITIES
+from tailgauge.core import selection as core_selection
 
 
 # Closed sets of option values are named enumerations (each becomes a named component of the
@@ -70,6 +71,20 @@ class Missing(StrEnum):
 
     REJECT = "reject"
     OMIT = "omit"
+
+
+# Every name options.descriptors accepts: the registry's descriptors, the selectable members and
+# the descriptor families, in that order (tailgauge.core.selection.CHOICES).
+DescriptorChoice = StrEnum(  # type: ignore[misc]
+    "DescriptorChoice", [(name.upper(), name) for name in core_selection.CHOICES], module=__name__
+)
+DescriptorChoice.__doc__ = (
+    "A descriptor, a response member or a family of descriptors to compute: "
+    + "; ".join(
+        f"{family}: {', '.join(core_selection.names(family))}" for family in core_selection.FAMILIES
+    )
+    + f"; members: {', '.join(core_selection.MEMBERS)}."
+)
 
 
 class IntervalRequest(Message):
@@ -169,6 +184,17 @@ class SummaryOptions(Message):
             description="Highest order of the raw, central and standardized moments reported.",
         ),
     ] = 4
+    descriptors: Annotated[
+        Annotated[list[DescriptorChoice], Meta(min_length=1, max_length=len(core_selection.CHOICES))] | None,
+        Meta(
+            description=(
+                "Compute only these: descriptor names, member names (quantiles, moments, modes, "
+                "shape_estimators, tail_contributions, grouping, normality) and family names (all "
+                "descriptors of the family). Whatever is not named is absent from the answer, not "
+                "null, and not computed (intervals and contrasts too). null: everything."
+            ),
+        ),
+    ] = None
     score: Annotated[
         list[Finite],
         Meta(
@@ -278,6 +304,7 @@ class TableInputOptions(Message):
 
 __all__ = [
     "BinOptions",
+    "DescriptorChoice",
     "Convention",
     "IntervalMethod",
     "KurtosisEstimator",

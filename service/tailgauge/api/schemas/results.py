@@ -10,7 +10,7 @@ from enum import StrEnum
 from typing import Annotated
 
 import msgspec
-from msgspec import Meta
+from msgspec import UNSET, Meta, UnsetType
 
 from tailgauge.core import registry
 from tailgauge.api.schemas.common import SCHEMA_MAX_MOMENT_ORDER, Answer, Finite, MaybeNumber, NonNegative
@@ -69,14 +69,15 @@ class DescriptorValue(Answer):
 
 
 # One member per descriptor of the registry, in its order, each described by its definition there
-# (the catalog's text): adding a descriptor to the registry adds it here. Unlike the other
-# answers it forbids unknown members in process: it is converted from the core's dict of
-# descriptors, where a key the Struct lacks must be an error, not a silently dropped result.
+# (the catalog's text): adding a descriptor to the registry adds it here. A member is absent
+# (UNSET) only when options.descriptors leaves it out; describe.restricted checks that every
+# shown descriptor is in the core's dict. Unlike the other answers it forbids unknown members in
+# process: a key of the core's dict the Struct lacks must be an error, not a dropped result.
 # The published schema still leaves it open (tailgauge.api.openapi opens every answer).
 Descriptors = msgspec.defstruct(
     "Descriptors",
     [
-        (facts.name, Annotated[DescriptorValue, Meta(description=facts.definition)])
+        (facts.name, Annotated[DescriptorValue | UnsetType, Meta(description=facts.definition)], UNSET)
         for facts in registry.DESCRIPTORS
     ],
     bases=(Answer,),
@@ -92,7 +93,15 @@ class Size(Answer):
     ]
     total_weight: float
     omitted: Annotated[int, Meta(description="Missing observations omitted.")]
-    distinct_values: Annotated[int, Meta(description="Distinct values (bins for binned counts).")]
+    distinct_values: Annotated[
+        int | None,
+        Meta(
+            description=(
+                "Distinct values (bins for binned counts); null for a raw sample when options.descriptors "
+                "asks for nothing that sorts the data."
+            )
+        ),
+    ]
     zero_weight: Annotated[int, Meta(description="Entries of weight zero left out.")]
     effective_n: Annotated[
         float | None, Meta(description="Kish effective sample size (sum w)^2 / sum w^2, for reliability weights.")
@@ -241,27 +250,30 @@ class ResultWarning(Answer):
     descriptors: Annotated[list[str], Meta(description="The results this warning concerns.")]
 
 
-class DescriptionResponse(Answer):
+class DescriptionResponse(Answer, kw_only=True):
     kind: InputKind
     size: Size
     descriptors: Descriptors
-    moments: Annotated[Moments | None, Meta(description="null when an open-ended bin holds data.")]
-    quantiles: list[Quantile]
-    modes: Modes
-    shape_estimators: ShapeEstimators
+    moments: Annotated[Moments | None | UnsetType, Meta(description="null when an open-ended bin holds data.")] = UNSET
+    quantiles: list[Quantile] | UnsetType = UNSET
+    modes: Modes | UnsetType = UNSET
+    shape_estimators: ShapeEstimators | UnsetType = UNSET
     tail_contributions: Annotated[
-        TailContributions | None,
+        TailContributions | None | UnsetType,
         Meta(
             description=(
                 "Each outcome's (bin's) share of the standardized third and fourth moments; for raw "
                 "samples the largest contributors. null when the moments are undefined."
             )
         ),
-    ]
-    grouping: Annotated[Grouping | None, Meta(description="Bin facts; null unless the input was bins.")]
+    ] = UNSET
+    grouping: Annotated[
+        Grouping | None | UnsetType, Meta(description="Bin facts; null unless the input was bins.")
+    ] = UNSET
     normality: Annotated[
-        list[NormalityTest], Meta(description="Normality tests from skewness and kurtosis (samples and count tables).")
-    ]
+        list[NormalityTest] | UnsetType,
+        Meta(description="Normality tests from skewness and kurtosis (samples and count tables)."),
+    ] = UNSET
     conventions: Conventions
     warnings: list[ResultWarning]
     resampling: Annotated[

@@ -34,7 +34,7 @@ ch. 2 and 8 (two-sample bootstrap: each sample resampled on its own), ch. 14 (BC
 B. L. Welch, Biometrika 34, 1947 (the t interval for a difference of means with unequal variances).
 """
 
-from tailgauge.core.compare.assembly import Comparison, compare, side_seeds
+from tailgauge.core.compare.assembly import Comparison, compare, restricted_comparison, side_seeds
 from tailgauge.core.compare.contrasts import Difference, QuantileShift, StandardizedPair, StandardizedQuantile
 from tailgauge.core.compare.effect_size import StandardizedMeanDifference, hedges_correction
 from tailgauge.core.compare.warnings import ComparisonWarning
@@ -42,6 +42,7 @@ from tailgauge.core.compare.two_sample import KS_EXACT_LIMIT, SMALL_EXPECTED_COU
 from tailgauge.core.compare.vocabulary import COMPARISON_WARNINGS, SCALE_DESCRIPTORS
 
 __all__ = [
+    "restricted_comparison",
     "COMPARISON_WARNINGS",
     "KS_EXACT_LIMIT",
     "SCALE_DESCRIPTORS",

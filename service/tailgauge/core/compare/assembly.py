@@ -21,8 +21,9 @@ from tailgauge.core.compare.effect_size import StandardizedMeanDifference, stand
 from tailgauge.core.compare.warnings import ComparisonWarning, IntervalWarnings, Warnings, note_conventions
 from tailgauge.core.compare.paired import Resampled
 from tailgauge.core.compare.two_sample import DistributionTest, distribution_test
-from tailgauge.core.describe import Description, DescribeOptions, Resampling, admit, describe
+from tailgauge.core.describe import Description, DescribeOptions, Resampling, admit, describe, restricted
 from tailgauge.core.errors import DescriptorError, LimitExceeded, Location
+from tailgauge.core.selection import Selection, shown_warnings
 from tailgauge.core.weighted import WeightedData
 
 
@@ -48,6 +49,11 @@ class Comparison:
     distribution_test: DistributionTest
     warnings: list[ComparisonWarning]
     resampling: Resampling | None
+    # Members left out of the answer by options.descriptors (the quantile members without quantiles).
+    absent: tuple[str, ...] = ()
+
+
+READ_BY_COMPARISON = ("mean", "standard_deviation", "median", "median_absolute_deviation_normal")
 
 
 def side_seeds(seed: int) -> tuple[int, int]:
@@ -134,6 +140,9 @@ def compare(
     if not options.admitted:
         admit([first, second], options)
     options = dataclasses.replace(options, admitted=True)
+    if options.descriptors is not None:
+        # The effect size and the standardized quantiles read these of each input, shown or not.
+        options = dataclasses.replace(options, descriptors=options.descriptors.also(READ_BY_COMPARISON))
     side_options = (options, options)
     if interval is not None:
         _check_budget(first, second, options)
@@ -187,4 +196,26 @@ def compare(
         # they belong; the comparison lists only what concerns its contrasts.
         warnings=notes.of_comparison(),
         resampling=resampling,
+    )
+
+
+# Comparison members that follow the quantiles member.
+_QUANTILE_MEMBERS = ("quantile_shifts", "standardized_quantiles")
+
+
+def restricted_comparison(comparison: Comparison, selection: Selection | None) -> Comparison:
+    """``comparison`` as its answer shows it: each input restricted (``describe.restricted``), the
+    contrasts of shown descriptors only, the quantile members only with ``quantiles``, and the
+    warnings about what is shown. Applied last, after the scores read the first input."""
+    if selection is None:
+        return comparison
+    quantiles = selection.shows("quantiles")
+    return dataclasses.replace(
+        comparison,
+        first=restricted(comparison.first, selection),
+        second=restricted(comparison.second, selection),
+        differences={name: d for name, d in comparison.differences.items() if selection.shows(name)},
+        ratios={name: d for name, d in comparison.ratios.items() if selection.shows(name)},
+        warnings=shown_warnings(comparison.warnings, selection),
+        absent=() if quantiles else _QUANTILE_MEMBERS,
     )

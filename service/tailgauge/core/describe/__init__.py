@@ -20,7 +20,7 @@ Modules, in the order a description is made:
     results        the result types
 """
 
-from tailgauge.core.describe.assembly import admit, assemble, describe, quantiles_at
+from tailgauge.core.describe.assembly import admit, assemble, describe, quantiles_at, restricted
 from tailgauge.core.describe.basis import Basis, basis_of, basis_of_data
 from tailgauge.core.describe.evidence import POPULATION_SYMMETRY_THRESHOLD
 from tailgauge.core.describe.moment_based import SAMPLE_CONTRIBUTORS
@@ -103,4 +103,5 @@ __all__ = [
     "check_description",
     "describe",
     "quantiles_at",
+    "restricted",
 ]

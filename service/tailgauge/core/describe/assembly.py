@@ -3,6 +3,7 @@
 
 from __future__ import annotations
 
+import dataclasses
 import math
 import time
 from collections.abc import Callable
@@ -31,8 +32,13 @@ from tailgauge.core.describe.results import (
 from tailgauge.core.describe.validation import check_description
 from tailgauge.core.errors import LimitExceeded, Location
 from tailgauge.core.moments import CentralSums, central_sums
-from tailgauge.core.registry import UNDEFINED_FOR_OPEN_BIN, WarningCode
+from tailgauge.core.selection import Selection, shown_warnings
+from tailgauge.core.registry import SCALAR_DESCRIPTORS, UNDEFINED_FOR_OPEN_BIN, WarningCode, names
 from tailgauge.core.weighted import WeightedData, WeightMeaning
+
+# Computed by robust_shape.robust_descriptors (after the order statistics).
+ROBUST_NAMES = names("robust_shape", "l_moment") + ("half_sample_mode",)
+NOT_COMPUTED = "not computed: not asked for by options.descriptors"
 
 PLUG_IN_CENTRAL_MOMENTS = "plug-in: sum of w (x - mean)^k divided by the total weight"
 
@@ -45,7 +51,7 @@ def admit(inputs: list[WeightedData], options: DescribeOptions) -> cost.Estimate
         interval = None  # refused with its own reason by validation.check_description
     left = math.inf if options.deadline is None else options.deadline - time.monotonic()
     return cost.admit(
-        [cost.shape_of(d, options.subset_rows) for d in inputs],
+        [cost.shape_of(d, options.subset_rows, distinct=interval is not None or options.selection.needs_sort) for d in inputs],
         probabilities=len(options.probabilities),
         resamples=0 if interval is None else interval.resamples,
         method=None if interval is None else interval.method,
@@ -124,16 +130,25 @@ def describe(data: WeightedData, options: DescribeOptions, *, kind: str) -> Desc
         sheppard_width=sheppard_width,
     )
     _on_time(options)
-    quantile_values, robust_quantiles = order_based.order_descriptors(descriptors, data, basis, options, notes)
-    _on_time(options)
-    robust_shape.robust_descriptors(descriptors, data, sums, basis, robust_quantiles, constant, notes)
-    _on_time(options)
-    descriptors["lag1_autocorrelation"] = Descriptor(
-        moment_based.lag1(data, sums, basis.single, constant, notes), moment_based.LAG1_LABEL
-    )
+    selection = options.selection
+    probabilities = np.array(options.probabilities if selection.computes("quantiles") else (), dtype=np.float64)
+    quantile_values = np.empty(0)
+    if selection.needs_sort:
+        quantile_values, robust_quantiles = order_based.order_descriptors(descriptors, data, basis, options, notes)
+        quantile_values = quantile_values[: probabilities.size]
+        _on_time(options)
+        if selection.computes_any(ROBUST_NAMES):
+            robust_shape.robust_descriptors(descriptors, data, sums, basis, robust_quantiles, constant, notes, selection)
+            _on_time(options)
+    if selection.computes("lag1_autocorrelation"):
+        descriptors["lag1_autocorrelation"] = Descriptor(
+            moment_based.lag1(data, sums, basis.single, constant, notes), moment_based.LAG1_LABEL
+        )
+    # What the selection leaves uncomputed holds None here; restrict() takes it out of the answer.
+    for name in SCALAR_DESCRIPTORS:
+        descriptors.setdefault(name, Descriptor(None, NOT_COMPUTED))
     evidence.check_symmetry(descriptors, data, basis, notes)
 
-    probabilities = np.array(options.probabilities, dtype=np.float64)
     quantile_list = quantiles_at(probabilities, quantile_values)
     if any(q.value is None for q in quantile_list) and quantile_list:
         missing = [f"{q.probability:g}" for q in quantile_list if q.value is None]
@@ -150,7 +165,9 @@ def describe(data: WeightedData, options: DescribeOptions, *, kind: str) -> Desc
             data, sums, midpoint_sums, sheppard_applied, basis, options, descriptors, quantile_list, probabilities, notes
         )
 
-    modes, modal = order_based.modes(data, options.modes_limit, notes)
+    modes, modal = None, []
+    if selection.computes("modes") or (data.binned and selection.computes("grouping")):  # grouping lists the modal classes
+        modes, modal = order_based.modes(data, options.modes_limit, notes)
     single_or_constant = basis.single or constant
     return assemble(
         kind=kind,
@@ -158,7 +175,7 @@ def describe(data: WeightedData, options: DescribeOptions, *, kind: str) -> Desc
             n=None if data.meaning is WeightMeaning.PROBABILITY else _count_value(data),
             total_weight=data.total_weight,
             omitted=data.omitted,
-            distinct_values=int(data.values.size if data.binned else data.support.values.size),
+            distinct_values=_distinct_values(data, selection.needs_sort or options.interval is not None),
             zero_weight=data.zero_weight,
             effective_n=data.effective_size if data.meaning is WeightMeaning.RELIABILITY else None,
         ),
@@ -169,19 +186,42 @@ def describe(data: WeightedData, options: DescribeOptions, *, kind: str) -> Desc
         quantiles=quantile_list,
         notes=notes,
         moments=lambda: (
-            None if sums is None else moment_based.moments_member(sums, options.moment_order, basis.single, constant, notes)
+            None if sums is None or not selection.computes("moments")
+            else moment_based.moments_member(sums, options.moment_order, basis.single, constant, notes)
         ),
         modes=modes,
-        tail_contributions=lambda: moment_based.tail_contributions(
-            data, midpoint_sums, single_or_constant, options, kind, notes
+        tail_contributions=lambda: (
+            moment_based.tail_contributions(data, midpoint_sums, single_or_constant, options, kind, notes)
+            if selection.computes("tail_contributions") else None
         ),
-        grouping=order_based.grouping(data, modal, sheppard_applied) if data.binned else None,
-        normality=lambda: evidence.normality_of(data, midpoint_sums, basis, constant, notes),
+        grouping=(
+            order_based.grouping(data, modal, sheppard_applied)
+            if data.binned and selection.computes("grouping") else None
+        ),
+        normality=lambda: (
+            evidence.normality_of(data, midpoint_sums, basis, constant, notes) if selection.computes("normality") else []
+        ),
         central_moments=PLUG_IN_CENTRAL_MOMENTS
         + ("; bins at their midpoints" if data.binned else "")
         + ("; orders 2 and 4 Sheppard-corrected" if sheppard_applied else ""),
         weights=data.meaning,
         resampling=resampling,
+    )
+
+
+def restricted(description: Description, selection: Selection | None) -> Description:
+    """``description`` as its answer shows it: only the descriptors and members ``selection``
+    shows (the others listed in ``absent``: absent from the answer, not null), and only the
+    warnings about them. Applied last, after whatever reads the hidden values (scores,
+    comparisons)."""
+    if selection is None:
+        return description
+    shown = {name: description.descriptors[name] for name in SCALAR_DESCRIPTORS if selection.shows(name)}
+    return dataclasses.replace(
+        description,
+        descriptors=shown,
+        warnings=shown_warnings(description.warnings, selection),
+        absent=selection.absent,
     )
 
 
@@ -246,6 +286,16 @@ def assemble(
         resampling=resampling,
         sketches=sketches,
     )
+
+
+def _distinct_values(data: WeightedData, sorted_anyway: bool) -> int | None:
+    """Distinct values (bins for binned data); ``None`` for a raw sample that nothing else asked
+    to sort (options.descriptors without order statistics): counting them would cost the sort."""
+    if data.binned:
+        return int(data.values.size)
+    if sorted_anyway or data.weights is not None or "support" in data.__dict__:
+        return int(data.support.values.size)
+    return None
 
 
 def _count_value(data: WeightedData) -> float:

@@ -52,7 +52,7 @@ def intervals(
     outcome = resample.bootstrap(
         data,
         plan_sums,
-        {name: d.value for name, d in descriptors.items()},
+        {name: d.value for name, d in descriptors.items() if options.selection.computes(name)},
         [q.value for q in quantiles],
         probabilities,
         families=families,

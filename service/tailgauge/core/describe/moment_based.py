@@ -271,7 +271,9 @@ def lowest_value(data: WeightedData) -> float:
     if data.binned:
         assert data.edges is not None and data.weights is not None
         return float(data.edges[int(np.flatnonzero(data.weights > 0)[0])])
-    return float(data.sorted_values[0])
+    if "sorted_values" in data.__dict__ or data.weights is not None:
+        return float(data.sorted_values[0])
+    return float(np.min(data.values))  # one pass, when nothing else needs the data sorted
 
 
 

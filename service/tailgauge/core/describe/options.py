@@ -7,6 +7,7 @@ from dataclasses import dataclass
 from typing import Literal
 
 from tailgauge.core import resample
+from tailgauge.core.selection import EVERYTHING, Selection
 
 Convention = Literal["sample", "population"]
 # Joanes & Gill (1998) families of the skewness and (excess) kurtosis estimators.
@@ -46,3 +47,9 @@ class DescribeOptions:
     max_memory_bytes: float = math.inf
     # Already admitted by the caller (a comparison admits both inputs together).
     admitted: bool = False
+    # What the answer shows and what is computed for it (tailgauge.core.selection); None: everything.
+    descriptors: Selection | None = None
+
+    @property
+    def selection(self) -> Selection:
+        return EVERYTHING if self.descriptors is None else self.descriptors

@@ -40,6 +40,7 @@ def order_descriptors(
     (``ROBUST_PROBABILITIES``), computed by the same rule in the same call.
     """
     probabilities = np.array(options.probabilities, dtype=np.float64)
+    wants_mad = options.selection.computes("median_absolute_deviation")
     quartiles_and_requested = np.concatenate(([0.25, 0.75], ROBUST_PROBABILITIES, probabilities))
     if data.binned:
         values = grouped.quantiles(data, np.concatenate(([0.5], quartiles_and_requested)))
@@ -49,7 +50,7 @@ def order_descriptors(
         if median is None:
             notes.add(WarningCode.QUANTILE_IN_OPEN_BIN, "the median falls inside an open-ended bin", ["median"])
         mad = None
-        if median is not None and not basis.single:
+        if median is not None and not basis.single and wants_mad:
             mad = finite_or_none(grouped.median_absolute_deviation(data, median))
             if mad is None:
                 notes.add(
@@ -68,7 +69,7 @@ def order_descriptors(
         median = order_statistics.median(data)
         quartiles, requested = sample_quantiles(data, quartiles_and_requested, basis, notes)
         robust_values, requested = requested[: ROBUST_PROBABILITIES.size], requested[ROBUST_PROBABILITIES.size :]
-        mad = None if basis.single else order_statistics.median_absolute_deviation(data, median)
+        mad = None if basis.single or not wants_mad else order_statistics.median_absolute_deviation(data, median)
         minimum = float(data.sorted_values[0])
         maximum = float(data.sorted_values[-1])
 

@@ -179,3 +179,5 @@ class Description:
     warnings: list[ResultWarning]
     resampling: Resampling | None = None
     sketches: QuantileSketches | None = None
+    # Descriptors and members left out of the answer by options.descriptors (tailgauge.core.selection).
+    absent: tuple[str, ...] = ()

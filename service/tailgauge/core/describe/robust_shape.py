@@ -14,6 +14,7 @@ from tailgauge.core.describe.warnings import Warnings, finite_or_none
 from tailgauge.core.describe.results import Descriptor
 from tailgauge.core.moments import CentralSums, scale_by_power_of_two
 from tailgauge.core.registry import WarningCode, names
+from tailgauge.core.selection import EVERYTHING, Selection
 from tailgauge.core.weighted import WeightedData, WeightMeaning
 
 MEDCOUPLE_LABEL = "median of h(x_i, x_j) over x_i <= median <= x_j (Brys et al. 2004)"
@@ -41,8 +42,10 @@ def robust_descriptors(
     quantiles: np.ndarray,
     constant: bool,
     notes: Warnings,
+    selection: Selection = EVERYTHING,
 ) -> None:
-    """Quartile skewness, octile kurtosis, medcouple, half-sample mode, mean-median gap, L-moments."""
+    """Quartile skewness, octile kurtosis, medcouple, half-sample mode, mean-median gap, L-moments;
+    the medcouple, the half-sample mode and the L-moments only when ``selection`` computes them."""
     method = "grouped quantiles" if data.binned else f"quantiles type {basis.quantile_type}"
     undefined = "single" if basis.single else "constant" if constant else None
     missing = None
@@ -58,7 +61,7 @@ def robust_descriptors(
             ["medcouple", "half_sample_mode"],
         )
     else:
-        if undefined is None:
+        if undefined is None and selection.computes("medcouple"):
             support = data.support
             median = descriptors["median"].value
             if data.weights is None and support.values.size == data.values.size:
@@ -68,7 +71,9 @@ def robust_descriptors(
                 # (about the cost of the distinct values, not of the observations).
                 mc = robust.medcouple(support.values, support.weights, median)
             mc = finite_or_none(mc)
-        if data.meaning is WeightMeaning.UNIT:
+        if not selection.computes("half_sample_mode"):
+            pass
+        elif data.meaning is WeightMeaning.UNIT:
             hsm = robust.half_sample_mode(data.sorted_values)
         elif data.integer_weights:
             hsm = robust.half_sample_mode(data.support.values, data.support.weights)
@@ -83,7 +88,8 @@ def robust_descriptors(
 
     mean_median_gap(descriptors)
 
-    l_moments(descriptors, data, sums, basis, undefined, notes)
+    if selection.computes_any(L_MOMENT_DESCRIPTORS):
+        l_moments(descriptors, data, sums, basis, undefined, notes)
 
 
 
