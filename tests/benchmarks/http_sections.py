@@ -53,7 +53,12 @@ def _phase(server: Server, request: bytes, connections: int, seconds: float) -> 
     cpu_before = {pid: cpu_seconds(pid) for pid in pids}
     counted_before = server.requests_by_worker()
     load = closed_loop(server.port, request, connections, seconds)
-    cpu = {pid: cpu_seconds(pid) - cpu_before[pid] for pid in pids if pid in server.worker_pids()}
+    cpu = {}
+    for pid in pids:
+        try:
+            cpu[pid] = cpu_seconds(pid) - cpu_before[pid]
+        except OSError:  # replaced meanwhile (max_requests): its CPU is lost to the figure
+            load.errors.append(f"worker {pid} replaced during the phase")
     counted_after = server.requests_by_worker()
     counted = None
     if counted_before is not None and counted_after is not None:
@@ -72,8 +77,8 @@ def _phase_line(name: str, load: Load, cpu: dict[int, float], counted: dict[int,
         f"  requests per worker {workers}"
     )
     others = {s: c for s, c in load.statuses.items() if s != 200}
-    if others or load.errors:
-        line += f"  (other answers {others}, errors {len(load.errors)}: {load.errors[:1]})"
+    if others or load.errors or load.reconnects:
+        line += f"  (other answers {others}, reconnects {load.reconnects}, errors {len(load.errors)}: {load.errors[:2]})"
     return line
 
 
@@ -90,7 +95,8 @@ def bench_small(tree: Path, quick: bool) -> None:
         f"small requests: 2 workers, {connections} keep-alive connections (closed loop), {seconds:g} s per phase,"
         f" {rounds} round(s) of health / samples / samples with options.descriptors={SELECTED}"
     )
-    with Server(tree, 2) as server:
+    print("  (gunicorn max_requests off here: recycling every ~20,000 requests would restart workers mid-phase)")
+    with Server(tree, 2, recycle=False) as server:
         first = send_once(server.port, sides["samples_default"])
         if first.status != 200:
             raise RuntimeError(f"the 100-value request answers {first.status}: {first.body[:200]!r}")
@@ -129,7 +135,7 @@ def bench_balance(tree: Path, quick: bool) -> None:
     request = raw_request("POST", PATH, json_body({"values": bag_weights(100)}))
     print(f"balance: 2 workers, 8 connections opened at once, 100-value requests for {seconds:g} s; {trials} trial(s)")
     shares, rates = [], []
-    with Server(tree, 2) as server:
+    with Server(tree, 2, recycle=False) as server:
         for trial in range(trials):
             time.sleep(1.0)  # both workers idle, waiting in accept
             pids = server.worker_pids()

@@ -38,7 +38,9 @@ def free_port() -> int:
 class Server:
     """gunicorn serving ``tree`` with ``workers`` workers; use as a context manager."""
 
-    def __init__(self, tree: Path, workers: int, extra_env: dict[str, str] | None = None) -> None:
+    def __init__(self, tree: Path, workers: int, extra_env: dict[str, str] | None = None, *, recycle: bool = True) -> None:
+        """``recycle=False`` turns gunicorn's max_requests off (command line over the configuration
+        file), so that no worker restarts in the middle of a throughput phase."""
         self.tree = tree
         self.workers_wanted = workers
         self.port = free_port()
@@ -53,7 +55,8 @@ class Server:
         )
         env.update(extra_env or {})
         self.process = subprocess.Popen(
-            [sys.executable, "-m", "gunicorn", "--config", str(tree / "deploy" / "gunicorn.conf.py"), "tailgauge.asgi:app"],
+            [sys.executable, "-m", "gunicorn", "--config", str(tree / "deploy" / "gunicorn.conf.py")]
+            + ([] if recycle else ["--max-requests", "0"]) + ["tailgauge.asgi:app"],
             cwd=tree, env=env, stdout=self.log, stderr=subprocess.STDOUT,
         )
         self.base = f"http://127.0.0.1:{self.port}"
@@ -230,6 +233,7 @@ class Load:
     latencies: list[float] = field(default_factory=list)
     statuses: dict[int, int] = field(default_factory=dict)
     errors: list[str] = field(default_factory=list)
+    reconnects: int = 0  # connections the server closed and the client opened again
 
     @property
     def rate(self) -> float:
@@ -248,22 +252,35 @@ async def _closed_loop(port: int, request: bytes, connections: int, seconds: flo
     start = time.perf_counter()
     deadline = start + seconds
 
-    async def one(reader, writer) -> None:
+    async def one(index: int) -> None:
+        reader, writer = pairs[index]
         while time.perf_counter() < deadline:
             sent = time.perf_counter()
             try:
                 answer = await asyncio.wait_for(exchange(reader, writer, request), timeout)
-            except (OSError, asyncio.IncompleteReadError, asyncio.TimeoutError, ValueError) as error:
+            except (OSError, asyncio.IncompleteReadError) as error:
+                # The server closed the kept-alive connection (gunicorn recycles a worker after
+                # max_requests): counted, and the loop goes on over a new connection.
+                load.reconnects += 1
+                if load.reconnects > 100:
+                    load.errors.append(f"{type(error).__name__}: {error}")
+                    return
+                writer.close()
+                reader, writer = pairs[index] = await asyncio.open_connection("127.0.0.1", port, limit=2**20)
+                continue
+            except (asyncio.TimeoutError, ValueError) as error:
                 load.errors.append(f"{type(error).__name__}: {error}")
                 return
             load.statuses[answer.status] = load.statuses.get(answer.status, 0) + 1
             if answer.status == 200:
                 load.latencies.append(time.perf_counter() - sent)
             if answer.headers.get("connection", "").lower() == "close":
-                return
+                writer.close()
+                reader, writer = pairs[index] = await asyncio.open_connection("127.0.0.1", port, limit=2**20)
+                load.reconnects += 1
 
     try:
-        await asyncio.gather(*(one(r, w) for r, w in pairs))
+        await asyncio.gather(*(one(i) for i in range(len(pairs))))
     finally:
         load.seconds = time.perf_counter() - start
         for _, writer in pairs:

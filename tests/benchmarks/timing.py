@@ -38,6 +38,8 @@ class Figure:
             shown = f"{self.value:.2f} s"
         elif self.unit == "MB":
             shown = f"{self.value:.0f} MB"
+        elif self.unit == "%":
+            shown = f"{self.value:.0f} %"
         elif self.unit == "req/s":
             shown = f"{self.value:.0f} req/s"
         else:
