@@ -15,9 +15,19 @@ import time
 from pathlib import Path
 
 import numpy as np
-
-from server import Load, Server, closed_loop, connections_by_worker, cpu_seconds, exchange, memory_kb
-from server import open_connections, raw_request, send_once
+from server import (
+    Load,
+    Server,
+    closed_loop,
+    connections_by_worker,
+    cpu_seconds,
+    exchange,
+    memory_kb,
+    open_connections,
+    raw_request,
+    run_loop,
+    send_once,
+)
 from timing import NA, record
 
 PATH = "/v1/descriptors/samples"
@@ -47,12 +57,20 @@ def _selection_check(port: int, request: bytes) -> str | None:
     return None
 
 
-def _phase(server: Server, request: bytes, connections: int, seconds: float) -> tuple[Load, dict[int, float], dict[int, float] | None]:
-    """One closed-loop phase with each worker's CPU seconds and request count during it."""
+def _before(server: Server) -> tuple[list[int], dict[int, float], dict[int, float] | None]:
     pids = server.worker_pids()
-    cpu_before = {pid: cpu_seconds(pid) for pid in pids}
-    counted_before = server.requests_by_worker()
+    return pids, {pid: cpu_seconds(pid) for pid in pids}, server.requests_by_worker()
+
+
+def _phase(server: Server, request: bytes, connections: int, seconds: float) -> tuple[Load, dict[int, float], dict[int, float] | None]:
+    """One closed-loop phase on new connections, with each worker's CPU seconds and request count during it."""
+    before = _before(server)
     load = closed_loop(server.port, request, connections, seconds)
+    return _after(server, load, before)
+
+
+def _after(server: Server, load: Load, before) -> tuple[Load, dict[int, float], dict[int, float] | None]:
+    pids, cpu_before, counted_before = before
     cpu = {}
     for pid in pids:
         try:
@@ -104,16 +122,31 @@ def bench_small(tree: Path, quick: bool) -> None:
         if unavailable:
             print(f"  samples_selected: {unavailable}")
             del sides["samples_selected"]
-        for request in sides.values():  # warm both workers' code paths
-            closed_loop(server.port, request, connections, 1.0)
         rates: dict[str, list[float]] = {name: [] for name in sides}
         loads: dict[str, list[Load]] = {name: [] for name in sides}
-        for round_number in range(rounds):
-            for name, request in sides.items():
-                load, cpu, counted = _phase(server, request, connections, seconds)
-                rates[name].append(load.rate)
-                loads[name].append(load)
-                print(_phase_line(f"{name} [{round_number + 1}]", load, cpu, counted))
+
+        async def alternate_phases() -> None:
+            # One set of connections for every phase: each side meets the same spread over workers.
+            pairs = await open_connections(server.port, connections)
+            try:
+                for request in sides.values():  # warm-up
+                    await run_loop(pairs, server.port, request, 1.0)
+                held = connections_by_worker(server.worker_pids(), server.port)
+                print(f"  connections held per worker: {' / '.join(str(held[pid]) for pid in sorted(held))}"
+                      " (the same connections serve every phase)")
+                for round_number in range(rounds):
+                    for name, request in sides.items():
+                        before = _before(server)
+                        load = await run_loop(pairs, server.port, request, seconds)
+                        load, cpu, counted = _after(server, load, before)
+                        rates[name].append(load.rate)
+                        loads[name].append(load)
+                        print(_phase_line(f"{name} [{round_number + 1}]", load, cpu, counted))
+            finally:
+                for _, writer in pairs:
+                    writer.close()
+
+        asyncio.run(alternate_phases())
     health = rates["health_live"]
     targets = {"samples_default": ">= 0.4x", "samples_selected": ">= 0.7x"}
     for name in ("samples_default", "samples_selected"):
@@ -205,7 +238,7 @@ def bench_memory(tree: Path, quick: bool) -> None:
                 try:
                     answer = await asyncio.wait_for(exchange(reader, writer, heavy), 180)
                     return answer.status, answer.headers.get("retry-after", ""), time.perf_counter() - start
-                except (OSError, asyncio.IncompleteReadError, asyncio.TimeoutError) as error:
+                except (TimeoutError, OSError, asyncio.IncompleteReadError) as error:
                     return 0, type(error).__name__, time.perf_counter() - start
                 finally:
                     writer.close()
@@ -232,5 +265,5 @@ def bench_memory(tree: Path, quick: bool) -> None:
           + ("" if alive else "; THE WORKER WAS REPLACED"))
     record("8 memory", f"4 concurrent BCa requests of {n:.0e} values, 1 worker: peak RSS", max(peak[0], hwm), "MB",
            "bounded by a setting", f"answers {'/'.join(str(s) for s, _, _ in answers)}")
-    record("8 memory", f"RSS idle -> after the small requests", after_small, "MB", "freed memory returned",
+    record("8 memory", "RSS idle -> after the small requests", after_small, "MB", "freed memory returned",
            f"from {idle:.0f} MB")

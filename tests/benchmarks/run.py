@@ -24,12 +24,11 @@ from pathlib import Path
 # own threads. Set before numpy loads; an explicit setting in the environment wins.
 os.environ.setdefault("OPENBLAS_NUM_THREADS", "1")
 
-import time  # noqa: E402
-from collections.abc import Callable  # noqa: E402
+import time
+from collections.abc import Callable
 
-import numpy as np  # noqa: E402
-
-from timing import FIGURES, NA, alternate, best_of, record  # noqa: E402
+import numpy as np
+from timing import FIGURES, NA, alternate, best_of, record
 
 HERE = Path(__file__).resolve().parent
 THIS_TREE = HERE.parents[1]
@@ -73,8 +72,7 @@ def selecting(names: list[str] | tuple[str, ...], **others) -> object | str:
 def bench_moments(size: str = "") -> None:
     """Row 4: mean, variance, third and fourth central moments against one np.sum."""
     import scipy.stats
-
-    from tailgauge.core import DescribeOptions, central_sums, describe, from_array
+    from tailgauge.core import central_sums, describe, from_array
 
     n = int(float(size)) if size else (1_000_000 if QUICK else 10_000_000)
     rounds = 5 if QUICK else 9
@@ -116,7 +114,6 @@ def bench_moments(size: str = "") -> None:
 def bench_tables() -> None:
     """A 100,000-outcome count table and a 1,000-bin histogram, against expanding the data."""
     import scipy.stats
-
     from tailgauge.core import DescribeOptions, describe, from_bins, from_table
 
     rng = np.random.default_rng(20261202)
@@ -154,27 +151,36 @@ def bench_tables() -> None:
 # --- rows 5 and 6 --------------------------------------------------------------------------
 
 
-def traced_peak(fn: Callable[[], object]) -> float:
-    """Peak MB traced by tracemalloc over one call (numpy's buffers are traced; the call is slower)."""
+def traced_peak(fn: Callable[[], object]) -> tuple[float, object]:
+    """Peak MB traced by tracemalloc over one call (numpy's buffers are traced; the call is slower),
+    and the call's result."""
     import tracemalloc
 
     tracemalloc.start()
     try:
-        fn()
-        return tracemalloc.get_traced_memory()[1] / 2**20
+        result = fn()
+        return tracemalloc.get_traced_memory()[1] / 2**20, result
     finally:
         tracemalloc.stop()
+
+
+def with_intervals(answer: object) -> str:
+    """How many of the answer's descriptors got a bootstrap interval (the engine may leave some out)."""
+    estimates = getattr(answer, "descriptors", {}) or {}
+    given = [name for name, e in estimates.items() if getattr(e, "interval", None) is not None]
+    missing = [name for name in estimates if name not in given]
+    return f"intervals for {len(given)} of {len(estimates)} descriptors" + (
+        f" (none for {', '.join(missing)})" if missing else "")
 
 
 def bench_intervals() -> None:
     """Rows 5 and 6: BCa of every descriptor; the count table k = 50; against scipy.stats.bootstrap."""
     import scipy
     import scipy.stats
-
     from tailgauge.core import DescribeOptions, IntervalOptions, describe, from_array, from_table
 
     rng = np.random.default_rng(20261203)
-    skew = lambda sample, axis=-1: scipy.stats.skew(sample, axis=axis)  # noqa: E731
+    skew = lambda sample, axis=-1: scipy.stats.skew(sample, axis=axis)
     n, resamples = (2_000, 999) if QUICK else (10_000, 9999)
     batches = (100, 500) if QUICK else (100, 500, 1000, 2000)
     rounds = 1 if QUICK else 2
@@ -209,8 +215,9 @@ def bench_intervals() -> None:
         if name != "ours":
             line += f"   ours {result.ratio(name, 'ours'):5.1f}x faster"
         print(line)
-    memory_ours = traced_peak(sides["ours"])
-    memory_best = traced_peak(sides[best_name])
+    memory_ours, answer = traced_peak(sides["ours"])
+    memory_best, _ = traced_peak(sides[best_name])
+    print(f"    ours: {with_intervals(answer)}")
     print(f"    peak traced memory: ours {memory_ours:.1f} MB; {best_name} {memory_best:.1f} MB"
           f" ({memory_best / memory_ours:.1f}x)")
     print(f"    best batch: {best_batch} (tried {', '.join(map(str, batches))}); ratios are medians over rounds;"
@@ -224,7 +231,8 @@ def bench_intervals() -> None:
     m = 20_000 if QUICK else 100_000
     y = rng.gamma(4.0, 2.0, m)
     part_resamples, held_out = 999, 2_000
-    t_ours = best_of(lambda: describe(from_array(y), options, kind="samples"), repeats=1 if QUICK else 2)
+    answers = []
+    t_ours = best_of(lambda: answers.append(describe(from_array(y), options, kind="samples")), repeats=1 if QUICK else 2)
     t_resample = best_of(lambda: scipy.stats.bootstrap(
         (y,), skew, n_resamples=part_resamples, batch=best_batch, method="percentile", random_state=1), repeats=1)
     # scipy's BCa jackknife: leave-one-out samples in blocks of `batch` rows, the statistic of
@@ -259,7 +267,7 @@ def bench_intervals() -> None:
     )
     print(f"  n = {m:,}: every descriptor {t_ours:6.2f} s; scipy estimated {t_scipy:7.1f} s"
           f" (resampling {t_resample * resamples / part_resamples:.1f} s + jackknife {t_jackknife:.1f} s);"
-          f" {t_scipy / t_ours:5.1f}x faster\n    {statement}")
+          f" {t_scipy / t_ours:5.1f}x faster; ours: {with_intervals(answers[-1])}\n    {statement}")
     record("6 BCa n=1e5", f"n = {m:.0e}, B = {resamples}: ours vs scipy batch={best_batch}, extrapolated", t_scipy / t_ours,
            "x", "", "times faster; scipy extrapolated, see the statement above")
 
@@ -270,8 +278,7 @@ def bench_intervals() -> None:
 def bench_order_statistics(size: str = "") -> None:
     """Row 2: every descriptor (medcouple included) against one np.sort; order statistics with
     and without the medcouple."""
-    import statsmodels.stats.stattools as stattools
-
+    from statsmodels.stats import stattools
     from tailgauge.core import DescribeOptions, describe, from_array, lmoments, order_statistics, robust
 
     rng = np.random.default_rng(20261204)
@@ -289,7 +296,7 @@ def bench_order_statistics(size: str = "") -> None:
         without = selecting(names)
         if not isinstance(without, str):
             left_out = sorted(set(members) - set(names))
-            print(f"  without the medcouple: descriptors = every other descriptor"
+            print("  without the medcouple: descriptors = every other descriptor"
                   + (f" + {', '.join(m for m in members if m in names)}" if set(members) & set(names) else "")
                   + (f" (not accepted by this tree, so also left out: {', '.join(left_out)})" if left_out else ""))
             break
@@ -397,9 +404,14 @@ def _merge_recipe_run(variant: str, n: int, chunks: int) -> None:
     import resource
 
     import dask.array as da
-
-    from tailgauge.core import DescribeOptions, combine_sketches, describe_state, kll_sketch_bytes, merge_states
-    from tailgauge.core import partial_state
+    from tailgauge.core import (
+        DescribeOptions,
+        combine_sketches,
+        describe_state,
+        kll_sketch_bytes,
+        merge_states,
+        partial_state,
+    )
     from tailgauge.recipes.dask_states import chunk_summaries
 
     baseline = resource.getrusage(resource.RUSAGE_SELF).ru_maxrss  # KiB on Linux

@@ -246,9 +246,10 @@ class Load:
         return ordered[min(len(ordered) - 1, int(p / 100 * len(ordered)))]
 
 
-async def _closed_loop(port: int, request: bytes, connections: int, seconds: float, timeout: float) -> Load:
+async def run_loop(pairs: list, port: int, request: bytes, seconds: float, timeout: float = 60.0) -> Load:
+    """A closed loop on the open connections ``pairs`` (kept open after; one the server closed is
+    replaced in the list) for ``seconds``; the last answers are awaited."""
     load = Load()
-    pairs = await open_connections(port, connections)
     start = time.perf_counter()
     deadline = start + seconds
 
@@ -268,7 +269,7 @@ async def _closed_loop(port: int, request: bytes, connections: int, seconds: flo
                 writer.close()
                 reader, writer = pairs[index] = await asyncio.open_connection("127.0.0.1", port, limit=2**20)
                 continue
-            except (asyncio.TimeoutError, ValueError) as error:
+            except (TimeoutError, ValueError) as error:
                 load.errors.append(f"{type(error).__name__}: {error}")
                 return
             load.statuses[answer.status] = load.statuses.get(answer.status, 0) + 1
@@ -283,9 +284,16 @@ async def _closed_loop(port: int, request: bytes, connections: int, seconds: flo
         await asyncio.gather(*(one(i) for i in range(len(pairs))))
     finally:
         load.seconds = time.perf_counter() - start
+    return load
+
+
+async def _closed_loop(port: int, request: bytes, connections: int, seconds: float, timeout: float) -> Load:
+    pairs = await open_connections(port, connections)
+    try:
+        return await run_loop(pairs, port, request, seconds, timeout)
+    finally:
         for _, writer in pairs:
             writer.close()
-    return load
 
 
 def closed_loop(port: int, request: bytes, connections: int, seconds: float, timeout: float = 60.0) -> Load:

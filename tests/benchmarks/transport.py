@@ -24,7 +24,6 @@ from pathlib import Path
 import httpx
 import msgspec
 import numpy as np
-
 from server import Server
 
 ROOT = Path(__file__).resolve().parents[2]
