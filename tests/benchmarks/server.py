@@ -107,13 +107,21 @@ class Server:
         return sorted(pids)
 
     def stop(self) -> None:
+        """SIGTERM to the master (it drains and stops its workers); past 40 s, SIGKILL to the master
+        and to each of the workers it had, by pid."""
         if self.process.poll() is None:
+            workers = self.worker_pids()
             self.process.send_signal(signal.SIGTERM)
             try:
                 self.process.wait(timeout=40)
             except subprocess.TimeoutExpired:
                 self.process.kill()
                 self.process.wait(timeout=10)
+                for pid in workers:
+                    try:
+                        os.kill(pid, signal.SIGKILL)
+                    except ProcessLookupError:
+                        pass
         self.log.close()
         shutil.rmtree(self.metrics_dir, ignore_errors=True)
         os.unlink(self.log.name)
