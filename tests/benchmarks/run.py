@@ -182,7 +182,7 @@ def bench_intervals() -> None:
     rng = np.random.default_rng(20261203)
     skew = lambda sample, axis=-1: scipy.stats.skew(sample, axis=axis)
     n, resamples = (2_000, 999) if QUICK else (10_000, 9999)
-    batches = (100, 500) if QUICK else (100, 500, 1000, 2000)
+    batches = (50, 100, 500) if QUICK else (25, 50, 100, 500, 2000)
     rounds = 1 if QUICK else 2
     options = DescribeOptions(interval=IntervalOptions(method="bca", resamples=resamples, seed=7))
     print(f"intervals: BCa, {resamples:,} resamples (scipy {scipy.__version__}); {rounds} alternating round(s)")
@@ -220,7 +220,8 @@ def bench_intervals() -> None:
     print(f"    ours: {with_intervals(answer)}")
     print(f"    peak traced memory: ours {memory_ours:.1f} MB; {best_name} {memory_best:.1f} MB"
           f" ({memory_best / memory_ours:.1f}x)")
-    print(f"    best batch: {best_batch} (tried {', '.join(map(str, batches))}); ratios are medians over rounds;"
+    edge = " (at the edge of the sizes tried: another size may do better)" if best_batch in (batches[0], batches[-1]) else ""
+    print(f"    best batch: {best_batch}{edge} (tried {', '.join(map(str, batches))}); ratios are medians over rounds;"
           f" every scipy figure at n = {n:,} is measured, none extrapolated")
     record("6 BCa n=1e4", f"n = {n:.0e}, B = {resamples}: ours vs scipy default call", result.ratio("scipy default", "ours"),
            "x", "", "times faster")
