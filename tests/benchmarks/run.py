@@ -402,7 +402,6 @@ def bench_quantiles(size: str = "") -> None:
 def _merge_recipe_run(variant: str, n: int, chunks: int) -> None:
     """One variant of the recipe benchmark, in a fresh process; prints seconds and peak RSS growth."""
     import json
-    import resource
 
     import dask.array as da
     from tailgauge.core import (
@@ -415,7 +414,15 @@ def _merge_recipe_run(variant: str, n: int, chunks: int) -> None:
     )
     from tailgauge.recipes.dask_states import chunk_summaries
 
-    baseline = resource.getrusage(resource.RUSAGE_SELF).ru_maxrss  # KiB on Linux
+    # VmHWM of this process's own memory map. Not ru_maxrss: Linux carries that over from the
+    # parent through fork and exec, so a child of a large benchmark process shows no growth.
+    def high_water_kib() -> int:
+        for line in Path("/proc/self/status").read_text().splitlines():
+            if line.startswith("VmHWM:"):
+                return int(line.split()[1])
+        raise RuntimeError("no VmHWM in /proc/self/status")
+
+    baseline = high_water_kib()
     start = time.perf_counter()
     if variant == "dask":
         x = da.random.default_rng(20261206).normal(250.0, 4.0, size=n, chunks=n // chunks)
@@ -426,7 +433,7 @@ def _merge_recipe_run(variant: str, n: int, chunks: int) -> None:
         state, union = partial_state(x), combine_sketches([kll_sketch_bytes(x)])
     describe_state(state, DescribeOptions(), union)
     elapsed = time.perf_counter() - start
-    peak = resource.getrusage(resource.RUSAGE_SELF).ru_maxrss
+    peak = high_water_kib()
     print(json.dumps({"seconds": elapsed, "peak_mb": (peak - baseline) / 1024}))
 
 
