@@ -24,8 +24,11 @@ test: $(STAMP)
 hostile: $(STAMP)
 	$(PY) -m pytest tests/system/test_hostile.py -rA -s
 
+# Every benchmark section (tests/benchmarks/run.py --help). BENCH_ARGS: e.g. "--quick", "small order",
+# "--tree /path/to/other/checkout --json before.json".
+BENCH_ARGS ?=
 bench: $(STAMP)
-	$(PY) tests/benchmarks/run.py
+	$(PY) tests/benchmarks/run.py $(BENCH_ARGS)
 
 # Mixed load against gunicorn (2 workers, own port): req/s, p50/p99 per class, ratio to /health/live.
 .PHONY: load

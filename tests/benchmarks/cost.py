@@ -11,6 +11,7 @@ in a second, traced run.
 from __future__ import annotations
 
 import argparse
+import os
 import sys
 import time
 import tracemalloc
@@ -18,7 +19,9 @@ from pathlib import Path
 
 import numpy as np
 
-sys.path.insert(0, str(Path(__file__).resolve().parents[2]))
+# This tree's package, unless the caller chose one through PYTHONPATH (run.py --tree does).
+if not os.environ.get("PYTHONPATH"):
+    sys.path.insert(0, str(Path(__file__).resolve().parents[2] / "service"))
 
 from tailgauge.core import DescribeOptions, IntervalOptions, admit, compare, describe, from_bins, from_samples, from_table  # noqa: E402
 
