@@ -128,7 +128,7 @@ def _check_count(count: int, path: str, settings: Settings, what: str | None = N
 def _admitted(inputs, options: DescribeOptions, ticket) -> DescribeOptions:
     """Plan the computation (422 with what would fit), then hold its memory in the worker's gate."""
     estimate = admit(inputs, options)
-    ticket.resize(ticket.amount + estimate.peak_bytes)
+    ticket.resize(ticket.decoding + estimate.peak_bytes, estimate.seconds)
     return dataclasses.replace(options, admitted=True)
 
 
@@ -260,11 +260,12 @@ def _bins_data(message: BinsData, settings: Settings, prefix: str = "$"):
     return data, len(counts)
 
 
+@admission.giving_back
 def describe_samples(body: bytes, codec: Codec, answer: Codec, settings: Settings) -> Computed:
     with admission.admitted(body, codec, settings) as ticket:
         request = _decode(body, SamplesRequest, codec)
         data, count = _samples_data(request, request.options.missing, settings)
-        options = _admitted([data], describe_options(request.options, settings, ticket.amount), ticket)
+        options = _admitted([data], describe_options(request.options, settings, ticket.decoding), ticket)
         description = describe(data, options, kind="samples")
         state = None
         if request.options.partial_state:
@@ -272,6 +273,7 @@ def describe_samples(body: bytes, codec: Codec, answer: Codec, settings: Setting
         return _answer(description, count, answer, request.options.score, state)
 
 
+@admission.giving_back
 def merge_states_request(body: bytes, codec: Codec, answer: Codec, settings: Settings) -> Computed:
     # States and sketches cost what their bytes do: the decoding bound covers them.
     with admission.admitted(body, codec, settings):
@@ -298,19 +300,21 @@ def _merge_states(body: bytes, codec: Codec, answer: Codec, settings: Settings) 
     return Computed(answer.encode(message), len(states), 0)
 
 
+@admission.giving_back
 def describe_table(body: bytes, codec: Codec, answer: Codec, settings: Settings) -> Computed:
     with admission.admitted(body, codec, settings) as ticket:
         request = _decode(body, TableRequest, codec)
         data, count = _table_data(request, request.options.normalize, settings)
-        options = _admitted([data], describe_options(request.options, settings, ticket.amount), ticket)
+        options = _admitted([data], describe_options(request.options, settings, ticket.decoding), ticket)
         return _answer(describe(data, options, kind="table"), count, answer, request.options.score)
 
 
+@admission.giving_back
 def describe_bins(body: bytes, codec: Codec, answer: Codec, settings: Settings) -> Computed:
     with admission.admitted(body, codec, settings) as ticket:
         request = _decode(body, BinsRequest, codec)
         data, count = _bins_data(request, settings)
-        options = _admitted([data], describe_options(request.options, settings, ticket.amount), ticket)
+        options = _admitted([data], describe_options(request.options, settings, ticket.decoding), ticket)
         return _answer(describe(data, options, kind="bins"), count, answer, request.options.score)
 
 
@@ -322,6 +326,7 @@ def _input_data(message, settings: Settings, prefix: str):
     return (*_bins_data(message, settings, prefix), "bins")
 
 
+@admission.giving_back
 def compare_inputs(body: bytes, codec: Codec, answer: Codec, settings: Settings) -> Computed:
     with admission.admitted(body, codec, settings) as ticket:
         return _compare(body, codec, answer, settings, ticket)
@@ -332,7 +337,7 @@ def _compare(body: bytes, codec: Codec, answer: Codec, settings: Settings, ticke
     first, first_count, first_kind = _input_data(request.first, settings, "$.first")
     second, second_count, second_kind = _input_data(request.second, settings, "$.second")
     _check_count(first_count + second_count, "$.second", settings, "$.first and $.second together")
-    options = describe_options(request.options, settings, ticket.amount)
+    options = describe_options(request.options, settings, ticket.decoding)
     options = _admitted([first, second], options, ticket)
     comparison = compare(first, second, options, kinds=(first_kind, second_kind))
     message = to_message(comparison, ComparisonResponse)
