@@ -1,6 +1,7 @@
 """From request bytes to response bytes for each compute endpoint: decode, check limits, call the core.
 
-Runs in a worker thread (see ``routes``), so nothing here may touch the event loop.
+Runs in a worker thread (see ``routes``), or on the event loop for a small body without
+intervals (:func:`runs_inline`), so nothing here may touch the event loop or wait for anything.
 """
 
 from __future__ import annotations
@@ -55,6 +56,22 @@ from tailgauge.core import (
 from tailgauge.core.partial import MIN_ORDER, PartialState, describe_state, merge_states, state_of
 from tailgauge.core.sketches import combine_sketches
 from tailgauge.settings import Settings
+
+# A body this small (about 2,000 values as JSON) and without intervals computes in about the time of
+# 100 values (the fixed cost dominates), a few milliseconds: on the event loop it costs less than
+# the hop to a worker thread and back. Worker CPU per 100-value request, 2 workers, 8 connections,
+# alternating runs on the 2-core machine: 2.06 ms via the thread, 1.82 ms inline (medians of 9).
+INLINE_BODY_BYTES = 16 * 1024
+
+
+def runs_inline(body: bytes) -> bool:
+    """Whether a request is computed on the event loop instead of in a worker thread.
+
+    Intervals resample (a small body may ask for a million resamples), so any body naming
+    ``interval`` goes to a thread; every other option is bounded in cost by the body's size.
+    """
+    return len(body) <= INLINE_BODY_BYTES and b"interval" not in body
+
 
 Request = TypeVar("Request", SamplesRequest, TableRequest, BinsRequest, ComparisonRequest)
 
