@@ -184,9 +184,9 @@ def test_busy_worker_answers_a_503_problem_with_retry_after_and_metrics_show_it(
     assert refused.headers["content-type"].startswith("application/problem+json")
     assert int(refused.headers["retry-after"]) >= 1
     assert "retry" in problem["detail"]
-    planned = re.search(r"^tailgauge_inflight_planned_bytes (\S+)$", scraped, re.M)
+    planned = re.search(r"^tailgauge_inflight_planned_bytes (\S+)$", scraped, re.MULTILINE)
     assert planned and float(planned.group(1)) >= pool - 100, scraped[:2000]
-    assert re.search(r"^tailgauge_inflight_requests [1-9]", scraped, re.M)
+    assert re.search(r"^tailgauge_inflight_requests [1-9]", scraped, re.MULTILINE)
     assert client.post(SAMPLES, json=body).status_code == 200  # room again once the holder is done
     after = client.get("/metrics").text
-    assert re.search(r"^tailgauge_admission_refusals_total [1-9]", after, re.M), after[:2000]
+    assert re.search(r"^tailgauge_admission_refusals_total [1-9]", after, re.MULTILINE), after[:2000]

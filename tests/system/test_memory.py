@@ -21,7 +21,6 @@ from pathlib import Path
 import msgspec
 import numpy as np
 import pytest
-
 from tailgauge.settings import Settings
 
 from .client import Connection
@@ -65,7 +64,7 @@ async def _burst(port: int, body: bytes, headers: dict[str, str], count: int):
 def _metric(server: GunicornServer, name: str) -> float:
     with urllib.request.urlopen(f"{server.base_url}/metrics", timeout=30) as answer:
         text = answer.read().decode()
-    found = re.search(rf"^{name} (\S+)$", text, re.M)
+    found = re.search(rf"^{name} (\S+)$", text, re.MULTILINE)
     assert found, f"{name} not in /metrics"
     return float(found.group(1))
 
