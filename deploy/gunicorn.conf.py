@@ -43,6 +43,11 @@ def _worker_count() -> int:
 
 bind = os.environ.get("BIND", "127.0.0.1:8000")
 workers = _worker_count()
+# Each worker binds its own SO_REUSEPORT socket (gunicorn 27 opens them after the fork when this
+# is set), so the kernel spreads new connections over the workers by a hash of their addresses.
+# With one shared socket, the first worker to wake accepted every connection that was waiting:
+# 8 connections opened at once all landed on one worker while the other idled.
+reuse_port = True
 # uvicorn_worker.UvicornWorker, plus readiness that answers 503 while the worker drains.
 worker_class = "tailgauge.runtime.worker.Worker"
 # A request may compute for a while; the per-request budget lives in the app.

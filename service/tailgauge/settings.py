@@ -46,11 +46,20 @@ class Settings:
     max_resample_work: int = 1_000_000_000
     # Wall-clock limit of one request's computation, in seconds (422 beyond).
     max_request_seconds: int = 30
-    # Memory one request may plan, decoding included (422, or 413 for a body, beyond), and
-    # the most a worker process plans at once (further requests wait, then 503). The default
-    # keeps two workers of a 1.5 GiB pod safe: 768 MiB each, less an idle worker (~150 MiB),
-    # leaves room for 384 MiB planned plus the allocator's and the estimates' slack.
+    # Memory one request may plan, decoding included (422, or 413 for a body, beyond).
     max_request_memory_bytes: int = 384 * 1024 * 1024
+    # The most a worker process plans at once over its requests in progress: a request that does
+    # not fit beside them answers 503 server-busy at once, with Retry-After. At least
+    # max_request_memory_bytes; the 128 MiB above it keep smaller requests admitted beside the
+    # largest one. The default keeps two workers of a 1.5 GiB pod safe: 768 MiB each, less an
+    # idle worker (~130 MiB), leaves room for 512 MiB planned plus the allocator's and the
+    # estimates' slack. Four 2e6-value BCa requests arriving together at one worker: one runs
+    # (321 MiB planned), three get 503; its peak RSS was about 520 MB (tests/system/test_memory.py).
+    max_worker_memory_bytes: int = 512 * 1024 * 1024
+    # After a request that planned at least this many bytes, the worker gives the allocator's free
+    # pages back to the system (glibc malloc_trim), so its resident size returns near idle.
+    # 0: never.
+    trim_after_bytes: int = 64 * 1024 * 1024
     # Above this many support rows the bag of little bootstraps replaces the ordinary bootstrap.
     bootstrap_subset_rows: int = 100_000
     # Threads one request's resampling may use (numpy releases the GIL in its loops).
@@ -75,6 +84,8 @@ class Settings:
         "max_resample_work": (1_000, 10**12),
         "max_request_seconds": (1, 3600),
         "max_request_memory_bytes": (16 * 1024 * 1024, 1024**4),
+        "max_worker_memory_bytes": (16 * 1024 * 1024, 1024**4),
+        "trim_after_bytes": (0, 1024**4),
         "bootstrap_subset_rows": (1_000, 100_000_000),
         "resample_threads": (1, 64),
     }
@@ -84,6 +95,11 @@ class Settings:
             value = getattr(self, name)
             if not isinstance(value, int) or isinstance(value, bool) or not low <= value <= high:
                 raise SettingsError(f"{name} must be an integer in [{low}, {high}], got {value!r}")
+        if self.max_worker_memory_bytes < self.max_request_memory_bytes:
+            raise SettingsError(
+                f"max_worker_memory_bytes ({self.max_worker_memory_bytes}) must be at least "
+                f"max_request_memory_bytes ({self.max_request_memory_bytes}): a request of that size could never run"
+            )
         for token in self.api_tokens:
             if not isinstance(token, str) or len(token) < MIN_TOKEN_LENGTH or not _TOKEN.fullmatch(token):
                 raise SettingsError(

@@ -1,6 +1,7 @@
 """From request bytes to response bytes for each compute endpoint: decode, check limits, call the core.
 
-Runs in a worker thread (see ``routes``), so nothing here may touch the event loop.
+Runs in a worker thread (see ``routes``), or on the event loop for a small body without
+intervals (:func:`runs_inline`), so nothing here may touch the event loop or wait for anything.
 """
 
 from __future__ import annotations
@@ -60,6 +61,22 @@ from tailgauge.core.scoring import READ_BY_SCORES
 from tailgauge.core.partial import MIN_ORDER, PartialState, describe_state, merge_states, state_of
 from tailgauge.core.sketches import combine_sketches
 from tailgauge.settings import Settings
+
+# A body this small (about 2,000 values as JSON) and without intervals computes in about the time of
+# 100 values (the fixed cost dominates), a few milliseconds: on the event loop it costs less than
+# the hop to a worker thread and back. Worker CPU per 100-value request, 2 workers, 8 connections,
+# alternating runs on the 2-core machine: 2.06 ms via the thread, 1.82 ms inline (medians of 9).
+INLINE_BODY_BYTES = 16 * 1024
+
+
+def runs_inline(body: bytes) -> bool:
+    """Whether a request is computed on the event loop instead of in a worker thread.
+
+    Intervals resample (a small body may ask for a million resamples), so any body naming
+    ``interval`` goes to a thread; every other option is bounded in cost by the body's size.
+    """
+    return len(body) <= INLINE_BODY_BYTES and b"interval" not in body
+
 
 Request = TypeVar("Request", SamplesRequest, TableRequest, BinsRequest, ComparisonRequest)
 
@@ -133,7 +150,7 @@ def _check_count(count: int, path: str, settings: Settings, what: str | None = N
 def _admitted(inputs, options: DescribeOptions, ticket) -> DescribeOptions:
     """Plan the computation (422 with what would fit), then hold its memory in the worker's gate."""
     estimate = admit(inputs, options)
-    ticket.resize(ticket.amount + estimate.peak_bytes)
+    ticket.resize(ticket.decoding + estimate.peak_bytes, estimate.seconds)
     return dataclasses.replace(options, admitted=True)
 
 
@@ -268,11 +285,12 @@ def _bins_data(message: BinsData, settings: Settings, prefix: str = "$"):
     return data, len(counts)
 
 
+@admission.giving_back
 def describe_samples(body: bytes, codec: Codec, answer: Codec, settings: Settings) -> Computed:
     with admission.admitted(body, codec, settings) as ticket:
         request = _decode(body, SamplesRequest, codec)
         data, count = _samples_data(request, request.options.missing, settings)
-        options = _admitted([data], describe_options(request.options, settings, ticket.amount), ticket)
+        options = _admitted([data], describe_options(request.options, settings, ticket.decoding), ticket)
         description = describe(data, options, kind="samples")
         state = None
         if request.options.partial_state:
@@ -280,6 +298,7 @@ def describe_samples(body: bytes, codec: Codec, answer: Codec, settings: Setting
         return _answer(description, count, answer, request.options.score, state, options.descriptors)
 
 
+@admission.giving_back
 def merge_states_request(body: bytes, codec: Codec, answer: Codec, settings: Settings) -> Computed:
     # States and sketches cost what their bytes do: the decoding bound covers them.
     with admission.admitted(body, codec, settings):
@@ -306,20 +325,22 @@ def _merge_states(body: bytes, codec: Codec, answer: Codec, settings: Settings) 
     return Computed(answer.encode(message), len(states), 0)
 
 
+@admission.giving_back
 def describe_table(body: bytes, codec: Codec, answer: Codec, settings: Settings) -> Computed:
     with admission.admitted(body, codec, settings) as ticket:
         request = _decode(body, TableRequest, codec)
         data, count = _table_data(request, request.options.normalize, settings)
-        options = _admitted([data], describe_options(request.options, settings, ticket.amount), ticket)
+        options = _admitted([data], describe_options(request.options, settings, ticket.decoding), ticket)
         description = describe(data, options, kind="table")
         return _answer(description, count, answer, request.options.score, selection=options.descriptors)
 
 
+@admission.giving_back
 def describe_bins(body: bytes, codec: Codec, answer: Codec, settings: Settings) -> Computed:
     with admission.admitted(body, codec, settings) as ticket:
         request = _decode(body, BinsRequest, codec)
         data, count = _bins_data(request, settings)
-        options = _admitted([data], describe_options(request.options, settings, ticket.amount), ticket)
+        options = _admitted([data], describe_options(request.options, settings, ticket.decoding), ticket)
         description = describe(data, options, kind="bins")
         return _answer(description, count, answer, request.options.score, selection=options.descriptors)
 
@@ -332,6 +353,7 @@ def _input_data(message, settings: Settings, prefix: str):
     return (*_bins_data(message, settings, prefix), "bins")
 
 
+@admission.giving_back
 def compare_inputs(body: bytes, codec: Codec, answer: Codec, settings: Settings) -> Computed:
     with admission.admitted(body, codec, settings) as ticket:
         return _compare(body, codec, answer, settings, ticket)
@@ -342,7 +364,7 @@ def _compare(body: bytes, codec: Codec, answer: Codec, settings: Settings, ticke
     first, first_count, first_kind = _input_data(request.first, settings, "$.first")
     second, second_count, second_kind = _input_data(request.second, settings, "$.second")
     _check_count(first_count + second_count, "$.second", settings, "$.first and $.second together")
-    options = describe_options(request.options, settings, ticket.amount)
+    options = describe_options(request.options, settings, ticket.decoding)
     options = _admitted([first, second], options, ticket)
     comparison = compare(first, second, options, kinds=(first_kind, second_kind))
     message = to_message(restricted_comparison(comparison, options.descriptors), ComparisonResponse)

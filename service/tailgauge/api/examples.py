@@ -73,7 +73,8 @@ def _busy(op: Operation, into: dict) -> None:
 
     from tailgauge.api import create_app
 
-    with TestClient(create_app(_settings(max_request_memory_bytes=_BUSY_MEMORY, max_request_seconds=1))) as client:
+    settings = _settings(max_request_memory_bytes=_BUSY_MEMORY, max_worker_memory_bytes=_BUSY_MEMORY, max_request_seconds=1)
+    with TestClient(create_app(settings)) as client:
         into[op.operation_id] = _send(client, op)
 
 
@@ -90,9 +91,11 @@ def record() -> dict[str, dict[str, dict]]:
     with (
         TestClient(create_app(_settings())) as plain,
         TestClient(create_app(_settings(api_tokens=(_TOKEN,), metrics_require_token=True))) as guarded,
-        admission.gate_for(_settings(max_request_memory_bytes=_BUSY_MEMORY)).hold(_BUSY_MEMORY, time.monotonic() + 60),
+        admission.gate_for(
+            _settings(max_request_memory_bytes=_BUSY_MEMORY, max_worker_memory_bytes=_BUSY_MEMORY)
+        ).hold(_BUSY_MEMORY, time.monotonic() + 60),
     ):
-        # The 503s wait for their deadline (one second): in threads, while the rest is recorded.
+        # The 503s answer at once (the worker's memory is held); in threads, beside the rest.
         threads = [threading.Thread(target=_busy, args=(op, busy_answers)) for op in busy]
         for thread in threads:
             thread.start()

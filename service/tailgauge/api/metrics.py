@@ -8,7 +8,15 @@ worker: see service/tailgauge/runtime/metric_files.py for how the metrics degrad
 
 from __future__ import annotations
 
-from prometheus_client import CONTENT_TYPE_LATEST, REGISTRY, CollectorRegistry, Counter, Histogram, generate_latest
+from prometheus_client import (
+    CONTENT_TYPE_LATEST,
+    REGISTRY,
+    CollectorRegistry,
+    Counter,
+    Gauge,
+    Histogram,
+    generate_latest,
+)
 
 from tailgauge.runtime import metric_files
 
@@ -44,6 +52,22 @@ BUDGET_REJECTIONS = Counter(
     "Requests refused with a limit-exceeded problem (resampling budget, wall-clock or size limits).",
 )
 
+# In flight: summed over the live workers ("livesum"); a dead worker's share goes with its files.
+INFLIGHT_BYTES = Gauge(
+    "tailgauge_inflight_planned_bytes",
+    "Memory planned by the compute requests in progress (decoding and computation estimates), in bytes.",
+    multiprocess_mode="livesum",
+)
+INFLIGHT_REQUESTS = Gauge(
+    "tailgauge_inflight_requests",
+    "Compute requests in progress (holding planned memory).",
+    multiprocess_mode="livesum",
+)
+ADMISSION_REFUSALS = Counter(
+    "tailgauge_admission_refusals_total",
+    "Requests answered 503 server-busy because their planned memory did not fit beside the ones in progress.",
+)
+
 
 def exposition() -> bytes:
     """The text exposition format of every metric, summed over worker processes when multiprocess."""
@@ -55,4 +79,15 @@ def exposition() -> bytes:
     return generate_latest(REGISTRY)
 
 
-__all__ = ["BUDGET_REJECTIONS", "CONTENT_TYPE", "LATENCY", "REQUESTS", "RESAMPLES", "VALUES", "exposition"]
+__all__ = [
+    "ADMISSION_REFUSALS",
+    "BUDGET_REJECTIONS",
+    "CONTENT_TYPE",
+    "INFLIGHT_BYTES",
+    "INFLIGHT_REQUESTS",
+    "LATENCY",
+    "REQUESTS",
+    "RESAMPLES",
+    "VALUES",
+    "exposition",
+]

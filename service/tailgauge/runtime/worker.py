@@ -14,6 +14,7 @@ from gunicorn.arbiter import Arbiter
 from uvicorn.server import Server
 from uvicorn_worker import UvicornWorker
 
+from tailgauge.runtime import memory
 from tailgauge.runtime.lifecycle import draining
 
 
@@ -33,6 +34,7 @@ class Worker(UvicornWorker):
     async def _serve(self) -> None:
         # The same steps as UvicornWorker._serve (uvicorn-worker 0.4.0), with the draining server.
         self.config.app = self.wsgi
+        memory.freeze_startup_objects()
         server = DrainingServer(config=self.config)
         self._install_sigquit_handler()
         await server.serve(sockets=self.sockets)

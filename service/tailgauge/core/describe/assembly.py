@@ -32,7 +32,7 @@ from tailgauge.core.describe.results import (
 from tailgauge.core.describe.validation import check_description
 from tailgauge.core.errors import LimitExceeded, Location
 from tailgauge.core.moments import CentralSums, central_sums
-from tailgauge.core.selection import Selection, shown_warnings
+from tailgauge.core.selection import EVERYTHING, Selection, shown_warnings
 from tailgauge.core.registry import SCALAR_DESCRIPTORS, UNDEFINED_FOR_OPEN_BIN, WarningCode, names
 from tailgauge.core.weighted import WeightedData, WeightMeaning
 
@@ -147,7 +147,8 @@ def describe(data: WeightedData, options: DescribeOptions, *, kind: str) -> Desc
     # What the selection leaves uncomputed holds None here; restrict() takes it out of the answer.
     for name in SCALAR_DESCRIPTORS:
         descriptors.setdefault(name, Descriptor(None, NOT_COMPUTED))
-    evidence.check_symmetry(descriptors, data, basis, notes)
+    if selection.shows("skewness"):  # a warning about the skewness: only where it is shown
+        evidence.check_symmetry(descriptors, data, basis, notes)
 
     quantile_list = quantiles_at(probabilities, quantile_values)
     if any(q.value is None for q in quantile_list) and quantile_list:
@@ -206,6 +207,7 @@ def describe(data: WeightedData, options: DescribeOptions, *, kind: str) -> Desc
         + ("; orders 2 and 4 Sheppard-corrected" if sheppard_applied else ""),
         weights=data.meaning,
         resampling=resampling,
+        selection=selection,
     )
 
 
@@ -249,6 +251,7 @@ def assemble(
     grouping: Grouping | None = None,
     resampling: Resampling | None = None,
     sketches: QuantileSketches | None = None,
+    selection: Selection = EVERYTHING,
 ) -> Description:
     """The one assembly of a ``Description``, for data (``describe``) and merged partial states.
 
@@ -266,7 +269,9 @@ def assemble(
         moments=moments(),
         quantiles=quantiles,
         modes=modes,
-        shape_estimators=moment_based.shape_estimators(sums, basis, constant),
+        shape_estimators=(
+            moment_based.shape_estimators(sums, basis, constant) if selection.computes("shape_estimators") else None
+        ),
         tail_contributions=tail_contributions(),
         grouping=grouping,
         normality=normality(),
