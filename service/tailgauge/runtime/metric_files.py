@@ -241,7 +241,8 @@ class DirectoryCollector:
 
 
 def fold_dead_worker(directory: str, pid: int) -> None:
-    """Add a dead worker's counters and histograms to the archive files, then remove its files.
+    """Add a dead worker's counters and histograms to the archive files, then remove its files
+    (its live gauges too, which count living workers only).
 
     The new archive is written beside the old one and renamed over it; on any error (a full
     disk) the dead worker's files stay where they are, still counted, and the error is raised.
@@ -273,6 +274,9 @@ def fold_dead_worker(directory: str, pid: int) -> None:
             out.close()
             os.replace(partial, archive)
             os.remove(dead)
+        # Live gauges (in-flight work) count only living workers: a dead one's values just go.
+        for live in glob.glob(os.path.join(glob.escape(directory), f"gauge_live*_{pid}.db")):
+            os.remove(live)
 
 
 __all__ = [
