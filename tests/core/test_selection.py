@@ -5,6 +5,9 @@ order statistics), for every Hyndman & Fan type, on random, tied, heavy-tailed a
 every small size, and the probabilities 0 and 1. Below ``SORT_BELOW`` values the path sorts a copy
 instead of selecting, so each comparison also runs with ``SORT_BELOW = 0`` to exercise the
 selection itself at small sizes. numpy 2.4's ``np.quantile`` methods are the outside reference.
+
+Weighted data's merged support, sorted with numpy's unstable argsort where ties allow, must be
+what the stable argsort gave, bit for bit (last section).
 """
 
 from __future__ import annotations
@@ -14,8 +17,8 @@ from fractions import Fraction
 import numpy as np
 import pytest
 
-from tailgauge.core import order_statistics
-from tailgauge.core.weighted import from_array
+from tailgauge.core import order_statistics, weighted
+from tailgauge.core.weighted import WeightedData, WeightMeaning, from_array
 
 TYPES = range(1, 10)
 # numpy's names for Hyndman & Fan's types (numpy.quantile documentation, numpy 2.4).
@@ -210,3 +213,45 @@ def test_mad_of_a_nan_centre_is_nan_as_sorted():
     x = np.arange(5.0)
     assert np.isnan(order_statistics.mad_unsorted(x, float("nan")))
     assert np.isnan(order_statistics.median_absolute_deviation(from_array(x), float("nan")))
+
+
+# --- the merged support of weighted data without a stable argsort ----------------------------
+
+
+def stable_support(values: np.ndarray, weights: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """The support as a stable argsort gives it: equal values merged in input order."""
+    order = np.argsort(values, kind="stable")
+    ordered = values[order]
+    starts = np.flatnonzero(np.concatenate(([True], ordered[1:] != ordered[:-1])))
+    return ordered[starts], np.add.reduceat(weights[order], starts)
+
+
+@pytest.mark.parametrize("n", [1, 7, weighted.STABLE_SORT_UP_TO, weighted.STABLE_SORT_UP_TO + 1, 20_000])
+@pytest.mark.parametrize("meaning", [WeightMeaning.FREQUENCY, WeightMeaning.RELIABILITY, WeightMeaning.PROBABILITY])
+def test_weighted_support_is_the_stable_sorts_bit_for_bit(n, meaning):
+    """Fractional weights of tied values summed in another order would round differently
+    (0.1 + 0.2 + 0.3 != 0.3 + 0.2 + 0.1), and +0 and -0 tie: every case must match."""
+    rng = np.random.default_rng(n)
+    for label, values in {
+        "continuous": rng.normal(size=n),
+        "tied": rng.integers(0, 30, n).astype(np.float64),
+        "signed zeros": rng.choice([-0.0, 0.0, 1.5, -2.0], n),
+    }.items():
+        for weights in (rng.integers(1, 6, n).astype(np.float64), rng.uniform(0.0, 1.0, n) + 1e-3, np.full(n, 0.1)):
+            if meaning is WeightMeaning.PROBABILITY:
+                weights = weights / weights.sum()
+            data = WeightedData(values=values, weights=weights, meaning=meaning, ordered=False)
+            expected_values, expected_weights = stable_support(values, weights)
+            support = data.support
+            assert same_bits(support.values, expected_values), (label, meaning)
+            assert same_bits(support.weights, expected_weights), (label, meaning)
+            assert same_bits(support.cumulative, np.cumsum(expected_weights)), (label, meaning)
+
+
+def test_the_order_of_fractional_weights_matters_so_the_test_above_can_fail():
+    # Three tied values with weights whose float sum depends on the order of addition.
+    weights = np.array([0.1, 0.2, 0.3])
+    assert (0.1 + 0.2) + 0.3 != (0.3 + 0.2) + 0.1
+    values = np.zeros(3)
+    assert np.add.reduceat(weights, [0])[0] != np.add.reduceat(weights[::-1], [0])[0]
+    assert stable_support(values, weights)[1][0] == np.add.reduceat(weights, [0])[0]
