@@ -2,9 +2,9 @@
 
 The selection path must give the sorted path's numbers bit for bit (the same rules read the same
 order statistics), for every Hyndman & Fan type, on random, tied, heavy-tailed and constant data,
-every small size, and the probabilities 0 and 1. Below ``SORT_BELOW`` values the path sorts a copy
-instead of selecting, so each comparison also runs with ``SORT_BELOW = 0`` to exercise the
-selection itself at small sizes. numpy 2.4's ``np.quantile`` methods are the outside reference.
+every small size, and the probabilities 0 and 1. Below ``SORT_BELOW`` values, or for more than
+``SELECT_AT_MOST`` positions, the path sorts a copy instead of selecting, so each comparison also
+runs with both limits lifted to exercise the selection itself. numpy 2.4's ``np.quantile`` methods are the outside reference.
 
 Weighted data's merged support, sorted with numpy's unstable argsort where ties allow, must be
 what the stable argsort gave, bit for bit (last section).
@@ -39,6 +39,7 @@ NUMPY_METHODS = {
 def path(request, monkeypatch) -> str:
     if request.param == "always select":
         monkeypatch.setattr(order_statistics, "SORT_BELOW", 0)
+        monkeypatch.setattr(order_statistics, "SELECT_AT_MOST", 1 << 30)
     return request.param
 
 
@@ -83,7 +84,7 @@ def test_small_sizes_match_the_sorted_path_exactly(n, path):
 
 
 @pytest.mark.parametrize("n", [16_383, 16_384, 20_000, 100_001])
-def test_large_samples_match_the_sorted_path_exactly(n):
+def test_large_samples_match_the_sorted_path_exactly(n, path):
     # From 2**14 values on, the path selects (np.partition); both sides of the switch are here.
     p = np.concatenate(([0.0, 1.0], np.array([0.01, 0.05, 0.1, 0.25, 0.5, 0.75, 0.9, 0.95, 0.99]), np.arange(1, 8) / 8))
     for name, x in datasets(n, seed=n).items():
@@ -172,6 +173,16 @@ def test_summary_is_the_separate_answers_from_one_selection(path):
                 assert summary.maximum == sorted_data.sorted_values[-1] == np.max(x)
 
 
+def test_few_positions_of_a_long_sample_are_selected_many_are_sorted():
+    x = np.random.default_rng(5).normal(size=order_statistics.SORT_BELOW)
+    n = x.size
+    median_and_quartiles = order_statistics.Selection(x, np.array([0, n // 4, n // 2, n // 2 + 1, 3 * n // 4, n - 1]))
+    assert median_and_quartiles.sorted is None
+    nine = order_statistics.Selection(x, np.arange(1, 1 + order_statistics.SELECT_AT_MOST + 1))
+    assert nine.sorted is not None and np.array_equal(nine.sorted, np.sort(x))
+    assert order_statistics.Selection(x[:-1], np.array([5])).sorted is not None  # short: sorted
+
+
 def test_summary_leaves_out_what_was_not_asked_for():
     x = np.random.default_rng(3).normal(size=100)
     only_mad = order_statistics.summary_unsorted(x, None, 7, mad=True)
@@ -194,9 +205,10 @@ def test_a_selection_reads_only_what_it_selected(path):
         selection[np.array([6])]
 
 
-def test_the_selection_matches_sorting_at_every_position_of_a_segment():
+def test_the_selection_matches_sorting_at_every_position_of_a_segment(monkeypatch):
     """Adjacent, first and last positions exercise each branch of the selection (the middle
     partition, a segment's minimum and its maximum)."""
+    monkeypatch.setattr(order_statistics, "SELECT_AT_MOST", 1 << 30)
     rng = np.random.default_rng(8)
     x = rng.integers(0, 1000, 40_000).astype(np.float64)
     ordered = np.sort(x)
@@ -206,7 +218,9 @@ def test_the_selection_matches_sorting_at_every_position_of_a_segment():
         np.array([0, 1, 2, 19_999, 20_000, 20_001, 39_997, 39_998, 39_999]),
         np.unique(rng.integers(0, 40_000, 200)),
     ):
-        assert np.array_equal(order_statistics.Selection(x, positions).found, ordered[np.unique(positions)])
+        selection = order_statistics.Selection(x, positions)
+        assert selection.sorted is None, "selected, not sorted"
+        assert np.array_equal(selection.found, ordered[np.unique(positions)])
 
 
 def test_mad_of_a_nan_centre_is_nan_as_sorted():
