@@ -1,9 +1,9 @@
 """Order statistics of the weighted form: quantiles (Hyndman & Fan types 1-9), median, MAD, modes.
 
 Every function reads the data sorted once (``WeightedData.sorted_values`` or its merged
-``support``), except the ``*_unsorted`` ones, which select the few order statistics a raw
-sample's quantiles, median and MAD need with ``np.partition`` (linear time instead of a sort)
-and apply the same rules to them (:class:`Selection`), so both paths give the same numbers. For frequency weights the ``j``-th order statistic is the one of the equivalent
+``support``), except the ``*_unsorted`` ones, which take only the order statistics a raw
+sample's quantiles, median and MAD need (:class:`Selection`: ``np.partition`` for a few of
+them, a sorted copy for many) and apply the same rules to them, so both give the same numbers. For frequency weights the ``j``-th order statistic is the one of the equivalent
 repeated sample, read from cumulative weights without expanding anything. The rules themselves
 live in :mod:`tailgauge.core.order_rules`, written once for one row (here) and for the
 bootstrap's many rows; this module applies them to the data as one row.
