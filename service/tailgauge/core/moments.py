@@ -218,8 +218,8 @@ def _dot_power_sums(values: np.ndarray, pre_exponent: int, shift: float, post_ex
     """:func:`_power_sums` of unit weights by dot products.
 
     Powers 2 and up: each run of ``_ROW`` deviations gives its power sums as dot products of
-    two powers (``d**j = d**floor(j/2) * d**ceil(j/2)``, one fused multiply-add per term, so one
-    product array serves powers 3 and 4), and the per-run sums are added pairwise at the end. A
+    two powers (``d**j = d**floor(j/2) * d**ceil(j/2)``, so one product array serves powers 3
+    and 4; ``np.vecdot`` calls the BLAS dot), and the per-run sums are added pairwise at the end. A
     dot product keeps a few running sums of ``_ROW / lanes`` terms each, so a run's rounding
     stays about a pairwise sum's, and no sum runs across the sample one block at a time (the
     blocked form's error grows with the number of blocks). The last ``n mod _ROW`` values take
