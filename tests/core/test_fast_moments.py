@@ -16,7 +16,6 @@ import math
 import numpy as np
 import pytest
 from scipy import stats
-
 from tailgauge.core import moments
 
 EPS = np.finfo(np.float64).eps

@@ -16,7 +16,6 @@ from fractions import Fraction
 
 import numpy as np
 import pytest
-
 from tailgauge.core import order_statistics, weighted
 from tailgauge.core.weighted import WeightedData, WeightMeaning, from_array
 
