@@ -18,6 +18,12 @@ from typing import Literal
 import numpy as np
 
 _BLOCK = 1 << 16
+# Length of each dot product of the unit-weight power sums (``_BLOCK`` holds whole runs).
+_ROW = 512
+# Above this many unit-weight values the power sums are dot products (see ``_dot_power_sums``):
+# from about four blocks on they are at least as accurate as the blocked pairwise sums (whose
+# error grows with the number of blocks added in turn), and faster.
+_DOT_ABOVE = 4 * _BLOCK
 _SHIFT_SAMPLE = 1024
 # Accept the one-pass shift only while it is within this many standard deviations of the
 # mean: the re-centring then loses at most a factor (1 + 0.1)^order of precision.
@@ -156,6 +162,39 @@ class CentralSums:
         return scale_by_power_of_two(total, reference * order)
 
 
+def _deviations(chunk: np.ndarray, pre_exponent: int, shift: float, post_exponent: int, out: np.ndarray) -> np.ndarray:
+    """``(chunk * 2**pre - shift) * 2**post`` into ``out``."""
+    if pre_exponent:
+        np.ldexp(chunk, pre_exponent, out=out)
+        np.subtract(out, shift, out=out)
+    else:
+        np.subtract(chunk, shift, out=out)
+    if post_exponent:
+        np.ldexp(out, post_exponent, out=out)
+    return out
+
+
+def _chained_power_sums(d: np.ndarray, weights: np.ndarray | None, order: int, power: np.ndarray) -> np.ndarray:
+    """``sum w d**j`` for ``j = 0 .. order`` by pairwise sums of the powers built one product at
+    a time (``power`` is scratch of ``d``'s size)."""
+    sums = np.empty(order + 1)
+    if weights is None:
+        sums[0] = d.size
+        sums[1] = d.sum()
+        np.multiply(d, d, out=power)
+        sums[2] = power.sum()
+        first_power = 3
+    else:
+        sums[0] = weights.sum()
+        np.multiply(weights, d, out=power)
+        sums[1] = power.sum()
+        first_power = 2
+    for j in range(first_power, order + 1):
+        np.multiply(power, d, out=power)
+        sums[j] = power.sum()
+    return sums
+
+
 def _power_sums(
     values: np.ndarray,
     weights: np.ndarray | None,
@@ -164,7 +203,73 @@ def _power_sums(
     post_exponent: int,
     order: int,
 ) -> np.ndarray:
-    """``sums[j] = sum w ((x * 2**pre - shift) * 2**post)**j``, blocked to stay in cache."""
+    """``sums[j] = sum w ((x * 2**pre - shift) * 2**post)**j``, blocked to stay in cache.
+
+    Weighted data and up to ``_DOT_ABOVE`` unit-weight values: pairwise sums of the powers,
+    built one product at a time, per block (:func:`_blocked_power_sums`). More unit-weight
+    values: :func:`_dot_power_sums`, faster, and more accurate the longer the sample.
+    """
+    if weights is None and values.size > _DOT_ABOVE:
+        return _dot_power_sums(values, pre_exponent, shift, post_exponent, order)
+    return _blocked_power_sums(values, weights, pre_exponent, shift, post_exponent, order)
+
+
+def _dot_power_sums(values: np.ndarray, pre_exponent: int, shift: float, post_exponent: int, order: int) -> np.ndarray:
+    """:func:`_power_sums` of unit weights by dot products.
+
+    Powers 2 and up: each run of ``_ROW`` deviations gives its power sums as dot products of
+    two powers (``d**j = d**floor(j/2) * d**ceil(j/2)``, so one product array serves powers 3
+    and 4; ``np.vecdot`` calls the BLAS dot), and the per-run sums are added pairwise at the end. A
+    dot product keeps a few running sums of ``_ROW / lanes`` terms each, so a run's rounding
+    stays about a pairwise sum's, and no sum runs across the sample one block at a time (the
+    blocked form's error grows with the number of blocks). The last ``n mod _ROW`` values take
+    :func:`_chained_power_sums`. The first power sum, behind the mean, is summed as in
+    :func:`_blocked_power_sums` (per block, blocks added in turn), so the mean and every
+    deviation taken from it are the same numbers on both paths.
+    """
+    n = values.size
+    whole = n - n % _ROW
+    runs = whole // _ROW
+    partial = np.zeros((order + 1, runs + 1))
+    block = min(_BLOCK, n)
+    half = (order + 1) // 2  # highest power stored: d**half
+    buffers = [np.empty(block) for _ in range(half)]
+    first_sum = 0.0
+    for start in range(0, n, _BLOCK):
+        stop = min(start + _BLOCK, n)
+        d = _deviations(values[start:stop], pre_exponent, shift, post_exponent, buffers[0][: stop - start])
+        # The first power sum as before (a pairwise sum per block, blocks added in turn): the
+        # mean, and every deviation derived from it, is the same number as the blocked form's.
+        first_sum += d.sum()
+        end = min(stop, whole)
+        if end <= start:
+            break
+        size = end - start
+        first, last = start // _ROW, end // _ROW
+        powers = [None, d[:size].reshape(-1, _ROW)]
+        for k in range(2, half + 1):
+            powers.append(np.multiply(powers[k - 1], powers[1], out=buffers[k - 1][:size].reshape(-1, _ROW)))
+        for j in range(2, order + 1):
+            np.vecdot(powers[j // 2], powers[j - j // 2], out=partial[j, first:last])
+    if whole < n:
+        tail = values[whole:]
+        d = _deviations(tail, pre_exponent, shift, post_exponent, np.empty(tail.size))
+        partial[:, runs] = _chained_power_sums(d, None, order, np.empty(tail.size))
+    sums = partial.sum(axis=1)
+    sums[0] = float(n)
+    sums[1] = first_sum
+    return sums
+
+
+def _blocked_power_sums(
+    values: np.ndarray,
+    weights: np.ndarray | None,
+    pre_exponent: int,
+    shift: float,
+    post_exponent: int,
+    order: int,
+) -> np.ndarray:
+    """:func:`_power_sums` by pairwise sums per block, the blocks added in turn."""
     n = values.size
     sums = np.zeros(order + 1)
     block = min(_BLOCK, n)
@@ -172,32 +277,9 @@ def _power_sums(
     power = np.empty(block)
     for start in range(0, n, block):
         stop = min(start + block, n)
-        size = stop - start
-        d = deviation[:size]
-        p = power[:size]
-        chunk = values[start:stop]
-        if pre_exponent:
-            np.ldexp(chunk, pre_exponent, out=d)
-            np.subtract(d, shift, out=d)
-        else:
-            np.subtract(chunk, shift, out=d)
-        if post_exponent:
-            np.ldexp(d, post_exponent, out=d)
-        if weights is None:
-            sums[0] += size
-            sums[1] += d.sum()
-            np.multiply(d, d, out=p)
-            sums[2] += p.sum()
-            first_power = 3
-        else:
-            w = weights[start:stop]
-            sums[0] += w.sum()
-            np.multiply(w, d, out=p)
-            sums[1] += p.sum()
-            first_power = 2
-        for j in range(first_power, order + 1):
-            np.multiply(p, d, out=p)
-            sums[j] += p.sum()
+        d = _deviations(values[start:stop], pre_exponent, shift, post_exponent, deviation[: stop - start])
+        w = None if weights is None else weights[start:stop]
+        sums += _chained_power_sums(d, w, order, power[: stop - start])
     return sums
 
 

