@@ -147,3 +147,26 @@ def test_a_selection_without_names_is_refused_by_the_edge_not_the_core():
     out = restricted(describe(from_array(SAMPLE), DescribeOptions(descriptors=selection), kind="samples"), selection)
     assert out.descriptors == {} and set(out.absent) == set(SCALAR_DESCRIPTORS) | set(MEMBERS)
     assert out.size.n == SAMPLE.size  # what the answer is about is always said
+
+
+@pytest.mark.parametrize("n", [7, 3_000, 40_000])
+@pytest.mark.parametrize(
+    "asked",
+    [["median"], ["median_absolute_deviation_normal", "interquartile_range"], ["quantiles", "range", "mean"],
+     ["spread", "quantiles", "median"]],
+)
+def test_order_statistics_alone_are_selected_without_sorting_and_equal_the_sorted_path(n, asked):
+    x = np.random.default_rng(n).standard_t(3, n).round(2)  # heavy tails and ties
+    full = describe(from_array(x), DescribeOptions(probabilities=(0.001, 0.3, 0.999)), kind="samples")
+    selection = choose(asked)
+    data = from_array(x)
+    part = restricted(
+        describe(data, DescribeOptions(probabilities=(0.001, 0.3, 0.999), descriptors=selection), kind="samples"),
+        selection,
+    )
+    assert "sorted_values" not in data.__dict__ and "support" not in data.__dict__
+    assert part.size.distinct_values is None  # counting them would take the sort
+    for name, descriptor in part.descriptors.items():
+        assert descriptor.value == full.descriptors[name].value, name
+    if "quantiles" in selection.shown:
+        assert part.quantiles == full.quantiles

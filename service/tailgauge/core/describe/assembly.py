@@ -51,7 +51,7 @@ def admit(inputs: list[WeightedData], options: DescribeOptions) -> cost.Estimate
         interval = None  # refused with its own reason by validation.check_description
     left = math.inf if options.deadline is None else options.deadline - time.monotonic()
     return cost.admit(
-        [cost.shape_of(d, options.subset_rows, distinct=interval is not None or options.selection.needs_sort) for d in inputs],
+        [cost.shape_of(d, options.subset_rows, distinct=_sorts(d, options)) for d in inputs],
         probabilities=len(options.probabilities),
         resamples=0 if interval is None else interval.resamples,
         method=None if interval is None else interval.method,
@@ -60,6 +60,13 @@ def admit(inputs: list[WeightedData], options: DescribeOptions) -> cost.Estimate
         seconds=left,
         max_work=options.max_resample_work,
     )
+
+
+def _sorts(data: WeightedData, options: DescribeOptions) -> bool:
+    """Whether describing ``data`` by ``options`` sorts it (so the plan may count its distinct values)."""
+    if options.interval is not None:
+        return True
+    return options.selection.needs_sort and not order_based.selects_without_sorting(data, options)
 
 
 def _on_time(options: DescribeOptions) -> None:
@@ -133,8 +140,11 @@ def describe(data: WeightedData, options: DescribeOptions, *, kind: str) -> Desc
     selection = options.selection
     probabilities = np.array(options.probabilities if selection.computes("quantiles") else (), dtype=np.float64)
     quantile_values = np.empty(0)
+    unsorted = order_based.selects_without_sorting(data, options)
     if selection.needs_sort:
-        quantile_values, robust_quantiles = order_based.order_descriptors(descriptors, data, basis, options, notes)
+        quantile_values, robust_quantiles = order_based.order_descriptors(
+            descriptors, data, basis, options, notes, unsorted=unsorted
+        )
         quantile_values = quantile_values[: probabilities.size]
         _on_time(options)
         if selection.computes_any(ROBUST_NAMES):
@@ -176,7 +186,9 @@ def describe(data: WeightedData, options: DescribeOptions, *, kind: str) -> Desc
             n=None if data.meaning is WeightMeaning.PROBABILITY else _count_value(data),
             total_weight=data.total_weight,
             omitted=data.omitted,
-            distinct_values=_distinct_values(data, selection.needs_sort or options.interval is not None),
+            distinct_values=_distinct_values(
+                data, (selection.needs_sort and not unsorted) or options.interval is not None
+            ),
             zero_weight=data.zero_weight,
             effective_n=data.effective_size if data.meaning is WeightMeaning.RELIABILITY else None,
         ),
@@ -295,7 +307,8 @@ def assemble(
 
 def _distinct_values(data: WeightedData, sorted_anyway: bool) -> int | None:
     """Distinct values (bins for binned data); ``None`` for a raw sample that nothing else asked
-    to sort (options.descriptors without order statistics): counting them would cost the sort."""
+    to sort (options.descriptors without order statistics, or with only those that are selected
+    without sorting): counting them would cost the sort."""
     if data.binned:
         return int(data.values.size)
     if sorted_anyway or data.weights is not None or "support" in data.__dict__:

@@ -33,11 +33,15 @@ def order_descriptors(
     basis: Basis,
     options: DescribeOptions,
     notes: Warnings,
+    *,
+    unsorted: bool = False,
 ) -> tuple[np.ndarray, np.ndarray]:
     """Median, extremes, IQR, MAD and the requested quantiles, all from one sort of the data.
 
     Returns the requested quantiles and those behind the robust shape measures
-    (``ROBUST_PROBABILITIES``), computed by the same rule in the same call.
+    (``ROBUST_PROBABILITIES``), computed by the same rule in the same call. ``unsorted``: a raw
+    sample of which nothing else needs the sort (:func:`selects_without_sorting`) has its order
+    statistics selected instead, and no quantile shape.
     """
     probabilities = np.array(options.probabilities, dtype=np.float64)
     wants_mad = options.selection.computes("median_absolute_deviation")
@@ -65,6 +69,21 @@ def order_descriptors(
             ["minimum", "maximum", "range"],
         )
         minimum = maximum = None
+    elif unsorted:
+        # Only order statistics are asked of a raw sample: select them without sorting the data
+        # (order_statistics.summary_unsorted gives the sorted path's numbers; the quantile shape
+        # is not computed, so its probabilities are not looked up).
+        assert basis.quantile_type is not None
+        found = order_statistics.summary_unsorted(
+            data.values, np.concatenate(([0.25, 0.75], probabilities)), basis.quantile_type,
+            median=True, mad=wants_mad and not basis.single, extremes=True,
+        )
+        assert found.quantiles is not None and found.median is not None
+        median = found.median
+        quartiles, requested = found.quantiles[:2], found.quantiles[2:]
+        robust_values = np.full(ROBUST_PROBABILITIES.size, np.nan)
+        mad = found.median_absolute_deviation
+        minimum, maximum = found.minimum, found.maximum
     else:
         median = order_statistics.median(data)
         quartiles, requested = sample_quantiles(data, quartiles_and_requested, basis, notes)
@@ -94,6 +113,28 @@ def order_descriptors(
     )
     return requested, robust_values
 
+
+
+# Computed from the sorted data (or its support) beside the order statistics themselves.
+_SORT_USERS = frozenset(("medcouple", "half_sample_mode", "modes", "quartile_skewness", "octile_kurtosis",
+                         "octile_excess_kurtosis", "l_location", "l_scale", "l_skewness", "l_kurtosis"))
+
+
+def selects_without_sorting(data: WeightedData, options: DescribeOptions) -> bool:
+    """Whether a request's order statistics can be selected without sorting ``data``: a raw
+    sample (no weights, no bins) without intervals, whose selection computes order statistics
+    (median, quantiles, IQR, MAD, extremes) but nothing else that reads the sorted data, and
+    does not show the skewness (whose asymmetry check reads the quartiles of the support)."""
+    selection = options.selection
+    return (
+        options.descriptors is not None
+        and data.weights is None
+        and not data.binned
+        and options.interval is None
+        and selection.needs_sort
+        and selection.computed.isdisjoint(_SORT_USERS)
+        and not selection.shows("skewness")
+    )
 
 
 def sample_quantiles(
