@@ -66,6 +66,9 @@ class Statistics:
         self.skewness_family, self.kurtosis_family = families
         self.quantile_type = quantile_type
         self.factor_rule = factor_rule  # a tailgauge.core.moments.VarianceRule
+        # Each median's sorted medcouple kernels over this plan's support, shared by the batches
+        # and the jackknife (medcouple_rows.medcouples).
+        self.medcouple_kernels = medcouple_rows.KernelCache()
 
     def wanted(self, estimates: dict[str, float | None]) -> tuple[str, ...]:
         """The descriptors to resample: those the engine resamples whose estimate is defined and
@@ -216,7 +219,7 @@ class Statistics:
             self._lmoments(out, view)
         if "medcouple" in names:
             out["medcouple"] = medcouple_rows.medcouples(
-                view, plan.values, median, self.whole_weights, EVALUATION_PART_BYTES
+                view, plan.values, median, self.whole_weights, EVALUATION_PART_BYTES, self.medcouple_kernels
             )
         return out
 
