@@ -28,6 +28,11 @@ BATCH_ELEMENTS = BATCH_BYTES // 32
 TOPPED_UP_BATCH_ELEMENTS = BATCH_BYTES // 19
 # Resamples of at least this many draws are counted row by row (cheaper than one flat count).
 _ROW_BY_ROW_DRAWS = 2048
+# Multinomial batches of at least twice this many resamples are drawn this many at a time when
+# the bootstrap runs on several threads, each part's order statistics read while the rest is
+# drawn (bootstrap's run): the generator runs without the interpreter's lock, the reading
+# mostly with it, so one thread reads while the other draws.
+PIPELINE_ROWS = 1250
 # Raw samples of at least this many distinct values get Poisson counts topped up to n
 # (topped_up_counts), whose expected shortfall is this many standard deviations.
 POISSON_DRAWS = 2048
@@ -224,6 +229,20 @@ def topped_up_counts(plan: Plan, rng: np.random.Generator, b: int, scratch: Scra
     return counts
 
 
+def by_multinomial(plan: Plan) -> bool:
+    """Whether :func:`draw` draws multinomial counts with the generator's own multinomial
+    (many draws per support row)."""
+    return plan.multinomial and plan.draws > 8 * plan.values.size
+
+
+def multinomial_counts(plan: Plan, rng: np.random.Generator, rows: int) -> np.ndarray:
+    """``rows`` resamples' multinomial counts (rows x k, 64-bit), when :func:`by_multinomial`.
+    The generator draws row after row, so a batch drawn a few rows at a time gets the same
+    counts as drawn at once."""
+    probabilities = plan.base / float(np.sum(plan.base))
+    return rng.multinomial(plan.draws, probabilities, size=rows)
+
+
 def draw(
     plan: Plan, rng: np.random.Generator, b: int, scratch: Scratch | None = None
 ) -> tuple[np.ndarray, np.ndarray | None]:
@@ -234,9 +253,8 @@ def draw(
     get 0 or 1).
     """
     k = plan.values.size
-    if plan.multinomial and plan.draws > 8 * k:
-        probabilities = plan.base / float(np.sum(plan.base))
-        counts = rng.multinomial(plan.draws, probabilities, size=b)
+    if by_multinomial(plan):
+        counts = multinomial_counts(plan, rng, b)
         return counts.astype(np.float64), counts
     if plan.poisson_edges is not None:
         scratch = Scratch() if scratch is None else scratch

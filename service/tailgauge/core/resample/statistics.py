@@ -116,26 +116,36 @@ class Statistics:
         return max(1, EVALUATION_PART_BYTES // row)
 
     def evaluate(
-        self, view, probabilities: np.ndarray, names: tuple[str, ...], deadline: float | None = None
+        self,
+        view,
+        probabilities: np.ndarray,
+        names: tuple[str, ...],
+        deadline: float | None = None,
+        ordered: dict[str, np.ndarray] | None = None,
     ) -> dict[str, np.ndarray]:
         """Every requested statistic for each row of ``view``; ``quantile:i`` for probabilities[i].
 
         Rows are taken a part at a time (``part_rows``), so the working memory of order
         statistics (rows x probabilities, and rows x bins for binned data) stays bounded
         whatever the batch; every statistic is per row, so parts change no value. The wall
-        clock is checked before each part.
+        clock is checked before each part. ``ordered``: the rows' ``order_statistics``, when
+        they were read beforehand (they are then taken as they are).
         """
         rows = view.count
         per_part = self.part_rows(view, probabilities.size)
         if rows <= per_part:
             deadline_check(deadline)
-            return self._evaluate(view, probabilities, names)
+            return self._evaluate(view, probabilities, names, ordered)
         # Each part's values are copied into arrays of all rows at once: no list of parts is
         # held beside their concatenation.
         result: dict[str, np.ndarray] = {}
         for start in range(0, rows, per_part):
             deadline_check(deadline)
-            part = self._evaluate(view.rows(slice(start, start + per_part)), probabilities, names)
+            span = slice(start, start + per_part)
+            part = self._evaluate(
+                view.rows(span), probabilities, names,
+                None if ordered is None else {name: values[span] for name, values in ordered.items()},
+            )
             for name, values in part.items():
                 if name not in result:
                     result[name] = np.empty(rows, dtype=values.dtype)
@@ -143,7 +153,41 @@ class Statistics:
             del part
         return result
 
-    def _evaluate(self, view, probabilities: np.ndarray, names: tuple[str, ...]) -> dict[str, np.ndarray]:
+    def order_statistics(self, view, probabilities: np.ndarray, names: tuple[str, ...]) -> dict[str, np.ndarray]:
+        """The statistics of ``evaluate`` read from each row's order alone (the median, the MADs,
+        the quantiles, the interquartile range and the quantile-based shape), in its order.
+
+        Every one of them is per row and searches integer or cumulative weights, so rows taken
+        a few at a time give the same values as the batch taken at once (the bootstrap reads
+        them from parts of a batch while the rest of it is being drawn)."""
+        out: dict[str, np.ndarray] = {}
+        median = self.median(view)
+        out["median"] = median
+        if "median_absolute_deviation" in names or "median_absolute_deviation_normal" in names:
+            mad = self.mad(view, median)
+            out["median_absolute_deviation"] = mad
+            out["median_absolute_deviation_normal"] = mad * NORMAL_MAD_FACTOR
+        shaped = self.quantile_shape is not None and any(name in names for name in QUANTILE_SHAPE)
+        if shaped:
+            assert self.quantile_shape is not None
+            # Each distinct probability is looked up once (the defaults share the quartiles and median).
+            distinct, where = np.unique(
+                np.concatenate((self.quantile_shape.probabilities, probabilities)), return_inverse=True
+            )
+            found = self.quantiles(view, distinct)[:, where]
+            self._quantile_shape(out, found[:, :9])
+            q1, q3, requested = found[:, 0], found[:, 2], found[:, 9:]
+        else:
+            found = self.quantiles(view, np.concatenate(([0.25, 0.75], probabilities)))
+            q1, q3, requested = found[:, 0], found[:, 1], found[:, 2:]
+        out["interquartile_range"] = q3 - q1
+        for i in range(probabilities.size):
+            out[f"quantile:{i}"] = requested[:, i]
+        return out
+
+    def _evaluate(
+        self, view, probabilities: np.ndarray, names: tuple[str, ...], ordered: dict[str, np.ndarray] | None = None
+    ) -> dict[str, np.ndarray]:
         plan = self.plan
         sums = view.sums
         weight = sums[:, 0]
@@ -189,28 +233,8 @@ class Statistics:
             out["skewness"] = skew
             out["excess_kurtosis"] = kurt
             out["kurtosis"] = kurt + 3.0
-        median = self.median(view)
-        out["median"] = median
-        if "median_absolute_deviation" in names or "median_absolute_deviation_normal" in names:
-            mad = self.mad(view, median)
-            out["median_absolute_deviation"] = mad
-            out["median_absolute_deviation_normal"] = mad * NORMAL_MAD_FACTOR
-        shaped = self.quantile_shape is not None and any(name in names for name in QUANTILE_SHAPE)
-        if shaped:
-            assert self.quantile_shape is not None
-            # Each distinct probability is looked up once (the defaults share the quartiles and median).
-            distinct, where = np.unique(
-                np.concatenate((self.quantile_shape.probabilities, probabilities)), return_inverse=True
-            )
-            found = self.quantiles(view, distinct)[:, where]
-            self._quantile_shape(out, found[:, :9])
-            q1, q3, requested = found[:, 0], found[:, 2], found[:, 9:]
-        else:
-            found = self.quantiles(view, np.concatenate(([0.25, 0.75], probabilities)))
-            q1, q3, requested = found[:, 0], found[:, 1], found[:, 2:]
-        out["interquartile_range"] = q3 - q1
-        for i in range(probabilities.size):
-            out[f"quantile:{i}"] = requested[:, i]
+        out.update(self.order_statistics(view, probabilities, names) if ordered is None else ordered)
+        median = out["median"]
         if "mean_median_gap" in names:
             with np.errstate(invalid="ignore", divide="ignore", over="ignore"):
                 # As describe: halves first, so values near float64's limit do not overflow.
