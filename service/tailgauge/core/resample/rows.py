@@ -173,8 +173,8 @@ class Rows:
 
 
 def _take_rows(array: np.ndarray, rows: np.ndarray) -> np.ndarray:
-    """The given rows of ``array``; a view when they are consecutive."""
-    if rows.size and rows[-1] - rows[0] == rows.size - 1:
+    """The given rows of ``array``; a view when they are consecutive and increasing."""
+    if rows.size and rows[-1] - rows[0] == rows.size - 1 and np.all(rows[1:] > rows[:-1]):
         return array[rows[0] : rows[-1] + 1]
     return array.take(rows, axis=0)
 
