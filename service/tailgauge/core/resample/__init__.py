@@ -92,8 +92,9 @@ __all__ = [
 ]
 
 
-# Support rows up to which the jackknife is computed while the batches run (bootstrap).
-EARLY_JACKKNIFE_ROWS = 4096
+# Working memory (evaluation_row_bytes x support rows) up to which the jackknife is computed
+# while the batches run (bootstrap).
+EARLY_JACKKNIFE_BYTES = 1 << 20
 
 
 def _in_parts(
@@ -183,7 +184,11 @@ def bootstrap(
     parallel = threads > 1 and len(planned) > 1
     # On several threads, multinomial batches are drawn a part at a time and each part's order
     # statistics read while the next is drawn (see PIPELINE_ROWS); the values are the same.
-    in_parts = parallel and by_multinomial(plan)
+    # Not when evaluate would take fewer rows at a time to bound its working memory (many
+    # probabilities): a part's order statistics would then take more.
+    in_parts = (
+        parallel and by_multinomial(plan) and statistics.part_rows(None, probabilities.size) >= PIPELINE_ROWS
+    )
 
     def run(batch: tuple[np.random.Generator, int]) -> dict[str, np.ndarray]:
         deadline_check(deadline)
@@ -216,9 +221,13 @@ def bootstrap(
         return values, np.where(present, plan.base / plan.unit, 0.0)
 
     jackknife = jackknife_weights = None
-    # A small support's jackknife is computed by this thread while the batches run (its working
-    # memory is then small); a large one's after them, once their buffers are gone.
-    early = options.method == "bca" and parallel and k <= EARLY_JACKKNIFE_ROWS
+    # A small jackknife (working memory below EARLY_JACKKNIFE_BYTES) is computed by this thread
+    # while the batches run; a large one after them, once their buffers are gone.
+    early = (
+        options.method == "bca"
+        and parallel
+        and k * evaluation_row_bytes(k, probabilities.size, bins=plan.edges is not None) <= EARLY_JACKKNIFE_BYTES
+    )
     # numpy releases the GIL in the heavy loops, so batches overlap on the cores; each batch has
     # its own generator, so the result does not depend on which thread ran it.
     if not parallel:

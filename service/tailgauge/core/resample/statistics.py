@@ -147,6 +147,9 @@ class Statistics:
                 None if ordered is None else {name: values[span] for name, values in ordered.items()},
             )
             for name, values in part.items():
+                if ordered is not None and name in ordered:
+                    result[name] = ordered[name]  # already every row's (no second copy)
+                    continue
                 if name not in result:
                     result[name] = np.empty(rows, dtype=values.dtype)
                 result[name][start : start + values.size] = values
