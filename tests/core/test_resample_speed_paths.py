@@ -196,3 +196,22 @@ def test_rows_reordered_from_counts_match_rows_rebuilt_from_weights(kind):
             bits(median(fast, values, whole=True, average=True)), bits(median(plain, values, whole=True, average=True))
         )
     assert math.isclose(float(view.total[0]), 200.0)
+
+
+def test_cumulative_at_and_first_reaching_read_each_row_as_take_along_axis_and_searchsorted():
+    # Reference: each row's own np.cumsum, read with np.take_along_axis and np.searchsorted.
+    rng = np.random.default_rng(61)
+    counts = rng.multinomial(90, rng.dirichlet(np.ones(12) * 0.5), size=40)
+    view = Rows(counts.astype(np.float64), None, True, counts, 90)
+    cumulative = np.cumsum(counts, axis=1)
+    index = rng.integers(0, 12, (40, 5))
+    assert np.array_equal(view.cumulative_at(index), np.take_along_axis(cumulative, index, axis=1).astype(np.float64))
+    part = view.rows(slice(7, 19))  # a part's own rows, not the batch's
+    assert np.array_equal(part.cumulative_at(index[7:19]), view.cumulative_at(index)[7:19])
+    targets = rng.uniform(-1.0, 92.0, (40, 6))
+    targets[:, 0] = [0.0, -0.0] * 20
+    want = np.stack(
+        [np.minimum(np.searchsorted(cumulative[r], np.ceil(np.clip(targets[r], 0, 90)), side="left"), 11) for r in range(40)]
+    )
+    assert np.array_equal(view.first_reaching(targets), want)
+    assert np.array_equal(part.first_reaching(targets[7:19]), want[7:19])

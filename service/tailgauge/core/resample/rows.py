@@ -104,19 +104,40 @@ class Rows:
         rows, k = self.weights.shape
         if self.whole:
             # Integer cumulative counts reach a target exactly when they reach its ceiling.
-            wanted = np.ceil(np.clip(target, 0.0, self.total[:, None])).astype(self._integer.dtype)
+            # (Clipped with maximum and minimum: np.clip's wrapper costs more than the work on
+            # a batch's few targets; a -0.0 they keep is 0 once made whole.)
+            clipped = np.maximum(target, 0.0)
+            np.minimum(clipped, self.total[:, None], out=clipped)
+            wanted = np.ceil(clipped, out=clipped).astype(self._integer.dtype)
             if self._running is not None:
-                flat = np.searchsorted(self._running.ravel(), wanted + self._start[:, None], side="left")
+                wanted += self._start[:, None]
+                flat = np.searchsorted(self._running.ravel(), wanted, side="left")
                 # A target of 0 is reached at index 0 (the search would land in the row before).
-                return np.clip(flat - np.arange(rows)[:, None] * k, 0, k - 1)
+                flat -= self._row_offsets()
+                np.maximum(flat, 0, out=flat)
+                return np.minimum(flat, k - 1, out=flat)
             found = np.stack([np.searchsorted(self._integer[r], wanted[r], side="left") for r in range(rows)])
         else:
             found = np.stack([np.searchsorted(self._cumulative[r], target[r], side="left") for r in range(rows)])
         return np.minimum(found, k - 1)
 
+    def _row_offsets(self) -> np.ndarray:
+        """Each row's first position in the flattened b x k arrays (b x 1)."""
+        offsets = getattr(self, "_offsets", None)
+        if offsets is None:
+            rows, k = self.weights.shape
+            offsets = self._offsets = (np.arange(rows, dtype=np.intp) * k)[:, None]
+        return offsets
+
     def cumulative_at(self, index: np.ndarray) -> np.ndarray:
         if self.whole:
-            found = np.take_along_axis(self._integer, index, axis=1)
+            if self._running is not None and index.ndim == 2 and index.shape[0] == self.weights.shape[0] and (
+                index.size == 0 or (index.min() >= 0 and index.max() < self.weights.shape[1])
+            ):
+                # take_along_axis's values, read from the flattened running sums directly.
+                found = self._running.ravel().take(index + self._row_offsets())
+            else:
+                found = np.take_along_axis(self._integer, index, axis=1)
             return (found.astype(np.int64) - self._start[:, None]).astype(np.float64)
         return np.take_along_axis(self._cumulative, index, axis=1)
 
