@@ -20,8 +20,15 @@ import math
 import msgspec
 import numpy as np
 import pytest
-
-from tailgauge.core import DescribeOptions, IntervalOptions, central_sums, describe, from_array, from_table, resample
+from tailgauge.core import (
+    DescribeOptions,
+    IntervalOptions,
+    central_sums,
+    describe,
+    from_array,
+    from_table,
+    resample,
+)
 from tailgauge.core.describe.order_based import ROBUST_PROBABILITIES
 from tailgauge.core.describe.robust_shape import NORMAL_OCTILE_KURTOSIS
 from tailgauge.core.order_rules import median

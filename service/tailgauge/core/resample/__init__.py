@@ -24,6 +24,7 @@ process's threads); :func:`bootstrap` here runs them.
 
 from __future__ import annotations
 
+import itertools
 import threading
 
 import numpy as np
@@ -108,7 +109,7 @@ def _in_parts(
     scratch: Scratch,
 ) -> dict[str, np.ndarray]:
     """One batch of multinomial resamples drawn in parts of about ``PIPELINE_ROWS``, each part's
-    order statistics read as soon as it is drawn, then the rest of the batch's statistics read
+    order statistics (the medcouple too) read as soon as it is drawn, then the rest of the batch's statistics read
     from the whole batch, as :func:`draw` and ``Statistics.evaluate`` would (the generator draws
     row after row, and the order statistics are per row): the same values, bit for bit."""
     k = plan.values.size
@@ -116,12 +117,12 @@ def _in_parts(
     ordered: dict[str, np.ndarray] = {}
     parts = max(2, round(size / PIPELINE_ROWS))
     edges = [size * i // parts for i in range(parts + 1)]
-    for start, stop in zip(edges[:-1], edges[1:]):
+    for start, stop in itertools.pairwise(edges):
         deadline_check(deadline)
         part = counts[start:stop]
         part[:] = multinomial_counts(plan, rng, stop - start)
         view = Rows(part.astype(np.float64), None, True, part, plan.draws, scratch)
-        for name, values in statistics.order_statistics(view, probabilities, wanted).items():
+        for name, values in statistics.order_statistics(view, probabilities, wanted, with_medcouple=True).items():
             if name not in ordered:
                 ordered[name] = np.empty(size, dtype=values.dtype)
             ordered[name][start:stop] = values

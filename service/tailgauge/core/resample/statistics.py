@@ -156,9 +156,12 @@ class Statistics:
             del part
         return result
 
-    def order_statistics(self, view, probabilities: np.ndarray, names: tuple[str, ...]) -> dict[str, np.ndarray]:
+    def order_statistics(
+        self, view, probabilities: np.ndarray, names: tuple[str, ...], with_medcouple: bool = False
+    ) -> dict[str, np.ndarray]:
         """The statistics of ``evaluate`` read from each row's order alone (the median, the MADs,
-        the quantiles, the interquartile range and the quantile-based shape), in its order.
+        the quantiles, the interquartile range and the quantile-based shape, and with
+        ``with_medcouple`` the medcouple when asked for), in its order.
 
         Every one of them is per row and searches integer or cumulative weights, so rows taken
         a few at a time give the same values as the batch taken at once (the bootstrap reads
@@ -186,7 +189,14 @@ class Statistics:
         out["interquartile_range"] = q3 - q1
         for i in range(probabilities.size):
             out[f"quantile:{i}"] = requested[:, i]
+        if with_medcouple and "medcouple" in names:
+            out["medcouple"] = self.medcouples(view, median)
         return out
+
+    def medcouples(self, view, median: np.ndarray) -> np.ndarray:
+        return medcouple_rows.medcouples(
+            view, self.plan.values, median, self.whole_weights, EVALUATION_PART_BYTES, self.medcouple_kernels
+        )
 
     def _evaluate(
         self, view, probabilities: np.ndarray, names: tuple[str, ...], ordered: dict[str, np.ndarray] | None = None
@@ -236,7 +246,8 @@ class Statistics:
             out["skewness"] = skew
             out["excess_kurtosis"] = kurt
             out["kurtosis"] = kurt + 3.0
-        out.update(self.order_statistics(view, probabilities, names) if ordered is None else ordered)
+        given = self.order_statistics(view, probabilities, names) if ordered is None else ordered
+        out.update((name, values) for name, values in given.items() if name != "medcouple")
         median = out["median"]
         if "mean_median_gap" in names:
             with np.errstate(invalid="ignore", divide="ignore", over="ignore"):
@@ -245,9 +256,7 @@ class Statistics:
         if any(name in names for name in L_MOMENTS):
             self._lmoments(out, view)
         if "medcouple" in names:
-            out["medcouple"] = medcouple_rows.medcouples(
-                view, plan.values, median, self.whole_weights, EVALUATION_PART_BYTES, self.medcouple_kernels
-            )
+            out["medcouple"] = given["medcouple"] if "medcouple" in given else self.medcouples(view, median)
         return out
 
     def _quantile_shape(self, out: dict[str, np.ndarray], found: np.ndarray) -> None:
