@@ -31,6 +31,7 @@ import numpy as np
 
 from tailgauge.core.moments import CentralSums
 from tailgauge.core.registry import TOO_COSTLY
+from tailgauge.core.resample import medcouple_rows
 from tailgauge.core.resample.budget import (
     EVALUATION_PART_BYTES,
     SUBSET_EXPONENT,
@@ -110,12 +111,16 @@ def _in_parts(
     scratch: Scratch,
 ) -> dict[str, np.ndarray]:
     """One batch of multinomial resamples drawn in parts of about ``PIPELINE_ROWS``, each part's
-    order statistics (the medcouple too) read as soon as it is drawn, then the rest of the batch's statistics read
-    from the whole batch, as :func:`draw` and ``Statistics.evaluate`` would (the generator draws
-    row after row, and the order statistics are per row): the same values, bit for bit."""
+    order statistics (and the medcouple of its rows that share a common median) read as soon as
+    it is drawn, then the rest of the batch's statistics read from the whole batch, as
+    :func:`draw` and ``Statistics.evaluate`` would (the generator draws row after row, and the
+    order statistics are per row): the same values, bit for bit."""
     k = plan.values.size
     counts = np.empty((size, k), dtype=np.int64)
     ordered: dict[str, np.ndarray] = {}
+    medcouple = later = None
+    if "medcouple" in wanted:
+        medcouple, later = np.full(size, np.nan), np.zeros(size, dtype=bool)
     parts = max(2, round(size / PIPELINE_ROWS))
     edges = [size * i // parts for i in range(parts + 1)]
     for start, stop in itertools.pairwise(edges):
@@ -123,13 +128,31 @@ def _in_parts(
         part = counts[start:stop]
         part[:] = multinomial_counts(plan, rng, stop - start)
         view = Rows(part.astype(np.float64), None, True, part, plan.draws, scratch)
-        for name, values in statistics.order_statistics(view, probabilities, wanted, with_medcouple=True).items():
+        for name, values in statistics.order_statistics(view, probabilities, wanted).items():
             if name not in ordered:
                 ordered[name] = np.empty(size, dtype=values.dtype)
             ordered[name][start:stop] = values
+        if medcouple is not None:
+            # Rows sharing their median with many others in this part now (one median's kernels
+            # serve them all); the few rows of rare medians with the whole batch, below.
+            median = ordered["median"][start:stop]
+            now = _in_large_groups(median, 2 * medcouple_rows.PILOT)
+            medcouple[start:stop] = statistics.medcouples(view, np.where(now, median, np.nan))
+            later[start:stop] = ~now & np.isfinite(median)
         del view
     view = Rows(counts.astype(np.float64), plan.powers, True, counts, plan.draws, scratch)
+    if medcouple is not None:
+        if later.any():
+            rest = statistics.medcouples(view, np.where(later, ordered["median"], np.nan))
+            medcouple = np.where(later, rest, medcouple)
+        ordered["medcouple"] = medcouple
     return statistics.evaluate(view, probabilities, wanted, deadline, ordered)
+
+
+def _in_large_groups(medians: np.ndarray, least: int) -> np.ndarray:
+    """Whether each row's (finite) median is shared by more than ``least`` rows."""
+    _, which, sizes = np.unique(medians, return_inverse=True, return_counts=True)
+    return (sizes[which] > least) & np.isfinite(medians)
 
 
 def bootstrap(

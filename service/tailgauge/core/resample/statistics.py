@@ -156,12 +156,9 @@ class Statistics:
             del part
         return result
 
-    def order_statistics(
-        self, view, probabilities: np.ndarray, names: tuple[str, ...], with_medcouple: bool = False
-    ) -> dict[str, np.ndarray]:
+    def order_statistics(self, view, probabilities: np.ndarray, names: tuple[str, ...]) -> dict[str, np.ndarray]:
         """The statistics of ``evaluate`` read from each row's order alone (the median, the MADs,
-        the quantiles, the interquartile range and the quantile-based shape, and with
-        ``with_medcouple`` the medcouple when asked for), in its order.
+        the quantiles, the interquartile range and the quantile-based shape), in its order.
 
         Every one of them is per row and searches integer or cumulative weights, so rows taken
         a few at a time give the same values as the batch taken at once (the bootstrap reads
@@ -189,11 +186,10 @@ class Statistics:
         out["interquartile_range"] = q3 - q1
         for i in range(probabilities.size):
             out[f"quantile:{i}"] = requested[:, i]
-        if with_medcouple and "medcouple" in names:
-            out["medcouple"] = self.medcouples(view, median)
         return out
 
     def medcouples(self, view, median: np.ndarray) -> np.ndarray:
+        """The medcouple of each row about its ``median`` (rows with a NaN median: NaN, no work)."""
         return medcouple_rows.medcouples(
             view, self.plan.values, median, self.whole_weights, EVALUATION_PART_BYTES, self.medcouple_kernels
         )
