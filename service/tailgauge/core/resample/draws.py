@@ -211,7 +211,9 @@ def topped_up_counts(plan: Plan, rng: np.random.Generator, b: int, scratch: Scra
                 rng.bit_generator.random_raw(resolve.size) >> np.uint64(16)
             )
             out[resolve] = np.searchsorted(edges, full, side="right")
-    shortfall = k - counts.sum(axis=1, dtype=np.int64)
+    # Row sums of byte counts in 32 bits (at most 255 k, far below 2**32): exact, and half the
+    # cost of summing them in 64.
+    shortfall = k - counts.sum(axis=1, dtype=np.uint32).astype(np.int64)
     over = np.flatnonzero(shortfall < 0)
     for row in over:
         direct = np.bincount(rng.integers(0, k, size=k), minlength=k)
@@ -224,7 +226,7 @@ def topped_up_counts(plan: Plan, rng: np.random.Generator, b: int, scratch: Scra
     np.add.at(flat, cells, np.uint8(1))
     # A value given more than about 235 of its row's uniform draws would wrap its byte, losing a
     # multiple of 256 from the row's total: never seen (the caller then draws directly).
-    if np.any(counts.sum(axis=1, dtype=np.int64) != k):
+    if np.any(counts.sum(axis=1, dtype=np.uint32) != k):
         return None
     return counts
 
