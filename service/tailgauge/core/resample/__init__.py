@@ -24,12 +24,14 @@ process's threads); :func:`bootstrap` here runs them.
 
 from __future__ import annotations
 
+import itertools
 import threading
 
 import numpy as np
 
 from tailgauge.core.moments import CentralSums
 from tailgauge.core.registry import TOO_COSTLY
+from tailgauge.core.resample import medcouple_rows
 from tailgauge.core.resample.budget import (
     EVALUATION_PART_BYTES,
     SUBSET_EXPONENT,
@@ -43,7 +45,15 @@ from tailgauge.core.resample.budget import (
     uses_subsets,
     work_of,
 )
-from tailgauge.core.resample.draws import batches, draw, plan_of
+from tailgauge.core.resample.draws import (
+    PIPELINE_ROWS,
+    Plan,
+    batches,
+    by_multinomial,
+    draw,
+    multinomial_counts,
+    plan_of,
+)
 from tailgauge.core.resample.intervals import (
     FEW_DISTINCT,
     INTERVAL_DESCRIPTORS,
@@ -82,6 +92,67 @@ __all__ = [
     "interval_from_replicates",
     "resampling_work",
 ]
+
+
+# Bytes of leave-one-out values (support rows x statistics) up to which the jackknife is computed
+# while the batches run (bootstrap): a sample of 10,000 distinct values with the default
+# probabilities takes 4.6 MB.
+EARLY_JACKKNIFE_BYTES = 8 << 20
+
+
+def _in_parts(
+    plan: Plan,
+    statistics: Statistics,
+    rng: np.random.Generator,
+    size: int,
+    probabilities: np.ndarray,
+    wanted: tuple[str, ...],
+    deadline: float | None,
+    scratch: Scratch,
+) -> dict[str, np.ndarray]:
+    """One batch of multinomial resamples drawn in parts of about ``PIPELINE_ROWS``, each part's
+    order statistics (and the medcouple of its rows that share a common median) read as soon as
+    it is drawn, then the rest of the batch's statistics read from the whole batch, as
+    :func:`draw` and ``Statistics.evaluate`` would (the generator draws row after row, and the
+    order statistics are per row): the same values, bit for bit."""
+    k = plan.values.size
+    counts = np.empty((size, k), dtype=np.int64)
+    ordered: dict[str, np.ndarray] = {}
+    medcouple = later = None
+    if "medcouple" in wanted:
+        medcouple, later = np.full(size, np.nan), np.zeros(size, dtype=bool)
+    parts = max(2, round(size / PIPELINE_ROWS))
+    edges = [size * i // parts for i in range(parts + 1)]
+    for start, stop in itertools.pairwise(edges):
+        deadline_check(deadline)
+        part = counts[start:stop]
+        part[:] = multinomial_counts(plan, rng, stop - start)
+        view = Rows(part.astype(np.float64), None, True, part, plan.draws, scratch)
+        for name, values in statistics.order_statistics(view, probabilities, wanted).items():
+            if name not in ordered:
+                ordered[name] = np.empty(size, dtype=values.dtype)
+            ordered[name][start:stop] = values
+        if medcouple is not None:
+            # Rows sharing their median with many others in this part now (one median's kernels
+            # serve them all); the few rows of rare medians with the whole batch, below.
+            median = ordered["median"][start:stop]
+            now = _in_large_groups(median, 2 * medcouple_rows.PILOT)
+            medcouple[start:stop] = statistics.medcouples(view, np.where(now, median, np.nan))
+            later[start:stop] = ~now & np.isfinite(median)
+        del view
+    view = Rows(counts.astype(np.float64), plan.powers, True, counts, plan.draws, scratch)
+    if medcouple is not None:
+        if later.any():
+            rest = statistics.medcouples(view, np.where(later, ordered["median"], np.nan))
+            medcouple = np.where(later, rest, medcouple)
+        ordered["medcouple"] = medcouple
+    return statistics.evaluate(view, probabilities, wanted, deadline, ordered)
+
+
+def _in_large_groups(medians: np.ndarray, least: int) -> np.ndarray:
+    """Whether each row's (finite) median is shared by more than ``least`` rows."""
+    _, which, sizes = np.unique(medians, return_inverse=True, return_counts=True)
+    return (sizes[which] > least) & np.isfinite(medians)
 
 
 def bootstrap(
@@ -134,6 +205,15 @@ def bootstrap(
     wanted = statistics.wanted(estimates)
 
     own = threading.local()
+    planned = batches(plan, options.seed, options.resamples)
+    parallel = threads > 1 and len(planned) > 1
+    # On several threads, multinomial batches are drawn a part at a time and each part's order
+    # statistics read while the next is drawn (see PIPELINE_ROWS); the values are the same.
+    # Not when evaluate would take fewer rows at a time to bound its working memory (many
+    # probabilities): a part's order statistics would then take more.
+    in_parts = (
+        parallel and by_multinomial(plan) and statistics.part_rows(None, probabilities.size) >= PIPELINE_ROWS
+    )
 
     def run(batch: tuple[np.random.Generator, int]) -> dict[str, np.ndarray]:
         deadline_check(deadline)
@@ -143,21 +223,42 @@ def bootstrap(
         # and reported as undefined below, so the floating-point flags carry no news. (errstate
         # is per thread: it must be set here, in the worker.)
         with np.errstate(all="ignore"):
-            weights, counts = draw(plan, *batch, own.scratch)
+            rng, size = batch
+            if in_parts and size >= 2 * PIPELINE_ROWS:
+                return _in_parts(plan, statistics, rng, size, probabilities, wanted, deadline, own.scratch)
+            weights, counts = draw(plan, rng, size, own.scratch)
             if plan.integer:
                 view = Rows(weights, plan.powers, True, counts, plan.draws, own.scratch)
             else:
                 view = Rows(weights, plan.powers, False)
             return statistics.evaluate(view, probabilities, wanted, deadline)
 
+    def leave_one_out() -> tuple[dict[str, np.ndarray], np.ndarray]:
+        present = plan.base > 0
+        removed = np.where(present, plan.unit, 0.0)
+        # A row whose removal leaves a total that rounds to 0 (weights 1e17 and 0.5), or power
+        # sums that overflow (weights near 1.8e308), has no finite leave-one-out value, which
+        # makes BCa fall back with its reason.
+        with np.errstate(all="ignore"):
+            view = LeaveOneOut(plan.base, removed, plan.powers)
+            values = statistics.evaluate(view, probabilities, wanted, deadline)
+        # Each row stands for its observations: row i's leave-one-out value counts base/unit times.
+        return values, np.where(present, plan.base / plan.unit, 0.0)
+
+    jackknife = jackknife_weights = None
+    # A small jackknife is computed by this thread while the batches run: its values (one per
+    # support row and statistic) within EARLY_JACKKNIFE_BYTES, its working memory bounded by
+    # evaluate's parts. A large one runs after the batches, once their buffers are gone.
+    early = options.method == "bca" and parallel and k * (probabilities.size + 48) * 8 <= EARLY_JACKKNIFE_BYTES
     # numpy releases the GIL in the heavy loops, so batches overlap on the cores; each batch has
     # its own generator, so the result does not depend on which thread ran it.
-    planned = batches(plan, options.seed, options.resamples)
-    if threads <= 1 or len(planned) == 1:
+    if not parallel:
         outputs = [run(batch) for batch in planned]
     else:
         futures = [pool(threads).submit(run, batch) for batch in planned]
         try:
+            if early:
+                jackknife, jackknife_weights = leave_one_out()
             outputs = [future.result() for future in futures]
         finally:
             for future in futures:  # after an error (a passed deadline), drop the batches not started
@@ -166,18 +267,8 @@ def bootstrap(
     # The threads' scratch buffers (a batch's draws each) go before the jackknife runs.
     del own, outputs
 
-    jackknife = jackknife_weights = None
-    if options.method == "bca":
-        present = plan.base > 0
-        removed = np.where(present, plan.unit, 0.0)
-        # A row whose removal leaves a total that rounds to 0 (weights 1e17 and 0.5), or power
-        # sums that overflow (weights near 1.8e308), has no finite leave-one-out value, which
-        # makes BCa fall back with its reason.
-        with np.errstate(all="ignore"):
-            view = LeaveOneOut(plan.base, removed, plan.powers)
-            jackknife = statistics.evaluate(view, probabilities, wanted, deadline)
-        # Each row stands for its observations: row i's leave-one-out value counts base/unit times.
-        jackknife_weights = np.where(present, plan.base / plan.unit, 0.0)
+    if options.method == "bca" and not early:
+        jackknife, jackknife_weights = leave_one_out()
     results: dict[str, BootstrapResult] = {}
     for name in wanted:
         estimate = estimates[name]

@@ -28,6 +28,11 @@ BATCH_ELEMENTS = BATCH_BYTES // 32
 TOPPED_UP_BATCH_ELEMENTS = BATCH_BYTES // 19
 # Resamples of at least this many draws are counted row by row (cheaper than one flat count).
 _ROW_BY_ROW_DRAWS = 2048
+# Multinomial batches of at least twice this many resamples are drawn this many at a time when
+# the bootstrap runs on several threads, each part's order statistics read while the rest is
+# drawn (bootstrap's run): the generator runs without the interpreter's lock, the reading
+# mostly with it, so one thread reads while the other draws.
+PIPELINE_ROWS = 1250
 # Raw samples of at least this many distinct values get Poisson counts topped up to n
 # (topped_up_counts), whose expected shortfall is this many standard deviations.
 POISSON_DRAWS = 2048
@@ -206,7 +211,9 @@ def topped_up_counts(plan: Plan, rng: np.random.Generator, b: int, scratch: Scra
                 rng.bit_generator.random_raw(resolve.size) >> np.uint64(16)
             )
             out[resolve] = np.searchsorted(edges, full, side="right")
-    shortfall = k - counts.sum(axis=1, dtype=np.int64)
+    # Row sums of byte counts in 32 bits (at most 255 k, far below 2**32): exact, and half the
+    # cost of summing them in 64.
+    shortfall = k - counts.sum(axis=1, dtype=np.uint32).astype(np.int64)
     over = np.flatnonzero(shortfall < 0)
     for row in over:
         direct = np.bincount(rng.integers(0, k, size=k), minlength=k)
@@ -219,9 +226,23 @@ def topped_up_counts(plan: Plan, rng: np.random.Generator, b: int, scratch: Scra
     np.add.at(flat, cells, np.uint8(1))
     # A value given more than about 235 of its row's uniform draws would wrap its byte, losing a
     # multiple of 256 from the row's total: never seen (the caller then draws directly).
-    if np.any(counts.sum(axis=1, dtype=np.int64) != k):
+    if np.any(counts.sum(axis=1, dtype=np.uint32) != k):
         return None
     return counts
+
+
+def by_multinomial(plan: Plan) -> bool:
+    """Whether :func:`draw` draws multinomial counts with the generator's own multinomial
+    (many draws per support row)."""
+    return plan.multinomial and plan.draws > 8 * plan.values.size
+
+
+def multinomial_counts(plan: Plan, rng: np.random.Generator, rows: int) -> np.ndarray:
+    """``rows`` resamples' multinomial counts (rows x k, 64-bit), when :func:`by_multinomial`.
+    The generator draws row after row, so a batch drawn a few rows at a time gets the same
+    counts as drawn at once."""
+    probabilities = plan.base / float(np.sum(plan.base))
+    return rng.multinomial(plan.draws, probabilities, size=rows)
 
 
 def draw(
@@ -234,9 +255,8 @@ def draw(
     get 0 or 1).
     """
     k = plan.values.size
-    if plan.multinomial and plan.draws > 8 * k:
-        probabilities = plan.base / float(np.sum(plan.base))
-        counts = rng.multinomial(plan.draws, probabilities, size=b)
+    if by_multinomial(plan):
+        counts = multinomial_counts(plan, rng, b)
         return counts.astype(np.float64), counts
     if plan.poisson_edges is not None:
         scratch = Scratch() if scratch is None else scratch

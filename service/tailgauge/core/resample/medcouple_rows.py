@@ -20,6 +20,7 @@ when the support is small enough (``budget.medcouple_left_out``).
 from __future__ import annotations
 
 import math
+import threading
 
 import numpy as np
 
@@ -35,13 +36,44 @@ PILOT = 16
 WINDOW = 128
 
 
+# Bytes of kernel tables a KernelCache keeps (a table per median is (k^2/4 + 1) x k/2 32-bit
+# entries: 31 KB at k = 50, up to 8 MB near the budget's largest k).
+CACHE_BYTES = 16 << 20
+
+
+class KernelCache:
+    """Each median's sorted kernels over one support, kept while they fit in ``limit`` bytes:
+    a bootstrap's batches and its jackknife share most medians. Threads may share it."""
+
+    def __init__(self, limit: int = CACHE_BYTES) -> None:
+        self.limit = limit
+        self._kept: dict[float, _Kernels] = {}
+        self._bytes = 0
+        self._lock = threading.Lock()
+
+    def get(self, median: float) -> _Kernels | None:
+        return self._kept.get(median)
+
+    def keep(self, median: float, kernels: _Kernels) -> None:
+        size = kernels.nbytes
+        with self._lock:
+            if median not in self._kept and self._bytes + size <= self.limit:
+                self._kept[median] = kernels
+                self._bytes += size
+
+
 class _Kernels:
     """The kernel values of one median's pairs, sorted, with the bounds table."""
 
     def __init__(self, z: np.ndarray) -> None:
+        # z increases along the sorted support: the lower values, the ties and the upper values
+        # are three runs of positions, taken as slices (a copy of a slice is cheaper than a gather).
         self.upper = np.flatnonzero(z > 0.0)
         self.lower = np.flatnonzero(z < 0.0)
         self.ties = np.flatnonzero(z == 0.0)
+        self.upper_run = slice(self.lower.size + self.ties.size, z.size)
+        self.lower_run = slice(0, self.lower.size)
+        self.ties_run = slice(self.lower.size, self.lower.size + self.ties.size)
         u, l = z[self.upper], z[self.lower]
         kernel = (u[:, None] + l[None, :]) / (u[:, None] - l[None, :])
         pairs = kernel.size
@@ -61,18 +93,22 @@ class _Kernels:
         self.is_zero = ~from_pair
         self.pair_upper = np.where(from_pair, order // max(self.lower.size, 1), 0)
         self.pair_lower = np.where(from_pair, order % max(self.lower.size, 1), 0)
+        self.nbytes = sum(
+            a.nbytes for a in (self.candidates, self.bounds, self.nonnegative, self.is_zero, self.pair_upper, self.pair_lower)
+        )
 
     def medcouples(self, weights: np.ndarray, whole: bool) -> np.ndarray:
         """The medcouple of each row of ``weights`` (rows x support), NaN where undefined."""
         if not whole:
             # Only ratios of pair weights matter: each row scaled by its largest weight.
             weights = weights / np.max(weights, axis=1, keepdims=True)
-        upper_w = weights[:, self.upper]
+        # (Contiguous copies, laid out as gathers of those positions would be.)
+        upper_w = np.ascontiguousarray(weights[:, self.upper_run])
         # Lower values by rows (lower values x rows), as the window's candidates below.
-        lower_w = np.ascontiguousarray(weights[:, self.lower].T)
+        lower_w = np.ascontiguousarray(weights[:, self.lower_run].T)
         lower_cumulative = np.zeros((self.lower.size + 1, weights.shape[0]))
         np.cumsum(lower_w, axis=0, out=lower_cumulative[1:])
-        ties = weights[:, self.ties].sum(axis=1)
+        ties = np.ascontiguousarray(weights[:, self.ties_run]).sum(axis=1)
         total_lower, total_upper = lower_cumulative[-1], upper_w.sum(axis=1)
         total = (total_upper + ties) * (total_lower + ties)
         if whole:
@@ -119,7 +155,7 @@ class _Kernels:
         high = int(np.searchsorted(self.candidates, self.candidates[high], side="right")) - 1
         if high - low + 1 > min(WINDOW, 2 * (self.upper.size + self.lower.size)):
             return _bisect_both(ranks, counted, np.arange(rows), last)
-        before = counted.at(np.full(rows, low - 1)) if low > 0 else counted.minus_ones
+        before = counted.at_one(low - 1) if low > 0 else counted.minus_ones
         window = slice(low, high + 1)
         # Candidates by rows (window x rows): gathers of whole rows, then running sums down them.
         zero = self.is_zero[window]
@@ -189,6 +225,13 @@ class _Counts:
         reached = self.minus_ones + np.where(self.kernels.nonnegative[position], self.tie_zeros, 0.0)
         return reached + np.einsum("rj,rj->r", self.upper_w, below)
 
+    def at_one(self, position: int) -> np.ndarray:
+        """:meth:`at` with the same ``position`` for every row: its bounds pick whole rows of the
+        cumulative lower weights (no gather per element), summed as :meth:`at` sums them."""
+        below = np.ascontiguousarray(self.lower_cumulative[self.kernels.bounds[position]].T)
+        reached = self.minus_ones + (self.tie_zeros if self.kernels.nonnegative[position] else 0.0)
+        return reached + np.einsum("rj,rj->r", self.upper_w, below)
+
     def rows(self, rows: np.ndarray | slice) -> _Counts:
         return _Counts(
             self.kernels, self.minus_ones[rows], self.tie_zeros[rows], self.upper_w[rows],
@@ -196,11 +239,19 @@ class _Counts:
         )
 
 
-def medcouples(view, values: np.ndarray, medians: np.ndarray, whole: bool, part_bytes: int) -> np.ndarray:
+def medcouples(
+    view,
+    values: np.ndarray,
+    medians: np.ndarray,
+    whole: bool,
+    part_bytes: int,
+    cache: KernelCache | None = None,
+) -> np.ndarray:
     """The medcouple of each row of ``view`` over the sorted support ``values``, about each
     row's own ``medians`` (NaN where undefined), taking at most ``part_bytes`` of dense rows at
     a time. ``whole``: the data are whole counts (as robust.medcouple decides for the data),
-    so the ties at the median are counted as observations."""
+    so the ties at the median are counted as observations. ``cache``: the medians' kernels
+    kept across calls over the same ``values`` (the same kernels as built afresh)."""
     out = np.full(view.count, np.nan)
     # The kernel is scale-free: scale by a power of two first so no difference overflows.
     largest = float(np.max(np.abs(values)))
@@ -213,7 +264,11 @@ def medcouples(view, values: np.ndarray, medians: np.ndarray, whole: bool, part_
         if not math.isfinite(median):
             continue
         members = np.flatnonzero(which == group)
-        kernels = _Kernels(scaled - math.ldexp(median, exponent))
+        kernels = None if cache is None else cache.get(median)
+        if kernels is None:
+            kernels = _Kernels(scaled - math.ldexp(median, exponent))
+            if cache is not None:
+                cache.keep(median, kernels)
         for start in range(0, members.size, per_part):
             rows = members[start : start + per_part]
             out[rows] = kernels.medcouples(view.dense_weights(rows), whole)

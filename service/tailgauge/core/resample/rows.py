@@ -62,8 +62,10 @@ class Rows:
             self.sums = weights @ powers
         rows, k = weights.shape
         self._running = None
+        self._counts, self._row_total = None, row_total
         if whole:
             counts = weights.astype(np.int64) if counts is None else counts
+            self._counts = counts
             totals = counts.sum(axis=1, dtype=np.int64) if row_total is None else np.full(rows, row_total, np.int64)
             self.total = totals.astype(np.float64)
             grand = float(np.sum(self.total))
@@ -102,19 +104,40 @@ class Rows:
         rows, k = self.weights.shape
         if self.whole:
             # Integer cumulative counts reach a target exactly when they reach its ceiling.
-            wanted = np.ceil(np.clip(target, 0.0, self.total[:, None])).astype(self._integer.dtype)
+            # (Clipped with maximum and minimum: np.clip's wrapper costs more than the work on
+            # a batch's few targets; a -0.0 they keep is 0 once made whole.)
+            clipped = np.maximum(target, 0.0)
+            np.minimum(clipped, self.total[:, None], out=clipped)
+            wanted = np.ceil(clipped, out=clipped).astype(self._integer.dtype)
             if self._running is not None:
-                flat = np.searchsorted(self._running.ravel(), wanted + self._start[:, None], side="left")
+                wanted += self._start[:, None]
+                flat = np.searchsorted(self._running.ravel(), wanted, side="left")
                 # A target of 0 is reached at index 0 (the search would land in the row before).
-                return np.clip(flat - np.arange(rows)[:, None] * k, 0, k - 1)
+                flat -= self._row_offsets()
+                np.maximum(flat, 0, out=flat)
+                return np.minimum(flat, k - 1, out=flat)
             found = np.stack([np.searchsorted(self._integer[r], wanted[r], side="left") for r in range(rows)])
         else:
             found = np.stack([np.searchsorted(self._cumulative[r], target[r], side="left") for r in range(rows)])
         return np.minimum(found, k - 1)
 
+    def _row_offsets(self) -> np.ndarray:
+        """Each row's first position in the flattened b x k arrays (b x 1)."""
+        offsets = getattr(self, "_offsets", None)
+        if offsets is None:
+            rows, k = self.weights.shape
+            offsets = self._offsets = (np.arange(rows, dtype=np.intp) * k)[:, None]
+        return offsets
+
     def cumulative_at(self, index: np.ndarray) -> np.ndarray:
         if self.whole:
-            found = np.take_along_axis(self._integer, index, axis=1)
+            if self._running is not None and index.ndim == 2 and index.shape[0] == self.weights.shape[0] and (
+                index.size == 0 or (index.min() >= 0 and index.max() < self.weights.shape[1])
+            ):
+                # take_along_axis's values, read from the flattened running sums directly.
+                found = self._running.ravel().take(index + self._row_offsets())
+            else:
+                found = np.take_along_axis(self._integer, index, axis=1)
             return (found.astype(np.int64) - self._start[:, None]).astype(np.float64)
         return np.take_along_axis(self._cumulative, index, axis=1)
 
@@ -135,8 +158,15 @@ class Rows:
         return self.weights[rows]
 
     def reordered(self, rows: np.ndarray, order: np.ndarray) -> Rows:
-        """The given rows with the support permuted into ``order`` (for sorted deviations)."""
-        return Rows(self.weights[np.ix_(rows, order)], None, self.whole)
+        """The given rows with the support permuted into ``order`` (for sorted deviations).
+
+        Whole counts are taken from the integer counts (no conversion back from the weights),
+        with the rows' common total when they share one; whole rows first, then the columns
+        (two gathers along one axis each cost less than one over both)."""
+        if self._counts is not None:
+            counts = _take_rows(self._counts, rows).take(order, axis=1)
+            return Rows(counts.astype(np.float64), None, True, counts, self._row_total)
+        return Rows(_take_rows(self.weights, rows).take(order, axis=1), None, self.whole)
 
     def rows(self, part: slice) -> Rows:
         """A view of the rows in ``part`` (a slice), sharing this view's arrays.
@@ -147,6 +177,8 @@ class Rows:
         """
         view = object.__new__(Rows)
         view.weights, view.whole, view.total = self.weights[part], self.whole, self.total[part]
+        view._counts = None if self._counts is None else self._counts[part]
+        view._row_total = self._row_total
         if hasattr(self, "sums"):
             view.sums = self.sums[part]
         view._running = None if self._running is None else self._running[part]
@@ -159,6 +191,13 @@ class Rows:
     @property
     def count(self) -> int:
         return self.weights.shape[0]
+
+
+def _take_rows(array: np.ndarray, rows: np.ndarray) -> np.ndarray:
+    """The given rows of ``array``; a view when they are consecutive and increasing."""
+    if rows.size and rows[-1] - rows[0] == rows.size - 1 and np.all(rows[1:] > rows[:-1]):
+        return array[rows[0] : rows[-1] + 1]
+    return array.take(rows, axis=0)
 
 
 class LeaveOneOut:

@@ -66,6 +66,9 @@ class Statistics:
         self.skewness_family, self.kurtosis_family = families
         self.quantile_type = quantile_type
         self.factor_rule = factor_rule  # a tailgauge.core.moments.VarianceRule
+        # Each median's sorted medcouple kernels over this plan's support, shared by the batches
+        # and the jackknife (medcouple_rows.medcouples).
+        self.medcouple_kernels = medcouple_rows.KernelCache()
 
     def wanted(self, estimates: dict[str, float | None]) -> tuple[str, ...]:
         """The descriptors to resample: those the engine resamples whose estimate is defined and
@@ -113,34 +116,87 @@ class Statistics:
         return max(1, EVALUATION_PART_BYTES // row)
 
     def evaluate(
-        self, view, probabilities: np.ndarray, names: tuple[str, ...], deadline: float | None = None
+        self,
+        view,
+        probabilities: np.ndarray,
+        names: tuple[str, ...],
+        deadline: float | None = None,
+        ordered: dict[str, np.ndarray] | None = None,
     ) -> dict[str, np.ndarray]:
         """Every requested statistic for each row of ``view``; ``quantile:i`` for probabilities[i].
 
         Rows are taken a part at a time (``part_rows``), so the working memory of order
         statistics (rows x probabilities, and rows x bins for binned data) stays bounded
         whatever the batch; every statistic is per row, so parts change no value. The wall
-        clock is checked before each part.
+        clock is checked before each part. ``ordered``: the rows' ``order_statistics``, when
+        they were read beforehand (they are then taken as they are).
         """
         rows = view.count
         per_part = self.part_rows(view, probabilities.size)
         if rows <= per_part:
             deadline_check(deadline)
-            return self._evaluate(view, probabilities, names)
+            return self._evaluate(view, probabilities, names, ordered)
         # Each part's values are copied into arrays of all rows at once: no list of parts is
         # held beside their concatenation.
         result: dict[str, np.ndarray] = {}
         for start in range(0, rows, per_part):
             deadline_check(deadline)
-            part = self._evaluate(view.rows(slice(start, start + per_part)), probabilities, names)
+            span = slice(start, start + per_part)
+            part = self._evaluate(
+                view.rows(span), probabilities, names,
+                None if ordered is None else {name: values[span] for name, values in ordered.items()},
+            )
             for name, values in part.items():
+                if ordered is not None and name in ordered:
+                    result[name] = ordered[name]  # already every row's (no second copy)
+                    continue
                 if name not in result:
                     result[name] = np.empty(rows, dtype=values.dtype)
                 result[name][start : start + values.size] = values
             del part
         return result
 
-    def _evaluate(self, view, probabilities: np.ndarray, names: tuple[str, ...]) -> dict[str, np.ndarray]:
+    def order_statistics(self, view, probabilities: np.ndarray, names: tuple[str, ...]) -> dict[str, np.ndarray]:
+        """The statistics of ``evaluate`` read from each row's order alone (the median, the MADs,
+        the quantiles, the interquartile range and the quantile-based shape), in its order.
+
+        Every one of them is per row and searches integer or cumulative weights, so rows taken
+        a few at a time give the same values as the batch taken at once (the bootstrap reads
+        them from parts of a batch while the rest of it is being drawn)."""
+        out: dict[str, np.ndarray] = {}
+        median = self.median(view)
+        out["median"] = median
+        if "median_absolute_deviation" in names or "median_absolute_deviation_normal" in names:
+            mad = self.mad(view, median)
+            out["median_absolute_deviation"] = mad
+            out["median_absolute_deviation_normal"] = mad * NORMAL_MAD_FACTOR
+        shaped = self.quantile_shape is not None and any(name in names for name in QUANTILE_SHAPE)
+        if shaped:
+            assert self.quantile_shape is not None
+            # Each distinct probability is looked up once (the defaults share the quartiles and median).
+            distinct, where = np.unique(
+                np.concatenate((self.quantile_shape.probabilities, probabilities)), return_inverse=True
+            )
+            found = self.quantiles(view, distinct)[:, where]
+            self._quantile_shape(out, found[:, :9])
+            q1, q3, requested = found[:, 0], found[:, 2], found[:, 9:]
+        else:
+            found = self.quantiles(view, np.concatenate(([0.25, 0.75], probabilities)))
+            q1, q3, requested = found[:, 0], found[:, 1], found[:, 2:]
+        out["interquartile_range"] = q3 - q1
+        for i in range(probabilities.size):
+            out[f"quantile:{i}"] = requested[:, i]
+        return out
+
+    def medcouples(self, view, median: np.ndarray) -> np.ndarray:
+        """The medcouple of each row about its ``median`` (rows with a NaN median: NaN, no work)."""
+        return medcouple_rows.medcouples(
+            view, self.plan.values, median, self.whole_weights, EVALUATION_PART_BYTES, self.medcouple_kernels
+        )
+
+    def _evaluate(
+        self, view, probabilities: np.ndarray, names: tuple[str, ...], ordered: dict[str, np.ndarray] | None = None
+    ) -> dict[str, np.ndarray]:
         plan = self.plan
         sums = view.sums
         weight = sums[:, 0]
@@ -186,28 +242,9 @@ class Statistics:
             out["skewness"] = skew
             out["excess_kurtosis"] = kurt
             out["kurtosis"] = kurt + 3.0
-        median = self.median(view)
-        out["median"] = median
-        if "median_absolute_deviation" in names or "median_absolute_deviation_normal" in names:
-            mad = self.mad(view, median)
-            out["median_absolute_deviation"] = mad
-            out["median_absolute_deviation_normal"] = mad * NORMAL_MAD_FACTOR
-        shaped = self.quantile_shape is not None and any(name in names for name in QUANTILE_SHAPE)
-        if shaped:
-            assert self.quantile_shape is not None
-            # Each distinct probability is looked up once (the defaults share the quartiles and median).
-            distinct, where = np.unique(
-                np.concatenate((self.quantile_shape.probabilities, probabilities)), return_inverse=True
-            )
-            found = self.quantiles(view, distinct)[:, where]
-            self._quantile_shape(out, found[:, :9])
-            q1, q3, requested = found[:, 0], found[:, 2], found[:, 9:]
-        else:
-            found = self.quantiles(view, np.concatenate(([0.25, 0.75], probabilities)))
-            q1, q3, requested = found[:, 0], found[:, 1], found[:, 2:]
-        out["interquartile_range"] = q3 - q1
-        for i in range(probabilities.size):
-            out[f"quantile:{i}"] = requested[:, i]
+        given = self.order_statistics(view, probabilities, names) if ordered is None else ordered
+        out.update((name, values) for name, values in given.items() if name != "medcouple")
+        median = out["median"]
         if "mean_median_gap" in names:
             with np.errstate(invalid="ignore", divide="ignore", over="ignore"):
                 # As describe: halves first, so values near float64's limit do not overflow.
@@ -215,9 +252,7 @@ class Statistics:
         if any(name in names for name in L_MOMENTS):
             self._lmoments(out, view)
         if "medcouple" in names:
-            out["medcouple"] = medcouple_rows.medcouples(
-                view, plan.values, median, self.whole_weights, EVALUATION_PART_BYTES
-            )
+            out["medcouple"] = given["medcouple"] if "medcouple" in given else self.medcouples(view, median)
         return out
 
     def _quantile_shape(self, out: dict[str, np.ndarray], found: np.ndarray) -> None:
