@@ -25,13 +25,14 @@ from tailgauge.core.order_rules import middle_ranks, whole_counts
 _ENUMERATED = 1 << 20
 # Up to this many pairs (values above the median times values below it) every pair is formed
 # at once; above it the threshold search costs less than forming them (measured crossover).
-_DIRECT_PAIRS = 1 << 12
+_DIRECT_PAIRS = 1 << 13
 # Rows of the kernel counted exactly when estimating how many kernel values lie at or below a
 # threshold; with more rows the count is interpolated between these.
 _GRID_ROWS = 1 << 16
 MARGIN_SCALE = 1.0
 # Keys per binary-search call when counting at a threshold exactly (small sorted slices).
 _CHUNK = 4096
+_FEW = 1 << 10
 
 
 def medcouple(values: np.ndarray, weights: np.ndarray | None, median: float) -> float:
@@ -55,9 +56,11 @@ def medcouple(values: np.ndarray, weights: np.ndarray | None, median: float) -> 
     exponent = -math.frexp(largest)[1] if largest > 0.0 else 0
     z = _scaled(values, exponent)
     np.subtract(z, math.ldexp(median, exponent), out=z)
-    below_end = int(np.searchsorted(z, 0.0, side="left"))  # z ascends: lower | ties | upper
-    above_start = int(np.searchsorted(z, 0.0, side="right"))
+    below_end = int(z.searchsorted(0.0, side="left"))  # z ascends: lower | ties | upper
+    above_start = int(z.searchsorted(0.0, side="right"))
     lower, upper = z[:below_end], z[above_start:]
+    if weights is not None:
+        weights = np.asarray(weights, dtype=np.float64)
     whole = weights is None or whole_counts(weights, float(np.sum(weights)))
     if weights is None:
         lower_w = upper_w = lower_cum = None
@@ -106,7 +109,7 @@ def _scaled(values: np.ndarray, exponent: int) -> np.ndarray:
     """A new array of ``values * 2**exponent``, as ``np.ldexp`` gives it (one multiplication
     where the power of two is a double and no product is subnormal; ``np.ldexp`` elsewhere)."""
     if exponent == 0:
-        return values.copy()
+        return np.array(values, dtype=np.float64)
     if exponent > 1023:  # subnormal data
         return np.ldexp(values, exponent)
     out = np.multiply(values, 2.0**exponent)
@@ -166,18 +169,7 @@ class _Kernel:
 
     def exact(self, t: float) -> _Bound:
         """Count the kernel values at or below ``t`` exactly (``-1 < t < 1``)."""
-        keys = self.u * ((t - 1.0) / (t + 1.0))  # ascending
-        columns = np.empty(keys.size, dtype=np.intp)
-        # Each chunk of keys falls between the counts of its neighbours' last keys: search only
-        # that slice of the columns (a cache-sized binary search).
-        probes = np.searchsorted(self.l, keys[_CHUNK - 1 :: _CHUNK], side="right")
-        start = 0
-        for index, first in enumerate(range(0, keys.size, _CHUNK)):
-            stop = int(probes[index]) if index < probes.size else self.cols
-            found = columns[first : first + _CHUNK]
-            found[:] = np.searchsorted(self.l[start:stop], keys[first : first + _CHUNK], side="right")
-            found += start
-            start = stop
+        columns = _count_at_most(self.l, self.u, (t - 1.0) / (t + 1.0))
         return _Bound(t, columns, self._base(t) + self._weight(columns))
 
     def pairs_between(self, low: _Bound, high: _Bound) -> int:
@@ -240,9 +232,10 @@ class _Kernel:
         """Narrow ``low`` (below ``first``) and ``high`` (at or above ``last``) with exact counts
         until few candidates lie between, then select among them."""
         grid, _ = self._estimator()
-        enough = min(_ENUMERATED, max(4 * self.rows, 1 << 15))
+        enough = min(_ENUMERATED, max(4 * self.rows, _FEW))
         spread = 0.125  # exact rows: aim this share of the gap beyond each rank
         margin = None  # grid rows: the estimate's allowance, from its observed error
+        slow = 0  # rounds in a row that did not halve the candidates
         while True:
             pairs = self.pairs_between(low, high)
             if pairs <= enough:
@@ -268,8 +261,9 @@ class _Kernel:
                     return self._search(first, first, low, bound)[0], self._search(last, last, bound, high)[0]
             if grid is None:
                 spread = spread / 4.0 if moved == 3 else min(0.25, spread * 2.0)
-            if self.pairs_between(low, high) > pairs // 2:
-                # Little progress (many equal kernel values, or thresholds next to each other):
+            slow = slow + 1 if self.pairs_between(low, high) > pairs // 2 else 0
+            if slow >= 4:
+                # No progress (many equal kernel values, or thresholds next to each other):
                 # select by value over the candidates, a chunk at a time.
                 return self._select_streamed(low, high, first, last)
 
@@ -300,6 +294,9 @@ class _Kernel:
             margin = MARGIN_SCALE * step * math.sqrt(self.rows)
         proposals = []
         for target, end in ((first - margin, 0), (last + margin, 1)):
+            if not low.at_most < target <= high.at_most:
+                proposals.append(None)  # the margin reaches past an exact end: keep that end
+                continue
             # Start from the closest pair of points already estimated around the target.
             a = max(t for t, g in seen.items() if g < target)
             b = min(t for t, g in seen.items() if g >= target and t > a)
@@ -346,9 +343,15 @@ class _Kernel:
 
     def _select(self, low: _Bound, high: _Bound, first: float, last: float) -> tuple[float, float]:
         """The ranks' values among every candidate between ``low`` and ``high``, enumerated."""
-        prepared = self._prepare(low, high)
-        count = int(prepared[3][-1]) if prepared[3].size else 0
-        kernel, weight = self._chunk(prepared, 0, count) if count else (np.empty(0), None if self.u_w is None else np.empty(0))
+        if low.columns is None and high.columns is None:
+            # Every pair (few observations): one outer operation.
+            u = self.u[:, np.newaxis]
+            kernel = ((u + self.l) / (u - self.l)).ravel()
+            weight = None if self.u_w is None else (self.u_w[:, np.newaxis] * self.l_w).ravel()
+        else:
+            prepared = self._prepare(low, high)
+            count = int(prepared[3][-1]) if prepared[3].size else 0
+            kernel, weight = self._chunk(prepared, 0, count) if count else (np.empty(0), None if self.u_w is None else np.empty(0))
         zeros = self._with_zeros(low, high)
         first, last = first - low.at_most, last - low.at_most
         if weight is None:
@@ -413,6 +416,25 @@ class _Kernel:
                 ceiling = float(np.nextafter(pivot, -math.inf))
             else:
                 floor, below = float(pivot), below + at_most
+
+
+def _count_at_most(ordered: np.ndarray, rows: np.ndarray, factor: float) -> np.ndarray:
+    """``np.searchsorted(ordered, rows * factor, side="right")`` for keys ``rows * factor``
+    that ascend. Each chunk of keys falls between the counts of the chunks' last keys, so it
+    searches only that slice (a cache-sized binary search), and its keys are formed there."""
+    counts = np.empty(rows.size, dtype=np.intp)
+    probes = np.searchsorted(ordered, rows[_CHUNK - 1 :: _CHUNK] * factor, side="right")
+    keys = np.empty(min(rows.size, _CHUNK))
+    start = 0
+    for index, first in enumerate(range(0, rows.size, _CHUNK)):
+        stop = int(probes[index]) if index < probes.size else ordered.size
+        chunk = rows[first : first + _CHUNK]
+        np.multiply(chunk, factor, out=keys[: chunk.size])
+        found = counts[first : first + _CHUNK]
+        found[:] = np.searchsorted(ordered[start:stop], keys[: chunk.size], side="right")
+        found += start
+        start = stop
+    return counts
 
 
 def _interpolate(low: _Bound, high: _Bound, rank: float) -> float | None:
