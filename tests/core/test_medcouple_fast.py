@@ -280,6 +280,36 @@ def test_every_search_path_equals_the_naive_definition(tiny_search, kind, seed):
     assert _same(robust.medcouple(x, None, median), naive_medcouple(x, median)), (kind, n)
 
 
+@pytest.mark.parametrize("kind", ("progression", "integers", "median-block", "cauchy"))
+def test_the_search_bisects_on_when_too_many_candidates_for_a_value_selection(tiny_search, monkeypatch, kind):
+    """With the value selection's cap below the candidates, a search that stops halving them
+    halves its bracket instead until the thresholds are adjacent doubles."""
+    monkeypatch.setattr(robust, "_STREAMED", 64)
+    rng = np.random.default_rng(5)
+    for n in (150, 151, 360):
+        x = _draw(kind, n, rng)
+        median = float(np.median(x))
+        assert _same(robust.medcouple(x, None, median), naive_medcouple(x, median)), (kind, n)
+
+
+def test_raw_observations_with_repeated_values_are_counted_when_the_search_stalls(tiny_search, monkeypatch):
+    """Integers passed as raw observations: many kernel values equal each other; when the search
+    stops halving its candidates it starts again on the distinct values with their counts."""
+    monkeypatch.setattr(robust, "_STREAMED", 64)
+    calls = []
+    original = robust.medcouple
+
+    def spy(values, weights, median):
+        calls.append(weights is not None)
+        return original(values, weights, median)
+
+    monkeypatch.setattr(robust, "medcouple", spy)
+    x = _draw("integers", 400, np.random.default_rng(8))
+    median = float(np.median(x))
+    assert spy(x, None, median) == naive_medcouple(x, median)
+    assert calls == [False, True]
+
+
 def test_the_chunked_value_selection_is_taken_for_equal_kernel_values(tiny_search, monkeypatch):
     """The progression's kernel has many equal values at its median: the search stops making
     progress and selects by value over chunks of candidates (and still equals the definition)."""

@@ -20,6 +20,7 @@ import math
 import numpy as np
 
 from tailgauge.core.order_rules import middle_ranks, whole_counts
+
 # Kernel pairs formed at once (all of them for few observations, or the candidates left between
 # two thresholds): bounded memory.
 _ENUMERATED = 1 << 20
@@ -32,10 +33,15 @@ _GRID_ROWS = 1 << 16
 # Below that many rows, one grid row in this many (and every row below this many grid rows).
 _GRID_STEP = 16
 _GRID_ROWS_LEAST = 64
-MARGIN_SCALE = 2.0
+# The estimate's allowance, in units of (rows between grid rows) x sqrt(rows).
+_MARGIN_SCALE = 2.0
 # Keys per binary-search call when counting at a threshold exactly (small sorted slices).
 _CHUNK = 4096
+# Candidates enumerated in one selection when the rows are few.
 _FEW = 1 << 10
+# At most this many candidates are selected among by value, a chunk at a time, when the search
+# stops halving them (many equal kernel values); beyond it the search bisects on.
+_STREAMED = 1 << 25
 
 
 def medcouple(values: np.ndarray, weights: np.ndarray | None, median: float) -> float:
@@ -89,6 +95,20 @@ def medcouple(values: np.ndarray, weights: np.ndarray | None, median: float) -> 
     plus_ones = total_upper * ties + tie_signs
     kernel = _Kernel(upper, upper_w, lower, lower_w, lower_cum, minus_ones, tie_zeros)
     slack = 0.0 if whole else 1e-12 * total
+    if weights is None and upper.size * lower.size > _DIRECT_PAIRS:
+        try:
+            return _middle(kernel, total, minus_ones, plus_ones, whole, slack)
+        except _Repeated:
+            # Many equal kernel values from repeated observations: the same kernel values with
+            # whole counts, over the distinct values (far fewer pairs).
+            starts = np.flatnonzero(np.concatenate(([True], values[1:] != values[:-1])))
+            counts = np.diff(np.append(starts, values.size)).astype(np.float64)
+            return medcouple(values[starts], counts, median)
+    return _middle(kernel, total, minus_ones, plus_ones, whole, slack)
+
+
+def _middle(kernel: _Kernel, total: float, minus_ones: float, plus_ones: float, whole: bool, slack: float) -> float:
+    """The median of the kernel values, the tie signs at -1 and +1 included."""
 
     def kth(first_rank: float, last_rank: float) -> tuple[float, float]:
         """The first_rank-th and last_rank-th kernel values (first_rank <= last_rank)."""
@@ -127,6 +147,10 @@ def _scaled(values: np.ndarray, exponent: int) -> np.ndarray:
     return out
 
 
+class _Repeated(Exception):
+    """Raw observations with repeated values whose kernel search stalled on equal kernel values."""
+
+
 class _Bound:
     """An exact threshold: ``t``, the per-row counts of columns with a kernel value at or below
     it (``None``: none or all), and ``at_most``, the weight of kernel values at or below ``t``."""
@@ -152,6 +176,10 @@ class _Kernel:
         self.minus_ones, self.tie_zeros = minus_ones, tie_zeros
         self.rows, self.cols = upper.size, lower.size
         self._grid = None
+
+    def repeated(self) -> bool:
+        """Whether some value repeats (raw observations only)."""
+        return bool(np.any(self.u[1:] == self.u[:-1]) or np.any(self.l[1:] == self.l[:-1]))
 
     # -- counting --------------------------------------------------------------------------
     def _weight(self, columns: np.ndarray) -> float:
@@ -235,29 +263,35 @@ class _Kernel:
         """Narrow ``low`` (below ``first``) and ``high`` (at or above ``last``) with exact counts
         until few candidates lie between, then select among them."""
         enough = min(_ENUMERATED, max(4 * self.rows, _FEW))
-        margin = None  # grid rows: the estimate's allowance, from its observed error
+        margin = None  # the estimate's allowance in weight of kernel values
         slow = 0  # rounds in a row that did not halve the candidates
         while True:
             pairs = self.pairs_between(low, high)
             if pairs <= enough:
                 return self._select(low, high, first, last)
+            middle = 0.5 * low.t + 0.5 * high.t
+            if slow >= 2 and self.u_w is None and self.repeated():
+                raise _Repeated  # the caller counts the repeated values and starts again
+            if slow >= 2 and (pairs <= _STREAMED or not low.t < middle < high.t):
+                # No progress (many equal kernel values, or thresholds next to each other):
+                # select by value over the candidates, a chunk at a time.
+                return self._select_streamed(low, high, first, last)
             proposals, margin = self._propose(first, last, low, high, margin)
-            moved = 0
+            if slow:
+                # The estimate missed: widen its margin, and halve the bracket as well.
+                margin *= 2.0
+                proposals = sorted([t for t in proposals if t is not None] + [middle])
             for t in proposals:
                 if t is None or not low.t < t < high.t:
                     continue
                 bound = self.exact(t)
                 if bound.at_most < first:
-                    low, moved = bound, moved | 1
+                    low = bound
                 elif bound.at_most >= last:
-                    high, moved = bound, moved | 2
+                    high = bound
                 else:  # the two ranks fall on either side of t: finish each alone
                     return self._search(first, first, low, bound)[0], self._search(last, last, bound, high)[0]
             slow = slow + 1 if self.pairs_between(low, high) > pairs // 2 else 0
-            if slow >= 4:
-                # No progress (many equal kernel values, or thresholds next to each other):
-                # select by value over the candidates, a chunk at a time.
-                return self._select_streamed(low, high, first, last)
 
     def _estimated(self, bound: _Bound) -> float:
         if bound.columns is None:
@@ -286,7 +320,7 @@ class _Kernel:
             # third of this at 1e5-1e7 values).
             grid, _ = self._estimator()
             step = 1.0 if grid is None else self.rows / grid.size
-            margin = MARGIN_SCALE * step * math.sqrt(self.rows)
+            margin = _MARGIN_SCALE * step * math.sqrt(self.rows)
         proposals = []
         for target, end in ((first - margin, 0), (last + margin, 1)):
             if not low.at_most < target <= high.at_most:
@@ -430,15 +464,6 @@ def _count_at_most(ordered: np.ndarray, rows: np.ndarray, factor: float) -> np.n
         found += start
         start = stop
     return counts
-
-
-def _interpolate(low: _Bound, high: _Bound, rank: float) -> float | None:
-    """The threshold where a straight line between ``low`` and ``high`` reaches ``rank``; the
-    midpoint when that falls outside; ``None`` when the two are adjacent doubles."""
-    t = low.t + (rank - low.at_most) / (high.at_most - low.at_most) * (high.t - low.t)
-    if not low.t < t < high.t:
-        t = 0.5 * low.t + 0.5 * high.t
-    return t if low.t < t < high.t else None
 
 
 def _root(g, target: float, a: float, ga: float, b: float, gb: float, tolerance: float):
