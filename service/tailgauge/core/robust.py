@@ -546,6 +546,16 @@ def half_sample_mode(values: np.ndarray, counts: np.ndarray | None = None) -> fl
     run starts are candidates, and the kept window may cut the runs at its two ends.
     """
     x = values
+    if counts is None and x.size <= _WINDOW_CHUNK:
+        # Few observations: every window's width at once, the first shortest kept (as
+        # _shortest_window finds it in its one chunk).
+        with np.errstate(over="ignore", invalid="ignore"):  # a width beyond float64 is inf
+            while x.size > 3:
+                half = (x.size + 1) // 2
+                widths = x[half - 1 :] - x[: x.size - half + 1]
+                at = int(widths.argmin())
+                start = at if widths[at] < np.inf else 0
+                x = x[start : start + half]
     if counts is None:
         while x.size > 3:
             half = (x.size + 1) // 2
