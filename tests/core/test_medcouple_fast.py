@@ -5,11 +5,12 @@
   same power-of-two-scaled values): the new search must equal it bit for bit.
 * ``reference_bisection_medcouple`` below: a verbatim copy of the previous implementation (a
   bisection of the threshold with a full binary search per step). On data without repeated
-  kernel values it equals the new search bit for bit. Where many kernel values are equal and
-  its bisection closed on two adjacent doubles, it returned the bracket's upper threshold,
-  which can sit an ulp or two from the kernel value itself (0.5 for 0.5000000000000001,
-  -2**-54 for 0.0); there the new search returns the kernel value, as the naive definition
-  does, and the two agree to within a few ulps.
+  kernel values it equals the new search bit for bit. Where many kernel values are equal, its
+  bisection could end on a threshold within an ulp or two of them (its floating-point count
+  ``l <= u (t - 1)/(t + 1)`` puts such kernel values on either side) and return that threshold
+  rather than a kernel value (0.5 for 0.5000000000000001, -2**-54 for 0.0); there the new
+  search returns the kernel value, as the naive definition does, and the two agree to within
+  a few ulps.
 * statsmodels 0.15.0 ``statsmodels.stats.stattools.medcouple`` (the same tie rule for raw
   samples; it works on unscaled differences, so to rounding).
 
@@ -353,8 +354,8 @@ def test_a_large_sample_through_the_grid_estimate_equals_the_previous_implementa
 @pytest.mark.parametrize("kind", TIED)
 @pytest.mark.parametrize("n", [7, 40, 41, 300, 1201])
 def test_tied_data_agree_with_the_previous_implementation_to_a_few_ulps(kind, n):
-    """Where the previous bisection ended on two adjacent doubles it returned a threshold, not
-    a kernel value; the new value is the naive definition's (checked above)."""
+    """Where the previous bisection ended on a threshold next to many equal kernel values it
+    returned the threshold, not a kernel value; the new value is the naive definition's."""
     rng = np.random.default_rng(5 * n + 2)
     x = _draw(kind, n, rng)
     median = float(np.median(x))

@@ -7,6 +7,8 @@ References
 ----------
 G. Brys, M. Hubert and A. Struyf, "A robust measure of skewness", Journal of Computational and
 Graphical Statistics 13(4), 996-1017, 2004 (the medcouple and its kernel at ties).
+D. B. Johnson and T. Mizoguchi, "Selecting the Kth element in X + Y and X1 + X2 + ... + Xm",
+SIAM Journal on Computing 7(2), 147-153, 1978 (selection over sorted rows).
 D. R. Bickel and R. Frühwirth, "On a fast, robust estimator of the mode", Computational
 Statistics & Data Analysis 50(12), 3500-3530, 2006 (the half-sample mode).
 J. J. A. Moors, "A quantile alternative for kurtosis", The Statistician 37, 25-32, 1988.
@@ -54,11 +56,19 @@ def medcouple(values: np.ndarray, weights: np.ndarray | None, median: float) -> 
 
     The kernel's rows (one value above the median against every value below it) are sorted, so
     the number of kernel values at or below a threshold ``t`` is one monotone count per row
-    (``h(u, l) <= t`` iff ``l - m <= (u - m)(t - 1)/(t + 1)``), the weighted-median search of
-    Johnson & Mizoguchi as Brys et al. use it. Here the thresholds come from an estimate of that
-    count on a grid of rows, each tried threshold is counted exactly (chunked binary searches),
-    and the few candidates left between two exact thresholds are enumerated: O(n log n) with
-    two or three exact counts for large n. Few observations form every pair at once.
+    (``h(u, l) <= t`` iff ``l - m <= (u - m)(t - 1)/(t + 1)``), which is what Johnson &
+    Mizoguchi's search (as Brys et al. use it) rests on. Where that search takes the weighted
+    median of the rows' medians as its next threshold, here thresholds come from a cheap
+    estimate of the count (exact counts on a grid of rows, interpolated between them), aimed a
+    margin either side of the middle rank; each is then counted exactly (chunked binary
+    searches) and the few candidates left between the two are enumerated and the middle one
+    selected: O(n log n), usually two exact counts whatever n. Up to a few thousand pairs every
+    pair is formed at once.
+
+    The value returned is the order statistic of the kernel values as computed (the same value
+    as sorting all of them). Where many kernel values are equal and the search stops halving
+    its candidates, it selects by value over them a chunk at a time; raw observations with
+    repeated values start again on the distinct values with their counts.
     """
     # The kernel is scale-free: scale by a power of two first so no difference overflows.
     largest = max(abs(float(values[0])), abs(float(values[-1])))  # sorted
