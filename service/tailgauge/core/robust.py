@@ -35,8 +35,8 @@ _GRID_ROWS = 1 << 16
 # Below that many rows, one grid row in this many (and every row below this many grid rows).
 _GRID_STEP = 16
 _GRID_ROWS_LEAST = 64
-# The estimate's allowance, in units of (rows between grid rows) x sqrt(rows).
-_MARGIN_SCALE = 2.0
+# The estimate's allowance, in units of sqrt(rows x rows between grid rows).
+_MARGIN_SCALE = 8.0
 # Keys per binary-search call when counting at a threshold exactly (small sorted slices).
 _CHUNK = 4096
 # Candidates enumerated in one selection when the rows are few.
@@ -195,7 +195,7 @@ class _Kernel:
     def _weight(self, columns: np.ndarray) -> float:
         """Weight of the pairs left of ``columns`` in each row."""
         if self.u_w is None:
-            return float(int(np.sum(columns)))
+            return float(int(np.sum(columns, dtype=np.int64)))
         return float(np.dot(self.u_w, self.l_cum[columns]))
 
     def _base(self, t: float) -> float:
@@ -217,10 +217,10 @@ class _Kernel:
         if low.columns is None and high.columns is None:
             return self.rows * self.cols
         if low.columns is None:
-            return int(np.sum(high.columns))
+            return int(np.sum(high.columns, dtype=np.int64))
         if high.columns is None:
-            return self.rows * self.cols - int(np.sum(low.columns))
-        return int(np.sum(high.columns)) - int(np.sum(low.columns))
+            return self.rows * self.cols - int(np.sum(low.columns, dtype=np.int64))
+        return int(np.sum(high.columns, dtype=np.int64)) - int(np.sum(low.columns, dtype=np.int64))
 
     # -- estimating ------------------------------------------------------------------------
     def _estimator(self):
@@ -325,12 +325,11 @@ class _Kernel:
             return seen[t]
 
         if margin is None:
-            # The interpolation's error grows with the rows between grid rows and with the
-            # square root of the rows (measured on continuous and heavy-tailed data: within a
-            # third of this at 1e5-1e7 values).
+            # The interpolation's error grows about as the square root of the rows times the
+            # rows between grid rows (measured on continuous and heavy-tailed data).
             grid, _ = self._estimator()
             step = 1.0 if grid is None else self.rows / grid.size
-            margin = _MARGIN_SCALE * step * math.sqrt(self.rows)
+            margin = _MARGIN_SCALE * math.sqrt(step * self.rows)
         proposals = []
         for target, end in ((first - margin, 0), (last + margin, 1)):
             if not low.at_most < target <= high.at_most:
@@ -352,12 +351,17 @@ class _Kernel:
             rows = np.arange(self.rows)
             first_column = np.zeros(self.rows, dtype=np.intp)
             counts = np.full(self.rows, self.cols, dtype=np.intp)
+        elif low.columns is None:
+            rows = np.flatnonzero(high.columns)
+            first_column, counts = np.zeros(rows.size, dtype=np.intp), high.columns[rows].astype(np.intp)
+        elif high.columns is None:
+            rows = np.flatnonzero(low.columns != self.cols)
+            first_column = low.columns[rows].astype(np.intp)
+            counts = self.cols - first_column
         else:
-            first_column = np.zeros(self.rows, dtype=np.intp) if low.columns is None else low.columns
-            last_column = np.full(self.rows, self.cols, dtype=np.intp) if high.columns is None else high.columns
-            counts = last_column - first_column
-            rows = np.flatnonzero(counts)
-            first_column, counts = first_column[rows], counts[rows]
+            rows = np.flatnonzero(high.columns != low.columns)
+            first_column = low.columns[rows].astype(np.intp)
+            counts = high.columns[rows] - first_column
         return rows, first_column, counts, np.cumsum(counts)
 
     def _chunk(self, prepared, start: int, stop: int):
@@ -461,7 +465,8 @@ def _count_at_most(ordered: np.ndarray, rows: np.ndarray, factor: float) -> np.n
     """``np.searchsorted(ordered, rows * factor, side="right")`` for keys ``rows * factor``
     that ascend. Each chunk of keys falls between the counts of the chunks' last keys, so it
     searches only that slice (a cache-sized binary search), and its keys are formed there."""
-    counts = np.empty(rows.size, dtype=np.intp)
+    # 32-bit counts where they fit: half the memory written and read per exact count.
+    counts = np.empty(rows.size, dtype=np.int32 if ordered.size < 2**31 else np.intp)
     probes = np.searchsorted(ordered, rows[_CHUNK - 1 :: _CHUNK] * factor, side="right")
     keys = np.empty(min(rows.size, _CHUNK))
     start = 0
