@@ -26,7 +26,6 @@ import math
 import numpy as np
 import pytest
 from statsmodels.stats.stattools import medcouple as statsmodels_medcouple
-
 from tailgauge.core import robust
 from tailgauge.core.order_rules import middle_ranks, whole_counts
 

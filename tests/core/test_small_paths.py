@@ -15,7 +15,6 @@ import math
 
 import numpy as np
 import pytest
-
 from tailgauge.core import lmoments, robust
 
 REFERENCE_WINDOW_CHUNK = 1 << 16

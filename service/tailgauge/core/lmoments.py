@@ -63,7 +63,6 @@ def _raw_pwm(values: np.ndarray, exponent: int) -> tuple[np.ndarray, float]:
     combination per block gives the PWMs: the data are read once, in cache-sized passes that
     also scale and centre them, and no n-long weight array is built.
     """
-    n = values.size
     largest = max(abs(float(values[0])), abs(float(values[-1])))
     if 2.0**-500 < largest < 2.0**500:
         # Scaling by a power of two commutes exactly with every step here while nothing comes

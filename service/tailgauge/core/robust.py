@@ -165,7 +165,7 @@ class _Bound:
     """An exact threshold: ``t``, the per-row counts of columns with a kernel value at or below
     it (``None``: none or all), and ``at_most``, the weight of kernel values at or below ``t``."""
 
-    __slots__ = ("t", "columns", "at_most", "estimated")
+    __slots__ = ("at_most", "columns", "estimated", "t")
 
     def __init__(self, t: float, columns: np.ndarray | None, at_most: float) -> None:
         self.t, self.columns, self.at_most = t, columns, at_most
@@ -401,7 +401,7 @@ class _Kernel:
             # One observation each: the ranks are whole; the tie block's zeros join as values.
             if zeros:
                 kernel = np.concatenate((kernel, np.zeros(int(self.tie_zeros))))
-            wanted = [int(math.ceil(rank)) - 1 for rank in (first, last)]
+            wanted = [math.ceil(rank) - 1 for rank in (first, last)]
             if wanted[-1] >= kernel.size:
                 return tuple(float(np.partition(kernel, k)[k]) if k < kernel.size else high.t for k in wanted)
             chosen = np.partition(kernel, sorted(set(wanted)))
