@@ -63,7 +63,6 @@ def _raw_pwm(values: np.ndarray, exponent: int) -> tuple[np.ndarray, float]:
     combination per block gives the PWMs: the data are read once, in cache-sized passes that
     also scale and centre them, and no n-long weight array is built.
     """
-    n = values.size
     largest = max(abs(float(values[0])), abs(float(values[-1])))
     if 2.0**-500 < largest < 2.0**500:
         # Scaling by a power of two commutes exactly with every step here while nothing comes
@@ -78,6 +77,8 @@ def _blocked_pwm(values: np.ndarray, exponent: int) -> tuple[np.ndarray, float]:
     n = values.size
     # np.ldexp scales exactly even where 2**exponent itself is not a float64 (subnormal data).
     centre = float(np.ldexp(values[n // 2], exponent))
+    if n < _BLOCK:
+        return _one_block_pwm(values, exponent, centre), centre
     blocks = -(-n // _BLOCK)
     moments = np.zeros((blocks, 4))
     work = np.empty(min(n, _BLOCK * _BLOCKS_PER_PASS))
@@ -114,6 +115,25 @@ def _blocked_pwm(values: np.ndarray, exponent: int) -> tuple[np.ndarray, float]:
         falling = math.prod(n - 1 - m for m in range(r))  # (n - 1)! / (n - 1 - r)!
         b[r] = float(np.sum(weighted)) / (n * falling)
     return b, centre
+
+
+def _one_block_pwm(values: np.ndarray, exponent: int, centre: float) -> np.ndarray:
+    """:func:`_blocked_pwm` for fewer than one block of ranks: the same products and sums in the
+    same order, on Python floats (block start j0 - 1 = 0, so a0 = 0, a1 = -1, a2 = -2)."""
+    n = values.size
+    chunk = np.ldexp(values, exponent) if exponent else values
+    m0, m1, m2, m3 = (float(m) for m in (chunk - centre) @ _UNIT_POWERS[:n])
+    a0, a1, a2, big = 0.0, -1.0, -2.0, float(_BLOCK)
+    weighted = (
+        0 + 1.0 * m0,
+        0 + a0 * m0 + big * 1.0 * m1,
+        0 + a0 * a1 * m0 + big * (a0 + a1) * m1 + big**2 * 1.0 * m2,
+        0 + a0 * a1 * a2 * m0 + big * (a0 * a1 + a0 * a2 + a1 * a2) * m1 + big**2 * (a0 + a1 + a2) * m2 + big**3 * 1.0 * m3,
+    )
+    b = np.empty(4)
+    for r in range(4):
+        b[r] = weighted[r] / (n * math.prod(n - 1 - m for m in range(r)))
+    return b
 
 
 def sample_lmoments(
