@@ -37,10 +37,12 @@ _RECORDED = len(resample.INTERVAL_DESCRIPTORS) + 4
 # Normalised input arrays per entry (values, weights, sort order, support values and weights).
 NORMALISED_BYTES_PER_ENTRY = 32
 # Point descriptors of n entries: sort, order statistics, medcouple, L-moments, modes, tails
-# (tracemalloc peak 73 bytes per value at n = 2e6 raw samples).
-POINT_BYTES_PER_ENTRY = 80
-# Seconds per entry x log2(entries) of the point descriptors (1.43 s for 2e6 raw samples).
-POINT_SECONDS = 45e-9
+# (tracemalloc peak 93.5 bytes per value at n = 2e6 raw lognormal samples, December 2026).
+POINT_BYTES_PER_ENTRY = 104
+# Seconds per entry x log2(entries) of the point descriptors (0.26 s for 2e6 raw samples since
+# the medcouple's threshold search, 6.2e-9 per entry x log2; was 1.43 s): with a margin for
+# slower or busier machines.
+POINT_SECONDS = 12e-9
 # Seconds per resampled element (resample x support row) drawn and reduced, by how counts are
 # drawn; and per order statistic looked up in a resample.
 DRAW_SECONDS = {"multinomial": 300e-9, "poisson": 25e-9, "picks": 60e-9, "subset": 220e-9}
