@@ -57,3 +57,34 @@ def test_a_tiny_share_far_out_keeps_its_representable_contribution():
     assert found.third[2] == pytest.approx(4e60, rel=1e-9)
     assert found.fourth[2] == pytest.approx(8e180, rel=1e-9)
     np.testing.assert_allclose(found.third[:2], [-0.5, 0.5], rtol=1e-9)
+
+
+@pytest.mark.parametrize("case", ["continuous", "ties", "counts", "one_far_outlier", "offset"])
+def test_the_tails_only_path_lists_what_computing_every_value_lists(case, monkeypatch):
+    """The largest contributions from the two tails equal those of every value computed and
+    selected (the path below the size where only the tails are computed), bit for bit."""
+    from tailgauge.core import tail
+    from tailgauge.core.weighted import from_samples
+
+    rng = np.random.default_rng(hash(case) % 2**32)
+    x = rng.lognormal(0.0, 0.7, 20_000)
+    weights = None
+    if case == "ties":
+        x = np.round(x, 1)
+    elif case == "counts":
+        weights = rng.integers(1, 50, x.size).astype(float)
+    elif case == "one_far_outlier":
+        x[17] = 1e6
+    elif case == "offset":
+        x = 1e9 + x
+    data = from_samples(list(x), omit_missing=False, weights=None if weights is None else list(weights))
+    support = data.support
+    sums = central_sums(data.values, data.weights, 4)
+    for limit in (1, 10, 200):
+        fast = tail.contributions(support.values, support.weights, sums, limit=limit, largest_only=True)
+        monkeypatch.setattr(tail, "_TAILS_FROM", 10**12)
+        every = tail.contributions(support.values, support.weights, sums, limit=limit, largest_only=True)
+        monkeypatch.undo()
+        for field in ("values", "weights", "third", "fourth"):
+            assert np.array_equal(getattr(fast, field), getattr(every, field)), (limit, field)
+        assert fast.complete is every.complete

@@ -34,11 +34,37 @@ def contributions(
     """Contributions of each support value, all of them in value order or the ``limit`` largest.
 
     The largest by ``fourth`` (the tail weight) are kept, in value order, when ``largest_only``
-    or when there are more than ``limit`` values.
+    or when there are more than ``limit`` values. ``values`` are ascending (a support), so the
+    largest lie in the two tails: with many values only the tails that can hold them are
+    computed (:func:`_tails`), by the same arithmetic.
     """
     m2 = sums.scaled_central_moment(2)
     total = float(np.sum(weights))
     share = weights / total  # proportions first: huge counts cannot overflow the products
+    if values.size > _TAILS_FROM * limit:
+        found = _tails(values, share, weights, sums, m2, limit)
+        if found is not None:
+            return found
+    third, fourth = _shares(values, share, sums, m2)
+    if largest_only or values.size > limit:
+        if values.size > limit:
+            # Select the largest by the tail weight in linear time; only those few are ordered.
+            chosen = np.argpartition(-fourth, limit - 1)[:limit]
+        else:
+            chosen = np.arange(values.size)
+        mask = np.zeros(values.size, dtype=bool)
+        mask[chosen] = True
+        keep = np.flatnonzero(mask)  # back into value order, without sorting anything
+        return Contributions(values[keep], weights[keep], third[keep], fourth[keep], complete=keep.size == values.size)
+    return Contributions(values, weights, third, fourth, complete=True)
+
+
+# Above this many times ``limit`` values, only the tails are computed.
+_TAILS_FROM = 8
+
+
+def _shares(values: np.ndarray, share: np.ndarray, sums: CentralSums, m2: float) -> tuple[np.ndarray, np.ndarray]:
+    """(third, fourth) of each value with its share of the weight."""
     with np.errstate(over="ignore", invalid="ignore"):
         # An outlier whose share underflows can lie beyond float64 standard deviations out:
         # its contributions are then infinite, which describe reports as not representable.
@@ -53,14 +79,38 @@ def contributions(
             # infinite is beyond float64, and describe reports it as not representable.
             third[far] = (np.cbrt(share[far]) * standardized[far]) ** 3
             fourth[far] = (np.sqrt(np.sqrt(share[far])) * standardized[far]) ** 4
-    if largest_only or values.size > limit:
-        if values.size > limit:
-            # Select the largest by the tail weight in linear time; only those few are ordered.
-            chosen = np.argpartition(-fourth, limit - 1)[:limit]
-        else:
-            chosen = np.arange(values.size)
-        mask = np.zeros(values.size, dtype=bool)
-        mask[chosen] = True
-        keep = np.flatnonzero(mask)  # back into value order, without sorting anything
-        return Contributions(values[keep], weights[keep], third[keep], fourth[keep], complete=keep.size == values.size)
-    return Contributions(values, weights, third, fourth, complete=True)
+    return third, fourth
+
+
+def _tails(
+    values: np.ndarray, share: np.ndarray, weights: np.ndarray, sums: CentralSums, m2: float, limit: int
+) -> Contributions | None:
+    """The ``limit`` largest contributions of ascending ``values``, computing only the tails.
+
+    The ``limit`` values at each end give a threshold ``T``, the ``limit``-th largest ``fourth``
+    among them; a value with ``|z| < r``, ``r^4 = T / max(share)``, has ``fourth < T`` and cannot
+    be among the largest. The standardized values are ascending, so ``|z| >= r`` is two runs at
+    the ends, found by binary search; only those are computed and selected from. ``None`` (the
+    caller computes every value) where ``T`` is zero or not finite.
+    """
+    n = values.size
+    ends = np.concatenate((np.arange(limit), np.arange(n - limit, n)))
+    _, end_fourth = _shares(values[ends], share[ends], sums, m2)
+    threshold = float(np.partition(end_fourth, end_fourth.size - limit)[end_fourth.size - limit])
+    largest_share = float(np.max(share))
+    if not (np.isfinite(threshold) and threshold > 0.0 and largest_share > 0.0):
+        return None
+    # A relative slack of 1e-9 covers the rounding of share z^4 against r^4.
+    reach = (threshold / largest_share) ** 0.25 * (1.0 - 1e-9)
+    with np.errstate(over="ignore", invalid="ignore"):
+        standardized = sums.scaled_deviations(values) / np.sqrt(m2)
+    low = int(np.searchsorted(standardized, -reach, side="right"))
+    high = int(np.searchsorted(standardized, reach, side="left"))
+    region = np.concatenate((np.arange(low), np.arange(high, n))) if high > low else np.arange(n)
+    third, fourth = _shares(values[region], share[region], sums, m2)
+    chosen = np.argpartition(-fourth, limit - 1)[:limit]
+    mask = np.zeros(region.size, dtype=bool)
+    mask[chosen] = True
+    keep = np.flatnonzero(mask)  # region is ascending: value order again
+    where = region[keep]
+    return Contributions(values[where], weights[where], third[keep], fourth[keep], complete=False)
