@@ -43,6 +43,10 @@ class QuantileShape:
         assert self.probabilities.size == 9 and (self.probabilities[0], self.probabilities[2]) == (0.25, 0.75)
 
 
+# What reads each row's median (besides the median itself).
+_READ_MEDIAN = ("median", "median_absolute_deviation", "median_absolute_deviation_normal", "mean_median_gap", "medcouple")
+
+
 class Statistics:
     """Every descriptor of a batch of weight rows, by the same rules as ``describe``."""
 
@@ -164,6 +168,9 @@ class Statistics:
         a few at a time give the same values as the batch taken at once (the bootstrap reads
         them from parts of a batch while the rest of it is being drawn)."""
         out: dict[str, np.ndarray] = {}
+        if not any(name in names for name in _READ_MEDIAN) and not probabilities.size and "interquartile_range" not in names:
+            if not any(name in names for name in QUANTILE_SHAPE):
+                return out  # nothing asked of the order (options.descriptors): no lookup at all
         median = self.median(view)
         out["median"] = median
         if "median_absolute_deviation" in names or "median_absolute_deviation_normal" in names:
@@ -244,7 +251,7 @@ class Statistics:
             out["kurtosis"] = kurt + 3.0
         given = self.order_statistics(view, probabilities, names) if ordered is None else ordered
         out.update((name, values) for name, values in given.items() if name != "medcouple")
-        median = out["median"]
+        median = out.get("median")  # absent only when nothing asked reads the order
         if "mean_median_gap" in names:
             with np.errstate(invalid="ignore", divide="ignore", over="ignore"):
                 # As describe: halves first, so values near float64's limit do not overflow.
