@@ -58,9 +58,25 @@ async def _accepted_request(connection: Connection, request_class: RequestClass,
     )
 
 
-def test_sigterm_during_load_completes_every_accepted_request(fresh_server):
+class RoomyServer(GunicornServer):
+    """A server whose workers take the three heavy requests at once whatever else they hold: this
+    test is about draining, and the per-worker memory bound (three heavy plans are 510 MiB beside
+    a 512 MiB default) would otherwise refuse one with a 503 whenever all three land together
+    beside a light request. Admission at the bound has its own tests (tests/system/test_memory.py)."""
+
+    def environment(self) -> dict[str, str]:
+        environ = super().environment()
+        environ["TAILGAUGE_MAX_WORKER_MEMORY_BYTES"] = str(1 << 30)
+        return environ
+
+
+def test_sigterm_during_load_completes_every_accepted_request():
     """Accepted = the server answered 100 Continue, i.e. the application had started reading the body."""
-    server = fresh_server
+    with RoomyServer(workers=2) as server:
+        _sigterm_during_load(server)
+
+
+def _sigterm_during_load(server: GunicornServer) -> None:
     heavy_attempts = [Attempt(HEAVY.name, time.monotonic()) for _ in range(3)]
     held_attempts = [Attempt(SMALL.name, time.monotonic()) for _ in range(2)]
     light_attempts: list[Attempt] = []
