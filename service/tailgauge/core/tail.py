@@ -41,7 +41,7 @@ def contributions(
     m2 = sums.scaled_central_moment(2)
     total = float(np.sum(weights))
     share = weights / total  # proportions first: huge counts cannot overflow the products
-    if values.size > _TAILS_FROM * limit:
+    if values.size > max(_TAILS_FROM * limit, _TAILS_AT_LEAST):
         found = _tails(values, share, weights, sums, m2, limit)
         if found is not None:
             return found
@@ -59,8 +59,10 @@ def contributions(
     return Contributions(values, weights, third, fourth, complete=True)
 
 
-# Above this many times ``limit`` values, only the tails are computed.
+# Above this many times ``limit`` values (and at least _TAILS_AT_LEAST), only the tails are
+# computed; below, computing every value costs less than finding the tails.
 _TAILS_FROM = 8
+_TAILS_AT_LEAST = 4096
 
 
 def _shares(values: np.ndarray, share: np.ndarray, sums: CentralSums, m2: float) -> tuple[np.ndarray, np.ndarray]:
