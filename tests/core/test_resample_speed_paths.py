@@ -15,6 +15,7 @@ of zero and the last digit all count):
 
 from __future__ import annotations
 
+import dataclasses
 import math
 
 import msgspec
@@ -222,3 +223,37 @@ def test_cumulative_at_and_first_reaching_read_each_row_as_take_along_axis_and_s
     )
     assert np.array_equal(view.first_reaching(targets), want)
     assert np.array_equal(part.first_reaching(targets[7:19]), want[7:19])
+
+
+def test_two_threads_draw_ahead_of_the_reading_for_multinomial_batches(monkeypatch):
+    """The two-thread case above goes through the drawing-ahead path (one thread draws, the
+    caller reads), not only the batch-per-thread one."""
+    calls = []
+    original = resample._drawn_ahead
+
+    def spy(*args, **kwargs):
+        calls.append(len(args[2]))  # batches
+        return original(*args, **kwargs)
+
+    monkeypatch.setattr(resample, "_drawn_ahead", spy)
+    options = DescribeOptions(interval=IntervalOptions(method="bca", resamples=9999, seed=5), resample_threads=2)
+    describe(table(1e4, 50, 11), options, kind="table")
+    assert calls == [2]
+
+
+def test_a_deadline_passing_while_drawing_ahead_stops_both_threads():
+    """A passed deadline raises the limit error from the reading thread; the drawing thread
+    stops too (the pool is free for the next request)."""
+    import time
+
+    from tailgauge.core.errors import LimitExceeded
+
+    options = DescribeOptions(
+        interval=IntervalOptions(method="bca", resamples=9999, seed=5), resample_threads=2,
+        deadline=time.monotonic() + 0.005,
+    )
+    with pytest.raises(LimitExceeded):
+        describe(table(1e4, 50, 11), options, kind="table")
+    # The pool still serves: the same request with time to spare completes.
+    done = describe(table(1e4, 50, 11), dataclasses.replace(options, deadline=None), kind="table")
+    assert done.resampling is not None and done.resampling.resamples == 9999

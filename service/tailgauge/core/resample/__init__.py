@@ -26,6 +26,7 @@ from __future__ import annotations
 
 import itertools
 import threading
+from collections.abc import Callable
 
 import numpy as np
 
@@ -100,6 +101,17 @@ __all__ = [
 EARLY_JACKKNIFE_BYTES = 8 << 20
 
 
+def _part_edges(size: int) -> list[int]:
+    """Where a batch of ``size`` resamples is cut into parts of about ``PIPELINE_ROWS``, the
+    first one short (a fifth), so reading starts soon after drawing does."""
+    parts = max(2, round(size / PIPELINE_ROWS))
+    edges = [size * i // parts for i in range(parts + 1)]
+    lead = PIPELINE_ROWS // 5
+    if edges[1] > 2 * lead:
+        edges.insert(1, lead)
+    return edges
+
+
 def _in_parts(
     plan: Plan,
     statistics: Statistics,
@@ -109,24 +121,30 @@ def _in_parts(
     wanted: tuple[str, ...],
     deadline: float | None,
     scratch: Scratch,
+    drawn: tuple[np.ndarray, Callable[[int], None]] | None = None,
 ) -> dict[str, np.ndarray]:
     """One batch of multinomial resamples drawn in parts of about ``PIPELINE_ROWS``, each part's
     order statistics (and the medcouple of its rows that share a common median) read as soon as
     it is drawn, then the rest of the batch's statistics read from the whole batch, as
     :func:`draw` and ``Statistics.evaluate`` would (the generator draws row after row, and the
-    order statistics are per row): the same values, bit for bit."""
+    order statistics are per row): the same values, bit for bit.
+
+    ``drawn``: the batch's counts array and a wait for part i, when another thread draws them
+    (:func:`_drawn_ahead`); otherwise each part is drawn here from ``rng``."""
     k = plan.values.size
-    counts = np.empty((size, k), dtype=np.int64)
+    counts = np.empty((size, k), dtype=np.int64) if drawn is None else drawn[0]
     ordered: dict[str, np.ndarray] = {}
     medcouple = later = None
     if "medcouple" in wanted:
         medcouple, later = np.full(size, np.nan), np.zeros(size, dtype=bool)
-    parts = max(2, round(size / PIPELINE_ROWS))
-    edges = [size * i // parts for i in range(parts + 1)]
-    for start, stop in itertools.pairwise(edges):
+    edges = _part_edges(size)
+    for index, (start, stop) in enumerate(itertools.pairwise(edges)):
         deadline_check(deadline)
         part = counts[start:stop]
-        part[:] = multinomial_counts(plan, rng, stop - start)
+        if drawn is None:
+            part[:] = multinomial_counts(plan, rng, stop - start)
+        else:
+            drawn[1](index)
         view = Rows(part.astype(np.float64), None, True, part, plan.draws, scratch)
         for name, values in statistics.order_statistics(view, probabilities, wanted).items():
             if name not in ordered:
@@ -153,6 +171,78 @@ def _in_large_groups(medians: np.ndarray, least: int) -> np.ndarray:
     """Whether each row's (finite) median is shared by more than ``least`` rows."""
     _, which, sizes = np.unique(medians, return_inverse=True, return_counts=True)
     return (sizes[which] > least) & np.isfinite(medians)
+
+
+def _drawn_ahead(
+    plan: Plan,
+    statistics: Statistics,
+    planned: list[tuple[np.random.Generator, int]],
+    probabilities: np.ndarray,
+    wanted: tuple[str, ...],
+    deadline: float | None,
+    threads: int,
+) -> list[dict[str, np.ndarray]]:
+    """Every multinomial batch, drawn part after part by one pool thread while this thread reads
+    each part as soon as it is drawn (:func:`_in_parts`).
+
+    The generator releases the GIL and the reading mostly holds it, so one thread drawing beside
+    one reading overlaps them, where two threads each drawing and reading a batch contend for
+    the GIL while they read. Each batch is drawn by its own generator in order, so the values are
+    the same bit for bit. At most two batches' counts exist at once, as with two threads each
+    holding one.
+    """
+    k = plan.values.size
+    jobs = [(rng, size, [threading.Event() for _ in range(len(_part_edges(size)) - 1)]) for rng, size in planned]
+    arrays: list[np.ndarray | None] = [None] * len(jobs)
+    allocated = [threading.Event() for _ in jobs]
+    room = threading.Semaphore(2)
+    stopped = threading.Event()
+
+    def draw_all() -> None:
+        for index, (rng, size, ready) in enumerate(jobs):
+            room.acquire()
+            if stopped.is_set():
+                return
+            counts = np.empty((size, k), dtype=np.int64)
+            arrays[index] = counts
+            allocated[index].set()
+            for (start, stop), event in zip(itertools.pairwise(_part_edges(size)), ready):
+                if stopped.is_set():
+                    return
+                counts[start:stop] = multinomial_counts(plan, rng, stop - start)
+                event.set()
+
+    drawer = pool(threads).submit(draw_all)
+
+    def wait(event: threading.Event) -> None:
+        while not event.wait(0.05):
+            if drawer.done():
+                drawer.result()  # the drawer's error, if it failed
+                if not event.is_set():
+                    raise RuntimeError("the resampling draws stopped before this part")
+            deadline_check(deadline)
+
+    scratch = Scratch()
+    outputs = []
+    try:
+        for index, (rng, size, ready) in enumerate(jobs):
+            wait(allocated[index])
+            counts = arrays[index]
+            assert counts is not None
+            outputs.append(
+                _in_parts(
+                    plan, statistics, rng, size, probabilities, wanted, deadline, scratch,
+                    drawn=(counts, lambda part, ready=ready: wait(ready[part])),
+                )
+            )
+            arrays[index] = None
+            room.release()
+        drawer.result()
+    finally:
+        stopped.set()
+        room.release()
+        room.release()
+    return outputs
 
 
 def bootstrap(
@@ -252,7 +342,13 @@ def bootstrap(
     early = options.method == "bca" and parallel and k * (probabilities.size + 48) * 8 <= EARLY_JACKKNIFE_BYTES
     # numpy releases the GIL in the heavy loops, so batches overlap on the cores; each batch has
     # its own generator, so the result does not depend on which thread ran it.
-    if not parallel:
+    ahead = in_parts and all(size >= 2 * PIPELINE_ROWS for _, size in planned)
+    if ahead:
+        # One thread draws, this one reads (the jackknife, small here, runs after).
+        early = False
+        with np.errstate(all="ignore"):
+            outputs = _drawn_ahead(plan, statistics, planned, probabilities, wanted, deadline, threads)
+    elif not parallel:
         outputs = [run(batch) for batch in planned]
     else:
         futures = [pool(threads).submit(run, batch) for batch in planned]
