@@ -23,7 +23,7 @@ from tailgauge.core import (
     restricted,
     restricted_comparison,
 )
-from tailgauge.core import lmoments, robust
+from tailgauge.core import half_sample, lmoments, robust
 from tailgauge.core.registry import SCALAR_DESCRIPTORS, names
 from tailgauge.core.selection import CHOICES, FAMILIES, MEMBERS, UnknownName, shown_warnings
 
@@ -93,7 +93,7 @@ def test_costly_descriptors_are_not_computed_unless_asked(monkeypatch):
         raise AssertionError("computed although not asked for")
 
     monkeypatch.setattr(robust, "medcouple", refuse)
-    monkeypatch.setattr(robust, "half_sample_mode", refuse)
+    monkeypatch.setattr(half_sample, "half_sample_mode", refuse)
     monkeypatch.setattr(lmoments, "sample_lmoments", refuse)
     data = from_array(SAMPLE)
     options = DescribeOptions(descriptors=choose(["mean", "quantiles", "median_absolute_deviation"]))

@@ -8,7 +8,7 @@ import math
 import numpy as np
 from scipy import stats
 
-from tailgauge.core import lmoments, robust
+from tailgauge.core import half_sample, lmoments, robust
 from tailgauge.core.describe.basis import Basis
 from tailgauge.core.describe.warnings import Warnings, finite_or_none
 from tailgauge.core.describe.results import Descriptor
@@ -74,9 +74,9 @@ def robust_descriptors(
         if not selection.computes("half_sample_mode"):
             pass
         elif data.meaning is WeightMeaning.UNIT:
-            hsm = robust.half_sample_mode(data.sorted_values)
+            hsm = half_sample.half_sample_mode(data.sorted_values)
         elif data.integer_weights:
-            hsm = robust.half_sample_mode(data.support.values, data.support.weights)
+            hsm = half_sample.half_sample_mode(data.support.values, data.support.weights)
         else:
             notes.add(
                 WarningCode.NEEDS_VALUES,
