@@ -186,9 +186,7 @@ def describe(data: WeightedData, options: DescribeOptions, *, kind: str) -> Desc
             n=None if data.meaning is WeightMeaning.PROBABILITY else _count_value(data),
             total_weight=data.total_weight,
             omitted=data.omitted,
-            distinct_values=_distinct_values(
-                data, (selection.needs_sort and not unsorted) or options.interval is not None
-            ),
+            distinct_values=_distinct_values(data, _sorts(data, options)),
             zero_weight=data.zero_weight,
             effective_n=data.effective_size if data.meaning is WeightMeaning.RELIABILITY else None,
         ),

@@ -12,7 +12,7 @@ from tailgauge.core.describe.basis import Basis
 from tailgauge.core.describe.warnings import Warnings, finite_or_none
 from tailgauge.core.describe.options import DescribeOptions
 from tailgauge.core.describe.results import Descriptor, Grouping, ModalClass, Modes
-from tailgauge.core.registry import WarningCode
+from tailgauge.core.registry import WarningCode, names
 from tailgauge.core.weighted import WeightedData, WeightMeaning
 
 NORMAL_MAD_LABEL = (
@@ -116,8 +116,7 @@ def order_descriptors(
 
 
 # Computed from the sorted data (or its support) beside the order statistics themselves.
-_SORT_USERS = frozenset(("medcouple", "half_sample_mode", "modes", "quartile_skewness", "octile_kurtosis",
-                         "octile_excess_kurtosis", "l_location", "l_scale", "l_skewness", "l_kurtosis"))
+_SORT_USERS = frozenset(QUANTILE_SHAPE_DESCRIPTORS + names("l_moment") + ("medcouple", "half_sample_mode", "modes"))
 
 
 def selects_without_sorting(data: WeightedData, options: DescribeOptions) -> bool:
