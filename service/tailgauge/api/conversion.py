@@ -10,9 +10,10 @@ result type must be read, except the exceptions declared below with their reason
 must still be true). A mismatch is a :class:`ConversionMismatch` naming both types and fields.
 
 A core mapping (``dict[str, Descriptor]``) sent as a Struct of named members (``Descriptors``)
-is checked by msgspec itself at each conversion: an unknown key is an error. Its members may
-only default to UNSET (absent from the answer), for what ``options.descriptors`` leaves out; the
-core checks that every descriptor asked for is in its mapping (``describe.restricted``).
+is checked at each conversion: an unknown key is msgspec's error. Its members may only default
+to UNSET (absent from the answer), for what ``options.descriptors`` leaves out, so a missing key
+is checked here instead: every descriptor the result does not list in ``absent`` must be in its
+mapping (:func:`_leave_out`).
 
 Members a result lists in ``absent`` (left out by ``options.descriptors``) are sent as UNSET,
 so they are absent from the answer, not null.

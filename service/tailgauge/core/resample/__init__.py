@@ -336,16 +336,19 @@ def bootstrap(
         return values, np.where(present, plan.base / plan.unit, 0.0)
 
     jackknife = jackknife_weights = None
-    # A small jackknife is computed by this thread while the batches run: its values (one per
-    # support row and statistic) within EARLY_JACKKNIFE_BYTES, its working memory bounded by
-    # evaluate's parts. A large one runs after the batches, once their buffers are gone.
-    early = options.method == "bca" and parallel and k * (probabilities.size + 48) * 8 <= EARLY_JACKKNIFE_BYTES
+    # Multinomial batches all large enough to read in parts: one thread draws, this one reads.
+    ahead = in_parts and all(size >= 2 * PIPELINE_ROWS for _, size in planned)
+    # Otherwise a small jackknife is computed by this thread while the batches run: its values
+    # (one per support row and statistic) within EARLY_JACKKNIFE_BYTES, its working memory bounded
+    # by evaluate's parts. A large one (and any when this thread reads) runs after the batches,
+    # once their buffers are gone.
+    early = (
+        options.method == "bca" and parallel and not ahead
+        and k * (probabilities.size + 48) * 8 <= EARLY_JACKKNIFE_BYTES
+    )
     # numpy releases the GIL in the heavy loops, so batches overlap on the cores; each batch has
     # its own generator, so the result does not depend on which thread ran it.
-    ahead = in_parts and all(size >= 2 * PIPELINE_ROWS for _, size in planned)
     if ahead:
-        # One thread draws, this one reads (the jackknife, small here, runs after).
-        early = False
         with np.errstate(all="ignore"):
             outputs = _drawn_ahead(plan, statistics, planned, probabilities, wanted, deadline, threads)
     elif not parallel:
