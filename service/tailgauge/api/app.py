@@ -12,7 +12,7 @@ from litestar.exceptions import HTTPException
 from litestar.handlers.base import BaseRouteHandler
 
 from tailgauge.runtime import logs
-from tailgauge.api import openapi, problems, routes
+from tailgauge.api import compression, openapi, problems, routes
 from tailgauge.api.docs import asset, schema_page
 from tailgauge.api.observe import REQUEST_ID_HEADER, observe
 from tailgauge.api.problems import ApiProblem
@@ -111,11 +111,12 @@ def create_app(settings: Settings | None = None) -> Litestar:
     settings = settings or Settings()
     if settings.request_log:
         logs.configure()
-    document = openapi.document_bytes(metrics_require_token=settings.metrics_require_token)
+    document = compression.Prepared(openapi.document_bytes(metrics_require_token=settings.metrics_require_token))
 
     @get("/openapi.json", include_in_schema=False, sync_to_thread=False)
-    def openapi_document() -> Response[bytes]:
-        return Response(document, media_type="application/json")
+    def openapi_document(request: Request) -> Response[bytes]:
+        body, headers = document.answer(compression.accepts_gzip(request.headers.getall("accept-encoding", [])))
+        return Response(body, media_type="application/json", headers=headers)
 
     cors = None
     if settings.cors_origins:
