@@ -157,6 +157,20 @@ def test_the_admission_bound_and_the_plan_see_the_inflated_body(make_client, mon
     assert seen == [len(small)]
 
 
+def test_the_plan_counts_the_compressed_bytes_held_beside_the_inflated_body():
+    from tailgauge.api.media import JSON_CODEC
+    from tailgauge.settings import Settings
+
+    plain = json.dumps({"values": [float(i) for i in range(20_000)]}).encode()
+    packed = gzip.compress(plain)
+    inflated = inflate(packed, 1 << 20)
+    assert inflated == plain and inflated.compressed_size == len(packed)
+    settings = Settings()
+    difference = (admission.decoding_bytes(inflated, JSON_CODEC, settings)
+                  - admission.decoding_bytes(plain, JSON_CODEC, settings))
+    assert difference == len(packed)
+
+
 # ---- gzip answers -------------------------------------------------------------------------------
 
 

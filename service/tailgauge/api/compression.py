@@ -4,7 +4,7 @@ Request bodies (``Content-Encoding: gzip``): inflated by a streaming decompresso
 produces more than the limit plus one byte, so a gzip bomb (a few kilobytes that inflate to
 gigabytes) is a 413 after at most ``max_body_bytes + 1`` bytes of output, and the decoded body
 then meets every check a plain body meets (admission's decoding bound and the memory plan see
-the decoded size). Any other content coding is a 415 (``media.content_coding``).
+the decoded size, and the plan adds the compressed bytes held beside it). Any other content coding is a 415 (``media.content_coding``).
 
 Answers: gzip when the request's ``Accept-Encoding`` accepts it (RFC 9110, section 12.5.3:
 quality values honoured, ``gzip;q=0`` refuses it, ``*`` stands for codings not named) and the
@@ -43,7 +43,17 @@ _STEP = 1 << 20
 MAX_MEMBERS = 64
 
 
-def inflate(body: bytes, limit: int) -> bytes:
+class Inflated(bytes):
+    """An inflated request body; ``compressed_size``: the bytes it came in, still held beside it.
+
+    The request keeps its compressed body while it computes, so the memory plan counts both
+    (``admission``: the body's own length plus ``compressed_size``).
+    """
+
+    compressed_size: int = 0
+
+
+def inflate(body: bytes, limit: int) -> Inflated:
     """``body`` (gzip, one or more members) inflated, never past ``limit`` bytes: 413 beyond, 400 if not gzip."""
     parts: list[bytes] = []
     size = 0
@@ -77,7 +87,9 @@ def inflate(body: bytes, limit: int) -> bytes:
         pending = decompressor.unused_data
         if not pending:
             break
-    return b"".join(parts)
+    inflated = Inflated(b"".join(parts))
+    inflated.compressed_size = len(body)
+    return inflated
 
 
 def _not_gzip(why: str) -> ApiProblem:
@@ -140,4 +152,4 @@ class Prepared:
         return self.body, {VARY[0]: VARY[1]}
 
 
-__all__ = ["MIN_GZIP_BYTES", "Prepared", "accepts_gzip", "answer", "inflate"]
+__all__ = ["MIN_GZIP_BYTES", "Inflated", "Prepared", "accepts_gzip", "answer", "inflate"]
