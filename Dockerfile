@@ -18,6 +18,23 @@ COPY service ./service
 RUN /opt/venv/bin/pip install --no-cache-dir -c requirements.lock .
 
 FROM ${BASE_IMAGE} AS runtime
+# OCI image annotations (github.com/opencontainers/image-spec, annotations.md). VERSION must equal
+# pyproject.toml's version (deploy/check-container.sh checks it); REVISION and CREATED are given
+# by the build (the check passes the commit and the time). The URL is a placeholder, like the
+# image name in deploy/k8s.
+ARG BASE_IMAGE
+ARG VERSION=0.1.0
+ARG REVISION=unknown
+ARG CREATED=unknown
+LABEL org.opencontainers.image.title="tailgauge" \
+      org.opencontainers.image.description="Descriptors of a distribution over HTTP, with named estimator conventions." \
+      org.opencontainers.image.version="${VERSION}" \
+      org.opencontainers.image.revision="${REVISION}" \
+      org.opencontainers.image.created="${CREATED}" \
+      org.opencontainers.image.licenses="LicenseRef-Proprietary" \
+      org.opencontainers.image.vendor="Tailgauge maintainers" \
+      org.opencontainers.image.source="https://git.example.com/tailgauge/tailgauge" \
+      org.opencontainers.image.base.name="${BASE_IMAGE}"
 # PROMETHEUS_MULTIPROC_DIR lives under /tmp because the root filesystem is read-only;
 # deploy/gunicorn.conf.py creates it at start.
 ENV PATH=/opt/venv/bin:$PATH \

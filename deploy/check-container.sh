@@ -1,14 +1,20 @@
 #!/usr/bin/env bash
-# Container checks: lint the Dockerfile and validate the Kubernetes manifests, then build the
-# image with podman on a Debian base made by debootstrap, run it read-only and stop it, and
-# play the Deployment with `podman kube play`. Installs what it needs (apt, pip); needs root.
+# Container checks: lint the Dockerfile and validate the Kubernetes manifests (schema, and the
+# platform rules of tests/deploy/test_manifests.py), then build the image with podman on a Debian
+# base made by debootstrap (OCI labels checked), run it read-only and stop it, and play the
+# Deployment with `podman kube play`. In both runs: JSON log lines without terminal escapes, gzip
+# both ways, /metrics with one charset and the build-info gauge, the worker count from the CPU
+# quota. Installs what it needs (apt, pip); needs root.
 #
 # Usage: deploy/check-container.sh   (from anywhere; .ci/run calls it after `make test`)
 # Environment:
 #   TAILGAUGE_BASE_CACHE  where the debootstrap root filesystem is cached between runs
 #                         (default /var/tmp/tailgauge-pybase; delete it to refresh the base)
 #   DEBIAN_MIRROR         mirror for debootstrap (default http://deb.debian.org/debian)
-# The image stays as localhost/tailgauge:check; the containers and the pod it starts are removed.
+#   TAILGAUGE_CHECK_IMAGE the image's name (default localhost/tailgauge:check; another name keeps
+#                         two checkouts checked on one machine from replacing each other's image)
+# The image stays (as localhost/tailgauge:check by default); the containers and the pod it
+# starts are removed.
 set -euo pipefail
 cd "$(dirname "$0")/.."
 ROOT=$PWD
@@ -18,7 +24,7 @@ CACHE_DIR=${TAILGAUGE_BASE_CACHE:-/var/tmp/tailgauge-pybase}
 MIRROR=${DEBIAN_MIRROR:-http://deb.debian.org/debian}
 BASE_TARBALL="$CACHE_DIR/bookworm-python3-rootfs.tar"
 BASE_IMAGE=localhost/tailgauge-pybase:bookworm
-IMAGE=localhost/tailgauge:check
+IMAGE=${TAILGAUGE_CHECK_IMAGE:-localhost/tailgauge:check}
 HOST_CA=/etc/ssl/certs/ca-certificates.crt
 RUN_NAME="tailgauge-check-$$"
 KUBE_NAME="tailgauge-check-$$"
@@ -136,9 +142,11 @@ EOF
 
 # After exactly one POST to the samples route: /metrics, answered by whichever worker, counts
 # it once (the workers' values are summed from files under PROMETHEUS_MULTIPROC_DIR).
+# The exposition's type carries one charset, and one tailgauge_build_info series (no pid label)
+# names the image's version.
 check_metrics() {
     local url=$1
-    curl -fsS --max-time 5 -o "$WORK/metrics.txt" "$url" || fail "GET $url failed"
+    curl -fsS --max-time 5 -D "$WORK/metrics.headers" -o "$WORK/metrics.txt" "$url" || fail "GET $url failed"
     python3 - "$WORK/metrics.txt" <<'EOF' || fail "$url does not count the one sample request"
 import re, sys
 
@@ -146,6 +154,45 @@ pattern = re.compile(r'^tailgauge_http_requests_total\{(?=[^}]*route="/v1/descri
                      r'(?=[^}]*method="POST")(?=[^}]*status="200")[^}]*\} (\S+)$', re.M)
 counts = [float(c) for c in pattern.findall(open(sys.argv[1]).read())]
 assert counts == [1.0], counts
+EOF
+    grep -qix 'content-type: text/plain; version=1.0.0; charset=utf-8'$'\r' "$WORK/metrics.headers" \
+        || fail "$url content type: $(grep -i '^content-type' "$WORK/metrics.headers")"
+    [[ $(grep -c '^tailgauge_build_info{' "$WORK/metrics.txt") -eq 1 ]] \
+        && grep -q "^tailgauge_build_info{.*version=\"$VERSION\".*} 1.0\$" "$WORK/metrics.txt" \
+        || fail "$url has not one build-info series of version $VERSION: $(grep build_info "$WORK/metrics.txt")"
+}
+
+# The sample gzip-compressed, asking for a gzip answer: both ways must work (the answer, about
+# 9 kB of JSON, is above the 1,400-byte threshold).
+check_gzip() {
+    local url=$1
+    printf '%s' "$SAMPLE_BODY" | gzip -c >"$WORK/sample.json.gz"
+    curl -fsS --max-time 20 -D "$WORK/gzip.headers" -o "$WORK/gzip-answer.gz" -H 'Content-Type: application/json' \
+        -H 'Content-Encoding: gzip' -H 'Accept-Encoding: gzip' --data-binary "@$WORK/sample.json.gz" "$url" \
+        || fail "POST $url with a gzip body failed"
+    grep -qi '^content-encoding: gzip' "$WORK/gzip.headers" || fail "$url did not answer with gzip"
+    grep -qi '^vary: accept-encoding' "$WORK/gzip.headers" || fail "$url answered without Vary: Accept-Encoding"
+    gzip -dc "$WORK/gzip-answer.gz" >"$WORK/answer.json" || fail "the gzip answer of $url does not inflate"
+    python3 -c 'import json, sys; assert json.load(open(sys.argv[1]))["descriptors"]["mean"]["value"] == 4.0' \
+        "$WORK/answer.json" || fail "unexpected gzip answer from $url"
+}
+
+# Every line the container wrote is one JSON object, with no terminal escape (raw or as a JSON
+# \u001b escape) and no uvicorn color_message field; $2 workers booted.
+check_logs() {
+    local log=$1 workers=$2
+    python3 - "$log" "$workers" <<'EOF' || { tail -n 20 "$log" >&2; fail "the container's log lines are not clean JSON"; }
+import json, sys
+
+lines = [line for line in open(sys.argv[1], encoding="utf-8") if line.strip()]
+assert lines, "no log lines"
+booted = 0
+for line in lines:
+    assert "\x1b" not in line and "\\u001b" not in line and "\x9b" not in line, line
+    record = json.loads(line)
+    assert isinstance(record, dict) and "color_message" not in record, line
+    booted += str(record.get("message", "")).startswith("Booting worker with pid")
+assert booted == int(sys.argv[2]), f"{booted} workers booted, expected {sys.argv[2]}"
 EOF
 }
 
@@ -174,6 +221,9 @@ step "kubernetes-validate deploy/k8s"
 .venv/bin/kubernetes-validate --strict -k 1.29.0 deploy/k8s/*.yaml 2>&1 | tee "$WORK/validate.log"
 [[ ${PIPESTATUS[0]} -eq 0 ]] || fail "kubernetes-validate rejected a manifest"
 if grep -q WARN "$WORK/validate.log"; then fail "kubernetes-validate printed a warning"; fi
+# What the schema cannot say: spread, NetworkPolicy ports, ServiceAccount, memory, labels.
+.venv/bin/python -m pytest -p no:cacheprovider -q tests/deploy/test_manifests.py \
+    || fail "the manifests break a platform rule (tests/deploy/test_manifests.py)"
 
 step "base image $BASE_IMAGE"
 if podman image exists "$BASE_IMAGE"; then
@@ -196,6 +246,11 @@ else
     quietly import podman import "$BASE_TARBALL" "$BASE_IMAGE"
 fi
 
+VERSION=$(.venv/bin/python -c 'import tomllib; print(tomllib.load(open("pyproject.toml", "rb"))["project"]["version"])')
+REVISION=$(git rev-parse HEAD 2>/dev/null || echo unknown)
+# Workers the quota of $1 CPUs gives (rounded up), never more than this machine's CPUs.
+expected_workers() { local w=$1; (($(nproc) < w)) && w=$(nproc); echo "$w"; }
+
 step "podman build $IMAGE"
 previous_image=$(podman image inspect --format '{{.Id}}' "$IMAGE" 2>/dev/null || true)
 build_volumes=()
@@ -203,7 +258,8 @@ build_volumes=()
 [[ -r $HOST_CA ]] && build_volumes=(-v "$HOST_CA:/etc/ssl/certs/ca-certificates.crt:ro")
 # --layers=false: no intermediate images are left behind to pile up from run to run.
 quietly build podman build --format docker --layers=false --pull=never --build-arg "BASE_IMAGE=$BASE_IMAGE" \
-    "${build_volumes[@]}" -t "$IMAGE" .
+    --build-arg "VERSION=$VERSION" --build-arg "REVISION=$REVISION" \
+    --build-arg "CREATED=$(date -u +%Y-%m-%dT%H:%M:%SZ)" "${build_volumes[@]}" -t "$IMAGE" .
 new_image=$(podman image inspect --format '{{.Id}}' "$IMAGE")
 # The image this script built last time, now untagged; nothing else is pruned.
 if [[ -n $previous_image && $previous_image != "$new_image" ]]; then
@@ -213,18 +269,39 @@ fi
     || fail "the image has no HEALTHCHECK"
 [[ $(podman image inspect --format '{{.Config.User}}' "$IMAGE") == 10001:10001 ]] \
     || fail "the image does not run as user 10001"
+podman image inspect --format '{{json .Labels}}' "$IMAGE" >"$WORK/labels.json"
+python3 - "$WORK/labels.json" "$VERSION" "$REVISION" <<'EOF' || fail "OCI labels: $(cat "$WORK/labels.json")"
+import json, sys
+
+labels, version, revision = json.load(open(sys.argv[1])), sys.argv[2], sys.argv[3]
+prefix = "org.opencontainers.image."
+for key in ("title", "description", "version", "revision", "created", "licenses", "vendor", "source", "base.name"):
+    assert labels.get(prefix + key) not in (None, "", "unknown"), key
+assert labels[prefix + "version"] == version, (labels[prefix + "version"], version)
+assert labels[prefix + "revision"] == revision
+EOF
+
+step "worker count from the CPU quota (--cpus 1 and 1.5)"
+for quota in 1:1 1.5:2; do
+    workers=$(podman run --rm --cpus "${quota%%:*}" --cap-drop=ALL --read-only "$IMAGE" \
+        python -c 'from tailgauge.runtime.cpus import default_workers; print(default_workers())') \
+        || fail "podman run --cpus ${quota%%:*} failed"
+    expected=$(expected_workers "${quota#*:}")
+    [[ $workers == "$expected" ]] || fail "--cpus ${quota%%:*}: $workers default workers, expected $expected"
+done
 
 step "run read-only on 127.0.0.1, POST a sample"
 port=$(free_port)
 RUN_STARTED=1
 quietly start podman run --detach --name "$RUN_NAME" --read-only --read-only-tmpfs=false \
     --tmpfs /tmp:rw,size=64m,mode=1777 --cap-drop=ALL --security-opt=no-new-privileges \
-    --health-interval=disable --env WEB_CONCURRENCY=2 --publish "127.0.0.1:$port:8000" "$IMAGE"
+    --health-interval=disable --cpus 2 --publish "127.0.0.1:$port:8000" "$IMAGE"
 wait_for_http "http://127.0.0.1:$port/health/ready" 60 "$RUN_NAME"
 curl -fsS --max-time 2 "http://127.0.0.1:$port/health/live" >/dev/null || fail "/health/live did not answer"
 check_sample_request "http://127.0.0.1:$port/v1/descriptors/samples"
 quietly healthcheck podman healthcheck run "$RUN_NAME"
 check_metrics "http://127.0.0.1:$port/metrics"
+check_gzip "http://127.0.0.1:$port/v1/descriptors/samples"
 
 step "graceful stop (SIGTERM) with a request in flight"
 # A bootstrap request that computes for a second or more, sent just before the SIGTERM: the
@@ -251,6 +328,8 @@ if [[ $exit_code -ne 0 ]]; then
 fi
 ((stop_seconds < GRACEFUL_SECONDS)) || fail "stopping took ${stop_seconds}s, not under ${GRACEFUL_SECONDS}s"
 grep -q "Handling signal: term" "$WORK/run.log" || fail "gunicorn did not log the SIGTERM it handled"
+# --cpus 2 without WEB_CONCURRENCY: two workers, from the quota.
+check_logs "$WORK/run.log" "$(expected_workers 2)"
 [[ $(cat "$WORK/slow-status") == 200 ]] \
     || fail "the request in flight at SIGTERM got '$(cat "$WORK/slow-status")' $(cat "$WORK/slow-error")"
 python3 -c 'import json, sys
@@ -287,10 +366,14 @@ wait_for_http "http://127.0.0.1:$kube_port/health/ready" 60 "$pod_container"
 curl -fsS --max-time 2 "http://127.0.0.1:$kube_port/health/live" >/dev/null || fail "/health/live did not answer in the pod"
 check_sample_request "http://127.0.0.1:$kube_port/v1/descriptors/samples"
 check_metrics "http://127.0.0.1:$kube_port/metrics"
+check_gzip "http://127.0.0.1:$kube_port/v1/descriptors/samples"
 [[ $(podman inspect --format '{{.HostConfig.ReadonlyRootfs}}' "$pod_container") == true ]] \
     || fail "the pod's root filesystem is writable (readOnlyRootFilesystem not applied)"
 [[ $(podman exec "$pod_container" python -c 'import os; print(os.getuid())') == 10001 ]] \
     || fail "the pod's container does not run as uid 10001"
+# The Deployment sets no WEB_CONCURRENCY: its CPU limit (2) sets the worker count.
+podman logs "$pod_container" >"$WORK/kube.log" 2>&1
+check_logs "$WORK/kube.log" "$(expected_workers 2)"
 quietly kube-down podman kube down "$WORK/deployment.yaml"
 KUBE_PLAYED=0
 end_step

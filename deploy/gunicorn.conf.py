@@ -1,5 +1,9 @@
 """gunicorn settings for Tailgauge: uvicorn workers, one per CPU unless WEB_CONCURRENCY says otherwise.
 
+CPUs: the cgroup CPU quota when there is one (cgroup v2 cpu.max, v1 cpu.cfs_quota_us over
+cpu.cfs_period_us; the smallest along the process's cgroup and its parents), rounded up, never
+more than the CPUs the process may run on; without a quota, those CPUs (service/tailgauge/runtime/cpus.py).
+
 Environment: BIND (default 127.0.0.1:8000), WEB_CONCURRENCY (worker count), WORKER_TMP_DIR
 (default /tmp: must be writable, also under a read-only root filesystem), and
 PROMETHEUS_MULTIPROC_DIR (default: a fresh directory per server under the temporary directory).
@@ -10,12 +14,7 @@ import os
 import shutil as _shutil
 import tempfile as _tempfile
 
-
-def _cpu_count() -> int:
-    try:
-        return len(os.sched_getaffinity(0))
-    except AttributeError:
-        return os.cpu_count() or 1
+from tailgauge.runtime import cpus as _cpus
 
 
 # One worker per core already uses the cores; BLAS threads inside each worker (next to the
@@ -24,13 +23,13 @@ def _cpu_count() -> int:
 os.environ.setdefault("OPENBLAS_NUM_THREADS", "1")
 
 def _worker_count() -> int:
-    """WEB_CONCURRENCY as a whole number >= 1, else the CPU count; anything else stops the start.
+    """WEB_CONCURRENCY as a whole number >= 1, else one per CPU of the quota; anything else stops the start.
 
     gunicorn itself starts with 0 or a negative count and then serves nothing, forever.
     """
     raw = os.environ.get("WEB_CONCURRENCY")
     if raw is None:
-        return _cpu_count()
+        return _cpus.default_workers()
     try:
         count = int(raw.strip())
     except ValueError:

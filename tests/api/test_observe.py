@@ -172,7 +172,9 @@ GET_ROUTES = ["/health/live", "/health/ready", "/metrics", "/openapi.json", "/do
 @pytest.mark.parametrize("path", GET_ROUTES)
 def test_head_answers_every_get_route_with_the_get_headers_and_no_body(make_client, path):
     client = make_client(request_log=False)
-    got, head = client.get(path), client.head(path)
+    # Plain answers, so that Content-Length can be compared with the body (httpx asks for gzip).
+    plain = {"accept-encoding": "identity"}
+    got, head = client.get(path, headers=plain), client.head(path, headers=plain)
     assert got.status_code == head.status_code == 200
     assert head.content == b""
     # /metrics grows between the two requests (the GET itself is counted): its length differs.
@@ -202,3 +204,19 @@ def test_invented_methods_share_one_label(make_client):
         client.request(f"BREW{i}", "/nowhere")
     assert _sample("tailgauge_http_requests_total", route="unmatched", method="other", status="404") == before + 5
     assert _sample("tailgauge_http_requests_total", route="unmatched", method="BREW1", status="404") == 0.0
+
+
+# Regression (issue 20): /metrics answered "text/plain; version=1.0.0; charset=utf-8; charset=utf-8".
+def test_metrics_type_has_one_charset_and_the_build_is_described(make_client):
+    import platform
+
+    import numpy
+
+    import tailgauge
+
+    client = make_client(request_log=False)
+    answer = client.get("/metrics")
+    assert answer.headers["content-type"] == "text/plain; version=1.0.0; charset=utf-8"
+    assert answer.headers["content-type"].count("charset") == 1
+    labels = {"version": tailgauge.__version__, "python": platform.python_version(), "numpy": numpy.__version__}
+    assert _sample("tailgauge_build_info", **labels) == 1.0

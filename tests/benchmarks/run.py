@@ -508,6 +508,14 @@ def bench_cost() -> None:
     subprocess.run([sys.executable, str(HERE / "cost.py")] + (["--quick"] if QUICK else []), check=True, cwd=TREE)
 
 
+def bench_gzip() -> None:
+    """Compressed sizes, segments and times of the service's answers (compression.py)."""
+    import compression
+
+    print("gzip: the service's answers compressed at levels 1, 6, 9 (api/compression.py's threshold)")
+    compression.main(QUICK)
+
+
 def _http(name: str) -> Callable[[], None]:
     def section() -> None:
         import http_sections
@@ -530,6 +538,7 @@ SECTIONS: dict[str, tuple[Callable[..., None], str]] = {
     "merge": (bench_merge, "10,000 partial states; the Dask recipe (size: merge=1e8)"),
     "transport": (bench_transport, "1e6 values through gunicorn by body format (size: transport=1e6)"),
     "cost": (bench_cost, "the cost model beside measured memory and time"),
+    "gzip": (bench_gzip, "answers compressed at levels 1, 6, 9: sizes, TCP segments, times"),
 }
 SIZED = {"order", "quantiles", "moments", "merge", "transport"}
 

@@ -479,11 +479,12 @@ def build() -> Corpus:
     c.add("bins", "accept-catalog-q0", b"", "bin", 406, "not-acceptable", ["header.accept"],
           "the catalog with q=0 for both its formats", content_type=None,
           accept="application/json;q=0, application/msgpack;q=0", method="GET", target="/v1/catalog")
-    c.add("samples", "gzip-content-encoding", gzip.compress(valid_json["samples"], mtime=0), "bin", 415,
-          "unsupported-media-type", ["header.content-encoding"], "a gzip body (refused, not read as plain)",
-          content_type=JSON, headers=[["Content-Encoding", "gzip"]])
+    # Gzip bodies are inflated (issue 20); a plain body labelled gzip is not read as plain.
+    c.add("samples", "gzip-label-on-plain-body", valid_json["samples"], "bin", 400,
+          "invalid-body", ["$"], "plain JSON labelled Content-Encoding: gzip (not read as plain)",
+          content_type=JSON, headers=[["Content-Encoding", "gzip"]], says=["not valid gzip data"])
     c.add("merge", "deflate-content-encoding", valid_json["merge"], "json", 415, "unsupported-media-type",
-          ["header.content-encoding"], "labelled deflate (any coding but identity is refused)",
+          ["header.content-encoding"], "labelled deflate (any coding but gzip and identity is refused)",
           headers=[["Content-Encoding", "deflate"]])
     c.add("comparisons", "two-authorization-headers", valid_json["comparisons"], "json", 400, "invalid-header",
           ["header.authorization"], "two Authorization lines: which one counts would be a guess",
@@ -497,6 +498,19 @@ def build() -> Corpus:
     c.both("comparisons", "skewness-estimator-unknown", with_changes("comparisons", options={"skewness_estimator": "G3"}),
            *bad, ["$.options.skewness_estimator"], "a skewness family that does not exist",
            says=["'G3' is not one of: g1, G1, b1, or null"])
+
+    # ---- gzip request bodies (issue 20) ---------------------------------------------------------
+    c.category = "request-edges"
+    bomb = b'{"values": [1' + b" " * 4_000_000 + b"]}"
+    c.add("samples", "gzip-bomb", gzip.compress(bomb, 9, mtime=0), "bin", 413, "body-too-large", ["$"],
+          f"a few kB of gzip that inflate to 4 MB, beyond the {SETTINGS['max_body_bytes']}-byte body limit",
+          content_type=JSON, headers=[["Content-Encoding", "gzip"]], says=["inflates past this server's limit"])
+    c.add("samples", "gzip-truncated", gzip.compress(valid_json["samples"], mtime=0)[:-6], "bin", 400,
+          "invalid-body", ["$"], "a gzip body cut before its trailer", content_type=JSON,
+          headers=[["Content-Encoding", "gzip"]], says=["ends before its last member does"])
+    c.add("table", "gzip-twice", gzip.compress(gzip.compress(valid_json["table"], mtime=0), mtime=0), "bin", 415,
+          "unsupported-media-type", ["header.content-encoding"], "gzip applied twice (one layer is inflated)",
+          content_type=JSON, headers=[["Content-Encoding", "gzip, gzip"]])
     return c
 
 

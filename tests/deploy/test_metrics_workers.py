@@ -123,3 +123,28 @@ def test_metrics_sum_over_both_workers(server, tmp_path):
     assert sum(served.values()) == N
     # Every scrape sees the same total, whichever worker answers it.
     assert {_count(httpx.get(base + "/metrics", timeout=10).text) for _ in range(6)} == {N}
+
+
+# Issue 20: one build-info series for the whole server (no pid label), from both workers' files,
+# and the exposition's content type carries one charset.
+def test_build_info_is_one_series_across_workers_and_the_type_has_one_charset(server):
+    import platform
+
+    import numpy
+
+    import tailgauge
+
+    base, metrics_dir = server
+    assert len(list(metrics_dir.glob("gauge_livemax_*.db"))) == 2  # one file per worker
+    for _ in range(4):
+        answer = httpx.get(base + "/metrics", timeout=10)
+        assert answer.headers["content-type"] == "text/plain; version=1.0.0; charset=utf-8"
+        builds = [
+            sample
+            for family in text_string_to_metric_families(answer.text)
+            for sample in family.samples
+            if sample.name == "tailgauge_build_info"
+        ]
+        assert [(sample.labels, sample.value) for sample in builds] == [
+            ({"version": tailgauge.__version__, "python": platform.python_version(), "numpy": numpy.__version__}, 1.0)
+        ]

@@ -794,13 +794,20 @@ def test_two_authorization_headers_are_400(hostile):
         assert same.problem().get("status") == 400, f"not a problem document: {same.shown()}"
 
 
-def test_gzip_content_encoding_is_415(hostile):
+def test_gzip_content_encoding_is_inflated_within_the_limit(hostile):
+    # Issue 20: gzip bodies are inflated, never past the body limit (32 MiB by default): a bomb of
+    # about 100 kB that would inflate to 100 MiB is a 413 without the worker's memory growing past
+    # the case's bound; a plain body labelled gzip is a 400, deflate still a 415.
+    bomb = gzip.compress(b'{"values": [1' + b" " * (100 * 2**20) + b"]}", 9)
     with hostile_case(hostile, "11 Content-Encoding gzip") as case:
         compressed = case.call("gzip-body", "POST", SAMPLES, gzip.compress(SMALL_SAMPLES),
                                {**JSON_HEADERS, "Content-Encoding": "gzip"})
         plain = case.call("plain-body-gzip-header", "POST", SAMPLES, SMALL_SAMPLES,
                           {**JSON_HEADERS, "Content-Encoding": "gzip"})
-        assert (compressed.status, plain.status) == (415, 415), f"{compressed.shown()} | {plain.shown()}"
+        bombed = case.call("gzip-bomb", "POST", SAMPLES, bomb, {**JSON_HEADERS, "Content-Encoding": "gzip"})
+        deflated = case.call("deflate-body", "POST", SAMPLES, SMALL_SAMPLES, {**JSON_HEADERS, "Content-Encoding": "deflate"})
+        assert (compressed.status, plain.status, bombed.status, deflated.status) == (200, 400, 413, 415), (
+            f"{compressed.shown()} | {plain.shown()} | {bombed.shown()} | {deflated.shown()}")
 
 
 # ---- 12. no workers ------------------------------------------------------------------------

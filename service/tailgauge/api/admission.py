@@ -115,7 +115,8 @@ def _decoding(body: bytes, codec: Codec, settings: Settings) -> tuple[float, int
             f"{settings.max_values} values",
             [ProblemLocation(path=path, message=f"at most {settings.max_values} entries")],
         )
-    total = estimate + len(body)
+    # A gzip request's compressed bytes stay held beside the inflated body (compression.Inflated).
+    total = estimate + len(body) + getattr(body, "compressed_size", 0)
     if total > settings.max_request_memory_bytes:
         raise ApiProblem(
             "body-too-large",

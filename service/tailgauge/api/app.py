@@ -12,7 +12,7 @@ from litestar.exceptions import HTTPException
 from litestar.handlers.base import BaseRouteHandler
 
 from tailgauge.runtime import logs
-from tailgauge.api import openapi, problems, routes
+from tailgauge.api import compression, openapi, problems, routes, tracing
 from tailgauge.api.docs import asset, schema_page
 from tailgauge.api.observe import REQUEST_ID_HEADER, observe
 from tailgauge.api.problems import ApiProblem
@@ -86,18 +86,21 @@ def _without_body(send):
 
 
 class _ObservedLitestar(Litestar):
-    """Litestar with request ids, metrics and the request log wrapped around every request.
+    """Litestar with request ids, metrics, the request log and its span wrapped around every request.
 
     HEAD is answered here for every GET route, as RFC 9110 (section 9.3.2) asks: the request is
     routed as a GET and the body is dropped, so status and headers are the GET's. Every GET
     handler is free of side effects, so running it for a HEAD changes nothing.
     """
 
+    # Set by create_app: None unless tracing is on (tailgauge.api.tracing).
+    tracing: tracing.Tracing | None = None
+
     async def __call__(self, scope, receive, send) -> None:
         if scope["type"] != "http":
             await super().__call__(scope, receive, send)
             return
-        await observe(scope, receive, send, self._route, log=self.state.settings.request_log)
+        await observe(scope, receive, send, self._route, log=self.state.settings.request_log, tracing=self.tracing)
 
     async def _route(self, scope, receive, send) -> None:
         if scope["method"] == "HEAD":
@@ -111,22 +114,24 @@ def create_app(settings: Settings | None = None) -> Litestar:
     settings = settings or Settings()
     if settings.request_log:
         logs.configure()
-    document = openapi.document_bytes(metrics_require_token=settings.metrics_require_token)
+    document = compression.Prepared(openapi.document_bytes(metrics_require_token=settings.metrics_require_token))
 
     @get("/openapi.json", include_in_schema=False, sync_to_thread=False)
-    def openapi_document() -> Response[bytes]:
-        return Response(document, media_type="application/json")
+    def openapi_document(request: Request) -> Response[bytes]:
+        body, headers = document.answer(compression.accepts_gzip(request.headers.getall("accept-encoding", [])))
+        return Response(body, media_type="application/json", headers=headers)
 
     cors = None
     if settings.cors_origins:
         cors = CORSConfig(
             allow_origins=list(settings.cors_origins),
             allow_methods=["GET", "POST"],
-            allow_headers=["Accept", "Authorization", "Content-Type", REQUEST_ID_HEADER],
-            expose_headers=[REQUEST_ID_HEADER],
+            allow_headers=["Accept", "Authorization", "Content-Encoding", "Content-Type",
+                           REQUEST_ID_HEADER, tracing.TRACEPARENT, "tracestate"],
+            expose_headers=[REQUEST_ID_HEADER, tracing.TRACEPARENT],
         )
 
-    return _ObservedLitestar(
+    app = _ObservedLitestar(
         route_handlers=[
             *routes.handlers(),
             openapi_document,
@@ -149,6 +154,9 @@ def create_app(settings: Settings | None = None) -> Litestar:
         state=State({"settings": settings}),
         debug=False,
     )
+    # None unless the otel extra is installed and OTEL_* variables ask for traces (api/tracing.py).
+    app.tracing = tracing.from_environment()
+    return app
 
 
 __all__ = ["create_app", "token_matches"]

@@ -2,7 +2,8 @@
 
 One ``Codec`` per format holds cached msgspec decoders and its encoder; handlers ask for the
 request's codec (415 when the body's type or content coding is not served) and the answer's
-codec (406 when the Accept header excludes both, quality values honoured). Problem responses follow the answer's format where it can be
+codec (406 when the Accept header excludes both, quality values honoured); a gzip body is
+inflated by ``compression``. Problem responses follow the answer's format where it can be
 known, JSON otherwise.
 """
 
@@ -158,10 +159,12 @@ def problem_codec(request: Request) -> Codec:
     return MSGPACK_CODEC if chosen in (PROBLEM_MSGPACK, *MSGPACK_TYPES) else JSON_CODEC
 
 
-def check_content_encoding(request: Request) -> None:
-    """Refuse (415) a body in any content coding but identity: it would be read as if plain.
+def content_coding(request: Request) -> str:
+    """The body's content coding: "identity" or "gzip" (``x-gzip`` is its alias); 415 for any other.
 
-    RFC 9110, section 15.5.16: 415 also answers a Content-Encoding the server does not accept.
+    RFC 9110, section 15.5.16: 415 also answers a Content-Encoding the server does not accept,
+    and RFC 7694 has the answer's Accept-Encoding name the codings that are. One gzip layer at
+    most: a body gzipped twice is refused rather than inflated twice.
     """
     codings = [
         coding.strip().lower()
@@ -169,15 +172,18 @@ def check_content_encoding(request: Request) -> None:
         for coding in value.split(",")
         if coding.strip()
     ]
-    refused = [coding for coding in codings if coding != "identity"]
-    if refused:
-        raise MediaTypeError(
-            415,
-            f"send the request body without a content coding (got Content-Encoding: {', '.join(refused)})",
-            "header.content-encoding",
-            "only identity (no Content-Encoding) is accepted",
-            headers={"Accept-Encoding": "identity"},
-        )
+    applied = [coding for coding in codings if coding != "identity"]
+    if not applied:
+        return "identity"
+    if len(applied) == 1 and applied[0] in ("gzip", "x-gzip"):
+        return "gzip"
+    raise MediaTypeError(
+        415,
+        f"send the request body as gzip or without a content coding (got Content-Encoding: {', '.join(applied)})",
+        "header.content-encoding",
+        "only gzip (once) or identity (no Content-Encoding) is accepted",
+        headers={"Accept-Encoding": "gzip"},
+    )
 
 
 __all__ = [
@@ -192,7 +198,7 @@ __all__ = [
     "MediaTypeError",
     "answer_codec",
     "body_codec",
-    "check_content_encoding",
+    "content_coding",
     "negotiate",
     "problem_codec",
 ]

@@ -8,6 +8,9 @@ worker: see service/tailgauge/runtime/metric_files.py for how the metrics degrad
 
 from __future__ import annotations
 
+import platform
+
+import numpy
 from prometheus_client import (
     CONTENT_TYPE_LATEST,
     REGISTRY,
@@ -18,9 +21,13 @@ from prometheus_client import (
     generate_latest,
 )
 
+import tailgauge
 from tailgauge.runtime import metric_files
 
 CONTENT_TYPE = CONTENT_TYPE_LATEST
+# The same type without its charset parameter, for litestar, which appends "; charset=utf-8" to
+# every text/ type itself (given CONTENT_TYPE, it answered with the charset twice).
+MEDIA_TYPE = "; ".join(part.strip() for part in CONTENT_TYPE.split(";") if not part.strip().lower().startswith("charset="))
 
 # Before any metric below exists: their series are created through the guarded value class.
 metric_files.install()
@@ -68,6 +75,17 @@ ADMISSION_REFUSALS = Counter(
     "Requests answered 503 server-busy because their planned memory did not fit beside the ones in progress.",
 )
 
+# The build of the worker answering, as the value 1 with labels (join it to any series by
+# instance). "livemax": one series without a pid label, summed over the live workers by max
+# (all equal), and a dead worker's file goes with it (metric_files.fold_dead_worker).
+BUILD_INFO = Gauge(
+    "tailgauge_build_info",
+    "The running build: service version, Python version and numpy version (value 1).",
+    ["version", "python", "numpy"],
+    multiprocess_mode="livemax",
+)
+BUILD_INFO.labels(version=tailgauge.__version__, python=platform.python_version(), numpy=numpy.__version__).set(1)
+
 
 def exposition() -> bytes:
     """The text exposition format of every metric, summed over worker processes when multiprocess."""
@@ -82,10 +100,12 @@ def exposition() -> bytes:
 __all__ = [
     "ADMISSION_REFUSALS",
     "BUDGET_REJECTIONS",
+    "BUILD_INFO",
     "CONTENT_TYPE",
     "INFLIGHT_BYTES",
     "INFLIGHT_REQUESTS",
     "LATENCY",
+    "MEDIA_TYPE",
     "REQUESTS",
     "RESAMPLES",
     "VALUES",

@@ -14,7 +14,7 @@ import msgspec
 from litestar import Request, Response, get, post
 from litestar.handlers import HTTPRouteHandler
 
-from tailgauge.api import endpoints, media, metrics, schemas
+from tailgauge.api import compression, endpoints, media, metrics, schemas
 from tailgauge.api.media import MediaTypeError
 from tailgauge.api.operations import OPERATIONS, Operation
 from tailgauge.api.problems import ApiProblem
@@ -42,28 +42,46 @@ def _answer(request: Request) -> tuple[media.Codec, str]:
         raise _problem(error) from None
 
 
+def _encoded(work, gzip_body: bool, gzip_answer: bool):
+    """``work`` with the body inflated first (a gzip request) and the answer compressed after (when accepted).
+
+    Both run where ``work`` runs (a worker thread for anything but a small plain body), so neither
+    inflating a body nor compressing an answer holds the event loop.
+    """
+
+    def run(body, body_codec, answer_codec, settings):
+        if gzip_body:
+            body = compression.inflate(body, settings.max_body_bytes)
+        result = work(body, body_codec, answer_codec, settings)
+        encoded, headers = compression.answer(result.body, gzip_answer)
+        return result, encoded, headers
+
+    return run
+
+
 async def _compute(request: Request, work, endpoint: str) -> Response[bytes]:
     try:
-        media.check_content_encoding(request)
+        coding = media.content_coding(request)
         body_codec = media.body_codec(request)
     except MediaTypeError as error:
         raise _problem(error) from None
     answer_codec, answer_type = _answer(request)
     body = await request.body()
     settings = request.app.state.settings
-    if endpoints.runs_inline(body):
-        result = work(body, body_codec, answer_codec, settings)  # cheaper than the hop to a thread
+    gzip_body = coding == "gzip"
+    run = _encoded(work, gzip_body, compression.accepts_gzip(request.headers.getall("accept-encoding", [])))
+    if not gzip_body and endpoints.runs_inline(body):
+        result, encoded, headers = run(body, body_codec, answer_codec, settings)  # cheaper than the hop to a thread
     else:
         # CPU-bound work (decoding and encoding included) runs off the event loop, so health stays live.
-        result = await anyio.to_thread.run_sync(partial(work, body, body_codec, answer_codec, settings))
+        # A gzip body always goes to a thread: a few bytes may inflate to the whole body limit.
+        result, encoded, headers = await anyio.to_thread.run_sync(partial(run, body, body_codec, answer_codec, settings))
     request.state.values = result.values
     metrics.VALUES.labels(endpoint).observe(result.values)
     if result.resamples:
         request.state.resamples = result.resamples
         metrics.RESAMPLES.labels(endpoint).inc(result.resamples)
-    return Response(result.body, media_type=answer_type)
-
-
+    return Response(encoded, media_type=answer_type, headers=headers)
 
 
 def _computing(work, label: str):
@@ -88,8 +106,16 @@ def ready() -> Response[bytes]:
     return Response(msgspec.json.encode(schemas.Readiness(status="ok", notes=notes)), media_type=media.JSON)
 
 
-def metrics_exposition() -> Response[bytes]:
-    return Response(metrics.exposition(), media_type=metrics.CONTENT_TYPE)
+def _accepts_gzip(request: Request) -> bool:
+    return compression.accepts_gzip(request.headers.getall("accept-encoding", []))
+
+
+def metrics_exposition(request: Request) -> Response[bytes]:
+    # A scraper asks for gzip (Prometheus does); the text is tens of kilobytes, level 1 takes
+    # tens of microseconds, so it is compressed here on the event loop.
+    body, headers = compression.answer(metrics.exposition(), _accepts_gzip(request))
+    # litestar appends "; charset=utf-8" to a text/ media type: the type is given without one.
+    return Response(body, media_type=metrics.MEDIA_TYPE, headers=headers)
 
 
 _CATALOG = msgspec.json.encode(
@@ -108,12 +134,14 @@ _CATALOG = msgspec.json.encode(
 )
 
 
-_CATALOG_MSGPACK = msgspec.msgpack.encode(msgspec.json.decode(_CATALOG))
+_CATALOG_MSGPACK = compression.Prepared(msgspec.msgpack.encode(msgspec.json.decode(_CATALOG)))
+_CATALOG = compression.Prepared(_CATALOG)
 
 
 def describe_catalog(request: Request) -> Response[bytes]:
     codec, answer_type = _answer(request)
-    return Response(_CATALOG if codec is media.JSON_CODEC else _CATALOG_MSGPACK, media_type=answer_type)
+    body, headers = (_CATALOG if codec is media.JSON_CODEC else _CATALOG_MSGPACK).answer(_accepts_gzip(request))
+    return Response(body, media_type=answer_type, headers=headers)
 
 
 # Operation id -> its body. Compute bodies run in a worker thread themselves; the others are

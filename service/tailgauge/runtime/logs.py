@@ -10,6 +10,7 @@ import logging
 import re
 import sys
 import time
+from contextvars import ContextVar
 
 # Attributes every LogRecord has; anything else passed in ``extra=`` becomes a field of the line.
 _STANDARD = set(vars(logging.LogRecord("", 0, "", 0, "", None, None))) | {"message", "asctime", "taskName"}
@@ -18,10 +19,29 @@ _STANDARD = set(vars(logging.LogRecord("", 0, "", 0, "", None, None))) | {"messa
 # line and paragraph separators, and lone surrogates (which cannot even be written as UTF-8).
 # They can only occur inside JSON strings, where a \uXXXX escape means the same character.
 _UNSAFE = re.compile("[\x7f-\x9f\u2028\u2029\ud800-\udfff]")
+# Fields that exist only to colour a terminal (uvicorn adds ``color_message``, the message with
+# ANSI colours): dropped, the plain message is already there.
+_TERMINAL_FIELDS = frozenset({"color_message"})
+# Terminal escape sequences inside any logged string (a colour, a cursor move, a title change,
+# or a caller's path that carries one): CSI (ESC [ or the C1 CSI) with its parameters, OSC up to
+# its terminator, any other ESC with the character it introduces; then any lone ESC left.
+_ESCAPES = re.compile(
+    "(?:\x1b\\[|\x9b)[0-?]*[ -/]*[@-~]?|\x1b\\][^\x07\x1b]*(?:\x07|\x1b\\\\)?|\x1b[@-Z\\\\-_]|\x1b"
+)
+# The trace of the request being handled (trace id, span id), set by tailgauge.api.tracing when
+# tracing is on: every line logged while the request runs carries both.
+trace_context: ContextVar[tuple[str, str] | None] = ContextVar("tailgauge_trace_context", default=None)
 
 
 def _escape(match: re.Match) -> str:
     return f"\\u{ord(match[0]):04x}"
+
+
+def _plain(value):
+    """``value`` without terminal escape sequences when it is a string; anything else as it is."""
+    if isinstance(value, str) and ("\x1b" in value or "\x9b" in value):
+        return _ESCAPES.sub("", value)
+    return value
 
 
 class JsonFormatter(logging.Formatter):
@@ -33,13 +53,17 @@ class JsonFormatter(logging.Formatter):
             + f".{int(record.msecs):03d}Z",
             "level": record.levelname.lower(),
             "logger": record.name,
-            "message": record.getMessage(),
+            "message": _plain(record.getMessage()),
         }
         for key, value in vars(record).items():
-            if key not in _STANDARD and not key.startswith("_"):
-                line[key] = value
+            if key not in _STANDARD and key not in _TERMINAL_FIELDS and not key.startswith("_"):
+                line[key] = _plain(value)
+        trace = trace_context.get()
+        if trace is not None:
+            line.setdefault("trace_id", trace[0])
+            line.setdefault("span_id", trace[1])
         if record.exc_info:
-            line["exception"] = self.formatException(record.exc_info)
+            line["exception"] = _plain(self.formatException(record.exc_info))
         # json.dumps escapes the C0 controls (a path's newline or NUL) itself; _UNSAFE the rest.
         return _UNSAFE.sub(_escape, json.dumps(line, default=str, ensure_ascii=False))
 
@@ -71,4 +95,4 @@ def configure(level: int = logging.INFO) -> None:
     logger.propagate = False
 
 
-__all__ = ["JsonFormatter", "configure"]
+__all__ = ["JsonFormatter", "configure", "trace_context"]
