@@ -1,0 +1,25 @@
+"""Pictures of what the service described: SVG or PNG figures, and the numbers they are drawn from.
+
+A floor of its own between the core and the HTTP layer: it imports the core (results and the
+internal form) and matplotlib; ``tailgauge.api`` imports it; the core never does.
+
+    environment   matplotlib set up for a server (MPLCONFIGDIR, canvases, the packaged fonts)
+    style         palette, line styles, sizes, FigureOptions
+    plot_data     histogram, outcomes and distribution function (numpy only; also options.plot_data)
+    common        axes dressing, legends, reading a description's values
+    describing    the figure of one input (descriptor endpoints)
+    comparing     the figure of two inputs (comparisons)
+"""
+
+from tailgauge.figures import comparing, describing
+from tailgauge.figures.environment import FORMATS, PNG, SVG
+from tailgauge.figures.plot_data import PlotData, plot_data
+from tailgauge.figures.style import FigureOptions
+
+# Descriptors and members every figure of a description reads, computed even when
+# options.descriptors does not show them (like the values scores read).
+READS = ("mean", "standard_deviation", "median", "quantiles", "tail_contributions")
+# Quantiles every figure of a description marks (the quartiles), added to the probabilities asked for.
+QUARTILES = (0.25, 0.75)
+
+__all__ = ["FORMATS", "PNG", "QUARTILES", "READS", "SVG", "FigureOptions", "PlotData", "comparing", "describing", "plot_data"]
