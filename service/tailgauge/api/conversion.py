@@ -40,10 +40,12 @@ FILLED_BY_EDGE: dict[type, dict[str, str]] = {
     schemas.DescriptionResponse: {
         "scores": "standardize() scores options.score against the description afterwards",
         "partial_state": "state_of() is computed beside the description when options.partial_state asks",
+        "plot_data": "tailgauge.figures.plot_data() reads the input beside the description when options.plot_data asks",
     },
     schemas.MergedDescriptionResponse: {
         "scores": "standardize() scores options.score against the description afterwards",
         "partial_state": "the merged state itself, returned so merges can be merged again",
+        "plot_data": "merged states carry no values to draw: always null",
     },
     schemas.ComparisonResponse: {"scores": "standardize() scores options.score against the first input"},
 }

@@ -21,5 +21,11 @@ from tailgauge.figures.style import FigureOptions
 READS = ("mean", "standard_deviation", "median", "quantiles", "tail_contributions")
 # Quantiles every figure of a description marks (the quartiles), added to the probabilities asked for.
 QUARTILES = (0.25, 0.75)
+# What drawing one figure may hold and take, whatever the input's size (the canvas is at most
+# 2400 x 1800 pixels; bars, points and markers are capped): held in the worker's memory gate
+# beside the plan of the computation. Measured by tests/benchmarks/run.py figures (peak of a
+# largest PNG of a million values well under this).
+RENDER_BYTES = 96 << 20
+RENDER_SECONDS = 2.0
 
-__all__ = ["FORMATS", "PNG", "QUARTILES", "READS", "SVG", "FigureOptions", "PlotData", "comparing", "describing", "plot_data"]
+__all__ = ["FORMATS", "PNG", "QUARTILES", "READS", "RENDER_BYTES", "RENDER_SECONDS", "SVG", "FigureOptions", "PlotData", "comparing", "describing", "plot_data"]
