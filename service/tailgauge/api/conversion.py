@@ -31,6 +31,7 @@ import msgspec
 from tailgauge.api import schemas
 from tailgauge.core import Comparison, Description, PartialState, Scores
 from tailgauge.core.registry import SCALAR_DESCRIPTORS
+from tailgauge.figures import PlotData
 
 Message = TypeVar("Message", bound=msgspec.Struct)
 
@@ -68,6 +69,7 @@ ROOTS: tuple[tuple[type, type], ...] = (
     (Comparison, schemas.ComparisonResponse),
     (Scores, schemas.Scores),
     (PartialState, schemas.PartialState),
+    (PlotData, schemas.PlotData),
 )
 
 
