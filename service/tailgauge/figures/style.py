@@ -15,8 +15,8 @@ from dataclasses import dataclass
 # name -> hex colour; CIE L* (D65) in the comment, from tests/figures/test_style.py's formula.
 INK = "#1f2a36"  # L* 17: text, axes, the mean
 DEEP = "#24527a"  # L* 34: the first input, contributions to the third moment
-ACCENT = "#c4661f"  # L* 56: the second input, the median and quartiles, contributions to the fourth
-BAR_EDGE = "#4d6f91"  # L* 45: outlines of bars
+ACCENT = "#d4762c"  # L* 59: the second input, the median and quartiles, contributions to the fourth
+BAR_EDGE = "#4d6f91"  # L* 46: outlines of bars
 BAR = "#a8c0d8"  # L* 77: bars
 BAND = "#ecd9c2"  # L* 88: the one-standard-deviation band
 PALETTE = {"ink": INK, "deep": DEEP, "accent": ACCENT, "bar_edge": BAR_EDGE, "bar": BAR, "band": BAND}
