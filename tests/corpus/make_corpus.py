@@ -497,6 +497,17 @@ def build() -> Corpus:
     c.both("comparisons", "skewness-estimator-unknown", with_changes("comparisons", options={"skewness_estimator": "G3"}),
            *bad, ["$.options.skewness_estimator"], "a skewness family that does not exist",
            says=["'G3' is not one of: g1, G1, b1, or null"])
+
+    # ---- figures: options.figure out of bounds or with control characters; merge draws nothing ---
+    c.category = "figures"
+    c.both("samples", "figure-too-narrow", with_changes("samples", options={"figure": {"width": 100}}),
+           *bad, ["$.options.figure.width"], "a figure narrower than 320 pixels", accept="image/svg+xml")
+    c.both("comparisons", "figure-title-newline", with_changes("comparisons", options={"figure": {"title": "week\n48"}}),
+           *bad, ["$.options.figure.title"], "a line break in a figure's title (printable text only)", accept="image/png")
+    c.both("bins", "figure-unknown-field", with_changes("bins", options={"figure": {"colour": "red"}}),
+           *bad, ["$.options.figure.colour"], "figure colours are not the caller's to choose", accept="image/svg+xml")
+    c.add("merge", "accept-figure", valid_json["merge"], "json", 406, "not-acceptable", ["header.accept"],
+          "merged states carry no values to draw: no figure types are offered", accept="image/svg+xml")
     return c
 
 
