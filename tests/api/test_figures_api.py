@@ -161,3 +161,34 @@ def test_a_figure_reads_what_options_descriptors_leaves_out(client):
     root = parse(client.post(SAMPLES, json=body, headers={"accept": SVG}).content)
     for gid in ("mean", "median", "quartile-lower", "sd-band", "third"):
         assert by_id(root, gid) is not None, gid
+
+
+LARGEST = 1.7976931348623157e308
+
+
+@pytest.mark.parametrize(
+    ("path", "body"),
+    [
+        (SAMPLES, {"values": [-LARGEST, 0.0, LARGEST, 1.0, 2.0, 3.0] * 10}),
+        (SAMPLES, {"values": [-LARGEST, LARGEST]}),
+        (SAMPLES, {"values": [LARGEST]}),
+        (SAMPLES, {"values": [1e-320, 2e-320, 3e-320] * 20 + [float(i) * 1e-321 for i in range(40)]}),
+        (SAMPLES, {"values": [5.0] * 50}),
+        (TABLE, {"outcomes": [{"value": -LARGEST, "weight": 1}, {"value": LARGEST, "weight": 1}], "weight_kind": "counts"}),
+        (COMPARISONS, {"first": {"kind": "samples", "values": [-LARGEST, LARGEST]},
+                       "second": {"kind": "samples", "values": [1.0, 2.0, 3.0]}}),
+    ],
+)
+def test_extreme_values_draw_and_their_plot_data_stay_finite(client, path, body):
+    """Values near float64's largest (spans that overflow) or subnormal ones: drawn in units of a power
+    of ten, never a 500; plot_data holds only finite numbers (no null a NaN would have become)."""
+    for media in (SVG, PNG):
+        answer = client.post(path, json=body, headers={"accept": media})
+        assert answer.status_code == 200, answer.text
+    found = client.post(path, json={**body, "options": {"plot_data": True}}).json()
+    plots = [found["plot_data"]] if path != COMPARISONS else [found["first"]["plot_data"], found["second"]["plot_data"]]
+    for plot in plots:
+        numbers = [*plot["histogram"]["edges"], *plot["histogram"]["counts"],
+                   *plot["distribution_function"]["values"], *plot["distribution_function"]["probabilities"]]
+        assert all(isinstance(x, float | int) for x in numbers), plot
+        assert plot["histogram"]["edges"] == sorted(plot["histogram"]["edges"])

@@ -4,11 +4,50 @@ from __future__ import annotations
 
 import math
 import textwrap
+from dataclasses import dataclass
 
 from matplotlib.axes import Axes
 
 from tailgauge.figures import environment
 from tailgauge.figures.style import INK, LABEL_POINTS, LEGEND_POINTS, TICK_POINTS, FigureOptions
+
+
+# Beyond these magnitudes a figure is drawn in units of a power of ten (said in the axis label):
+# the plotting library's transforms would overflow to infinity near float64's largest values
+# (a span of 1e308 - (-1e308)) or lose their scale among subnormal ones.
+LARGEST_DRAWN, SMALLEST_DRAWN = 1e100, 1e-100
+
+
+@dataclass(frozen=True)
+class Units:
+    """Data values as drawn: multiplied by 10^-exponent (exponent 0 for every ordinary input)."""
+
+    exponent: int = 0
+
+    def __call__(self, x: float) -> float:
+        if not self.exponent:
+            return float(x)
+        half = self.exponent // 2  # two steps: 10^-exponent alone may not be representable
+        return float(x) * 10.0 ** (-half) * 10.0 ** (half - self.exponent)
+
+    def label(self, text: str) -> str:
+        return text if not self.exponent else f"{text}, in units of 1e{self.exponent}"
+
+
+def units_for(values) -> Units:
+    """The units that keep the largest magnitude among ``values`` (finite ones) drawable."""
+    largest = max((abs(v) for v in values if v is not None and math.isfinite(v)), default=0.0)
+    if largest > LARGEST_DRAWN or 0.0 < largest < SMALLEST_DRAWN:
+        return Units(math.floor(math.log10(largest)))
+    return Units()
+
+
+def span(low: float, high: float) -> tuple[float, float]:
+    """Axis limits around [low, high] (drawn units) with a margin of 3%, or of 5% of the value (at
+    least 0.5) when low equals high."""
+    width = high - low
+    margin = 0.03 * width if width > 0 else max(abs(low) * 0.05, 0.5)
+    return low - margin, high + margin
 
 
 def value(description, name: str) -> float | None:
@@ -67,4 +106,4 @@ def note(axes: Axes, text: str) -> None:
     axes.set_yticks([])
 
 
-__all__ = ["dress", "legend", "note", "quantile", "title", "value"]
+__all__ = ["Units", "dress", "legend", "note", "quantile", "span", "title", "units_for", "value"]

@@ -19,7 +19,7 @@ import math
 from matplotlib.collections import LineCollection
 
 from tailgauge.figures import environment
-from tailgauge.figures.common import dress, legend, note, title
+from tailgauge.figures.common import Units, dress, legend, note, span, title, units_for
 from tailgauge.figures.plot_data import PlotData
 from tailgauge.figures.style import ACCENT, DASHED, DEEP, INK, FigureOptions, number
 
@@ -34,17 +34,18 @@ def build(comparison, first: PlotData, second: PlotData, options: FigureOptions)
     top.set_gid("distribution-functions")
     bottom.set_gid("quantile-shifts")
     title(figure, options)
-    low = min(first.distribution_function.values[0], second.distribution_function.values[0])
-    high = max(first.distribution_function.values[-1], second.distribution_function.values[-1])
-    margin = 0.03 * (high - low) if high > low else max(abs(low) * 0.05, 0.5)
+    x = units_for([*first.distribution_function.values, *second.distribution_function.values])
+    low = x(min(first.distribution_function.values[0], second.distribution_function.values[0]))
+    high = x(max(first.distribution_function.values[-1], second.distribution_function.values[-1]))
+    left, right = span(low, high)
     for plot, description, side, colour, style in (
         (first, comparison.first, "first", DEEP, "solid"),
         (second, comparison.second, "second", ACCENT, DASHED),
     ):
-        _function(top, plot, description, side, colour, style, low - margin, high + margin)
-    top.set_xlim(low - margin, high + margin)
+        _function(top, plot, description, side, colour, style, x, left, right)
+    top.set_xlim(left, right)
     top.set_ylim(0.0, 1.02)
-    dress(top, xlabel=options.value_label(), ylabel="cumulative share")
+    dress(top, xlabel=x.label(options.value_label()), ylabel="cumulative share")
     legend(top, title=_test(comparison.distribution_test))
     _shifts(bottom, comparison, options)
     return figure
@@ -55,14 +56,15 @@ def _size(description) -> str:
     return "" if n is None else f" (n = {number(n)})"
 
 
-def _function(axes, plot: PlotData, description, side: str, colour: str, style, left: float, right: float) -> None:
+def _function(axes, plot: PlotData, description, side: str, colour: str, style, x: Units, left: float,
+              right: float) -> None:
     function = plot.distribution_function
     if function.grouped:
-        xs, ys = list(function.values), list(function.probabilities)
+        xs, ys = [x(v) for v in function.values], list(function.probabilities)
         drawstyle = "default"
     else:
         # F is 0 left of the smallest value and 1 right of the largest: steps from the left edge to the right.
-        xs = [left, *function.values, right]
+        xs = [left, *(x(v) for v in function.values), right]
         ys = [0.0, *function.probabilities, function.probabilities[-1]]
         drawstyle = "steps-post"
     axes.plot(xs, ys, color=colour, linestyle=style, linewidth=1.5, drawstyle=drawstyle, gid=f"ecdf-{side}",
@@ -78,14 +80,16 @@ def _test(test) -> str | None:
 
 
 def _shifts(axes, comparison, options: FigureOptions) -> None:
-    dress(axes, xlabel="probability", ylabel=options.value_label("second - first"))
     shifts = [s for s in (comparison.quantile_shifts or []) if s.value is not None and math.isfinite(s.value)]
+    bounds = [b for s in shifts if s.interval is not None for b in (s.interval.low, s.interval.high)]
+    y = units_for([s.value for s in shifts] + bounds)
+    dress(axes, xlabel="probability", ylabel=y.label(options.value_label("second - first")))
     if not shifts:
         note(axes, "No quantile shift is defined for these inputs at the probabilities asked for.")
         return
     axes.axhline(0.0, color=INK, linewidth=0.6, zorder=1)
     segments = [
-        [(s.probability, s.interval.low), (s.probability, s.interval.high)]
+        [(s.probability, y(s.interval.low)), (s.probability, y(s.interval.high))]
         for s in shifts
         if s.interval is not None and s.interval.low is not None and s.interval.high is not None
     ]
@@ -93,12 +97,10 @@ def _shifts(axes, comparison, options: FigureOptions) -> None:
         resampling = comparison.resampling
         axes.add_collection(LineCollection(segments, colors=DEEP, linewidths=1.2, zorder=2, gid="shift-intervals",
                                            label=f"{resampling.level:.0%} {resampling.method} intervals"))
-    axes.plot([s.probability for s in shifts], [s.value for s in shifts], linestyle="none", marker="o",
+    axes.plot([s.probability for s in shifts], [y(s.value) for s in shifts], linestyle="none", marker="o",
               markersize=4.5, color=DEEP, zorder=3, gid="shifts", label="quantile shift")
-    ys = [s.value for s in shifts] + [y for segment in segments for _, y in segment] + [0.0]
-    span = max(ys) - min(ys)
-    pad = 0.08 * span if span > 0 else max(abs(max(ys)) * 0.1, 1.0)
-    axes.set_ylim(min(ys) - pad, max(ys) + pad)
+    ys = [y(s.value) for s in shifts] + [v for segment in segments for _, v in segment] + [0.0]
+    axes.set_ylim(*span(min(ys), max(ys)))
     axes.set_xlim(-0.02, 1.02)
     legend(axes)
 

@@ -23,7 +23,7 @@ import numpy as np
 from matplotlib.collections import LineCollection
 
 from tailgauge.figures import environment
-from tailgauge.figures.common import dress, legend, note, quantile, title, value
+from tailgauge.figures.common import Units, dress, legend, note, quantile, span, title, units_for, value
 from tailgauge.figures.plot_data import RULE_BINS, RULE_REGROUPED, PlotData
 from tailgauge.figures.style import (
     ACCENT,
@@ -60,45 +60,56 @@ def build(description, plot: PlotData, requested: tuple[float, ...], options: Fi
     top.set_gid("distribution")
     bottom.set_gid("contributions")
     title(figure, options)
-    span = _distribution(top, plot, options)
-    span = _markers(top, description, requested, span)
-    _contributions(bottom, description, options)
-    width = span[1] - span[0]
-    margin = 0.03 * width if width > 0 else max(abs(span[0]) * 0.05, 0.5)
-    top.set_xlim(span[0] - margin, span[1] + margin)
+    x = units_for(_values_drawn(description, plot, requested))
+    low, high = _distribution(top, plot, options, x)
+    low, high = _markers(top, description, requested, x, low, high)
+    _contributions(bottom, description, options, x)
+    top.set_xlim(*span(low, high))
     top.tick_params(labelbottom=False)
     legend(top)
     return figure
 
 
-def _distribution(axes, plot: PlotData, options: FigureOptions) -> tuple[float, float]:
-    """Bars of the histogram or of the outcomes; returns the x range they cover."""
+def _values_drawn(description, plot: PlotData, requested) -> list[float]:
+    """Every x value the figure may draw, in data units (they choose the units it is drawn in)."""
+    found = [e for e in plot.histogram.edges if e is not None]
+    found += [value(description, name) for name in ("mean", "median", "standard_deviation")]
+    found += [q.value for q in description.quantiles]
+    found += [bound for d in description.descriptors.values() if d.interval is not None
+              for bound in (d.interval.low, d.interval.high)]
+    found += [bound for q in description.quantiles if q.interval is not None for bound in (q.interval.low, q.interval.high)]
+    if description.tail_contributions is not None:
+        found += [o.value for o in description.tail_contributions.outcomes]
+    return found
+
+
+def _distribution(axes, plot: PlotData, options: FigureOptions, x: Units) -> tuple[float, float]:
+    """Bars of the histogram or of the outcomes; returns the x range they cover (drawn units)."""
     histogram = plot.histogram
-    word = plot.weights
+    if histogram.rule in (RULE_BINS, RULE_REGROUPED):
+        return _bins(axes, plot, options, x)
     if plot.outcomes is not None:
-        values = np.asarray(plot.outcomes.values)
-        heights = np.asarray(plot.outcomes.weights)
-        edges = np.asarray(histogram.edges, dtype=float)
+        values = np.array([x(v) for v in plot.outcomes.values])
+        y = units_for(plot.outcomes.weights)
+        heights = np.array([y(w) for w in plot.outcomes.weights])
         gaps = np.diff(values)
-        width = 0.6 * float(gaps.min()) if gaps.size else 0.6 * float(edges[-1] - edges[0])
+        low_edge, high_edge = x(histogram.edges[0]), x(histogram.edges[-1])
+        width = 0.6 * float(gaps.min()) if gaps.size else 0.6 * (high_edge - low_edge)
         width = max(width, (float(values[-1] - values[0]) or 1.0) * 0.004)
         bars = axes.bar(values, heights, width=width, color=BAR, edgecolor=BAR_EDGE, linewidth=0.6, zorder=2)
         for index, bar in enumerate(bars):
             bar.set_gid(f"bar-{index}")
         low, high = float(values[0] - width), float(values[-1] + width)
-        ylabel = word
-    elif histogram.rule in (RULE_BINS, RULE_REGROUPED):
-        return _bins(axes, plot, options)
     else:
-        edges = np.asarray(histogram.edges, dtype=float)
-        heights = np.asarray(histogram.counts)
+        edges = np.array([x(e) for e in histogram.edges])
+        y = units_for(histogram.counts)
+        heights = np.array([y(c) for c in histogram.counts])
         bars = axes.bar(edges[:-1], heights, width=np.diff(edges), align="edge", color=BAR, edgecolor=BAR_EDGE,
                         linewidth=0.6, zorder=2)
         for index, bar in enumerate(bars):
             bar.set_gid(f"bin-{index}")
         low, high = float(edges[0]), float(edges[-1])
-        ylabel = word
-    dress(axes, xlabel=None, ylabel=ylabel)
+    dress(axes, xlabel=None, ylabel=y.label(plot.weights))
     axes.set_ylim(0.0, _top(heights))
     return low, high
 
@@ -108,85 +119,91 @@ def _top(heights) -> float:
     return tallest * HEADROOM if tallest > 0 else 1.0
 
 
-def _bins(axes, plot: PlotData, options: FigureOptions) -> tuple[float, float]:
+def _bins(axes, plot: PlotData, options: FigureOptions, x: Units) -> tuple[float, float]:
     """Closed bins as bars (count / width when widths differ); an open bin without its outer side."""
     histogram = plot.histogram
-    edges = [math.nan if e is None else float(e) for e in histogram.edges]
+    edges = [math.nan if e is None else x(e) for e in histogram.edges]
     counts = histogram.counts
     closed = [i for i in range(len(counts)) if not (math.isnan(edges[i]) or math.isnan(edges[i + 1]))]
     lefts = np.array([edges[i] for i in closed])
     widths = np.array([edges[i + 1] - edges[i] for i in closed])
-    heights = np.array([counts[i] for i in closed], dtype=float)
-    if histogram.density:
-        heights = heights / widths
+    raw = np.array([counts[i] for i in closed], dtype=float)
+    density = histogram.density
+    if density:
+        with np.errstate(over="ignore", divide="ignore", invalid="ignore"):
+            per = raw / widths
+        density = bool(np.all(np.isfinite(per)))  # bins too narrow for a density: counts are drawn
+    nominal_low = widths[0] if widths.size else 1.0
+    nominal_high = widths[-1] if widths.size else 1.0
+    open_bins = [i for i in range(len(counts)) if i not in closed]
+    shown = [c / (nominal_low if i == 0 else nominal_high) if density else c for i, c in
+             zip(open_bins, (counts[i] for i in open_bins))]
+    y = units_for([*(per if density else raw), *shown])
+    heights = np.array([y(h) for h in (per if density else raw)])
     bars = axes.bar(lefts, heights, width=widths, align="edge", color=BAR, edgecolor=BAR_EDGE, linewidth=0.6, zorder=2)
     for index, bar in zip(closed, bars):
         bar.set_gid(f"bin-{index}")
     finite = [e for e in edges if not math.isnan(e)]
     low, high = min(finite), max(finite)
-    open_heights = []
-    for index in range(len(counts)):
-        if index in closed:
-            continue
-        lower_end = math.isnan(edges[index])
+    tallest = list(heights)
+    for index, height in zip(open_bins, (y(h) for h in shown)):
+        lower_end = index == 0
         edge = edges[index + 1] if lower_end else edges[index]
-        nominal = widths[0] if lower_end and widths.size else (widths[-1] if widths.size else 1.0)
-        height = counts[index] / nominal if histogram.density else counts[index]
-        open_heights.append(height)
-        far = edge - nominal if lower_end else edge + nominal
+        far = edge - nominal_low if lower_end else edge + nominal_high
+        tallest.append(height)
         axes.fill_between([min(edge, far), max(edge, far)], 0.0, height, facecolor="none", edgecolor=BAR_EDGE,
                           hatch="///", linewidth=0.0, zorder=1)
         # The finite edge and the top, no outer side; the arrow points to where the bin goes on.
         axes.plot([edge, edge, far], [0.0, height, height], color=BAR_EDGE, linewidth=0.9,
                   gid=f"open-{'lower' if lower_end else 'upper'}", zorder=2)
         axes.plot([far], [height], marker="<" if lower_end else ">", color=BAR_EDGE, markersize=5, zorder=2)
-        where = "below" if lower_end else "above"
-        axes.annotate(f"{number(counts[index])} {where} {number(edge)}", (0.5 * (edge + far), height),
+        where, at = ("below", histogram.edges[index + 1]) if lower_end else ("above", histogram.edges[index])
+        axes.annotate(f"{number(counts[index])} {where} {number(at)}", (0.5 * (edge + far), height),
                       textcoords="offset points", xytext=(0, 3), ha="center", fontsize=7, color=INK,
                       annotation_clip=False).set_parse_math(False)
         low, high = min(low, far), max(high, far)
     word = plot.weights
-    per = f"{word} per {options.unit}" if options.unit else f"{word} per unit of value"
-    dress(axes, xlabel=None, ylabel=per if histogram.density else word)
-    axes.set_ylim(0.0, _top(np.concatenate((heights, open_heights))))
+    per_unit = f"{word} per {options.unit}" if options.unit else f"{word} per unit of value"
+    dress(axes, xlabel=None, ylabel=y.label(per_unit if density else word))
+    axes.set_ylim(0.0, _top(tallest))
     return low, high
 
 
-def _markers(axes, description, requested: tuple[float, ...], span: tuple[float, float]) -> tuple[float, float]:
-    """The answer's values over the bars; returns the x range widened to hold them."""
-    xs = [span[0], span[1]]
+def _markers(axes, description, requested: tuple[float, ...], x: Units, low: float, high: float) -> tuple[float, float]:
+    """The answer's values over the bars; returns the x range (drawn units) widened to hold them."""
+    xs = [low, high]
     mean, sd, median = value(description, "mean"), value(description, "standard_deviation"), value(description, "median")
     if mean is not None and sd is not None:
-        axes.axvspan(mean - sd, mean + sd, color=BAND, linewidth=0, zorder=0, gid="sd-band",
-                     label=f"mean ± 1 sd ({number(sd)})")
-        xs += [mean - sd, mean + sd]
+        band = (x(mean) - x(sd), x(mean) + x(sd))
+        axes.axvspan(*band, color=BAND, linewidth=0, zorder=0, gid="sd-band", label=f"mean ± 1 sd ({number(sd)})")
+        xs += list(band)
     if mean is not None:
-        axes.axvline(mean, color=INK, linewidth=1.6, zorder=3, gid="mean", label=f"mean {number(mean)}")
-        xs.append(mean)
+        axes.axvline(x(mean), color=INK, linewidth=1.6, zorder=3, gid="mean", label=f"mean {number(mean)}")
+        xs.append(x(mean))
     if median is not None:
-        axes.axvline(median, color=ACCENT, linewidth=1.6, linestyle=DASHED, zorder=3, gid="median",
+        axes.axvline(x(median), color=ACCENT, linewidth=1.6, linestyle=DASHED, zorder=3, gid="median",
                      label=f"median {number(median)}")
-        xs.append(median)
+        xs.append(x(median))
     lower, upper = quantile(description, 0.25), quantile(description, 0.75)
     if lower is not None and upper is not None:
-        axes.axvline(lower.value, color=ACCENT, linewidth=1.2, linestyle=DOTTED, zorder=3, gid="quartile-lower",
+        axes.axvline(x(lower.value), color=ACCENT, linewidth=1.2, linestyle=DOTTED, zorder=3, gid="quartile-lower",
                      label=f"quartiles {number(lower.value)}, {number(upper.value)}")
-        axes.axvline(upper.value, color=ACCENT, linewidth=1.2, linestyle=DOTTED, zorder=3, gid="quartile-upper")
-        xs += [lower.value, upper.value]
+        axes.axvline(x(upper.value), color=ACCENT, linewidth=1.2, linestyle=DOTTED, zorder=3, gid="quartile-upper")
+        xs += [x(lower.value), x(upper.value)]
     shown = [entry for entry in (quantile(description, p) for p in requested) if entry is not None]
     if shown:
-        axes.plot([e.value for e in shown], [QUANTILE_ROW] * len(shown), transform=axes.get_xaxis_transform(),
+        axes.plot([x(e.value) for e in shown], [QUANTILE_ROW] * len(shown), transform=axes.get_xaxis_transform(),
                   linestyle="none", marker="v", markersize=5, color=INK, clip_on=False, zorder=4, gid="quantiles",
                   label=f"quantiles at {len(shown)} probabilities")
-        xs += [e.value for e in shown]
+        xs += [x(e.value) for e in shown]
     if description.resampling is not None:
-        xs += _intervals(axes, description, shown)
-    finite = [x for x in xs if math.isfinite(x)]
+        xs += _intervals(axes, description, shown, x)
+    finite = [v for v in xs if math.isfinite(v)]
     return min(finite), max(finite)
 
 
-def _intervals(axes, description, shown) -> list[float]:
-    """Bootstrap intervals as whiskers: the mean's, the median's, each shown quantile's."""
+def _intervals(axes, description, shown, x: Units) -> list[float]:
+    """Bootstrap intervals as whiskers: the mean's, the median's, each shown quantile's (drawn units)."""
     ends: list[float] = []
     resampling = description.resampling
     label = f"{resampling.level:.0%} {resampling.method} intervals"
@@ -196,25 +213,25 @@ def _intervals(axes, description, shown) -> list[float]:
         interval = None if found is None else found.interval
         if interval is None or interval.low is None or interval.high is None:
             continue
-        axes.plot([interval.low, interval.high], [row, row], transform=transform, color=colour, linewidth=1.2,
+        axes.plot([x(interval.low), x(interval.high)], [row, row], transform=transform, color=colour, linewidth=1.2,
                   marker="|", markersize=7, zorder=4, gid=f"interval-{name}", label=label)
         label = None
-        ends += [interval.low, interval.high]
+        ends += [x(interval.low), x(interval.high)]
     segments = [
-        [(e.interval.low, QUANTILE_INTERVAL_ROW), (e.interval.high, QUANTILE_INTERVAL_ROW)]
+        [(x(e.interval.low), QUANTILE_INTERVAL_ROW), (x(e.interval.high), QUANTILE_INTERVAL_ROW)]
         for e in shown
         if e.interval is not None and e.interval.low is not None and e.interval.high is not None
     ]
     if segments:
         axes.add_collection(LineCollection(segments, transform=transform, colors=INK, linewidths=1.0, zorder=4,
                                            gid="quantile-intervals"), autolim=False)
-        ends += [x for segment in segments for x, _ in segment]
+        ends += [v for segment in segments for v, _ in segment]
     return ends
 
 
-def _contributions(axes, description, options: FigureOptions) -> None:
+def _contributions(axes, description, options: FigureOptions, x: Units) -> None:
     tail = description.tail_contributions
-    dress(axes, xlabel=options.value_label(), ylabel="share of the moment")
+    dress(axes, xlabel=x.label(options.value_label()), ylabel="share of the moment")
     if tail is None or not tail.outcomes:
         reasons = [w.message for w in description.warnings if {"tail_contributions", "moments"} & set(w.descriptors)]
         note(axes, "Contributions to the third and fourth moments are undefined: " + (reasons[0] if reasons else
@@ -224,9 +241,12 @@ def _contributions(axes, description, options: FigureOptions) -> None:
     if len(outcomes) > MAX_CONTRIBUTIONS_DRAWN:
         largest = sorted(range(len(outcomes)), key=lambda i: outcomes[i].fourth, reverse=True)
         outcomes = [outcomes[i] for i in sorted(largest[:MAX_CONTRIBUTIONS_DRAWN])]
-    values = [o.value for o in outcomes]
-    third = [o.third for o in outcomes]
-    fourth = [o.fourth for o in outcomes]
+    values = [x(o.value) for o in outcomes]
+    y = units_for([o.third for o in outcomes] + [o.fourth for o in outcomes])
+    third = [y(o.third) for o in outcomes]
+    fourth = [y(o.fourth) for o in outcomes]
+    if y.exponent:
+        axes.set_ylabel(y.label("share of the moment"))
     axes.axhline(0.0, color=INK, linewidth=0.6, zorder=1)
     axes.vlines(values, 0.0, third, colors=DEEP, linewidth=1.4, zorder=2, gid="third-stems")
     axes.plot(values, third, linestyle="none", marker="o", markersize=3.5, color=DEEP, zorder=3, gid="third",

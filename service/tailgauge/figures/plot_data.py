@@ -133,18 +133,37 @@ def _value_histogram(data: WeightedData) -> Histogram:
     values, cumulative = support.values, support.cumulative
     low, high = float(values[0]), float(values[-1])
     n = _size(data)
-    iqr = float(values[_reaching(cumulative, 0.75)] - values[_reaching(cumulative, 0.25)])
-    width = 2.0 * iqr * n ** (-1.0 / 3.0) if n > 0 else 0.0
-    span = high - low
-    if width > 0.0 and math.isfinite(span / width):
-        bins, rule = math.ceil(span / width), RULE_FREEDMAN_DIACONIS
+    # Halves throughout: a span or IQR between values near float64's largest would overflow.
+    half_iqr = float(values[_reaching(cumulative, 0.75)]) / 2 - float(values[_reaching(cumulative, 0.25)]) / 2
+    half_width = 2.0 * half_iqr * n ** (-1.0 / 3.0) if n > 0 else 0.0
+    half_span = high / 2 - low / 2
+    if half_width > 0.0 and math.isfinite(half_span / half_width):
+        bins, rule = math.ceil(half_span / half_width), RULE_FREEDMAN_DIACONIS
     else:
         bins, rule = math.ceil(math.log2(max(n, 1.0))) + 1, RULE_STURGES
     bins = max(1, min(MAX_HISTOGRAM_BINS, bins))
-    edges = np.linspace(low, high, bins + 1)
-    if not np.all(np.diff(edges) > 0.0):  # a span too narrow for this many float64 steps
-        edges = np.array([low, high]) if high > low else np.array([low - 0.5, low + 0.5])
+    edges = _spaced(low, high, bins)
     return Histogram(edges.tolist(), _counts(values, cumulative, edges).tolist(), rule, density=False)
+
+
+def _spaced(low: float, high: float, bins: int) -> np.ndarray:
+    """``bins + 1`` equally spaced edges from ``low`` to ``high``, each finite (no span is formed),
+    fewer where float64 has too few steps between them, two around a single value."""
+    if high <= low:
+        return np.array(_around(low))
+    t = np.arange(bins + 1, dtype=np.float64) / bins
+    edges = low * (1.0 - t) + high * t
+    edges[0], edges[-1] = low, high
+    return np.unique(edges)
+
+
+def _around(x: float) -> list[float]:
+    """Two edges around a single value: 5% of it (at least 0.5) to either side, within float64."""
+    half = max(abs(x) * 0.05, 0.5)
+    return [max(x - half, -_LARGEST), min(x + half, _LARGEST)]
+
+
+_LARGEST = float(np.finfo(np.float64).max)
 
 
 def _counts(values: np.ndarray, cumulative: np.ndarray, edges: np.ndarray) -> np.ndarray:
@@ -160,12 +179,13 @@ def _counts(values: np.ndarray, cumulative: np.ndarray, edges: np.ndarray) -> np
 
 def _outcome_histogram(values: np.ndarray, weights: np.ndarray) -> Histogram:
     if values.size == 1:
-        half = max(abs(float(values[0])) * 0.05, 0.5)
-        edges = np.array([values[0] - half, values[0] + half])
+        edges = _around(float(values[0]))
     else:
-        middles = 0.5 * values[:-1] + 0.5 * values[1:]
-        edges = np.concatenate(([values[0] - (middles[0] - values[0])], middles, [values[-1] + (values[-1] - middles[-1])]))
-    return Histogram(edges.tolist(), weights.tolist(), RULE_OUTCOMES, density=False)
+        middles = (0.5 * values[:-1] + 0.5 * values[1:]).tolist()
+        first, last = float(values[0]), float(values[-1])
+        # The outer edges mirror the inner ones; Python floats go to infinity, clipped to float64's range.
+        edges = [max(first - (middles[0] - first), -_LARGEST), *middles, min(last + (last - middles[-1]), _LARGEST)]
+    return Histogram(list(edges), weights.tolist(), RULE_OUTCOMES, density=False)
 
 
 def _bins_histogram(data: WeightedData) -> Histogram:
@@ -174,9 +194,9 @@ def _bins_histogram(data: WeightedData) -> Histogram:
     if counts.size > MAX_DRAWN_BINS:
         edges, counts = _regrouped(edges, counts)
         rule = RULE_REGROUPED
-    widths = np.diff(edges)
-    closed = widths[np.isfinite(widths)]
-    density = bool(closed.size > 1 and not np.all(closed == closed[0]))
+    finite = edges[np.isfinite(edges)]
+    halves = finite[1:] / 2 - finite[:-1] / 2  # half widths of the closed bins: no overflow
+    density = bool(halves.size > 1 and not np.all(halves == halves[0]))
     shown = [None if math.isinf(e) else float(e) for e in edges]
     return Histogram(shown, counts.tolist(), rule, density)
 
