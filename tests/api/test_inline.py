@@ -36,3 +36,23 @@ def test_where_requests_compute(make_client, monkeypatch):
     loop, resampled, large = seen
     assert not loop.startswith("AnyIO worker thread"), seen
     assert resampled.startswith("AnyIO worker thread") and large.startswith("AnyIO worker thread"), seen
+
+
+def test_figures_are_always_drawn_in_a_worker_thread(make_client, monkeypatch):
+    """A small body asking for a figure is not computed inline: drawing runs in the worker thread."""
+    from tailgauge.api import pictures
+
+    seen = []
+    original = pictures.describing.draw
+
+    def draw(*args, **kwargs):
+        seen.append(threading.current_thread().name)
+        return original(*args, **kwargs)
+
+    monkeypatch.setattr(pictures.describing, "draw", draw)
+    client = make_client(request_log=False)
+    body = json.dumps({"values": [float(v % 17) for v in range(100)]}).encode()
+    assert endpoints.runs_inline(body)
+    answer = client.post(SAMPLES, content=body, headers={"content-type": "application/json", "accept": "image/svg+xml"})
+    assert answer.status_code == 200 and answer.headers["content-type"].startswith("image/svg+xml")
+    assert len(seen) == 1 and seen[0].startswith("AnyIO worker thread"), seen

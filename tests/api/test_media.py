@@ -189,7 +189,8 @@ def test_openapi_documents_both_media_types(client):
     for path in (SAMPLES, TABLE, BINS):
         operation = document["paths"][path]["post"]
         assert set(operation["requestBody"]["content"]) == {"application/json", MSGPACK}
-        assert set(operation["responses"]["200"]["content"]) == {"application/json", MSGPACK}
+        # Figures of the answer too (tests/api/test_figures_api.py checks what they hold).
+        assert set(operation["responses"]["200"]["content"]) == {"application/json", MSGPACK, "image/svg+xml", "image/png"}
         assert set(operation["responses"]["400"]["content"]) == {
             "application/problem+json",
             "application/problem+msgpack",

@@ -132,11 +132,13 @@ def test_the_circle_check_finds_a_circle():
 
 
 # The floors of the house, top to bottom: what each part of the package may import of the others.
-# The entry point (tailgauge.asgi) builds the app; the api uses the core, the settings and the
-# runtime helpers (logs, metrics files, draining); nothing below imports anything above it.
+# The entry point (tailgauge.asgi) builds the app; the api uses the core, the figures (drawn from
+# the core's results), the settings and the runtime helpers (logs, metrics files, draining);
+# nothing below imports anything above it.
 FLOORS = {
     "asgi": {"api", "settings"},
-    "api": {"core", "settings", "runtime"},
+    "api": {"core", "figures", "settings", "runtime"},
+    "figures": {"core"},
     "recipes": {"core"},
     "runtime": set(),
     "settings": set(),

@@ -511,6 +511,16 @@ def build() -> Corpus:
     c.add("table", "gzip-twice", gzip.compress(gzip.compress(valid_json["table"], mtime=0), mtime=0), "bin", 415,
           "unsupported-media-type", ["header.content-encoding"], "gzip applied twice (one layer is inflated)",
           content_type=JSON, headers=[["Content-Encoding", "gzip, gzip"]])
+    # ---- figures: options.figure out of bounds or with control characters; merge draws nothing ---
+    c.category = "figures"
+    c.both("samples", "figure-too-narrow", with_changes("samples", options={"figure": {"width": 100}}),
+           *bad, ["$.options.figure.width"], "a figure narrower than 320 pixels", accept="image/svg+xml")
+    c.both("comparisons", "figure-title-newline", with_changes("comparisons", options={"figure": {"title": "week\n48"}}),
+           *bad, ["$.options.figure.title"], "a line break in a figure's title (printable text only)", accept="image/png")
+    c.both("bins", "figure-unknown-field", with_changes("bins", options={"figure": {"colour": "red"}}),
+           *bad, ["$.options.figure.colour"], "figure colours are not the caller's to choose", accept="image/svg+xml")
+    c.add("merge", "accept-figure", valid_json["merge"], "json", 406, "not-acceptable", ["header.accept"],
+          "merged states carry no values to draw: no figure types are offered", accept="image/svg+xml")
     return c
 
 

@@ -123,3 +123,71 @@ def _post_status(url: str, body: bytes) -> int:
             return answer.status
     except urllib.error.HTTPError as error:
         return error.code
+
+
+def test_try_it_out_with_image_svg_shows_the_figure(shared_server):
+    """"Try it out" on samples with the response media type image/svg+xml: the page shows the
+    figure (an image, not its XML source); its screenshot (test-artifacts/schema-page-figure.png)
+    is not blank; nothing leaves the machine."""
+    _require_chromium()
+    from PIL import Image
+    from playwright.sync_api import expect, sync_playwright
+
+    base = shared_server.base_url
+    blocked: list[str] = []
+
+    def route(route_request) -> None:
+        url = route_request.request.url
+        if url == base or url.startswith(base + "/") or url.startswith("blob:"):
+            route_request.continue_()
+        else:
+            blocked.append(url)
+            route_request.abort()
+
+    ARTIFACTS.mkdir(exist_ok=True)
+    shot = ARTIFACTS / "schema-page-figure.png"
+    with sync_playwright() as playwright:
+        browser = playwright.chromium.launch(executable_path=str(CHROMIUM), headless=True, args=CHROMIUM_ARGS)
+        try:
+            context = browser.new_context(viewport={"width": 1280, "height": 1600}, service_workers="block")
+            context.route("**/*", route)
+            page = context.new_page()
+            page.goto(f"{base}/docs", wait_until="networkidle")
+            operation = page.locator(".opblock-post").filter(
+                has=page.locator(f'.opblock-summary-path[data-path="{SAMPLES}"]')
+            )
+            operation.locator(".opblock-summary").click()
+            operation.get_by_role("button", name="Try it out").click()
+            body = operation.locator("textarea.body-param__text")
+            expect(body).to_be_visible()
+            body.fill(json.dumps({**EXAMPLE, "options": {"figure": {"title": "Bag weights", "unit": "g"}}}, indent=2))
+            # The responses' media type selector sets the Accept header of the request.
+            chooser = operation.locator('.responses-table tr.response[data-code="200"] select.content-type').first
+            chooser.select_option("image/svg+xml")
+            with page.expect_response(lambda r: r.url == base + SAMPLES and r.request.method == "POST") as caught:
+                operation.get_by_role("button", name="Execute").click()
+            answer = caught.value
+            assert answer.status == 200, answer.text()
+            assert answer.headers["content-type"].startswith("image/svg+xml")
+            assert answer.request.headers.get("accept", "").startswith("image/svg+xml")
+            figure = operation.locator(".live-responses-table img.figure-answer")
+            expect(figure).to_be_visible()
+            page.wait_for_function(
+                "element => element.complete && element.naturalWidth > 0", arg=figure.element_handle()
+            )
+            natural = figure.evaluate("element => [element.naturalWidth, element.naturalHeight]")
+            figure.scroll_into_view_if_needed()
+            page.screenshot(path=str(shot), full_page=False)
+            figure.screenshot(path=str(ARTIFACTS / "schema-page-figure-only.png"))
+        finally:
+            browser.close()
+
+    assert blocked == [], f"requests that would have left the machine: {blocked}"
+    assert natural == [800, 600], natural  # options.figure's default size, in pixels
+    image = Image.open(ARTIFACTS / "schema-page-figure-only.png").convert("L")
+    histogram = image.histogram()
+    dark = sum(histogram[:128]) / sum(histogram)
+    # A drawn figure: many grey levels, some dark ink (axes, text, markers), mostly light ground.
+    assert sum(1 for count in histogram if count) > 20, "the figure's screenshot has almost no grey levels"
+    assert 0.005 < dark < 0.5, dark
+    assert Image.open(shot).getextrema() != ((255, 255), (255, 255), (255, 255)), "blank screenshot"

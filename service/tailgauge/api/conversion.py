@@ -31,6 +31,7 @@ import msgspec
 from tailgauge.api import schemas
 from tailgauge.core import Comparison, Description, PartialState, Scores
 from tailgauge.core.registry import SCALAR_DESCRIPTORS
+from tailgauge.figures import PlotData
 
 Message = TypeVar("Message", bound=msgspec.Struct)
 
@@ -40,10 +41,12 @@ FILLED_BY_EDGE: dict[type, dict[str, str]] = {
     schemas.DescriptionResponse: {
         "scores": "standardize() scores options.score against the description afterwards",
         "partial_state": "state_of() is computed beside the description when options.partial_state asks",
+        "plot_data": "tailgauge.figures.plot_data() reads the input beside the description when options.plot_data asks",
     },
     schemas.MergedDescriptionResponse: {
         "scores": "standardize() scores options.score against the description afterwards",
         "partial_state": "the merged state itself, returned so merges can be merged again",
+        "plot_data": "merged states carry no values to draw: always null",
     },
     schemas.ComparisonResponse: {"scores": "standardize() scores options.score against the first input"},
 }
@@ -66,6 +69,7 @@ ROOTS: tuple[tuple[type, type], ...] = (
     (Comparison, schemas.ComparisonResponse),
     (Scores, schemas.Scores),
     (PartialState, schemas.PartialState),
+    (PlotData, schemas.PlotData),
 )
 
 

@@ -1,4 +1,10 @@
-"""The schema page: Swagger UI served from the installed package, so it renders with no internet."""
+"""The schema page: Swagger UI served from the installed package, so it renders with no internet.
+
+One plugin of our own (``FigureAnswers``): Swagger UI shows an ``image/svg+xml`` answer as XML
+text (its XML rule comes before its image rule), so "Try it out" with that media type would show
+the figure's source, not the figure. The plugin wraps the response body: an SVG answer is shown
+as an image (an ``<img>`` of a blob URL, so nothing in the SVG runs), anything else as before.
+"""
 
 from __future__ import annotations
 
@@ -27,11 +33,29 @@ _PAGE = f"""<!doctype html>
 <script src="{ASSETS}/swagger-ui-bundle.js"></script>
 <script src="{ASSETS}/swagger-ui-standalone-preset.js"></script>
 <script>
+function FigureAnswers() {{
+  return {{
+    wrapComponents: {{
+      responseBody: (Original, system) => (props) => {{
+        const type = String(props.contentType || "").toLowerCase();
+        if (type.startsWith("image/svg+xml") && props.content) {{
+          const blob = props.content instanceof Blob ? props.content : new Blob([props.content], {{type: "image/svg+xml"}});
+          const h = system.React.createElement;
+          return h("div", null, h("h5", null, "Response body"),
+                   h("img", {{src: window.URL.createObjectURL(blob), alt: "figure of the answer",
+                             className: "figure-answer", style: {{maxWidth: "100%", background: "white"}}}}));
+        }}
+        return system.React.createElement(Original, props);
+      }}
+    }}
+  }};
+}}
 window.ui = SwaggerUIBundle({{
   url: "/openapi.json",
   dom_id: "#swagger-ui",
   deepLinking: true,
   presets: [SwaggerUIBundle.presets.apis, SwaggerUIStandalonePreset],
+  plugins: [FigureAnswers],
   layout: "BaseLayout"
 }});
 </script>

@@ -15,7 +15,7 @@ from typing import TypeVar
 import msgspec
 import numpy as np
 
-from tailgauge.api import admission, schemas
+from tailgauge.api import admission, pictures, schemas
 from tailgauge.api.conversion import to_message
 from tailgauge.api.media import Codec
 from tailgauge.api.problems import ApiProblem, invalid_body, json_path
@@ -60,6 +60,7 @@ from tailgauge.core import (
 from tailgauge.core.scoring import READ_BY_SCORES
 from tailgauge.core.partial import MIN_ORDER, PartialState, describe_state, merge_states, state_of
 from tailgauge.core.sketches import combine_sketches
+from tailgauge import figures
 from tailgauge.settings import Settings
 
 # A body this small (about 2,000 values as JSON) and without intervals computes in about the time of
@@ -147,20 +148,26 @@ def _check_count(count: int, path: str, settings: Settings, what: str | None = N
         )
 
 
-def _admitted(inputs, options: DescribeOptions, ticket) -> DescribeOptions:
-    """Plan the computation (422 with what would fit), then hold its memory in the worker's gate."""
+def _admitted(inputs, options: DescribeOptions, ticket, figure: str | None = None) -> DescribeOptions:
+    """Plan the computation (422 with what would fit), then hold its memory in the worker's gate
+    (and, for a figure, what drawing it takes: a bounded canvas, whatever the input's size)."""
     estimate = admit(inputs, options)
-    ticket.resize(ticket.decoding + estimate.peak_bytes, estimate.seconds)
+    drawing = (figures.RENDER_BYTES, figures.RENDER_SECONDS) if figure else (0.0, 0.0)
+    ticket.resize(ticket.decoding + estimate.peak_bytes + drawing[0], estimate.seconds + drawing[1])
     return dataclasses.replace(options, admitted=True)
 
 
-def describe_options(options: CoreChoices, settings: Settings, decoding: float = 0.0) -> DescribeOptions:
+def describe_options(
+    options: CoreChoices, settings: Settings, decoding: float = 0.0, figure: str | None = None, *, quartiles: bool = True
+) -> DescribeOptions:
     """The core's options for a request's option set, within this server's limits.
 
     Every option set answers the same typed questions (an option an endpoint does not offer is
     a property holding the core's default), so this is the one place a request's options become
     the core's. ``decoding``: bytes already held for the decoded body, taken from the memory the
-    computation may use.
+    computation may use. ``figure``: a figure is asked for, so what it reads (``figures.READS``) is
+    computed whether shown or not, and with ``quartiles`` the quartiles it marks are added to the
+    probabilities (after the requested ones; the figure marks only the requested ones as quantiles).
     """
     if options.moment_order > settings.max_moment_order:
         raise LimitExceeded(
@@ -194,15 +201,23 @@ def describe_options(options: CoreChoices, settings: Settings, decoding: float =
         convention=options.convention,
         skewness_estimator=options.skewness_estimator,
         kurtosis_estimator=options.kurtosis_estimator,
-        probabilities=tuple(options.probabilities),
+        probabilities=_probabilities(options.probabilities, figure is not None and quartiles),
         quantile_type=options.quantile_type,
         moment_order=options.moment_order,
         modes_limit=settings.max_modes_listed,
         sheppard_correction=options.sheppard_correction,
         contributions_limit=settings.max_contributions_listed,
         # The schema admits only known names; scores read four descriptors whether shown or not.
-        descriptors=choose(options.descriptors, also=READ_BY_SCORES if options.score else ()),
+        descriptors=choose(
+            options.descriptors, also=(READ_BY_SCORES if options.score else ()) + (figures.READS if figure else ())
+        ),
     )
+
+
+def _probabilities(requested: list[float], quartiles: bool) -> tuple[float, ...]:
+    if not quartiles:
+        return tuple(requested)
+    return (*requested, *(p for p in figures.QUARTILES if p not in requested))
 
 
 def _with_scores(message: DescriptionResponse | ComparisonResponse, description, points: list[float]):
@@ -225,12 +240,13 @@ def _with_scores(message: DescriptionResponse | ComparisonResponse, description,
 
 def _answer(
     description, count: int, codec: Codec, points: list[float], state: PartialState | None = None,
-    selection: Selection | None = None,
+    selection: Selection | None = None, plot: schemas.PlotData | None = None,
 ) -> Computed:
     message = to_message(restricted(description, selection), DescriptionResponse)
     message = _with_scores(message, description, points)
     if state is not None:
         message.partial_state = to_message(state, schemas.PartialState)
+    message.plot_data = plot
     resamples = description.resampling.resamples if description.resampling is not None else 0
     return Computed(codec.encode(message), count, resamples)
 
@@ -286,20 +302,40 @@ def _bins_data(message: BinsData, settings: Settings, prefix: str = "$"):
 
 
 @admission.giving_back
-def describe_samples(body: bytes, codec: Codec, answer: Codec, settings: Settings) -> Computed:
+def describe_samples(
+    body: bytes, codec: Codec, answer: Codec, settings: Settings, figure: str | None = None
+) -> Computed:
     with admission.admitted(body, codec, settings) as ticket:
         request = _decode(body, SamplesRequest, codec)
         data, count = _samples_data(request, request.options.missing, settings)
-        options = _admitted([data], describe_options(request.options, settings, ticket.decoding), ticket)
+        options = _admitted([data], describe_options(request.options, settings, ticket.decoding, figure), ticket, figure)
         description = describe(data, options, kind="samples")
+        if figure:
+            return _drawn(description, data, "samples", request.options, figure, count)
         state = None
         if request.options.partial_state:
             state = state_of(data, order=max(MIN_ORDER, request.options.moment_order))
-        return _answer(description, count, answer, request.options.score, state, options.descriptors)
+        return _answer(
+            description, count, answer, request.options.score, state, options.descriptors,
+            _plot(data, "samples", request.options),
+        )
+
+
+def _drawn(description, data, kind: str, request_options, figure: str, count: int) -> Computed:
+    """A figure of ``description`` as the answer's bytes."""
+    resamples = description.resampling.resamples if description.resampling is not None else 0
+    return Computed(pictures.description_figure(description, data, kind, request_options, figure), count, resamples)
+
+
+def _plot(data, kind: str, request_options) -> schemas.PlotData | None:
+    return pictures.plot_data_message(data, kind) if request_options.plot_data else None
 
 
 @admission.giving_back
-def merge_states_request(body: bytes, codec: Codec, answer: Codec, settings: Settings) -> Computed:
+def merge_states_request(
+    body: bytes, codec: Codec, answer: Codec, settings: Settings, figure: str | None = None
+) -> Computed:
+    # Merged states carry no values to draw: the operation declares no figure media types.
     # States and sketches cost what their bytes do: the decoding bound covers them.
     with admission.admitted(body, codec, settings):
         return _merge_states(body, codec, answer, settings)
@@ -326,23 +362,37 @@ def _merge_states(body: bytes, codec: Codec, answer: Codec, settings: Settings) 
 
 
 @admission.giving_back
-def describe_table(body: bytes, codec: Codec, answer: Codec, settings: Settings) -> Computed:
+def describe_table(
+    body: bytes, codec: Codec, answer: Codec, settings: Settings, figure: str | None = None
+) -> Computed:
     with admission.admitted(body, codec, settings) as ticket:
         request = _decode(body, TableRequest, codec)
         data, count = _table_data(request, request.options.normalize, settings)
-        options = _admitted([data], describe_options(request.options, settings, ticket.decoding), ticket)
+        options = _admitted([data], describe_options(request.options, settings, ticket.decoding, figure), ticket, figure)
         description = describe(data, options, kind="table")
-        return _answer(description, count, answer, request.options.score, selection=options.descriptors)
+        if figure:
+            return _drawn(description, data, "table", request.options, figure, count)
+        return _answer(
+            description, count, answer, request.options.score, selection=options.descriptors,
+            plot=_plot(data, "table", request.options),
+        )
 
 
 @admission.giving_back
-def describe_bins(body: bytes, codec: Codec, answer: Codec, settings: Settings) -> Computed:
+def describe_bins(
+    body: bytes, codec: Codec, answer: Codec, settings: Settings, figure: str | None = None
+) -> Computed:
     with admission.admitted(body, codec, settings) as ticket:
         request = _decode(body, BinsRequest, codec)
         data, count = _bins_data(request, settings)
-        options = _admitted([data], describe_options(request.options, settings, ticket.decoding), ticket)
+        options = _admitted([data], describe_options(request.options, settings, ticket.decoding, figure), ticket, figure)
         description = describe(data, options, kind="bins")
-        return _answer(description, count, answer, request.options.score, selection=options.descriptors)
+        if figure:
+            return _drawn(description, data, "bins", request.options, figure, count)
+        return _answer(
+            description, count, answer, request.options.score, selection=options.descriptors,
+            plot=_plot(data, "bins", request.options),
+        )
 
 
 def _input_data(message, settings: Settings, prefix: str):
@@ -354,20 +404,28 @@ def _input_data(message, settings: Settings, prefix: str):
 
 
 @admission.giving_back
-def compare_inputs(body: bytes, codec: Codec, answer: Codec, settings: Settings) -> Computed:
+def compare_inputs(
+    body: bytes, codec: Codec, answer: Codec, settings: Settings, figure: str | None = None
+) -> Computed:
     with admission.admitted(body, codec, settings) as ticket:
-        return _compare(body, codec, answer, settings, ticket)
+        return _compare(body, codec, answer, settings, ticket, figure)
 
 
-def _compare(body: bytes, codec: Codec, answer: Codec, settings: Settings, ticket) -> Computed:
+def _compare(body: bytes, codec: Codec, answer: Codec, settings: Settings, ticket, figure: str | None) -> Computed:
     request = _decode(body, ComparisonRequest, codec)
     first, first_count, first_kind = _input_data(request.first, settings, "$.first")
     second, second_count, second_kind = _input_data(request.second, settings, "$.second")
     _check_count(first_count + second_count, "$.second", settings, "$.first and $.second together")
-    options = describe_options(request.options, settings, ticket.decoding)
-    options = _admitted([first, second], options, ticket)
+    options = describe_options(request.options, settings, ticket.decoding, figure, quartiles=False)
+    options = _admitted([first, second], options, ticket, figure)
     comparison = compare(first, second, options, kinds=(first_kind, second_kind))
+    resamples = 0 if comparison.resampling is None else 2 * comparison.resampling.resamples
+    if figure:
+        kinds = (first_kind, second_kind)
+        drawn = pictures.comparison_figure(comparison, first, second, kinds, request.options, figure)
+        return Computed(drawn, first_count + second_count, resamples)
     message = to_message(restricted_comparison(comparison, options.descriptors), ComparisonResponse)
     message = _with_scores(message, comparison.first, request.options.score)
-    resamples = 0 if comparison.resampling is None else 2 * comparison.resampling.resamples
+    message.first.plot_data = _plot(first, first_kind, request.options)
+    message.second.plot_data = _plot(second, second_kind, request.options)
     return Computed(answer.encode(message), first_count + second_count, resamples)

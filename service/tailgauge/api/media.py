@@ -1,10 +1,12 @@
-"""Media types: JSON and MessagePack bodies in (by Content-Type) and out (by Accept).
+"""Media types: JSON and MessagePack bodies in (by Content-Type) and out (by Accept), figures out.
 
 One ``Codec`` per format holds cached msgspec decoders and its encoder; handlers ask for the
 request's codec (415 when the body's type or content coding is not served) and the answer's
 codec (406 when the Accept header excludes both, quality values honoured); a gzip body is
 inflated by ``compression``. Problem responses follow the answer's format where it can be
-known, JSON otherwise.
+known, JSON otherwise. An operation whose table entry declares figure media types
+(``image/svg+xml``, ``image/png``) offers them after JSON and MessagePack: ``*/*`` still gets JSON,
+``image/*`` an SVG.
 """
 
 from __future__ import annotations
@@ -14,6 +16,8 @@ from typing import Any
 
 import msgspec
 from litestar import Request
+
+from tailgauge.figures import FORMATS as FIGURE_TYPES
 
 JSON = "application/json"
 MSGPACK = "application/msgpack"
@@ -131,19 +135,27 @@ def negotiate(accept: str, offered: list[str]) -> str | None:
     return best
 
 
-def answer_codec(request: Request) -> tuple[Codec, str]:
-    """The codec and exact media type to answer with; JSON when the client states no preference."""
+def answer_codec(request: Request, figures: tuple[str, ...] = ()) -> tuple[Codec, str]:
+    """The codec and exact media type to answer with; JSON when the client states no preference.
+
+    ``figures``: the figure media types the operation also answers with (its table entry's). When
+    one of them is chosen the codec is JSON's, for the problems a figure request may still meet.
+    """
     accept = ", ".join(request.headers.getall("accept", []))
     if not accept:
         return JSON_CODEC, JSON
-    chosen = negotiate(accept, _OFFERED)
+    chosen = negotiate(accept, [*_OFFERED, *figures])
     if chosen is None:
+        served = [JSON, MSGPACK, *figures]
+        listed = ", ".join(served[:-1]) + f" or {served[-1]}"
         raise MediaTypeError(
             406,
-            f"this endpoint answers with {JSON} or {MSGPACK}; the Accept header excludes both",
+            f"this endpoint answers with {listed}; the Accept header excludes {'both' if len(served) == 2 else 'all'}",
             "header.accept",
-            f"accept {JSON} or {MSGPACK} (with a quality above 0)",
+            f"accept {listed} (with a quality above 0)",
         )
+    if chosen in figures:
+        return JSON_CODEC, chosen
     return _BY_MEDIA_TYPE[chosen], chosen
 
 
@@ -187,6 +199,7 @@ def content_coding(request: Request) -> str:
 
 
 __all__ = [
+    "FIGURE_TYPES",
     "JSON",
     "JSON_CODEC",
     "MSGPACK",

@@ -33,7 +33,7 @@ import msgspec
 import tailgauge
 from tailgauge.api import examples as recorded
 from tailgauge.api import schemas
-from tailgauge.api.media import JSON, PROBLEM_JSON, PROBLEM_MSGPACK
+from tailgauge.api.media import FIGURE_TYPES, JSON, PROBLEM_JSON, PROBLEM_MSGPACK
 from tailgauge.api.operations import BODY_MEDIA_TYPES, OPERATIONS, Operation
 from tailgauge.api.problems import PROBLEM_TYPES
 
@@ -57,7 +57,11 @@ _STATUS_NOTES = {
 
 
 def _content(schema: dict, media_types: tuple[str, ...]) -> dict:
-    return {media: {"schema": schema} for media in media_types}
+    """Each media type with ``schema``; a figure type with its own (the image's bytes)."""
+    return {
+        media: {"schema": {"type": "string", "contentMediaType": media} if media in FIGURE_TYPES else schema}
+        for media in media_types
+    }
 
 
 def _enums() -> dict[str, type[enum.Enum]]:
@@ -154,6 +158,15 @@ def _problem_description(op: Operation, status: int) -> str:
     return description
 
 
+def _success(op: Operation) -> str:
+    if not op.figures:
+        return "Success."
+    return (
+        f"Success: the answer as {' or '.join(m for m in op.answers if m not in op.figures)}, or a figure of it as "
+        f"{' or '.join(op.figures)} (by Accept; title, unit and size from options.figure)."
+    )
+
+
 def _example(content: dict, media: str, example) -> None:
     if example is not None:
         content[media]["example"] = example
@@ -182,7 +195,7 @@ def build_document(*, metrics_require_token: bool = False, examples: dict | None
     for op in OPERATIONS:
         answers = examples.get(op.operation_id, {})
         schema = {"type": "string"} if op.response is None else ref_of[op.response]
-        ok = {"description": "Success.", "content": _content(schema, op.answers)}
+        ok = {"description": _success(op), "content": _content(schema, op.answers)}
         if JSON in op.answers:
             _example(ok["content"], JSON, answers.get("200"))
         responses = {"200": ok}

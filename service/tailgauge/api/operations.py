@@ -13,9 +13,12 @@ from __future__ import annotations
 from dataclasses import dataclass, field
 
 from tailgauge.api import schemas
-from tailgauge.api.media import JSON, MSGPACK
+from tailgauge.api.media import FIGURE_TYPES, JSON, MSGPACK
 
 BODY_MEDIA_TYPES = (JSON, MSGPACK)
+# What a descriptor or comparison operation answers with: its JSON or MessagePack body, or a
+# figure of it (SVG, PNG; tailgauge.figures).
+WITH_FIGURES = (*BODY_MEDIA_TYPES, *FIGURE_TYPES)
 TEXT = "text/plain"
 COMPUTE_PROBLEMS = (400, 401, 406, 413, 415, 422, 503)
 
@@ -33,8 +36,11 @@ class Operation:
     response: type | None
     # Statuses answered with an RFC 9457 problem document.
     problems: tuple[int, ...] = ()
-    # Media types of a success; a request body may come in any of BODY_MEDIA_TYPES.
+    # Media types of a success; a request body may come in any of BODY_MEDIA_TYPES. Those of
+    # FIGURE_TYPES among them answer a figure of the result (routes negotiate them, the document
+    # declares them, so the schema page offers them).
     answers: tuple[str, ...] = BODY_MEDIA_TYPES
+
     # Other statuses answered with the response type (status -> description).
     other_answers: dict[int, str] = field(default_factory=dict)
     # Whether the operation asks for a bearer token when the server is configured with tokens.
@@ -49,6 +55,11 @@ class Operation:
     # rule the schema cannot express). The published examples are the app's real answers to
     # them (tailgauge.api.examples records them; other statuses come from the example itself).
     problem_examples: dict[int, dict] = field(default_factory=dict)
+
+    @property
+    def figures(self) -> tuple[str, ...]:
+        """The figure media types this operation answers with (none: it draws nothing)."""
+        return tuple(media for media in self.answers if media in FIGURE_TYPES)
 
 
 _EXAMPLES = {
@@ -123,11 +134,14 @@ OPERATIONS = (
             "Every descriptor of raw observations: location, spread, moments, shape in the "
             "Joanes & Gill families, quantiles by any Hyndman & Fan type, modes, the largest tail "
             "contributors and lag-1 autocorrelation. Optional frequency or reliability weights. "
-            "Undefined results are null with a warning saying why."
+            "Undefined results are null with a warning saying why. Accept: image/svg+xml or image/png "
+            "answers a figure: the histogram with the mean, median, quartiles, a one-sd band and the "
+            "requested quantiles, and each value's share of the third and fourth moments."
         ),
         request=schemas.SamplesRequest,
         response=schemas.DescriptionResponse,
         problems=COMPUTE_PROBLEMS,
+        answers=WITH_FIGURES,
         example=_EXAMPLES["/v1/descriptors/samples"],
         problem_examples=_PROBLEM_EXAMPLES["/v1/descriptors/samples"],
         tag="descriptors",
@@ -145,6 +159,7 @@ OPERATIONS = (
         request=schemas.TableRequest,
         response=schemas.DescriptionResponse,
         problems=COMPUTE_PROBLEMS,
+        answers=WITH_FIGURES,
         example=_EXAMPLES["/v1/descriptors/table"],
         problem_examples=_PROBLEM_EXAMPLES["/v1/descriptors/table"],
         tag="descriptors",
@@ -162,6 +177,7 @@ OPERATIONS = (
         request=schemas.BinsRequest,
         response=schemas.DescriptionResponse,
         problems=COMPUTE_PROBLEMS,
+        answers=WITH_FIGURES,
         example=_EXAMPLES["/v1/descriptors/bins"],
         problem_examples=_PROBLEM_EXAMPLES["/v1/descriptors/bins"],
         tag="descriptors",
@@ -195,11 +211,13 @@ OPERATIONS = (
             "the scale descriptors, Hedges' g, quantile shifts, both inputs' quantiles on the z scale, "
             "and a two-sample test (Kolmogorov-Smirnov, or chi-square homogeneity for bins on the same "
             "edges). With options.interval every contrast gets a bootstrap interval from independent "
-            "resampling of the two inputs."
+            "resampling of the two inputs. Accept: image/svg+xml or image/png answers a figure: both "
+            "empirical distribution functions and the quantile shifts with their intervals."
         ),
         request=schemas.ComparisonRequest,
         response=schemas.ComparisonResponse,
         problems=COMPUTE_PROBLEMS,
+        answers=WITH_FIGURES,
         example=_EXAMPLES["/v1/comparisons"],
         problem_examples=_PROBLEM_EXAMPLES["/v1/comparisons"],
         tag="comparisons",

@@ -1,5 +1,8 @@
 """HTTP handlers: negotiate media types, hand the bytes to a worker thread, return the bytes.
 
+A compute request whose Accept header chooses one of its operation's figure media types is
+handed the chosen type (``figure=``) and answered with the figure's bytes, always from a thread.
+
 Each handler is built from its entry in the endpoint table (``tailgauge.api.operations``): the
 path, method and name come from there; this module gives only the bodies, keyed by operation id.
 """
@@ -16,7 +19,7 @@ from litestar.handlers import HTTPRouteHandler
 
 from tailgauge.api import compression, endpoints, media, metrics, schemas
 from tailgauge.api.media import MediaTypeError
-from tailgauge.api.operations import OPERATIONS, Operation
+from tailgauge.api.operations import OPERATION_IDS, OPERATIONS, Operation
 from tailgauge.api.problems import ApiProblem
 from tailgauge.api.schemas import ProblemLocation
 from tailgauge.core import catalog
@@ -35,9 +38,9 @@ def _problem(error: MediaTypeError) -> ApiProblem:
     )
 
 
-def _answer(request: Request) -> tuple[media.Codec, str]:
+def _answer(request: Request, figures: tuple[str, ...] = ()) -> tuple[media.Codec, str]:
     try:
-        return media.answer_codec(request)
+        return media.answer_codec(request, figures)
     except MediaTypeError as error:
         raise _problem(error) from None
 
@@ -59,22 +62,26 @@ def _encoded(work, gzip_body: bool, gzip_answer: bool):
     return run
 
 
-async def _compute(request: Request, work, endpoint: str) -> Response[bytes]:
+async def _compute(request: Request, work, endpoint: str, figures: tuple[str, ...]) -> Response[bytes]:
     try:
         coding = media.content_coding(request)
         body_codec = media.body_codec(request)
     except MediaTypeError as error:
         raise _problem(error) from None
-    answer_codec, answer_type = _answer(request)
+    answer_codec, answer_type = _answer(request, figures)
+    figure = answer_type if answer_type in figures else None
     body = await request.body()
     settings = request.app.state.settings
     gzip_body = coding == "gzip"
-    run = _encoded(work, gzip_body, compression.accepts_gzip(request.headers.getall("accept-encoding", [])))
-    if not gzip_body and endpoints.runs_inline(body):
+    # A PNG is compressed already; an SVG is text and shrinks as JSON does.
+    gzip_answer = answer_type != "image/png" and compression.accepts_gzip(request.headers.getall("accept-encoding", []))
+    run = _encoded(partial(work, figure=figure), gzip_body, gzip_answer)
+    if figure is None and not gzip_body and endpoints.runs_inline(body):
         result, encoded, headers = run(body, body_codec, answer_codec, settings)  # cheaper than the hop to a thread
     else:
-        # CPU-bound work (decoding and encoding included) runs off the event loop, so health stays live.
-        # A gzip body always goes to a thread: a few bytes may inflate to the whole body limit.
+        # CPU-bound work (decoding, drawing and encoding included) runs off the event loop, so health
+        # stays live; a figure is always drawn in a thread, and a gzip body always inflated in one (a
+        # few bytes may inflate to the whole body limit).
         result, encoded, headers = await anyio.to_thread.run_sync(partial(run, body, body_codec, answer_codec, settings))
     request.state.values = result.values
     metrics.VALUES.labels(endpoint).observe(result.values)
@@ -84,11 +91,13 @@ async def _compute(request: Request, work, endpoint: str) -> Response[bytes]:
     return Response(encoded, media_type=answer_type, headers=headers)
 
 
-def _computing(work, label: str):
-    """The body of a compute operation: ``work`` (in ``endpoints``) in a thread; metrics under ``label``."""
+def _computing(work, label: str, operation_id: str):
+    """The body of a compute operation: ``work`` (in ``endpoints``) in a thread; metrics under ``label``;
+    the figure media types its table entry declares."""
+    figures = OPERATION_IDS[operation_id].figures
 
     async def compute(request: Request) -> Response[bytes]:
-        return await _compute(request, work, label)
+        return await _compute(request, work, label, figures)
 
     return compute
 
@@ -147,11 +156,11 @@ def describe_catalog(request: Request) -> Response[bytes]:
 # Operation id -> its body. Compute bodies run in a worker thread themselves; the others are
 # cheap and run on the event loop. Metric labels of the compute endpoints are API (dashboards).
 BODIES = {
-    "describeSamples": _computing(endpoints.describe_samples, "samples"),
-    "describeTable": _computing(endpoints.describe_table, "table"),
-    "describeBins": _computing(endpoints.describe_bins, "bins"),
-    "mergeStates": _computing(endpoints.merge_states_request, "merge"),
-    "compare": _computing(endpoints.compare_inputs, "comparisons"),
+    "describeSamples": _computing(endpoints.describe_samples, "samples", "describeSamples"),
+    "describeTable": _computing(endpoints.describe_table, "table", "describeTable"),
+    "describeBins": _computing(endpoints.describe_bins, "bins", "describeBins"),
+    "mergeStates": _computing(endpoints.merge_states_request, "merge", "mergeStates"),
+    "compare": _computing(endpoints.compare_inputs, "comparisons", "compare"),
     "catalog": describe_catalog,
     "metrics": metrics_exposition,
     "live": live,

@@ -334,6 +334,12 @@ MEMBERS: tuple[CatalogEntry, ...] = (
           "(n_a/n)^k M_{p-k},b] d^k + (n_a n_b d / n)^p [n_b^(1-p) - (-n_a)^(1-p)], d = mean_b - mean_a", ("partial_state", "moment_order"),
           ("reliability weights, probability tables or bins (no count of observations)",),
           "Chan, Golub & LeVeque 1979; Pebay, Sandia report SAND2008-6212, 2008"),
+    CatalogEntry("plot_data", "plot_data",
+          "histogram (Freedman-Diaconis width 2 IQR n^(-1/3), at most 120 bins; one bin per outcome for a sample of "
+          "at most 30 distinct values or a table of at most 200 outcomes; bins as sent, regrouped beyond 400) and the "
+          "empirical distribution function (every step up to 512 points, else where F first reaches k / 511)",
+          ("plot_data",), ("merged partial states (no values)",),
+          "Freedman & Diaconis, Z. Wahrscheinlichkeitstheorie verw. Gebiete 57, 1981; Sturges, JASA 21, 1926"),
     CatalogEntry("sketches", "sketches",
           "quantiles of the pooled KLL sketches by the inclusive rank rule; rank error at most "
           "normalized_rank_error x n with 99% confidence", ("probabilities",),

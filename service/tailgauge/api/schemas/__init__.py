@@ -4,18 +4,19 @@ API-change rules: a new field always has a default; a field's type is only ever 
 may also come as float64 bytes), never changed; names are snake_case plain statistical terms.
 
 Modules, by concept: ``common`` (the strict base and the constrained number types), ``options``
-(option sets), ``inputs`` (request bodies: each input kind's fields declared once), ``results``
+(option sets), ``pictures`` (options.figure and plot_data), ``inputs`` (request bodies: each input kind's fields declared once), ``results``
 (descriptor responses), ``comparisons``, ``merge`` (partial states and sketches), ``problems``
 (RFC 9457 bodies) and ``info`` (health, readiness, catalog). Import names from here.
 """
 
-from tailgauge.api.schemas import common, comparisons, info, inputs, merge, options, problems, results
+from tailgauge.api.schemas import common, comparisons, info, inputs, merge, options, pictures, problems, results
 from tailgauge.api.schemas.common import *  # noqa: F403
 from tailgauge.api.schemas.comparisons import *  # noqa: F403
 from tailgauge.api.schemas.info import *  # noqa: F403
 from tailgauge.api.schemas.inputs import *  # noqa: F403
 from tailgauge.api.schemas.merge import *  # noqa: F403
 from tailgauge.api.schemas.options import *  # noqa: F403
+from tailgauge.api.schemas.pictures import *  # noqa: F403
 from tailgauge.api.schemas.problems import *  # noqa: F403
 from tailgauge.api.schemas.results import *  # noqa: F403
 
@@ -23,6 +24,7 @@ __all__ = sorted(
     {
         *common.__all__,
         *options.__all__,
+        *pictures.__all__,
         *inputs.__all__,
         *results.__all__,
         *comparisons.__all__,

@@ -24,6 +24,7 @@ from tailgauge.api.schemas.common import (
     Message,
     Probability,
 )
+from tailgauge.api.schemas.pictures import FigureRequest
 from tailgauge.core import DEFAULT_PROBABILITIES
 from tailgauge.core import selection as core_selection
 
@@ -214,6 +215,24 @@ class DescriptorOptions(SummaryOptions):
         IntervalRequest | None,
         Meta(description="Ask for bootstrap and classical intervals of every descriptor; null: none."),
     ] = None
+    figure: Annotated[
+        FigureRequest | None,
+        Meta(
+            description=(
+                "Title, unit and size of the figure answered to Accept: image/svg+xml or image/png; "
+                "read only when a figure is asked for. null: every default."
+            )
+        ),
+    ] = None
+    plot_data: Annotated[
+        bool,
+        Meta(
+            description=(
+                "Add member plot_data to a JSON or MessagePack answer: the histogram and the empirical "
+                "distribution function (at most 512 points) the figure is drawn from."
+            )
+        ),
+    ] = False
 
 
 class SampleOptions(DescriptorOptions):

@@ -14,6 +14,7 @@ from msgspec import UNSET, Meta, UnsetType
 
 from tailgauge.core import registry
 from tailgauge.api.schemas.common import SCHEMA_MAX_MOMENT_ORDER, Answer, Finite, MaybeNumber, NonNegative
+from tailgauge.api.schemas.pictures import PlotData
 
 
 class InputKind(StrEnum):
@@ -285,6 +286,10 @@ class DescriptionResponse(Answer, kw_only=True):
     partial_state: Annotated[
         PartialState | None,
         Meta(description="The mergeable summary asked for by options.partial_state (samples only)."),
+    ] = None
+    plot_data: Annotated[
+        PlotData | None,
+        Meta(description="What the figure is drawn from, asked for by options.plot_data; null otherwise (and for merges)."),
     ] = None
 
 
