@@ -10,6 +10,7 @@ from __future__ import annotations
 
 import asyncio
 import inspect
+import pickle
 import typing
 
 import httpx
@@ -145,6 +146,8 @@ def test_a_problem_raises_one_exception_with_its_fields_and_located_errors(share
     assert error.problem == schemas.Problem(type=error.type, title=error.title, status=422, detail=error.detail,
                                             errors=error.errors)
     assert "$.values[1]" in str(error)
+    copy = pickle.loads(pickle.dumps(error))  # a Dask task may raise it
+    assert (copy.problem, copy.request_id, str(copy)) == (error.problem, error.request_id, str(error))
     assert invalid.value.status == 400
     assert [location.path for location in invalid.value.errors] == ["$.options.skewness_estimator"]
     wanted = "application/problem+msgpack" if media == "msgpack" else "application/problem+json"

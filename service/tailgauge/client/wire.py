@@ -71,16 +71,20 @@ class ProblemError(Exception):
     ``about:blank``, the status's reason as title and the start of the body as detail.
     """
 
-    def __init__(self, problem: schemas.Problem, headers: httpx.Headers | None = None) -> None:
+    def __init__(self, problem: schemas.Problem, headers: httpx.Headers | dict[str, str] | list[tuple[str, str]] | None = None) -> None:
         self.problem = problem
         self.type = problem.type
         self.title = problem.title
         self.status = problem.status
         self.detail = problem.detail
         self.errors: list[schemas.ProblemLocation] = list(problem.errors)
-        self.headers = headers if headers is not None else httpx.Headers()
+        self.headers = httpx.Headers(headers)
         self.request_id: str | None = self.headers.get("x-request-id")
         super().__init__(self._text())
+
+    def __reduce__(self) -> tuple:
+        # Picklable (a Dask task may raise it): rebuilt from the problem and the headers.
+        return (type(self), (self.problem, list(self.headers.multi_items())))
 
     @property
     def retry_after(self) -> float | None:
