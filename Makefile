@@ -17,7 +17,7 @@ define install_profile
 	test -x $(PY) || $(PYTHON) -m venv $(VENV)
 	$(PY) -m pip install --quiet --require-hashes -r requirements/$(1).txt
 	$(PY) -m pip install --quiet --no-index --no-build-isolation -e '.[$(2)]'
-	$(PY) -m pip check >/dev/null
+	$(PY) -m pip check
 endef
 
 install: $(STAMP)
