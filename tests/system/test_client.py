@@ -85,10 +85,11 @@ def test_every_operation_through_the_client_equals_the_plain_answer(shared_serve
     assert {request.headers["content-type"] for request in posted} == {wanted}
 
 
-def test_every_operation_through_the_async_client(shared_server):
+@pytest.mark.parametrize("media", ["json", "msgpack"])
+def test_every_operation_through_the_async_client(shared_server, media):
     async def run() -> dict:
         answers = {}
-        async with AsyncClient(shared_server.base_url, media="msgpack") as client:
+        async with AsyncClient(shared_server.base_url, media=media) as client:
             for op in OPERATIONS:
                 method = getattr(client, method_name(op.operation_id))
                 answers[op.operation_id] = await (method(**op.example) if op.example else method())
