@@ -12,10 +12,14 @@ ENV PIP_DISABLE_PIP_VERSION_CHECK=1 \
     PIP_NO_CACHE_DIR=1
 WORKDIR /src
 RUN python3 -m venv /opt/venv
-COPY pyproject.toml requirements.lock ./
+COPY pyproject.toml README.md ./
+COPY requirements/serve.txt ./requirements/
 COPY service ./service
-# Non-editable, no test extras; requirements.lock pins every transitive version.
-RUN /opt/venv/bin/pip install --no-cache-dir -c requirements.lock .
+# The serving profile only (the `server` extra): every version pinned with its hashes in
+# requirements/serve.txt, build backend included; then the project itself, non-editable, from
+# nothing but what is installed (--no-index: a requirement missing from the lock fails the build).
+RUN /opt/venv/bin/pip install --no-cache-dir --require-hashes -r requirements/serve.txt \
+    && /opt/venv/bin/pip install --no-cache-dir --no-index --no-build-isolation '.[server]'
 
 FROM ${BASE_IMAGE} AS runtime
 # OCI image annotations (github.com/opencontainers/image-spec, annotations.md). VERSION must equal

@@ -209,10 +209,8 @@ if ((${#missing[@]})); then
     quietly apt-install env DEBIAN_FRONTEND=noninteractive apt-get install -y -qq "${missing[@]}"
 fi
 [[ -x .venv/bin/python ]] || quietly make-install make install
-# The container-checks extra of pyproject.toml, pinned by requirements.lock.
-mapfile -t check_requirements < <(.venv/bin/python -c 'import tomllib
-print("\n".join(tomllib.load(open("pyproject.toml", "rb"))["project"]["optional-dependencies"]["container-checks"]))')
-quietly pip-install .venv/bin/pip install -c requirements.lock "${check_requirements[@]}"
+# The container-checks extra of pyproject.toml: its lock, held to the test profile's versions.
+quietly pip-install .venv/bin/pip install --require-hashes -r requirements/container-checks.txt
 
 step "hadolint Dockerfile"
 .venv/bin/hadolint --failure-threshold warning Dockerfile || fail "hadolint found warnings or errors"
@@ -289,6 +287,14 @@ for quota in 1:1 1.5:2; do
     expected=$(expected_workers "${quota#*:}")
     [[ $workers == "$expected" ]] || fail "--cpus ${quota%%:*}: $workers default workers, expected $expected"
 done
+
+step "the image holds the serving profile only"
+# Exactly what requirements/serve.txt pins (and pip and tailgauge): no test tool, nothing unlocked.
+podman run --rm --network=none --entrypoint /opt/venv/bin/python "$IMAGE" -m pip list --format=freeze \
+    >"$WORK/image-packages.txt" 2>"$WORK/image-packages.err" || fail "pip list in the image failed: $(cat "$WORK/image-packages.err")"
+.venv/bin/python -m tests.deploy.locks environment requirements/serve.txt "$WORK/image-packages.txt" \
+    || fail "the image's packages differ from requirements/serve.txt (above)"
+log "$(wc -l <"$WORK/image-packages.txt") packages, as requirements/serve.txt pins them"
 
 step "run read-only on 127.0.0.1, POST a sample"
 port=$(free_port)

@@ -134,12 +134,15 @@ def test_the_circle_check_finds_a_circle():
 # The floors of the house, top to bottom: what each part of the package may import of the others.
 # The entry point (tailgauge.asgi) builds the app; the api uses the core, the figures (drawn from
 # the core's results), the settings and the runtime helpers (logs, metrics files, draining);
-# nothing below imports anything above it.
+# nothing below imports anything above it. The client stands beside the app on the api's wire
+# types and operation table (which import without the server's libraries:
+# tests/deploy/test_install_profiles.py); the recipes may send through it and name its wire types.
 FLOORS = {
     "asgi": {"api", "settings"},
+    "client": {"api"},
     "api": {"core", "figures", "settings", "runtime"},
     "figures": {"core"},
-    "recipes": {"core"},
+    "recipes": {"core", "client", "api"},
     "runtime": set(),
     "settings": set(),
     "core": set(),

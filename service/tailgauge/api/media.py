@@ -12,10 +12,12 @@ known, JSON otherwise. An operation whose table entry declares figure media type
 from __future__ import annotations
 
 from dataclasses import dataclass, field
-from typing import Any
+from typing import TYPE_CHECKING, Any
 
 import msgspec
-from litestar import Request
+
+if TYPE_CHECKING:  # only annotations: the names and codecs here import without the server's libraries
+    from litestar import Request
 
 from tailgauge.figures import FORMATS as FIGURE_TYPES
 
