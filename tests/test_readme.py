@@ -21,7 +21,7 @@ def _examples() -> list[tuple[str, dict]]:
 
 @pytest.fixture(scope="module")
 def answers():
-    """Each example's answer, keyed by path; a second example of a path gets the suffix '#2'."""
+    """Each example's answer, keyed by path; a later example of a path gets the suffix '#2', '#3', ..."""
     examples = _examples()
     assert {path for path, _ in examples} == {
         "/v1/descriptors/samples",
@@ -33,7 +33,8 @@ def answers():
     found = {}
     with TestClient(create_app(Settings())) as client:
         for path, body in examples:
-            key = path if path not in found else f"{path}#2"
+            seen = sum(1 for earlier in found if earlier.split("#")[0] == path)
+            key = path if not seen else f"{path}#{seen + 1}"
             response = client.post(path, json=body)
             assert response.status_code == 200, response.text
             found[key] = response.json()

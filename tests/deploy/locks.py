@@ -46,15 +46,21 @@ class Pin:
 
 
 def read_lock(path: Path) -> dict[str, Pin]:
-    """Every pin of a requirements file with hashes: name -> version, environment marker, hash count."""
+    """Every pin of a requirements file with hashes: name -> version, environment marker, hash count.
+
+    A universal lock may pin one name twice under exclusive markers (one version for Python
+    3.11, another for 3.12 and later): the pin whose marker holds here is kept."""
     pins: dict[str, Pin] = {}
     current = None
     for line in path.read_text().splitlines():
         match = _PIN.match(line)
         if match:
             marker = _MARKER.search(line)
-            current = normalize(match["name"])
-            pins[current] = Pin(match["version"], marker["marker"] if marker else None, 0)
+            pin = Pin(match["version"], marker["marker"] if marker else None, 0)
+            name = normalize(match["name"])
+            current = name if name not in pins or _applies(pin.marker) else None
+            if current:
+                pins[current] = pin
         elif current and line.strip().startswith("--hash=sha256:"):
             pin = pins[current]
             pins[current] = Pin(pin.version, pin.marker, pin.hashes + 1)

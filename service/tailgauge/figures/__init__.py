@@ -11,10 +11,22 @@ internal form) and matplotlib; ``tailgauge.api`` imports it; the core never does
     comparing     the figure of two inputs (comparisons)
 """
 
-from tailgauge.figures import comparing, describing
-from tailgauge.figures.environment import FORMATS, PNG, SVG
+import importlib
+
 from tailgauge.figures.plot_data import PlotData, plot_data
-from tailgauge.figures.style import FigureOptions
+from tailgauge.figures.style import FORMATS, PNG, SVG, FigureOptions
+
+# What needs matplotlib loads on first use (PEP 562): the wire types (api/schemas/pictures.py read
+# style's bounds) and the plot data import without it, so the base install (the client, no
+# matplotlib) can import them (tests/deploy/test_install_profiles.py).
+_DRAWING = ("comparing", "describing", "environment")
+
+
+def __getattr__(name: str):
+    if name not in _DRAWING:
+        raise AttributeError(f"module {__name__!r} has no attribute {name!r}")
+    return importlib.import_module(f"{__name__}.{name}")
+
 
 # Descriptors and members every figure of a description reads, computed even when
 # options.descriptors does not show them (like the values scores read).

@@ -45,9 +45,7 @@ from matplotlib.backends.backend_svg import FigureCanvasSVG  # noqa: E402
 from matplotlib.figure import Figure  # noqa: E402
 from matplotlib.font_manager import FontProperties  # noqa: E402
 
-SVG = "image/svg+xml"
-PNG = "image/png"
-FORMATS = (SVG, PNG)
+from tailgauge.figures.style import FORMATS, PNG, SVG  # noqa: E402,F401  (the media types, declared without matplotlib)
 # Pixels per inch of the figure: a PNG is exactly width x height pixels; an SVG says the same
 # width and height (in CSS pixels) over a viewBox in points.
 DPI = 100

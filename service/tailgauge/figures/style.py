@@ -13,6 +13,11 @@ from __future__ import annotations
 from dataclasses import dataclass
 
 # name -> hex colour; CIE L* (D65) in the comment, from tests/figures/test_style.py's formula.
+# The figures' media types (what the operations table declares and the api negotiates).
+SVG = "image/svg+xml"
+PNG = "image/png"
+FORMATS = (SVG, PNG)
+
 INK = "#1f2a36"  # L* 17: text, axes, the mean
 DEEP = "#24527a"  # L* 34: the first input, contributions to the third moment
 ACCENT = "#d4762c"  # L* 59: the second input, the median and quartiles, contributions to the fourth
