@@ -405,6 +405,12 @@ class WarningCode(enum.StrEnum):
         "budget (the medcouple)",
     )
     RESAMPLING_SCHEME = "resampling_scheme", "how fractional weights were resampled"
+    SERIAL_DEPENDENCE = (
+        "serial_dependence",
+        "intervals that assume independent observations: named when the lag-1 autocorrelation of the "
+        "values in the order sent is significant at the 1 % level (send options.order as_sent), or left "
+        "out for a series sent with options.order as_sent",
+    )
     BOOTSTRAP_SMALL_SAMPLE = "bootstrap_small_sample", "n < 20: intervals may cover less than their level"
     BOOTSTRAP_DISCRETE = "bootstrap_discrete", "few distinct values: order-statistic intervals are coarse"
     NOT_AVAILABLE_FROM_STATES = (
