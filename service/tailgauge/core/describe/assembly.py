@@ -51,7 +51,10 @@ def admit(inputs: list[WeightedData], options: DescribeOptions) -> cost.Estimate
         interval = None  # refused with its own reason by validation.check_description
     left = math.inf if options.deadline is None else options.deadline - time.monotonic()
     return cost.admit(
-        [cost.shape_of(d, options.subset_rows, distinct=_sorts(d, options)) for d in inputs],
+        [
+            cost.shape_of(d, options.subset_rows, distinct=_sorts(d, options), ordered=options.order == "as_sent")
+            for d in inputs
+        ],
         probabilities=len(options.probabilities),
         resamples=0 if interval is None else interval.resamples,
         method=None if interval is None else interval.method,

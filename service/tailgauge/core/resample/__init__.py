@@ -306,7 +306,7 @@ def bootstrap(
     wanted = statistics.wanted(estimates)
 
     own = threading.local()
-    planned = batches(plan, options.seed, options.resamples)
+    planned = batches(plan, options.seed, options.resamples, blocks is not None)
     parallel = threads > 1 and len(planned) > 1
     # On several threads, multinomial batches are drawn a part at a time and each part's order
     # statistics read while the next is drawn (see PIPELINE_ROWS); the values are the same.

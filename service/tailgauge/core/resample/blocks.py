@@ -22,10 +22,11 @@ from dataclasses import dataclass
 import numpy as np
 
 SCHEMES = ("stationary", "circular", "moving")
-# Observation indices drawn at once (rows x n); the chunk's arrays take about
-# CHUNK_BYTES_PER_DRAW bytes each (uniforms, flags, starts, offsets, indices, support rows).
+# Observation indices drawn at once (rows x n); the chunk's arrays take at most
+# CHUNK_BYTES_PER_DRAW bytes per index together (uniforms, flags, starts, offsets,
+# indices, support rows: 50 measured with tracemalloc at n = 2e6, stationary).
 CHUNK_DRAWS = 1 << 19
-CHUNK_BYTES_PER_DRAW = 48
+CHUNK_BYTES_PER_DRAW = 64
 
 
 @dataclass(frozen=True, eq=False)
