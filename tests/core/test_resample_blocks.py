@@ -22,13 +22,24 @@ Every generator is seeded; nothing here depends on timing.
 
 from __future__ import annotations
 
+import dataclasses
+import tracemalloc
 import warnings
 
 import numpy as np
 import pytest
 from scipy import stats
 
-from tailgauge.core import DescribeOptions, IntervalOptions, central_sums, describe, from_array, serial
+from tailgauge.core import (
+    DescribeOptions,
+    IntervalOptions,
+    LimitExceeded,
+    admit,
+    central_sums,
+    describe,
+    from_array,
+    serial,
+)
 from tailgauge.core.resample import blocks as block_draws
 from tailgauge.core.resample.blocks import Blocks, block_counts
 from tailgauge.core.resample.intervals import percentile
@@ -189,3 +200,50 @@ def test_coverage_of_the_mean_on_ar1_small_run():
     assert covered["independent"] < floor_95 - 20  # far short: about 68 % seen
     assert covered["stationary"] >= floor_90
     assert covered["stationary"] - covered["independent"] >= 0.15 * series
+
+
+# ----------------------------------------------------------------------------------------------
+# The cost model and the budget for a series (tests/core/test_cost.py's rules, for order as_sent)
+# ----------------------------------------------------------------------------------------------
+
+
+def _series_options(q: int, resamples: int, **extra) -> DescribeOptions:
+    return DescribeOptions(
+        interval=IntervalOptions(method="bca", resamples=resamples, seed=7), order="as_sent",
+        probabilities=tuple(np.linspace(0.01, 0.99, q)), **extra,
+    )
+
+
+@pytest.mark.parametrize(("n", "distinct", "resamples"), [(6000, None, 600), (50_000, 60, 300), (150_000, None, 100)])
+def test_model_bounds_the_measured_peak_of_a_series(n, distinct, resamples):
+    rng = np.random.default_rng(41)
+    x = ar1(0.5, n, rng)
+    if distinct is not None:  # ties: many observations per support row
+        x = np.round((x - x.min()) / (x.max() - x.min()) * (distinct - 1))
+    data = from_array(x)
+    options = _series_options(30, resamples, max_resample_work=1e13)
+    estimate = admit([data], options)
+    assert any(stage.name == "autocovariances" for stage in estimate.stages)
+    assert not any(stage.name == "jackknife" for stage in estimate.stages)  # BCa falls back
+    tracemalloc.start()
+    try:
+        describe(data, dataclasses.replace(options, admitted=True), kind="samples")
+        peak = tracemalloc.get_traced_memory()[1]
+    finally:
+        tracemalloc.stop()
+    assert peak <= estimate.peak_bytes
+
+
+def test_the_budget_counts_the_drawn_observations_and_its_advice_is_admitted():
+    x = ar1(0.5, 2000, np.random.default_rng(42))
+    data = from_array(x)
+    k = data.support.values.size
+    # 1,000 resamples x (k + n) = 4e6 > 3e6, while 1,000 x k = 2e6 alone would fit.
+    options = _series_options(5, 1000, max_resample_work=3e6)
+    with pytest.raises(LimitExceeded) as refused:
+        describe(data, options, kind="samples")
+    assert refused.value.locations[0].path == "options.interval.resamples"
+    allowed = int(3e6 // (k + 2000))
+    assert f"at most {allowed}" in refused.value.locations[0].message
+    resent = dataclasses.replace(options, interval=dataclasses.replace(options.interval, resamples=allowed))
+    assert describe(data, resent, kind="samples").resampling.resamples == allowed
