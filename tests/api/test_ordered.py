@@ -138,3 +138,13 @@ def test_tables_have_no_order_option(client, post_json):
     )
     assert response.status_code == 400
     assert problem["errors"][0]["path"] == "$.options.order"
+
+
+def test_alternating_series_has_no_effective_n_and_says_why(describe):
+    # Two values: deviations -+0.5, c_0 = 0.25, c_1 = -0.125, Geyer's one pair c_0 + c_1 = 0.125, so
+    # tau = (-c_0 + 2 x 0.125) / c_0 = 0 and n / tau is undefined (worked by hand).
+    body = describe([1.0, 2.0], order="as_sent")
+    assert body["size"]["effective_n"] is None
+    assert any(
+        w["code"] == "undefined_for_these_data" and "effective_n" in w["message"] for w in body["warnings"]
+    )

@@ -176,6 +176,12 @@ def describe(data: WeightedData, options: DescribeOptions, *, kind: str) -> Desc
     structure = None
     if options.order == "as_sent" and sums is not None and not basis.single and not constant:
         structure = ordered.serial_of(data, sums)
+        if structure.effective_n is None:
+            notes.add(
+                WarningCode.UNDEFINED_FOR_THESE_DATA,
+                "size.effective_n is null: the autocorrelations' initial positive sequence gives tau <= 0 "
+                "(neighbours that alternate), so n / tau is undefined",
+            )
     resampling = None
     if options.interval is not None:
         resampling = intervals.intervals(
