@@ -122,8 +122,8 @@ def note_serial_dependence(
         WarningCode.SERIAL_DEPENDENCE,
         f"the lag-1 autocorrelation of the values in the order sent is {r1:.3g}, beyond "
         f"+-{lag1_threshold(n):.3g} (significant at the 1 % level, standard error 1/sqrt(n) under "
-        "independence): these intervals assume independent observations and are likely too narrow; "
-        'send options.order "as_sent" to resample blocks of the series',
+        "independence): these intervals assume independent observations and are likely too narrow "
+        '(a samples request with options.order "as_sent" resamples blocks of the series instead)',
         named,
     )
 
