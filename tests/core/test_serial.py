@@ -56,7 +56,7 @@ def test_geyer_initial_positive_sequence_equals_a_loop():
         total += c[2 * m] + c[2 * m + 1]
         m += 1
     assert serial.integrated_time(c) == pytest.approx((-c[0] + 2.0 * total) / c[0], rel=1e-12)
-    assert serial.effective_size(c) == pytest.approx(c.size / serial.integrated_time(c), rel=1e-15)
+    assert serial.effective_size(c) == pytest.approx(c.size / serial.integrated_time(c), rel=1e-15)  # tau > floor
 
 
 @pytest.mark.parametrize("phi", [0.0, 0.3, 0.6, 0.9])
@@ -72,6 +72,19 @@ def test_effective_n_of_ar1_against_its_closed_form(phi):
     assert abs(ratios.mean() - expected) <= 4.0 * standard_error + 0.02 * expected
     # And the spread itself is what makes the check meaningful: a few percent of the value.
     assert ratios.std(ddof=1) < 0.25 * expected
+
+
+def test_effective_n_of_negatively_correlated_neighbours_is_bounded():
+    # AR(1) with phi = -0.95: the closed form n (1 - phi) / (1 + phi) = 39 n is beyond n log10 n,
+    # where tau's floor 1 / log10(n) holds it.
+    n = 2000
+    c = _covariances(ar1(-0.95, n, np.random.default_rng(9)))
+    assert serial.integrated_time(c) < 1.0 / np.log10(n)
+    assert serial.effective_size(c) == pytest.approx(n * np.log10(n), rel=1e-12)
+    # Few values: at most n; two values give tau = 0 exactly (c_0 = 0.25, c_1 = -0.125 for 1, 2).
+    assert serial.effective_size(_covariances(np.array([3.0, -2.0, 3.5, -1.0, 2.0, -2.5]))) <= 6.0
+    assert serial.integrated_time(_covariances(np.array([1.0, 2.0]))) == 0.0
+    assert serial.effective_size(_covariances(np.array([1.0, 2.0]))) == 2.0
 
 
 def test_effective_n_is_undefined_for_constant_data():

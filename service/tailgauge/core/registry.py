@@ -306,7 +306,8 @@ MEMBERS: tuple[CatalogEntry, ...] = (
     CatalogEntry("effective_n", "size",
           "reliability weights: Kish's (sum w)^2 / sum w^2; a series sent with order as_sent: n / tau, tau = (-c0 + "
           "2 sum_m (c_2m + c_2m+1)) / c0 over the initial pairs that stay positive (c_k the autocovariances, divisor "
-          "n); above n when neighbours are negatively correlated", ("order",),
+          "n), tau at least 1 / log10(n) (1 for n <= 10): above n when neighbours are negatively correlated, at "
+          "most n log10 n", ("order",),
           ("unweighted values without order as_sent", "tables, bins, probabilities", "constant data"),
           "Kish, Survey Sampling, 1965; Geyer, Statistical Science 7, 1992 (initial positive sequence)"),
     CatalogEntry("block_resampling", "resampling, descriptors.*, quantiles[*]",

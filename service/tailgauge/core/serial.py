@@ -60,7 +60,8 @@ def integrated_time(covariances: np.ndarray) -> float | None:
     """Geyer's (1992) initial positive sequence estimate of ``tau = 1 + 2 sum_k rho_k``: the sums
     of adjacent pairs ``G_m = c_2m + c_2m+1`` are added while they stay positive, and
     ``tau = (-c_0 + 2 sum_m G_m) / c_0`` (C. J. Geyer, "Practical Markov chain Monte Carlo",
-    Statistical Science 7, 1992, section 3.3). ``None`` when it is not positive and finite."""
+    Statistical Science 7, 1992, section 3.3); at or below 0 when neighbours alternate strongly
+    (see :func:`effective_size`). ``None`` for constant data (c_0 = 0) or a non-finite sum."""
     c0 = float(covariances[0]) if covariances.size else 0.0
     if not c0 > 0.0:
         return None
@@ -68,14 +69,23 @@ def integrated_time(covariances: np.ndarray) -> float | None:
     stops = np.flatnonzero(pairs <= 0.0)
     kept = pairs[: stops[0]] if stops.size else pairs
     tau = (-c0 + 2.0 * float(np.sum(kept))) / c0
-    return tau if math.isfinite(tau) and tau > 0.0 else None
+    return tau if math.isfinite(tau) else None
 
 
 def effective_size(covariances: np.ndarray) -> float | None:
     """``n / tau`` with Geyer's initial positive sequence ``tau`` (:func:`integrated_time`): the
-    number of independent observations whose mean is as precise as this series' mean."""
+    number of independent observations whose mean is as precise as this series' mean.
+
+    Negatively correlated neighbours make tau small and n / tau large, without bound as tau
+    nears 0 or passes below it (a series that alternates): tau is taken at least
+    ``1 / log10(n)``, so the effective n is at most ``n log10 n`` (the floor Stan puts on tau,
+    recalled rather than looked up), and at least 1 for n <= 10 (the effective n at most n)."""
     tau = integrated_time(covariances)
-    return None if tau is None else covariances.size / tau
+    if tau is None:
+        return None
+    n = covariances.size
+    floor = 1.0 / math.log10(n) if n > 10 else 1.0
+    return n / max(tau, floor)
 
 
 # Politis & White (2004), with the correction of Patton, Politis & White (2009): the bandwidth

@@ -109,7 +109,7 @@ class Size(Answer):
             description=(
                 "Kish effective sample size (sum w)^2 / sum w^2, for reliability weights; for a series sent "
                 "with options.order as_sent, n / tau with tau = 1 + 2 sum of autocorrelations by Geyer's "
-                "(1992) initial positive sequence; null otherwise."
+                "(1992) initial positive sequence, at most n log10 n (n for n <= 10); null otherwise."
             )
         ),
     ]

@@ -179,8 +179,7 @@ def describe(data: WeightedData, options: DescribeOptions, *, kind: str) -> Desc
         if structure.effective_n is None:
             notes.add(
                 WarningCode.UNDEFINED_FOR_THESE_DATA,
-                "size.effective_n is null: the autocorrelations' initial positive sequence gives tau <= 0 "
-                "(neighbours that alternate), so n / tau is undefined",
+                "size.effective_n is null: the sum of the autocorrelations is not finite",
             )
     resampling = None
     if options.interval is not None:
