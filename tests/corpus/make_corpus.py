@@ -497,6 +497,18 @@ def build() -> Corpus:
     c.both("comparisons", "skewness-estimator-unknown", with_changes("comparisons", options={"skewness_estimator": "G3"}),
            *bad, ["$.options.skewness_estimator"], "a skewness family that does not exist",
            says=["'G3' is not one of: g1, G1, b1, or null"])
+
+    # ---- series options: options.order as_sent and its block options -------------------------
+    c.category = "series-options"
+    c.both("samples", "order-as-sent-with-weights", {"values": LOAVES, "weights": [1] * 7, "options": {"order": "as_sent"}},
+           422, "uncomputable-input", ["$.options.order"], "a series needs unweighted values")
+    c.both("samples", "block-length-without-order", with_changes("samples", options={"block_length": 3}),
+           422, "uncomputable-input", ["$.options.block_length"], "a block length for values sent as exchangeable")
+    c.both("samples", "block-length-past-the-series", with_changes("samples", options={"order": "as_sent", "block_length": 8}),
+           422, "uncomputable-input", ["$.options.block_length"], "blocks of 8 in a series of 7")
+    c.both("samples", "order-unknown", with_changes("samples", options={"order": "backwards"}), *bad,
+           ["$.options.order"], "an order that is neither exchangeable nor as_sent",
+           says=["'backwards' is not one of: exchangeable, as_sent"])
     return c
 
 
