@@ -128,7 +128,7 @@ def test_the_corpus_covers_every_kind_of_bad_input():
     assert {case["category"] for case in CASES} == {
         "malformed-json", "malformed-msgpack", "wrong-types", "nested-garbage", "out-of-range", "nan-infinity",
         "over-limits", "mismatched-lengths", "negative-zero-weights", "non-increasing-edges", "unknown-fields",
-        "wrong-media-types", "msgpack-problems", "request-edges", "figures",
+        "wrong-media-types", "msgpack-problems", "request-edges", "figures", "series-options",
     }
     endpoints = {case["endpoint"] for case in CASES if case["endpoint"].startswith("/v1/descriptors/")
                  or case["endpoint"] == "/v1/comparisons"}

@@ -29,7 +29,7 @@ RESAMPLED = registry.BOOTSTRAP_DESCRIPTORS
 NOT_RESAMPLED = tuple(registry.BOOTSTRAP_FAILS)
 INTERVAL_KEYS = {"low", "high", "level", "method"}
 CLASSICAL_KEYS = {"low", "high", "level", "method", "coverage", "assumption"}
-RESAMPLING_KEYS = {"method", "level", "resamples", "seed", "scheme"}
+RESAMPLING_KEYS = {"method", "level", "resamples", "seed", "scheme", "block_scheme", "block_length", "block_length_choice"}
 
 # Invented demo data: waiting times (minutes) at a ferry crossing on 40 mornings.
 WAITS = [round(float(v), 2) for v in np.random.default_rng(2718).gamma(2.5, 4.0, 40)]

@@ -48,6 +48,22 @@ def _inputs(rng: np.random.Generator):
     yield "samples n=150 (medcouple)", lambda: from_samples(rng.gamma(2.0, 1.0, 150), omit_missing=False), "samples"
 
 
+def _series_inputs(rng: np.random.Generator):
+    """Series sent with options.order as_sent: autocovariances, block draws (no jackknife)."""
+    def walkish(n: int) -> np.ndarray:
+        x = np.empty(n)
+        x[0] = 0.0
+        noise = rng.standard_normal(n)
+        for t in range(1, n):
+            x[t] = 0.6 * x[t - 1] + noise[t]
+        return x
+
+    yield "series n=2e4 (as_sent)", lambda: from_samples(walkish(20_000), omit_missing=False), "samples", {"order": "as_sent"}
+    yield "series ties n=2e5 k~60", lambda: from_samples(
+        np.round(walkish(200_000) * 6.0), omit_missing=False
+    ), "samples", {"order": "as_sent"}
+
+
 def _run(data, kind, options, traced: bool):
     if traced:
         tracemalloc.start()
@@ -72,13 +88,14 @@ def main() -> None:
     print(f"{'input':28} {'q':>5} {'method':>10} {'B':>6} {'model MiB':>10} {'meas MiB':>9} {'ratio':>6} "
           f"{'model s':>8} {'meas s':>8} {'ratio':>6}")
     worst = 0.0
-    for label, make, kind in _inputs(rng):
+    cases = [(*case, {}) for case in _inputs(rng)] + list(_series_inputs(rng))
+    for label, make, kind, extra in cases:
         data = make()
         for q, method, resamples in plans:
             interval = None if method is None else IntervalOptions(method=method, resamples=resamples, seed=1)
             options = DescribeOptions(
                 interval=interval, probabilities=tuple(np.linspace(0.001, 0.999, q)), max_resample_work=1e13,
-                admitted=True,
+                admitted=True, **extra,
             )
             estimate = admit([data], DescribeOptions(**{**options.__dict__, "admitted": False}))
             seconds, _ = _run(data, kind, options, traced=False)

@@ -172,6 +172,9 @@ def _produced() -> dict[str, str]:
         "a zero weight": lambda: describe(
             from_samples([1.0, 3.0, 4.0, 4.0, 9.0], omit_missing=True, weights=[1.0, 0.0, 2.0, 1.0, 1.0]),
             DescribeOptions(interval=INTERVAL), kind="samples"),
+        # A random walk in the order sent: r1 near 1, far beyond 2.58 / sqrt(n).
+        "a trending series with intervals": lambda: describe(
+            from_array(np.cumsum(values - values.mean())), DescribeOptions(interval=INTERVAL), kind="samples"),
         "one value": lambda: describe(from_array(np.array([3.0])), DescribeOptions(), kind="samples"),
         "constant": lambda: describe(from_array(np.full(10, 2.5)), DescribeOptions(), kind="samples"),
         "two values": lambda: describe(from_array(np.array([1.0, 4.0])), DescribeOptions(), kind="samples"),

@@ -521,6 +521,17 @@ def build() -> Corpus:
            *bad, ["$.options.figure.colour"], "figure colours are not the caller's to choose", accept="image/svg+xml")
     c.add("merge", "accept-figure", valid_json["merge"], "json", 406, "not-acceptable", ["header.accept"],
           "merged states carry no values to draw: no figure types are offered", accept="image/svg+xml")
+    # ---- series options: options.order as_sent and its block options -------------------------
+    c.category = "series-options"
+    c.both("samples", "order-as-sent-with-weights", {"values": LOAVES, "weights": [1] * 7, "options": {"order": "as_sent"}},
+           422, "uncomputable-input", ["$.options.order"], "a series needs unweighted values")
+    c.both("samples", "block-length-without-order", with_changes("samples", options={"block_length": 3}),
+           422, "uncomputable-input", ["$.options.block_length"], "a block length for values sent as exchangeable")
+    c.both("samples", "block-length-past-the-series", with_changes("samples", options={"order": "as_sent", "block_length": 8}),
+           422, "uncomputable-input", ["$.options.block_length"], "blocks of 8 in a series of 7")
+    c.both("samples", "order-unknown", with_changes("samples", options={"order": "backwards"}), *bad,
+           ["$.options.order"], "an order that is neither exchangeable nor as_sent",
+           says=["'backwards' is not one of: exchangeable, as_sent"])
     return c
 
 

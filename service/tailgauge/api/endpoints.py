@@ -206,6 +206,9 @@ def describe_options(
         moment_order=options.moment_order,
         modes_limit=settings.max_modes_listed,
         sheppard_correction=options.sheppard_correction,
+        order=str(options.order),
+        block_scheme=None if options.block_scheme is None else str(options.block_scheme),
+        block_length=options.block_length,
         contributions_limit=settings.max_contributions_listed,
         # The schema admits only known names; scores read four descriptors whether shown or not.
         descriptors=choose(

@@ -64,8 +64,9 @@ class Operation:
 
 _EXAMPLES = {
     "/v1/descriptors/samples": {
+        # Bag weights in filling order: order as_sent adds the effective n from their autocorrelation.
         "values": [251.2, 249.8, 250.4, 252.9, 250.1, 249.5, 250.7, 251.0, 248.9, 250.3, 250.3],
-        "options": {"probabilities": [0.05, 0.5, 0.95]},
+        "options": {"probabilities": [0.05, 0.5, 0.95], "order": "as_sent"},
     },
     "/v1/descriptors/table": {
         "outcomes": [{"value": 0, "weight": 412}, {"value": 1, "weight": 187}, {"value": 2, "weight": 61},

@@ -19,7 +19,7 @@ from __future__ import annotations
 import math
 from dataclasses import dataclass
 
-from tailgauge.core import resample
+from tailgauge.core import resample, serial
 from tailgauge.core.errors import LimitExceeded, Location
 from tailgauge.core.resample.budget import (
     LMOMENT_BYTES_PER_ELEMENT,
@@ -28,6 +28,7 @@ from tailgauge.core.resample.budget import (
     medcouple_table_entries,
     medcouple_work,
 )
+from tailgauge.core.resample.blocks import chunk_bytes
 from tailgauge.core.resample.draws import BATCH_ELEMENTS, batch_size, tops_up
 from tailgauge.core.weighted import WeightedData, WeightMeaning
 
@@ -46,6 +47,12 @@ POINT_SECONDS = 12e-9
 # Seconds per resampled element (resample x support row) drawn and reduced, by how counts are
 # drawn; and per order statistic looked up in a resample.
 DRAW_SECONDS = {"multinomial": 300e-9, "poisson": 25e-9, "picks": 60e-9, "subset": 220e-9}
+# Seconds per observation index of a block resample (drawn, mapped to its support row, counted;
+# 8-68 ns measured on the 2-core machine, the stationary scheme slowest).
+BLOCK_DRAW_SECONDS = 120e-9
+# Seconds per value x log2(2 x value) of a series' autocovariances (one real FFT each way of 2n;
+# 7-12 ns measured for n = 1e5 and 2e6 on the 2-core machine, 30 at n = 1000).
+SERIAL_SECONDS = 25e-9
 LOOKUP_SECONDS = 120e-9
 # Seconds per resampled element of the L-moments (plotting positions, their powers and four
 # matrix-vector products over each row; measured about 3.4 ns on the 2-core machine).
@@ -104,9 +111,11 @@ class Shape:
     poisson: bool  # raw sample of distinct values: Poisson counts topped up
     picks: bool  # resamples drawn as individual picks (b x draws indices)
     subset_rows: int  # m of the bag of little bootstraps, 0 for the ordinary bootstrap
+    # A series sent with options.order as_sent: autocovariances, and resamples joined from blocks.
+    ordered: bool = False
 
 
-def shape_of(data: WeightedData, subset_rows: int, *, distinct: bool = True) -> Shape:
+def shape_of(data: WeightedData, subset_rows: int, *, distinct: bool = True, ordered: bool = False) -> Shape:
     """The cost-driving sizes of ``data``, by the rules of ``resample.draws.plan_of`` and ``draw``
     (without building the plan's arrays).
 
@@ -132,7 +141,7 @@ def shape_of(data: WeightedData, subset_rows: int, *, distinct: bool = True) -> 
     poisson = tops_up(multinomial, draws, rows, unit_rows=True)
     picks = not ((multinomial and draws > 8 * rows) or poisson)
     subsets = 0
-    if rows > subset_rows and not data.binned:
+    if rows > subset_rows and not data.binned and not ordered:
         subsets = int(math.ceil(draws**resample.SUBSET_EXPONENT))
     return Shape(
         entries=int(data.count),
@@ -143,6 +152,7 @@ def shape_of(data: WeightedData, subset_rows: int, *, distinct: bool = True) -> 
         poisson=poisson,
         picks=picks,
         subset_rows=subsets,
+        ordered=ordered,
     )
 
 
@@ -157,8 +167,20 @@ def point_stage(shape: Shape) -> Stage:
     )
 
 
+def serial_stage(shape: Shape) -> Stage:
+    """A series' autocovariances (effective n, block lengths): one FFT of the padded values."""
+    n = shape.entries
+    return Stage(
+        "autocovariances",
+        STAGE_BYTES + serial.AUTOCOVARIANCE_BYTES_PER_VALUE * n,
+        STAGE_SECONDS + SERIAL_SECONDS * n * _log2(2 * n),
+    )
+
+
 def _per_element_bytes(shape: Shape) -> float:
     """Bytes of one batch's draws per (resample x support row), by how counts are drawn."""
+    if shape.ordered:
+        return 32.0  # int64 counts from block draws, float64 weights, prefix sums
     if shape.poisson:
         return 19.0  # byte counts, float64 weights, 32-bit prefix sums, 16-bit draws
     if shape.multinomial and shape.draws > 8 * shape.rows:
@@ -211,7 +233,9 @@ def resampling_stages(
         memory = STAGE_BYTES + subset + working + stored + 2 * batch * recorded
         stages.append(Stage("bag of little bootstraps", memory, STAGE_SECONDS + seconds))
         return stages
-    batch = batch_size(k, resamples, shape.poisson)
+    if shape.ordered:
+        method = "percentile"  # BCa falls back: no jackknife of independent observations
+    batch = batch_size(k, resamples, shape.poisson and not shape.ordered)
     batches = -(-resamples // batch)
     busy = max(1, min(threads, batches))
     row_bytes = resample.evaluation_row_bytes(k, probabilities, bins=shape.bins)
@@ -219,9 +243,15 @@ def resampling_stages(
     medcouple_seconds, medcouple_bytes = _medcouple(shape, k, resamples, max_work, batch)
     evaluation += medcouple_bytes
     per_thread = batch * k * _per_element_bytes(shape) + evaluation + 2.0 * batch * recorded
+    if shape.ordered:
+        per_thread += chunk_bytes(shape.draws)
     plan = 64.0 * k + (16.0 * shape.draws if shape.picks and shape.draws != k else 0.0)
+    if shape.ordered:
+        plan += 8.0 * shape.draws  # the support row of each observation
     stored = 2.0 * resamples * recorded
-    if shape.poisson:
+    if shape.ordered:
+        draw = DRAW_SECONDS["picks"] + BLOCK_DRAW_SECONDS * shape.draws / max(k, 1)
+    elif shape.poisson:
         draw = DRAW_SECONDS["poisson"]
     elif shape.picks:
         draw = DRAW_SECONDS["picks"] * max(1.0, shape.draws / max(k, 1))
@@ -272,12 +302,16 @@ def estimate(
     for index, shape in enumerate(shapes):
         point = point_stage(shape)
         stages.append(Stage(f"{_side(index, shapes)}{point.name}", point.bytes + kept, point.seconds))
+        if shape.ordered:
+            own_serial = serial_stage(shape)
+            stages.append(Stage(f"{_side(index, shapes)}{own_serial.name}", own_serial.bytes + kept, own_serial.seconds))
         if method is None:
             continue
         own = resampling_stages(shape, resamples, probabilities, method, threads, max_work)
         for stage in own:
             stages.append(Stage(f"{_side(index, shapes)}{stage.name}", stage.bytes + kept, stage.seconds))
-        kept += (_RECORDED + probabilities) * 8.0 * (resamples + (shape.rows if method == "bca" else 0))
+        jackknife = method == "bca" and not shape.ordered
+        kept += (_RECORDED + probabilities) * 8.0 * (resamples + (shape.rows if jackknife else 0))
     return Estimate(tuple(stages), float(resident))
 
 
@@ -286,10 +320,13 @@ def _side(index: int, shapes: list[Shape]) -> str:
 
 
 def resampling_work(shapes: list[Shape], resamples: int) -> float:
-    """The resampling budget's measure (``resample.resampling_work``): resamples x rows."""
+    """The resampling budget's measure (``resample.resampling_work``): resamples x rows (and, for
+    a series, x the observations drawn in blocks)."""
     work = 0.0
     for shape in shapes:
-        if shape.subset_rows:
+        if shape.ordered:
+            work += resamples * (shape.rows + shape.draws)
+        elif shape.subset_rows:
             work += resample.SUBSETS * -(-resamples // resample.SUBSETS) * shape.subset_rows
         else:
             work += resamples * shape.rows

@@ -298,10 +298,27 @@ MEMBERS: tuple[CatalogEntry, ...] = (
     CatalogEntry("standard_error", "descriptors.*, quantiles[*]", "standard deviation of the bootstrap replicates",
           ("interval",), ("no options.interval",), "Efron & Tibshirani 1993"),
     CatalogEntry("classical_interval", "descriptors.*, quantiles[*]",
-          "Student's t (mean), chi-square (variance, sd; normal data only), order statistics x(l), x(u) with "
+          "Student's t (mean; for a series sent with order as_sent, student_t_effective_n: the effective n in place "
+          "of n, and no other classical interval), chi-square (variance, sd; normal data only), order statistics x(l), x(u) with "
           "coverage P(l <= Binomial(n, p) <= u - 1) (median, quantiles)", ("interval",),
           ("no options.interval", "weights that are not whole counts", "n too small for the level"),
           "Conover, Practical Nonparametric Statistics, 3rd ed., section 3.2"),
+    CatalogEntry("effective_n", "size",
+          "reliability weights: Kish's (sum w)^2 / sum w^2; a series sent with order as_sent: n / tau, tau = (-c0 + "
+          "2 sum_m (c_2m + c_2m+1)) / c0 over the initial pairs that stay positive (c_k the autocovariances, divisor "
+          "n), tau at least 1 / log10(n) (1 for n <= 10): above n when neighbours are negatively correlated, at "
+          "most n log10 n", ("order",),
+          ("unweighted values without order as_sent", "tables, bins, probabilities", "constant data"),
+          "Kish, Survey Sampling, 1965; Geyer, Statistical Science 7, 1992 (initial positive sequence)"),
+    CatalogEntry("block_resampling", "resampling, descriptors.*, quantiles[*]",
+          "with order as_sent each resample joins blocks of neighbours in the order sent: stationary (lengths "
+          "geometric with mean L, wrapping), circular (length L, wrapping) or moving (length L, within the series); "
+          "by default L = (2 G^2 / D)^(1/3) n^(1/3), G = sum lambda(k/M) |k| c_k, D = 2 g^2 (stationary) or "
+          "4/3 g^2, g = sum lambda(k/M) c_k, lambda the flat-top window; BCa falls back to percentile (its "
+          "jackknife assumes independent observations)", ("order", "block_scheme", "block_length", "interval"),
+          ("no options.interval", "order exchangeable (single values are resampled)"),
+          "Politis & Romano, JASA 89, 1994; Kunsch, Annals of Statistics 17, 1989; Politis & White, Econometric "
+          "Reviews 23, 2004, corrected by Patton, Politis & White, Econometric Reviews 28, 2009"),
     CatalogEntry("differences", "comparison",
           "second minus first, for every scalar descriptor; interval from independent resampling of both inputs "
           "(replicate k: stat(second*_k) - stat(first*_k)); Welch's t interval for the mean", ("interval",),
@@ -411,6 +428,12 @@ class WarningCode(enum.StrEnum):
         "budget (the medcouple)",
     )
     RESAMPLING_SCHEME = "resampling_scheme", "how fractional weights were resampled"
+    SERIAL_DEPENDENCE = (
+        "serial_dependence",
+        "intervals that assume independent observations: named when the lag-1 autocorrelation of the "
+        "values in the order sent is significant at the 1 % level (send options.order as_sent), or left "
+        "out for a series sent with options.order as_sent",
+    )
     BOOTSTRAP_SMALL_SAMPLE = "bootstrap_small_sample", "n < 20: intervals may cover less than their level"
     BOOTSTRAP_DISCRETE = "bootstrap_discrete", "few distinct values: order-statistic intervals are coarse"
     NOT_AVAILABLE_FROM_STATES = (

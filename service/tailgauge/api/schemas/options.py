@@ -67,6 +67,24 @@ class KurtosisEstimator(StrEnum):
     B2_SAMPLE_SD = "b2"
 
 
+class Order(StrEnum):
+    """Whether the order of the values carries information: exchangeable (independent
+    observations: single values are resampled) or as_sent (a series in the order observed: blocks
+    of neighbours are resampled, and size.effective_n comes from the autocorrelations)."""
+
+    EXCHANGEABLE = "exchangeable"
+    AS_SENT = "as_sent"
+
+
+class BlockScheme(StrEnum):
+    """How blocks of a series are resampled: stationary (Politis & Romano 1994, geometric lengths),
+    circular (fixed length, wrapping past the end) or moving (fixed length, within the series)."""
+
+    STATIONARY = "stationary"
+    CIRCULAR = "circular"
+    MOVING = "moving"
+
+
 class Missing(StrEnum):
     """What a null value means: reject (an error) or omit (dropped and counted)."""
 
@@ -147,6 +165,36 @@ class CoreChoices(Protocol):
 
     @property
     def sheppard_correction(self) -> bool: ...
+
+    @property
+    def order(self) -> Order: ...
+
+    @property
+    def block_scheme(self) -> BlockScheme | None: ...
+
+    @property
+    def block_length(self) -> float | None: ...
+
+
+class Unordered:
+    """The series options of an option set whose inputs carry no observation order (tables, bins,
+    merged states) or are resampled independently (comparisons): their values as properties."""
+
+    __slots__ = ()
+
+    @property
+    def order(self) -> Order:
+        """Outcomes, bins and states have no observation order; a comparison resamples each input
+        independently."""
+        return Order.EXCHANGEABLE
+
+    @property
+    def block_scheme(self) -> BlockScheme | None:
+        return None
+
+    @property
+    def block_length(self) -> float | None:
+        return None
 
 
 class SummaryOptions(Message):
@@ -238,6 +286,31 @@ class DescriptorOptions(SummaryOptions):
 class SampleOptions(DescriptorOptions):
     quantile_type: QuantileType = None
     missing: MissingPolicy = Missing.REJECT
+    order: Annotated[
+        Order,
+        Meta(
+            description=(
+                "exchangeable: the values are independent observations (their order is ignored, except "
+                "that intervals warn serial_dependence when the lag-1 autocorrelation is significant at "
+                "1 %); as_sent: a series in the order observed: bootstrap intervals resample blocks of "
+                "neighbours, size.effective_n comes from the autocorrelations and the mean's classical "
+                "interval uses it. Needs values without weights."
+            )
+        ),
+    ] = Order.EXCHANGEABLE
+    block_scheme: Annotated[
+        BlockScheme | None,
+        Meta(description="With order as_sent: how blocks are resampled; null: stationary."),
+    ] = None
+    block_length: Annotated[
+        Annotated[float, Meta(ge=1.0, le=1e9)] | None,
+        Meta(
+            description=(
+                "With order as_sent: the expected block length (stationary) or the block length (circular, "
+                "moving: a whole number), at most n; null: chosen by Politis & White (2004, corrected 2009)."
+            )
+        ),
+    ] = None
     partial_state: Annotated[
         bool,
         Meta(
@@ -254,7 +327,7 @@ class SampleOptions(DescriptorOptions):
         return False
 
 
-class TableOptions(DescriptorOptions):
+class TableOptions(DescriptorOptions, Unordered):
     quantile_type: QuantileType = None
     normalize: Normalize = False
 
@@ -264,7 +337,7 @@ class TableOptions(DescriptorOptions):
         return False
 
 
-class BinOptions(DescriptorOptions):
+class BinOptions(DescriptorOptions, Unordered):
     sheppard_correction: Annotated[
         bool,
         Meta(
@@ -281,7 +354,7 @@ class BinOptions(DescriptorOptions):
         return None
 
 
-class ComparisonOptions(DescriptorOptions):
+class ComparisonOptions(DescriptorOptions, Unordered):
     """Options for both inputs; the descriptors of each are computed exactly as by its endpoint."""
 
     quantile_type: QuantileType = None
@@ -290,7 +363,7 @@ class ComparisonOptions(DescriptorOptions):
     ] = False
 
 
-class MergeOptions(SummaryOptions):
+class MergeOptions(SummaryOptions, Unordered):
     """The options of a descriptor endpoint that a merged state can honour (no resampling).
 
     Quantiles at options.probabilities come from sketches, when sent; moments stop at the
@@ -323,6 +396,9 @@ class TableInputOptions(Message):
 
 __all__ = [
     "BinOptions",
+    "BlockScheme",
+    "Order",
+    "Unordered",
     "DescriptorChoice",
     "Convention",
     "IntervalMethod",

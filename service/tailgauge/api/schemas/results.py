@@ -105,7 +105,14 @@ class Size(Answer):
     ]
     zero_weight: Annotated[int, Meta(description="Entries of weight zero left out.")]
     effective_n: Annotated[
-        float | None, Meta(description="Kish effective sample size (sum w)^2 / sum w^2, for reliability weights.")
+        float | None,
+        Meta(
+            description=(
+                "Kish effective sample size (sum w)^2 / sum w^2, for reliability weights; for a series sent "
+                "with options.order as_sent, n / tau with tau = 1 + 2 sum of autocorrelations by Geyer's "
+                "(1992) initial positive sequence, at most n log10 n (n for n <= 10); null otherwise."
+            )
+        ),
     ]
 
 
@@ -146,6 +153,23 @@ class Resampling(Answer):
     resamples: int
     seed: Annotated[int, Meta(description="Seed used; the same request with this seed reproduces every interval.")]
     scheme: Annotated[str, Meta(description="What was resampled and how.")]
+    block_scheme: Annotated[
+        str | None,
+        Meta(description="stationary, circular or moving for a series sent with options.order as_sent; null otherwise."),
+    ]
+    block_length: Annotated[
+        float | None,
+        Meta(description="The expected (stationary) or fixed block length used; null when single values are resampled."),
+    ]
+    block_length_choice: Annotated[
+        str | None,
+        Meta(
+            description=(
+                "politis_white: chosen from the autocorrelations (Politis & White 2004, corrected by Patton, "
+                "Politis & White 2009); given: options.block_length; null when single values are resampled."
+            )
+        ),
+    ]
 
 
 class Modes(Answer):

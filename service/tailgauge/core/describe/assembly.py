@@ -11,7 +11,7 @@ from collections.abc import Callable
 import numpy as np
 
 from tailgauge.core import cost, order_statistics
-from tailgauge.core.describe import evidence, intervals, moment_based, order_based, robust_shape
+from tailgauge.core.describe import evidence, intervals, moment_based, order_based, ordered, robust_shape
 from tailgauge.core.describe.basis import Basis
 from tailgauge.core.describe.warnings import Warnings, explain_remaining_nulls, finite_or_none, note_degenerate
 from tailgauge.core.describe.options import DescribeOptions
@@ -51,7 +51,10 @@ def admit(inputs: list[WeightedData], options: DescribeOptions) -> cost.Estimate
         interval = None  # refused with its own reason by validation.check_description
     left = math.inf if options.deadline is None else options.deadline - time.monotonic()
     return cost.admit(
-        [cost.shape_of(d, options.subset_rows, distinct=_sorts(d, options)) for d in inputs],
+        [
+            cost.shape_of(d, options.subset_rows, distinct=_sorts(d, options), ordered=options.order == "as_sent")
+            for d in inputs
+        ],
         probabilities=len(options.probabilities),
         resamples=0 if interval is None else interval.resamples,
         method=None if interval is None else interval.method,
@@ -170,10 +173,19 @@ def describe(data: WeightedData, options: DescribeOptions, *, kind: str) -> Desc
                 ["quantiles"],
             )
 
+    structure = None
+    if options.order == "as_sent" and sums is not None and not basis.single and not constant:
+        structure = ordered.serial_of(data, sums)
+        if structure.effective_n is None:
+            notes.add(
+                WarningCode.UNDEFINED_FOR_THESE_DATA,
+                "size.effective_n is null: the sum of the autocorrelations is not finite",
+            )
     resampling = None
     if options.interval is not None:
         resampling = intervals.intervals(
-            data, sums, midpoint_sums, sheppard_applied, basis, options, descriptors, quantile_list, probabilities, notes
+            data, sums, midpoint_sums, sheppard_applied, basis, options, descriptors, quantile_list, probabilities,
+            notes, structure,
         )
 
     modes, modal = None, []
@@ -188,7 +200,11 @@ def describe(data: WeightedData, options: DescribeOptions, *, kind: str) -> Desc
             omitted=data.omitted,
             distinct_values=_distinct_values(data, _sorts(data, options)),
             zero_weight=data.zero_weight,
-            effective_n=data.effective_size if data.meaning is WeightMeaning.RELIABILITY else None,
+            effective_n=(
+                data.effective_size if data.meaning is WeightMeaning.RELIABILITY
+                else None if structure is None or structure.effective_n is None
+                else finite_or_none(structure.effective_n)
+            ),
         ),
         basis=basis,
         sums=sums,

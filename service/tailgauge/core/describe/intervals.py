@@ -10,6 +10,7 @@ import math
 import numpy as np
 
 from tailgauge.core import classical, grouped, resample
+from tailgauge.core.describe import ordered
 from tailgauge.core.describe.basis import Basis
 from tailgauge.core.describe.options import DescribeOptions
 from tailgauge.core.describe.order_based import ROBUST_PROBABILITIES
@@ -32,13 +33,23 @@ def intervals(
     quantiles: list[Quantile],
     probabilities: np.ndarray,
     notes: Warnings,
+    structure: ordered.Serial | None = None,
 ) -> Resampling:
     """Bootstrap and classical intervals for every defined descriptor and quantile.
 
     The data were checked for resampling beforehand (``validation.check_description``).
+    ``structure``: the serial structure of a sample sent with options.order as_sent, whose
+    resamples join blocks; BCa then falls back to percentile (its acceleration is a jackknife
+    of independent observations), and the classical intervals are the mean's with the effective n.
     """
     interval = options.interval
     assert interval is not None
+    blocks = chosen = None
+    engine_options = interval
+    if structure is not None:
+        blocks, chosen = ordered.blocks_of(data, options, structure)
+        if interval.method == "bca":
+            engine_options = dataclasses.replace(interval, method="percentile")
     # Open bins leave the moments undefined; the plan still needs a finite scaling of the values.
     plan_sums = midpoint_sums if midpoint_sums is not None else central_sums(data.values, data.weights, 4)
     sheppard_width = None
@@ -58,14 +69,24 @@ def intervals(
         families=families,
         quantile_type=basis.quantile_type,
         factor_rule=basis.variance_rule,
-        options=interval,
+        options=engine_options,
         max_work=options.max_resample_work,
         deadline=options.deadline,
         threads=options.resample_threads,
         subset_rows=options.subset_rows,
         sheppard_width=sheppard_width,
         quantile_shape=resample.QuantileShape(ROBUST_PROBABILITIES, NORMAL_OCTILE_KURTOSIS),
+        blocks=blocks,
     )
+    if engine_options is not interval:
+        blocked = [name for name, result in outcome.results.items() if result.interval is not None]
+        blocked += [f"quantiles[{i}]" for i, r in enumerate(outcome.quantiles) if r.interval is not None]
+        notes.add(
+            WarningCode.BCA_FALLBACK,
+            "BCa's acceleration comes from a jackknife of independent observations; for a series in the "
+            "order sent (options.order as_sent) the percentile interval of the block resamples is given",
+            blocked,
+        )
     fallbacks: dict[str, list[str]] = {}
     undefined: dict[str, list[str]] = {}
     for name, result in outcome.results.items():
@@ -115,15 +136,38 @@ def intervals(
             "quantiles, IQR, MAD) is lumpy and their intervals are coarse",
             ["median", "interquartile_range", "median_absolute_deviation", "quantiles"],
         )
-    _classical_intervals(data, sums, basis, interval.level, descriptors, quantiles, probabilities, notes)
+    if structure is None:
+        _classical_intervals(data, sums, basis, interval.level, descriptors, quantiles, probabilities, notes)
+        ordered.note_serial_dependence(data, sums, descriptors, quantiles, notes)
+    else:
+        _effective_mean_interval(sums, interval.level, descriptors, structure)
+        ordered.note_independent_classical(descriptors, quantiles, notes)
     return Resampling(
         method=interval.method,
         level=interval.level,
         resamples=outcome.resamples,
         seed=interval.seed,
         scheme=outcome.scheme,
+        block_scheme=None if blocks is None else blocks.scheme,
+        block_length=None if blocks is None else blocks.length,
+        block_length_choice=chosen,
         replicates=outcome.replicates,
     )
+
+
+def _effective_mean_interval(
+    sums: CentralSums | None, level: float, descriptors: dict[str, Descriptor], structure: ordered.Serial
+) -> None:
+    """The mean's classical interval of an ordered sample: Student's t with the effective n."""
+    mean = descriptors["mean"].value
+    if sums is None or mean is None or structure.effective_n is None:
+        return
+    n = float(sums.sums[0])
+    sample_variance = sums.central_moment(2) * n / (n - 1.0)
+    if math.isfinite(sample_variance) and sample_variance > 0.0:
+        descriptors["mean"].classical_interval = ordered.effective_mean_interval(
+            mean, math.sqrt(sample_variance), structure.effective_n, level
+        )
 
 
 

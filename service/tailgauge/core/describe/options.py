@@ -15,6 +15,10 @@ SkewnessEstimator = Literal["g1", "G1", "b1"]
 KurtosisEstimator = Literal["g2", "G2", "b2"]
 # Hyndman & Fan (1996) sample quantile types.
 QuantileType = Literal[1, 2, 3, 4, 5, 6, 7, 8, 9]
+# Whether the order of the values carries information: exchangeable (resample single values) or
+# as_sent (a series in observation order: resample blocks; effective n from the autocorrelation).
+Order = Literal["exchangeable", "as_sent"]
+BlockScheme = Literal["stationary", "circular", "moving"]
 
 DEFAULT_PROBABILITIES = (0.01, 0.05, 0.1, 0.25, 0.5, 0.75, 0.9, 0.95, 0.99)
 
@@ -39,6 +43,11 @@ class DescribeOptions:
     sheppard_correction: bool = False
     contributions_limit: int = 1000
     interval: resample.IntervalOptions | None = None
+    order: Order = "exchangeable"
+    # With order as_sent: the block scheme (None: stationary) and the (expected) block length
+    # (None: chosen by Politis & White 2004); checked in validation.
+    block_scheme: BlockScheme | None = None
+    block_length: float | None = None
     max_resample_work: float = 1e9
     deadline: float | None = None
     subset_rows: int = 100_000

@@ -72,6 +72,11 @@ class Resampling:
     resamples: int
     seed: int
     scheme: str
+    # Ordered samples (options.order as_sent): the block scheme, the (expected) block length and
+    # how it was chosen ("politis_white" or "given"); None when single values are resampled.
+    block_scheme: str | None = None
+    block_length: float | None = None
+    block_length_choice: str | None = None
     # The resamples behind the intervals, for contrasting two inputs (compare.py); not a response member.
     replicates: resample.Replicates | None = field(default=None, repr=False, compare=False)
 

@@ -30,7 +30,34 @@ def check_description(data: WeightedData, options: DescribeOptions) -> Basis:
     basis = basis_of_data(data, options)
     if options.interval is not None:
         _check_interval(data, basis)
+    _check_order(data, options)
     return basis
+
+
+def _check_order(data: WeightedData, options: DescribeOptions) -> None:
+    """options.order as_sent needs a series: unweighted values in the order observed; the block
+    options apply only then, a block no longer than the series, whole for fixed-length blocks."""
+    if options.order != "as_sent":
+        for path, value in (("options.block_scheme", options.block_scheme), ("options.block_length", options.block_length)):
+            if value is not None:
+                raise UncomputableInput.at(path, 'applies only to a series sent with options.order "as_sent"')
+        return
+    if not data.ordered or data.weights is not None or data.binned:
+        raise UncomputableInput.at(
+            "options.order",
+            "as_sent needs unweighted values in the order observed (a raw sample without weights)",
+        )
+    length = options.block_length
+    if length is None:
+        return
+    if length > data.count:
+        raise UncomputableInput.at(
+            "options.block_length", f"at most the number of observations ({data.count})"
+        )
+    if (options.block_scheme or "stationary") != "stationary" and not float(length).is_integer():
+        raise UncomputableInput.at(
+            "options.block_length", f"{options.block_scheme} blocks have a whole number of observations"
+        )
 
 
 def _check_population_options(options: DescribeOptions) -> None:

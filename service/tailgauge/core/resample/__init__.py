@@ -32,7 +32,9 @@ import numpy as np
 
 from tailgauge.core.moments import CentralSums
 from tailgauge.core.registry import TOO_COSTLY
+from tailgauge.core.resample import blocks as block_draws
 from tailgauge.core.resample import medcouple_rows
+from tailgauge.core.resample.blocks import Blocks
 from tailgauge.core.resample.budget import (
     EVALUATION_PART_BYTES,
     SUBSET_EXPONENT,
@@ -80,6 +82,7 @@ __all__ = [
     "SMALL_SAMPLE",
     "SUBSETS",
     "SUBSET_EXPONENT",
+    "Blocks",
     "BootstrapOutcome",
     "BootstrapResult",
     "Interval",
@@ -262,6 +265,7 @@ def bootstrap(
     subset_rows: int = 100_000,
     sheppard_width: float | None = None,
     quantile_shape: QuantileShape | None = None,
+    blocks: Blocks | None = None,
 ) -> BootstrapOutcome:
     """Bootstrap every defined scalar descriptor and requested quantile of ``data`` in one pass.
 
@@ -274,18 +278,25 @@ def bootstrap(
     it does not fit the budget (``medcouple_fits``; the outcome's ``left_out`` says why). Raises
     :class:`LimitExceeded` when resamples x support rows exceed ``max_work`` or the wall clock
     passes ``deadline`` (``time.monotonic()`` seconds).
+
+    ``blocks``: the sample is ordered and each resample joins blocks of it
+    (:mod:`tailgauge.core.resample.blocks`); never the little bootstraps, and never BCa (its
+    acceleration is a jackknife of independent observations: the caller asks for percentile).
     """
     plan, notes = plan_of(data, sums)
     k = plan.values.size
-    work, per_resample, counted = work_of(plan, options.resamples, subset_rows)
+    assert blocks is None or (options.method != "bca" and plan.integer and blocks.rows == k)
+    work, per_resample, counted = work_of(plan, options.resamples, subset_rows, blocks)
     if work > max_work:
-        raise over_budget(work, max_work, allowed_resamples(max_work, per_resample, plan, subset_rows), counted)
+        raise over_budget(
+            work, max_work, allowed_resamples(max_work, per_resample, plan, subset_rows, blocks), counted
+        )
     left_out = {}
     # The rows one resample weighs: the support, or a little bootstrap's subset.
-    rows = int(per_resample)
+    rows = k if blocks is not None else int(per_resample)
     if estimates.get("medcouple") is not None and not medcouple_fits(rows, options.resamples, max_work):
         left_out["medcouple"] = TOO_COSTLY
-    if uses_subsets(plan, subset_rows):
+    if uses_subsets(plan, subset_rows, blocks):
         return little_bootstraps(
             plan, notes, estimates, quantile_estimates, probabilities,
             Statistics(plan, families, quantile_type, factor_rule, quantile_shape=quantile_shape, left_out=left_out),
@@ -295,14 +306,14 @@ def bootstrap(
     wanted = statistics.wanted(estimates)
 
     own = threading.local()
-    planned = batches(plan, options.seed, options.resamples)
+    planned = batches(plan, options.seed, options.resamples, blocks is not None)
     parallel = threads > 1 and len(planned) > 1
     # On several threads, multinomial batches are drawn a part at a time and each part's order
     # statistics read while the next is drawn (see PIPELINE_ROWS); the values are the same.
     # Not when evaluate would take fewer rows at a time to bound its working memory (many
     # probabilities): a part's order statistics would then take more.
     in_parts = (
-        parallel and by_multinomial(plan) and statistics.part_rows(None, probabilities.size) >= PIPELINE_ROWS
+        parallel and blocks is None and by_multinomial(plan) and statistics.part_rows(None, probabilities.size) >= PIPELINE_ROWS
     )
 
     def run(batch: tuple[np.random.Generator, int]) -> dict[str, np.ndarray]:
@@ -316,7 +327,11 @@ def bootstrap(
             rng, size = batch
             if in_parts and size >= 2 * PIPELINE_ROWS:
                 return _in_parts(plan, statistics, rng, size, probabilities, wanted, deadline, own.scratch)
-            weights, counts = draw(plan, rng, size, own.scratch)
+            if blocks is not None:
+                counts = block_draws.block_counts(blocks, rng, size)
+                weights = counts.astype(np.float64)
+            else:
+                weights, counts = draw(plan, rng, size, own.scratch)
             if plan.integer:
                 view = Rows(weights, plan.powers, True, counts, plan.draws, own.scratch)
             else:
@@ -388,7 +403,9 @@ def bootstrap(
         )
     accelerations = {name: r.acceleration for name, r in results.items() if r.acceleration is not None}
     scheme = (
-        f"multinomial counts over {k} distinct values" if plan.multinomial else f"uniform draws of {k} weighted entries"
+        block_draws.describe_scheme(blocks) if blocks is not None
+        else f"multinomial counts over {k} distinct values" if plan.multinomial
+        else f"uniform draws of {k} weighted entries"
     )
     kept = Replicates(
         {name: values[None, :] for name, values in replicates.items()}, jackknife, jackknife_weights, False, left_out

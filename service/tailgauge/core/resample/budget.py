@@ -9,6 +9,7 @@ import time
 
 from tailgauge.core.errors import LimitExceeded, Location
 from tailgauge.core.moments import central_sums
+from tailgauge.core.resample.blocks import Blocks
 from tailgauge.core.resample.draws import Plan, plan_of
 from tailgauge.core.weighted import WeightedData
 
@@ -90,13 +91,20 @@ def over_budget(work: float, max_work: float, allowed: int, description: str) ->
     )
 
 
-def uses_subsets(plan: Plan, subset_rows: int) -> bool:
-    """Whether the bag of little bootstraps replaces the ordinary bootstrap for this plan."""
-    return plan.values.size > subset_rows and plan.edges is None
+def uses_subsets(plan: Plan, subset_rows: int, blocks: Blocks | None = None) -> bool:
+    """Whether the bag of little bootstraps replaces the ordinary bootstrap for this plan (never
+    for blocks: its subsets are drawn as independent observations)."""
+    return plan.values.size > subset_rows and plan.edges is None and blocks is None
 
 
-def work_of(plan: Plan, resamples: int, subset_rows: int) -> tuple[float, float, str]:
-    """The work ``bootstrap`` spends (rows touched), the work per resample, and how it was counted."""
+def work_of(
+    plan: Plan, resamples: int, subset_rows: int, blocks: Blocks | None = None
+) -> tuple[float, float, str]:
+    """The work ``bootstrap`` spends (rows touched), the work per resample, and how it was counted.
+    Blocks add the n observation indices each resample draws to its k support rows."""
+    if blocks is not None:
+        k, n = plan.values.size, blocks.observations
+        return float(resamples) * float(k + n), float(k + n), f"{resamples} resamples x ({k} support rows + {n} observations in blocks)"
     if uses_subsets(plan, subset_rows):
         m = int(math.ceil(plan.draws**SUBSET_EXPONENT))
         drawn = SUBSETS * int(math.ceil(resamples / SUBSETS))
@@ -105,19 +113,23 @@ def work_of(plan: Plan, resamples: int, subset_rows: int) -> tuple[float, float,
     return float(resamples) * float(k), float(k), f"{resamples} resamples x {k} support rows"
 
 
-def allowed_resamples(max_work: float, per_resample: float, plan: Plan, subset_rows: int) -> int:
+def allowed_resamples(
+    max_work: float, per_resample: float, plan: Plan, subset_rows: int, blocks: Blocks | None = None
+) -> int:
     """The most resamples within ``max_work``: the bag of little bootstraps draws a whole
     number per subset (requests are rounded up to a multiple of ``SUBSETS``), so its advice is
     rounded down to one, and a resent request with that count stays within the budget."""
     allowed = int(max_work // per_resample)
-    if uses_subsets(plan, subset_rows):
+    if uses_subsets(plan, subset_rows, blocks):
         allowed -= allowed % SUBSETS
     return allowed
 
 
-def resampling_work(data: WeightedData, resamples: int, subset_rows: int) -> tuple[float, float]:
+def resampling_work(
+    data: WeightedData, resamples: int, subset_rows: int, blocks: Blocks | None = None
+) -> tuple[float, float]:
     """(work, work per resample) that ``bootstrap`` would spend on ``data``: the measure its budget
     ``max_work`` is compared with, so a caller resampling several inputs can budget them together."""
     plan, _ = plan_of(data, central_sums(data.values, data.weights, 4))
-    work, per_resample, _ = work_of(plan, resamples, subset_rows)
+    work, per_resample, _ = work_of(plan, resamples, subset_rows, blocks)
     return work, per_resample

@@ -139,14 +139,14 @@ def batch_size(rows: int, resamples: int, topped_up: bool) -> int:
     return batch
 
 
-def batches(plan: Plan, seed: int, resamples: int) -> list[tuple[np.random.Generator, int]]:
+def batches(plan: Plan, seed: int, resamples: int, blocks: bool = False) -> list[tuple[np.random.Generator, int]]:
     """(generator, size) of each batch of resamples.
 
-    Batch sizes depend only on k and how counts are drawn, and each batch has its own generator
-    spawned from ``seed``, so the same seed gives the same resamples bit for bit on any worker
-    and thread count.
+    Batch sizes depend only on k and how counts are drawn (``blocks``: counts from block draws,
+    never Poisson counts), and each batch has its own generator spawned from ``seed``, so the
+    same seed gives the same resamples bit for bit on any worker and thread count.
     """
-    batch = batch_size(plan.values.size, resamples, plan.poisson_edges is not None)
+    batch = batch_size(plan.values.size, resamples, plan.poisson_edges is not None and not blocks)
     sizes = [min(batch, resamples - start) for start in range(0, resamples, batch)]
     children = np.random.SeedSequence(seed).spawn(len(sizes))
     return [(np.random.default_rng(child), size) for child, size in zip(children, sizes)]
