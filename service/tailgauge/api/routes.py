@@ -122,6 +122,7 @@ BODIES = {
     "describeSamples": _computing(endpoints.describe_samples, "samples"),
     "describeTable": _computing(endpoints.describe_table, "table"),
     "describeBins": _computing(endpoints.describe_bins, "bins"),
+    "describeHistogram": _computing(endpoints.describe_histogram, "histogram"),
     "mergeStates": _computing(endpoints.merge_states_request, "merge"),
     "compare": _computing(endpoints.compare_inputs, "comparisons"),
     "catalog": describe_catalog,
