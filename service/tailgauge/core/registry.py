@@ -322,9 +322,11 @@ MEMBERS: tuple[CatalogEntry, ...] = (
           "first: shapes compared free of location and scale", ("probabilities",),
           ("zero or undefined spread",), "standardization; Hampel 1974 for the MAD"),
     CatalogEntry("distribution_test", "comparison",
-          "two-sample Kolmogorov-Smirnov (whole counts; exact up to 10000 per input, else asymptotic) or Pearson's "
-          "chi-square test of homogeneity (bins on the same edges)", (),
-          ("probabilities, reliability or fractional weights", "bins against other kinds or other edges"),
+          "two-sample Kolmogorov-Smirnov (whole counts; exact up to 10000 per input, else asymptotic) or, when "
+          "either input is binned (bins, histogram), Pearson's chi-square test of homogeneity on the common "
+          "coarsening: cells between the finite edges both binned inputs share (observations counted into the "
+          "bins' cells, upper edges included), listed in cell_edges", (),
+          ("probabilities, reliability or fractional weights", "fewer than two cells holding data"),
           "scipy.stats.ks_2samp, scipy.stats.chi2_contingency; Hodges, Arkiv for Matematik 3, 1958"),
     CatalogEntry("scores", "scores", "z = (x - mean) / sd and robust z = (x - median) / normal-consistent MAD",
           ("convention",), ("zero or undefined spread",), "standard scores; Hampel 1974 for the MAD"),
@@ -433,6 +435,10 @@ class WarningCode(enum.StrEnum):
     CHI_SQUARE_SMALL_EXPECTED = (
         "chi_square_small_expected",
         "expected counts below 5: the chi-square approximation may be poor",
+    )
+    BINS_COARSENED = (
+        "bins_coarsened",
+        "binned inputs on different edges were tested in the coarser cells between the edges both share",
     )
     SCORE_UNDEFINED = "score_undefined", "the reference's spread is zero or undefined: no z-score"
 
