@@ -125,9 +125,18 @@ class ExponentialBuckets(Message):
 
     offset: Annotated[
         int,
-        Meta(ge=-(2**31), le=2**31 - 1, description="Index of the first bucket: bucket i covers (base^(offset+i), base^(offset+i+1)]."),
-    ]
-    bucket_counts: Annotated[list[NonNegative], Meta(description="Count in each bucket (>= 0), from index offset up.")]
+        Meta(
+            ge=-(2**31),
+            le=2**31 - 1,
+            description=(
+                "Index of the first bucket: bucket i covers (base^(offset+i), base^(offset+i+1)]; absent: 0 "
+                "(as OTLP JSON leaves a zero out)."
+            ),
+        ),
+    ] = 0
+    bucket_counts: Annotated[
+        list[NonNegative], Meta(description="Count in each bucket (>= 0), from index offset up; absent: none.")
+    ] = msgspec.field(default_factory=list)
 
 
 _BOUNDS_NOTE = "Every bucket includes its upper bound."
