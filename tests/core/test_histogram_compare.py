@@ -90,3 +90,16 @@ def test_quantile_shifts_on_different_edges_are_differences_of_grouped_quantiles
         assert shift.value == pytest.approx(expected, rel=1e-12)
         assert shift.interval is not None and shift.interval.low <= shift.interval.high
     assert result.distribution_test.cell_edges is not None
+
+
+def test_an_exact_mean_beside_an_open_bin_is_contrasted_without_an_interval():
+    # The first scrape's +Inf bucket holds data: its mean is exact from the sum, but its resamples
+    # (bins at placeholder values) are not, so the difference of means gets no bootstrap interval.
+    first = histograms.from_cumulative([10.0, 50.0, 100.0, None], [30, 80, 95, 100], lower_bound=0.0, total=4200.0)
+    second = histograms.from_explicit([10.0, 50.0, 100.0], [0, 25, 60, 15], total=6200.0, minimum=12.0, maximum=180.0)
+    options = DescribeOptions(interval=IntervalOptions(method="percentile", level=0.95, resamples=300, seed=2))
+    result = compare(first, second, options, kinds=("histogram", "histogram"))
+    assert result.differences["mean"].value == pytest.approx(6200.0 / 100 - 4200.0 / 100, rel=1e-12)
+    assert result.differences["mean"].interval is None
+    assert result.differences["median"].interval is not None
+    assert any(w.code == "interval_not_offered" and "mean" in " ".join(w.descriptors) for w in result.warnings)

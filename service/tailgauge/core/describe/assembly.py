@@ -176,7 +176,7 @@ def describe(data: WeightedData, options: DescribeOptions, *, kind: str) -> Desc
             data, sums, midpoint_sums, sheppard_applied, basis, options, descriptors, quantile_list, probabilities, notes
         )
 
-    known.apply(data, descriptors, notes, selection)  # a histogram's own sum, min and max
+    known.apply(data, descriptors, notes, selection, resampling)  # a histogram's own sum, min and max
     modes, modal = None, []
     if selection.computes("modes") or (data.binned and selection.computes("grouping")):  # grouping lists the modal classes
         modes, modal = order_based.modes(data, options.modes_limit, notes)

@@ -13,7 +13,7 @@ from __future__ import annotations
 
 import dataclasses
 
-from tailgauge.core.describe.results import Descriptor, Grouping, KnownSummary
+from tailgauge.core.describe.results import Descriptor, Grouping, KnownSummary, Resampling
 from tailgauge.core.describe.warnings import Warnings
 from tailgauge.core.registry import WarningCode
 from tailgauge.core.selection import Selection
@@ -43,8 +43,17 @@ def exact_names(data: WeightedData, selection: Selection) -> list[str]:
     return [name for name in names if selection.computes(name)]
 
 
-def apply(data: WeightedData, descriptors: dict[str, Descriptor], notes: Warnings, selection: Selection) -> None:
-    """Put the exact values in ``descriptors`` and withdraw them from the warnings that called them unknown."""
+NO_MEAN_RESAMPLES = "the spread is unknown while an open-ended bin holds data, so the mean's resamples are not defined"
+
+
+def apply(
+    data: WeightedData, descriptors: dict[str, Descriptor], notes: Warnings, selection: Selection,
+    resampling: Resampling | None,
+) -> None:
+    """Put the exact values in ``descriptors`` and withdraw them from the warnings that called them unknown.
+
+    While an open bin holds data the resamples' means (bins at their placeholder values) are not
+    the exact mean's: a comparison must not contrast them, so they are marked left out."""
     known = data.known
     if known is None:
         return
@@ -53,6 +62,8 @@ def apply(data: WeightedData, descriptors: dict[str, Descriptor], notes: Warning
         label = MEAN_LABEL
         if data.open_bin_weight > 0.0:
             label += " (no interval: the spread is unknown while an open-ended bin holds data)"
+            if resampling is not None and resampling.replicates is not None:
+                resampling.replicates.left_out["mean"] = NO_MEAN_RESAMPLES
         else:
             label += "; interval and moments from the bin midpoints moved to this mean"
         descriptors["mean"] = dataclasses.replace(
