@@ -127,7 +127,7 @@ def from_explicit(
     _increasing(bounds, "explicit_bounds")
     edges = np.array([-math.inf, *bounds, math.inf])
     counts = np.asarray(bucket_counts, dtype=np.float64)
-    known = KnownSummary(float(math.fsum(counts)), total, minimum, maximum)
+    known = KnownSummary(_total(counts), total, minimum, maximum)
     return _binned(edges, counts, "bucket_counts", known)
 
 
@@ -182,8 +182,17 @@ def from_exponential(
             counts.append(np.zeros(1))
         edges.append(seg_edges[1:])
         counts.append(seg_counts)
-    known = KnownSummary(float(math.fsum(c.sum() for c in counts)), total, minimum, maximum)
+    known = KnownSummary(_total(np.concatenate(counts)), total, minimum, maximum)
     return _binned(np.concatenate(edges), np.concatenate(counts), _counts_field(sides), known)
+
+
+def _total(terms: np.ndarray) -> float:
+    """The exactly rounded sum of ``terms`` (math.fsum), or +-inf where it leaves float64's range."""
+    try:
+        return math.fsum(terms)
+    except OverflowError:
+        with np.errstate(over="ignore"):
+            return float(np.sum(terms))
 
 
 def _counts_field(sides: dict) -> str:
@@ -239,8 +248,10 @@ def _binned(edges: np.ndarray, counts: np.ndarray, counts_field: str, known: Kno
         raise UncomputableInput.at(counts_field, error.locations[0].message) from None
     if known.sum is not None and data.open_bin_weight == 0.0:
         assert data.weights is not None
-        midpoint_mean = math.fsum(data.values * data.weights) / known.count
-        data = dataclasses.replace(data, values=data.values + (known.sum / known.count - midpoint_mean))
+        with np.errstate(over="ignore", invalid="ignore"):
+            shift = known.sum / known.count - _total(data.values * data.weights) / known.count
+        if math.isfinite(shift):  # else the moments are beyond float64 anyway (not_representable)
+            data = dataclasses.replace(data, values=data.values + shift)
     return dataclasses.replace(data, known=known)
 
 
@@ -248,17 +259,20 @@ def _check_sum(total: float, edges: np.ndarray, counts: np.ndarray) -> None:
     """The sum must lie between sum(count x lower edge) and sum(count x upper edge), where finite."""
     held = counts > 0.0
     lower, upper, weights = edges[:-1][held], edges[1:][held], counts[held]
-    scale = math.fsum(weights * np.maximum(np.abs(np.where(np.isfinite(lower), lower, 0.0)),
-                                           np.abs(np.where(np.isfinite(upper), upper, 0.0))))
+    with np.errstate(over="ignore", invalid="ignore"):
+        magnitude = np.maximum(np.abs(np.where(np.isfinite(lower), lower, 0.0)), np.abs(np.where(np.isfinite(upper), upper, 0.0)))
+        scale, below, above = _total(weights * magnitude), weights * lower, weights * upper
+    if not math.isfinite(scale):
+        return  # sums beyond float64's range: nothing can be checked
     slack = SUM_TOLERANCE * scale
     if np.all(np.isfinite(lower)):
-        least = math.fsum(weights * lower)
+        least = _total(below)
         if total < least - slack:
             raise UncomputableInput.at(
                 "sum", f"{total!r} is below the least the buckets allow (sum of count x lower edge = {least!r})"
             )
     if np.all(np.isfinite(upper)):
-        most = math.fsum(weights * upper)
+        most = _total(above)
         if total > most + slack:
             raise UncomputableInput.at(
                 "sum", f"{total!r} is above the most the buckets allow (sum of count x upper edge = {most!r})"
