@@ -211,6 +211,8 @@ def build() -> Corpus:
            "null where a count belongs")
     c.both("bins", "sheppard-a-string", with_changes("bins", options={"sheppard_correction": "yes"}), *bad,
            ["$.options.sheppard_correction"], "a string for a boolean")
+    c.both("histogram", "layout-unknown", with_changes("histogram", layout="summary"), *bad, ["$.layout"],
+           "a layout that does not exist", says=["'summary' is not one of: cumulative, explicit, exponential"])
     c.both("merge", "count-a-string", {"states": [dict(VALID["merge"]["states"][0], count="3")]}, *bad,
            ["$.states[0].count"], "a quoted count")
     c.both("merge", "central-sums-too-short", {"states": [dict(VALID["merge"]["states"][0], central_sums=[2.0])]},
@@ -333,6 +335,8 @@ def build() -> Corpus:
            413, "body-too-large", ["$.outcomes"], f"{LIMIT + 1} outcomes")
     c.both("bins", "counts-over-limit", {"edges": [float(i) for i in range(LIMIT + 2)], "counts": [1.0] * (LIMIT + 1)},
            413, "body-too-large", ["$.counts"], f"{LIMIT + 1} bins")
+    c.both("histogram", "buckets-over-limit", {"layout": "explicit", "explicit_bounds": [float(i) for i in range(LIMIT)],
+           "bucket_counts": [1.0] * (LIMIT + 1)}, 413, "body-too-large", ["$.bucket_counts"], f"{LIMIT + 1} buckets")
     c.both("comparisons", "inputs-together-over-limit", {"first": {"kind": "samples", "values": over[:600]},
            "second": {"kind": "samples", "values": over[:600]}}, 413, "body-too-large", ["$.second"],
            "600 + 600 values, limit 1000 for both together")
@@ -429,6 +433,8 @@ def build() -> Corpus:
            *bad, ["$.outcomes[0].count"], "count beside weight")
     c.both("table", "sample-option-on-table", with_changes("table", options={"missing": "omit"}), *bad,
            ["$.options.missing"], "a samples option sent to the table endpoint")
+    c.both("histogram", "misspelt-upper-bounds", {"layout": "cumulative", "upper_bound": [1, 2], "cumulative_counts": [1, 2]},
+           *bad, ["$.upper_bound"], "upper_bound for upper_bounds")
     c.both("bins", "misspelt-edges", {"edge": [0, 1, 2], "counts": [1, 2]}, *bad, ["$.edge"],
            "edge for edges")
     c.both("merge", "unknown-state-field", {"states": [dict(VALID["merge"]["states"][0], variance=1.0)]}, *bad,
