@@ -95,6 +95,10 @@ def test_the_bucket_limit_is_the_value_limit(make_client):
     client = make_client(request_log=False, max_values=5)
     status, problem = _post(client, HISTOGRAM, SCRAPE)
     assert status == 413 and problem["errors"][0]["path"] == "$.cumulative_counts"
+    exponential = {"layout": "exponential", "scale": 0, "zero_count": 1, "positive": {"offset": 0, "bucket_counts": [1]},
+                   "negative": {"offset": 0, "bucket_counts": [1, 2, 3, 4]}}
+    status, problem = _post(client, HISTOGRAM, exponential)  # 1 + 1 + 4 buckets: the zero bucket counts too
+    assert status == 413 and problem["errors"][0]["path"] == "$.negative.bucket_counts"
 
 
 def test_a_histogram_is_a_comparison_input_and_its_errors_are_placed_under_its_side(make_client):

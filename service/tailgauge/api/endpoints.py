@@ -333,7 +333,8 @@ def _histogram_data(message: HistogramData, settings: Settings, prefix: str = "$
                 if side is not None
             }
             count = 1 + sum(len(side.counts) for side in sides.values())
-            _check_count(count, f"{prefix}.positive.bucket_counts", settings, f"{prefix}.positive and .negative")
+            longest = max(sides, key=lambda name: len(sides[name].counts), default="positive")
+            _check_count(count, f"{prefix}.{longest}.bucket_counts", settings, "the zero, positive and negative buckets")
             data = histograms.from_exponential(
                 message.scale, message.zero_count,
                 zero_threshold=message.zero_threshold or 0.0, total=message.sum, minimum=message.min,
