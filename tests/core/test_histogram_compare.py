@@ -103,3 +103,38 @@ def test_an_exact_mean_beside_an_open_bin_is_contrasted_without_an_interval():
     assert result.differences["mean"].interval is None
     assert result.differences["median"].interval is not None
     assert any(w.code == "interval_not_offered" and "mean" in " ".join(w.descriptors) for w in result.warnings)
+
+
+def test_bins_against_samples_shift_each_sides_own_quantiles_with_intervals():
+    rng = np.random.default_rng(41)
+    sample = from_array(np.round(rng.lognormal(np.log(60.0), 0.5, 300), 1))
+    bins = from_bins(OLD_EDGES, OLD_COUNTS)
+    options = DescribeOptions(probabilities=(0.25, 0.5, 0.9),
+                              interval=IntervalOptions(method="bca", level=0.95, resamples=500, seed=9))
+    result = compare(bins, sample, options, kinds=("bins", "samples"))
+    plain = DescribeOptions(probabilities=options.probabilities)
+    grouped = describe(bins, plain, kind="bins").quantiles  # interpolated within bins
+    typed = describe(sample, plain, kind="samples").quantiles  # Hyndman & Fan type 7
+    for shift, g, t in zip(result.quantile_shifts, grouped, typed):
+        assert shift.value == pytest.approx(t.value - g.value, rel=1e-12)
+        assert shift.interval is not None and shift.interval.low < shift.value < shift.interval.high
+    assert result.distribution_test.test == "chi_square_homogeneity" and result.distribution_test.p_value is not None
+
+
+@pytest.mark.parametrize("seed", range(8))
+def test_random_cumulative_histograms_equal_their_bins(seed):
+    # OpenMetrics: bucket le=u_i holds c_i - c_(i-1); random bounds and counts, zeros included.
+    rng = np.random.default_rng(seed)
+    k = int(rng.integers(2, 30))
+    bounds = np.cumsum(rng.uniform(0.1, 5.0, k)).round(3)
+    counts = rng.integers(0, 40, k).astype(float)
+    counts[int(rng.integers(0, k))] += 1.0
+    top_open = bool(rng.integers(0, 2))
+    upper = [float(b) for b in bounds] + ([None] if top_open else [])
+    counts_all = list(counts) + ([float(rng.integers(0, 3))] if top_open else [])
+    options = DescribeOptions(probabilities=(0.1, 0.5, 0.9))
+    a = describe(histograms.from_cumulative(upper, list(np.cumsum(counts_all)), lower_bound=0.0), options,
+                 kind="histogram")
+    b = describe(from_bins([0.0, *upper], counts_all), options, kind="bins")
+    assert {n: d.value for n, d in a.descriptors.items()} == {n: d.value for n, d in b.descriptors.items()}
+    assert a.quantiles == b.quantiles and a.modes == b.modes
