@@ -27,6 +27,7 @@ def answers():
         "/v1/descriptors/samples",
         "/v1/descriptors/table",
         "/v1/descriptors/bins",
+        "/v1/descriptors/histogram",
         "/v1/comparisons",
         "/v1/descriptors/merge",
     }
@@ -123,7 +124,7 @@ def test_score_example_quotes_served_numbers():
 PYTHON_BLOCK = re.compile(r"```python\n(?P<code>.*?)```", re.DOTALL)
 
 
-@pytest.mark.parametrize("marker", ["msgspec.msgpack.encode"])
+@pytest.mark.parametrize("marker", ["msgspec.msgpack.encode", '"first": old, "second": new'])
 def test_python_examples_run_as_written(marker, capsys):
     """Each raw-HTTP Python example runs against the app in process (sizes shrunk for test time)."""
     blocks = [m["code"] for m in PYTHON_BLOCK.finditer(README) if marker in m["code"]]
@@ -176,3 +177,36 @@ def test_client_examples_run_as_written(marker, capsys):
     if marker.startswith("client.describe_samples"):
         # The problem: the string at $.values[3] (line 2), after the mean and estimator (line 1).
         assert any(line.startswith("400 ") and "$.values[3]" in line for line in printed)
+def test_checkout_histogram_example_quotes_served_numbers(answers):
+    result = answers["/v1/descriptors/histogram"]
+    assert result["kind"] == "histogram"
+    assert result["descriptors"]["mean"]["value"] == 1298.4 / 14220 and round(1298.4 / 14220, 4) == 0.0913
+    assert [round(q["value"], 3) for q in result["quantiles"]][2] == 0.383
+    assert result["grouping"]["known_summary"] == {
+        "count": 14220.0, "sum": 1298.4, "minimum": None, "maximum": None, "exact": ["mean"]}
+    assert result["descriptors"]["mean"]["estimator"].startswith("sum / count: exact, from the histogram's sum")
+    assert "open_bin_holds_data" in {w["code"] for w in result["warnings"]}
+    assert result["descriptors"]["variance"]["value"] is None
+
+
+def test_histogram_comparison_example_quotes_served_numbers():
+    block = next(m["code"] for m in PYTHON_BLOCK.finditer(README) if '"first": old, "second": new' in m["code"])
+    code = block.replace("import httpx\n", "").replace('httpx.post("http://127.0.0.1:8000', 'client.post("')
+    scope: dict = {}
+    with TestClient(create_app(Settings(request_log=False))) as client:
+        scope["client"] = client
+        exec(compile(code.replace("print(", "(lambda *a: None)("), "README:histograms", "exec"), scope)
+    body = scope["body"]
+    shifts = {s["probability"]: s for s in body["quantile_shifts"]}
+    ms = lambda x: round(x * 1000, 1)  # noqa: E731
+    assert (ms(shifts[0.5]["value"]), ms(shifts[0.5]["interval"]["low"]), ms(shifts[0.5]["interval"]["high"])) == (
+        -10.7, -12.1, -9.3)
+    assert (round(shifts[0.99]["value"] * 1000), round(shifts[0.99]["interval"]["low"] * 1000),
+            round(shifts[0.99]["interval"]["high"] * 1000)) == (-64, -99, -25)
+    new_99 = body["second"]["quantiles"][2]
+    assert (round(new_99["value"], 3), round(new_99["interval"]["low"], 3), round(new_99["interval"]["high"], 3)) == (
+        0.318, 0.296, 0.338)
+    assert ms(body["differences"]["mean"]["value"]) == -18.0 and body["differences"]["mean"]["interval"] is None
+    assert body["distribution_test"]["cell_edges"] == [0.5]
+    assert round(body["distribution_test"]["p_value"], 4) == 0.0002
+    assert {"bins_coarsened", "interval_not_offered"} <= {w["code"] for w in body["warnings"]}

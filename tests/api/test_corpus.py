@@ -132,7 +132,7 @@ def test_the_corpus_covers_every_kind_of_bad_input():
     }
     endpoints = {case["endpoint"] for case in CASES if case["endpoint"].startswith("/v1/descriptors/")
                  or case["endpoint"] == "/v1/comparisons"}
-    assert len(endpoints) == 5
+    assert len(endpoints) == 6  # samples, table, bins, histogram, merge, comparisons
     formats = collections.defaultdict(set)
     for case in CASES:
         formats[(case["category"], case["endpoint"])].add(case["content_type"])

@@ -19,6 +19,7 @@ from tests.figures.svg_reading import by_id, marker_points, parse, path_points, 
 
 SAMPLES, TABLE, BINS = "/v1/descriptors/samples", "/v1/descriptors/table", "/v1/descriptors/bins"
 MERGE, COMPARISONS = "/v1/descriptors/merge", "/v1/comparisons"
+HISTOGRAM = "/v1/descriptors/histogram"
 SVG, PNG = "image/svg+xml", "image/png"
 # Kestrel Hill Roastery's bag weights (README), with a few more bags.
 BAGS = [251.2, 249.8, 250.4, 252.9, 250.1, 249.5, 250.7, 251.0, 248.9, 250.3, 250.3, 249.9,
@@ -28,6 +29,9 @@ BODIES = {
     TABLE: {"outcomes": [{"value": 0, "weight": 412}, {"value": 1, "weight": 187}, {"value": 2, "weight": 61}],
             "weight_kind": "counts"},
     BINS: {"edges": [0, 15, 30, 45, 60, None], "counts": [18, 64, 41, 12, 5]},
+    # A histogram is drawn as the bins it becomes (the same counts as BINS, cumulated).
+    HISTOGRAM: {"layout": "cumulative", "lower_bound": 0, "upper_bounds": [15, 30, 45, 60, None],
+                "cumulative_counts": [18, 82, 123, 135, 140]},
     COMPARISONS: {"first": {"kind": "samples", "values": BAGS[:12]}, "second": {"kind": "bins", "edges": [248, 250, 252, 254],
                                                                               "counts": [4, 7, 1]}},
 }
@@ -192,3 +196,17 @@ def test_extreme_values_draw_and_their_plot_data_stay_finite(client, path, body)
                    *plot["distribution_function"]["values"], *plot["distribution_function"]["probabilities"]]
         assert all(isinstance(x, float | int) for x in numbers), plot
         assert plot["histogram"]["edges"] == sorted(plot["histogram"]["edges"])
+
+
+def test_a_histogram_is_drawn_and_plotted_as_the_bins_it_became(client):
+    """Same counts sent as a cumulative histogram and as bins: the same plot data, the same SVG (byte for
+    byte: the same request draws the same bytes)."""
+    plotted = {}
+    for path in (BINS, HISTOGRAM):
+        body = {**BODIES[path], "options": {"plot_data": True}}
+        answer = client.post(path, json=body)
+        assert answer.status_code == 200, answer.text
+        plotted[path] = answer.json()["plot_data"]
+    assert plotted[HISTOGRAM] == plotted[BINS] and plotted[BINS]["histogram"]["counts"] == [18, 64, 41, 12, 5]
+    figures = [client.post(path, json=BODIES[path], headers={"accept": SVG}).content for path in (BINS, HISTOGRAM)]
+    assert figures[0] == figures[1]

@@ -104,7 +104,8 @@ def is_struct(tp) -> bool:
 def tagged_inputs() -> dict[str, dict]:
     """A valid comparison input of each kind, from the kinds' own endpoint examples."""
     inputs = {}
-    for operation, kind in (("describeSamples", "samples"), ("describeTable", "table"), ("describeBins", "bins")):
+    for operation, kind in (("describeSamples", "samples"), ("describeTable", "table"), ("describeBins", "bins"),
+                              ("describeHistogram", "histogram")):
         body = {k: v for k, v in copy.deepcopy(BY_ID[operation].example).items() if k != "options"}
         inputs[kind] = {"kind": kind, **body}
     return inputs
@@ -189,7 +190,7 @@ def struct_cases(operation: str, cls, segments: tuple, present: dict) -> list[Ca
         if tagged:
             inputs = tagged_inputs()
             tag_field = tagged[0].__struct_config__.tag_field
-            cases.append(Case(operation, "tag", where + (tag_field,), "histogram", path_of(where + (tag_field,)),
+            cases.append(Case(operation, "tag", where + (tag_field,), "sketch", path_of(where + (tag_field,)),
                               allowed=tuple(m.__struct_config__.tag for m in tagged)))
             for member in tagged:
                 tag = member.__struct_config__.tag

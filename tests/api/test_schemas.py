@@ -14,6 +14,7 @@ KINDS = [
     (schemas.SamplesData, schemas.SamplesRequest, schemas.SamplesInput),
     (schemas.TableData, schemas.TableRequest, schemas.TableInput),
     (schemas.BinsData, schemas.BinsRequest, schemas.BinsInput),
+    (schemas.HistogramData, schemas.HistogramRequest, schemas.HistogramInput),
 ]
 # (request option set, comparison input option set) sharing the options that belong to the data
 DATA_OPTIONS = [(schemas.SampleOptions, schemas.SamplesInputOptions), (schemas.TableOptions, schemas.TableInputOptions)]

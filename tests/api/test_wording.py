@@ -147,9 +147,13 @@ def test_a_comparison_input_is_read_as_the_kind_it_says():
         path, message, _, _ = problem_of(body, codec, ComparisonRequest)
         assert path == "$.first.options.missing"
         assert message == "unknown field 'missing'; the fields accepted here are: normalize"
-    body["first"] = {"kind": "histogram"}
+    body["first"] = {"kind": "quantile_sketch"}
     path, message, _, _ = problem_of(body, JSON_CODEC, ComparisonRequest)
-    assert (path, message) == ("$.first.kind", "'histogram' is not one of: samples, table, bins")
+    assert (path, message) == ("$.first.kind", "'quantile_sketch' is not one of: samples, table, bins, histogram")
+    # A histogram input is read as its layout says (the layout is the histogram's own tag).
+    body["first"] = {"kind": "histogram"}
+    path, _, _, _ = problem_of(body, JSON_CODEC, ComparisonRequest)
+    assert path == "$.first.layout"
     # The type at a path through a union, without the body: the members' answers pooled.
     pooled = wording.fields_at(ComparisonRequest, "$.first")
     assert {"kind", "values", "outcomes", "edges", "counts"} <= set(pooled)

@@ -576,6 +576,7 @@ SECTIONS: dict[str, tuple[Callable[..., None], str]] = {
     "cost": (bench_cost, "the cost model beside measured memory and time"),
     "gzip": (bench_gzip, "answers compressed at levels 1, 6, 9: sizes, TCP segments, times"),
     "figures": (bench_figures, "a figure of 1e6 values, SVG and PNG, after describing them (size: figures=1e6)"),
+    "histogram": (lambda: __import__("histogram_section").bench_histogram(TREE, QUICK), "200 exponential buckets described in process (histogram_section.py)"),
 }
 SIZED = {"order", "quantiles", "moments", "merge", "transport", "figures"}
 

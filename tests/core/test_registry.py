@@ -216,6 +216,9 @@ def _produced() -> dict[str, str]:
         "sparse bins compared": lambda: compare(
             from_bins(edges, [12.0, 30.0, 25.0, 9.0, 4.0]), from_bins(edges, [1.0, 2.0, 3.0, 4.0, 5.0]),
             DescribeOptions(), kinds=("bins", "bins")),
+        "bins on different edges compared": lambda: compare(
+            from_bins(edges, [12.0, 30.0, 25.0, 9.0, 4.0]),
+            from_bins([edges[0], edges[2], edges[-1]], [20.0, 40.0]), DescribeOptions(), kinds=("bins", "bins")),
     }
     produced: dict[str, str] = {}
     for label, make in cases.items():

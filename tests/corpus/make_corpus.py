@@ -33,6 +33,7 @@ ENDPOINTS = {
     "samples": "/v1/descriptors/samples",
     "table": "/v1/descriptors/table",
     "bins": "/v1/descriptors/bins",
+    "histogram": "/v1/descriptors/histogram",
     "merge": "/v1/descriptors/merge",
     "comparisons": "/v1/comparisons",
 }
@@ -46,6 +47,8 @@ VALID = {
     "samples": {"values": LOAVES},
     "table": {"outcomes": [{"value": 500.0, "weight": 4}, {"value": 505.0, "weight": 2}], "weight_kind": "counts"},
     "bins": {"edges": [490.0, 495.0, 500.0, 505.0, 510.0], "counts": [2, 9, 7, 1]},
+    "histogram": {"layout": "cumulative", "upper_bounds": [495.0, 500.0, 505.0, None], "cumulative_counts": [2, 11, 18, 19],
+                  "lower_bound": 490.0, "sum": 9990.5, "count": 19},
     "merge": {"states": [{"count": 3, "mean": 2.0, "central_sums": [2.0, 0.0, 2.0], "minimum": 1.0, "maximum": 3.0}]},
     "comparisons": {"first": {"kind": "samples", "values": LOAVES}, "second": {"kind": "samples", "values": [v + 1.5 for v in LOAVES]}},
 }
@@ -208,14 +211,16 @@ def build() -> Corpus:
            "null where a count belongs")
     c.both("bins", "sheppard-a-string", with_changes("bins", options={"sheppard_correction": "yes"}), *bad,
            ["$.options.sheppard_correction"], "a string for a boolean")
+    c.both("histogram", "layout-unknown", with_changes("histogram", layout="summary"), *bad, ["$.layout"],
+           "a layout that does not exist", says=["'summary' is not one of: cumulative, explicit, exponential"])
     c.both("merge", "count-a-string", {"states": [dict(VALID["merge"]["states"][0], count="3")]}, *bad,
            ["$.states[0].count"], "a quoted count")
     c.both("merge", "central-sums-too-short", {"states": [dict(VALID["merge"]["states"][0], central_sums=[2.0])]},
            *bad, ["$.states[0].central_sums"], "M2 alone; M2, M3, M4 at least")
     c.both("merge", "states-empty", {"states": []}, *bad, ["$.states"], "no state at all")
-    c.both("comparisons", "kind-unknown", with_changes("comparisons", first={"kind": "histogram", "values": LOAVES}),
+    c.both("comparisons", "kind-unknown", with_changes("comparisons", first={"kind": "sketch", "values": LOAVES}),
            *bad, ["$.first.kind"], "an input kind that does not exist",
-           says=["'histogram' is not one of: samples, table, bins"])
+           says=["'sketch' is not one of: samples, table, bins, histogram"])
     c.both("comparisons", "kind-missing", with_changes("comparisons", second={"values": LOAVES}), *bad,
            ["$.second.kind"], "an input without its kind tag")
     c.both("comparisons", "second-a-number", with_changes("comparisons", second=3), *bad, ["$.second"],
@@ -330,6 +335,8 @@ def build() -> Corpus:
            413, "body-too-large", ["$.outcomes"], f"{LIMIT + 1} outcomes")
     c.both("bins", "counts-over-limit", {"edges": [float(i) for i in range(LIMIT + 2)], "counts": [1.0] * (LIMIT + 1)},
            413, "body-too-large", ["$.counts"], f"{LIMIT + 1} bins")
+    c.both("histogram", "buckets-over-limit", {"layout": "explicit", "explicit_bounds": [float(i) for i in range(LIMIT)],
+           "bucket_counts": [1.0] * (LIMIT + 1)}, 413, "body-too-large", ["$.bucket_counts"], f"{LIMIT + 1} buckets")
     c.both("comparisons", "inputs-together-over-limit", {"first": {"kind": "samples", "values": over[:600]},
            "second": {"kind": "samples", "values": over[:600]}}, 413, "body-too-large", ["$.second"],
            "600 + 600 values, limit 1000 for both together")
@@ -356,6 +363,17 @@ def build() -> Corpus:
            "uncomputable-input", ["$.edges"], "4 edges for 4 counts (5 needed)")
     c.both("bins", "edges-one-long", with_changes("bins", edges=[485.0, 490.0, 495.0, 500.0, 505.0, 510.0]), 422,
            "uncomputable-input", ["$.edges"], "6 edges for 4 counts")
+    c.both("histogram", "cumulative-counts-decrease", with_changes("histogram", cumulative_counts=[2, 11, 9, 19]), 422,
+           "uncomputable-input", ["$.cumulative_counts[2]"], "a cumulative count below the one before")
+    c.both("histogram", "count-disagrees", with_changes("histogram", count=20), 422, "uncomputable-input", ["$.count"],
+           "count 20 against a last cumulative count of 19")
+    c.both("histogram", "field-of-another-layout", with_changes("histogram", min=491.0), 400, "invalid-body", ["$.min"],
+           "min belongs to the explicit and exponential layouts")
+    c.both("histogram", "scale-out-of-range", {"layout": "exponential", "scale": 21, "zero_count": 0}, 400,
+           "invalid-body", ["$.scale"], "scale 21, above the 20 the layout allows")
+    c.both("histogram", "offset-overflows", {"layout": "exponential", "scale": 0, "zero_count": 0,
+           "positive": {"offset": 1100, "bucket_counts": [1]}}, 422, "uncomputable-input", ["$.positive.offset"],
+           "buckets beyond float64's range")
     c.both("comparisons", "second-weights-mismatched", with_changes("comparisons", second={"kind": "samples",
            "values": LOAVES, "weights": [1, 1]}), 422, "uncomputable-input", ["$.second.weights"],
            "2 weights for 7 values in the second input")
@@ -415,6 +433,8 @@ def build() -> Corpus:
            *bad, ["$.outcomes[0].count"], "count beside weight")
     c.both("table", "sample-option-on-table", with_changes("table", options={"missing": "omit"}), *bad,
            ["$.options.missing"], "a samples option sent to the table endpoint")
+    c.both("histogram", "misspelt-upper-bounds", {"layout": "cumulative", "upper_bound": [1, 2], "cumulative_counts": [1, 2]},
+           *bad, ["$.upper_bound"], "upper_bound for upper_bounds")
     c.both("bins", "misspelt-edges", {"edge": [0, 1, 2], "counts": [1, 2]}, *bad, ["$.edge"],
            "edge for edges")
     c.both("merge", "unknown-state-field", {"states": [dict(VALID["merge"]["states"][0], variance=1.0)]}, *bad,

@@ -26,6 +26,10 @@ from tailgauge.api.schemas import (
     ComparisonResponse,
     ComparisonWarning,
     CoreChoices,
+    HISTOGRAM_LAYOUT_FIELDS,
+    HistogramData,
+    HistogramInput,
+    HistogramRequest,
     DescriptionResponse,
     MergedDescriptionResponse,
     MergeRequest,
@@ -57,6 +61,7 @@ from tailgauge.core import (
     restricted_comparison,
     standardize,
 )
+from tailgauge.core import histograms
 from tailgauge.core.scoring import READ_BY_SCORES
 from tailgauge.core.partial import MIN_ORDER, PartialState, describe_state, merge_states, state_of
 from tailgauge.core.sketches import combine_sketches
@@ -79,7 +84,7 @@ def runs_inline(body: bytes) -> bool:
     return len(body) <= INLINE_BODY_BYTES and b"interval" not in body
 
 
-Request = TypeVar("Request", SamplesRequest, TableRequest, BinsRequest, ComparisonRequest)
+Request = TypeVar("Request", SamplesRequest, TableRequest, BinsRequest, HistogramRequest, ComparisonRequest)
 
 
 @dataclass(frozen=True)
@@ -304,6 +309,61 @@ def _bins_data(message: BinsData, settings: Settings, prefix: str = "$"):
     return data, len(counts)
 
 
+def _histogram_data(message: HistogramData, settings: Settings, prefix: str = "$"):
+    """The bins form of a histogram: its layout's fields checked (a field of another layout, or
+    one the layout requires missing, is a 400 naming it), its buckets counted against the limit,
+    then the core's rules (422, located)."""
+    required, optional = HISTOGRAM_LAYOUT_FIELDS[message.layout]
+    layout = message.layout.value
+    wrong = [
+        ProblemLocation(path=f"{prefix}.{name}", message=f"not a field of the {layout} layout")
+        for name in HistogramData.__struct_fields__
+        if name != "layout" and name not in required + optional and getattr(message, name) is not None
+    ] + [
+        ProblemLocation(path=f"{prefix}.{name}", message=f"required by the {layout} layout")
+        for name in required
+        if getattr(message, name) is None
+    ]
+    if wrong:
+        raise ApiProblem(
+            "invalid-body",
+            f"the {layout} layout takes {', '.join(required)} and optionally {', '.join(optional)}",
+            wrong,
+        )
+    try:
+        if layout == "cumulative":
+            count = len(message.cumulative_counts)
+            _check_count(count, f"{prefix}.cumulative_counts", settings)
+            data = histograms.from_cumulative(
+                message.upper_bounds, message.cumulative_counts, lower_bound=message.lower_bound,
+                total=message.sum, count=message.count,
+            )
+        elif layout == "explicit":
+            count = len(message.bucket_counts)
+            _check_count(count, f"{prefix}.bucket_counts", settings)
+            data = histograms.from_explicit(
+                message.explicit_bounds, message.bucket_counts, total=message.sum, minimum=message.min,
+                maximum=message.max,
+            )
+        else:
+            sides = {
+                name: histograms.Buckets(side.offset, side.bucket_counts)
+                for name, side in (("positive", message.positive), ("negative", message.negative))
+                if side is not None
+            }
+            count = 1 + sum(len(side.counts) for side in sides.values())
+            longest = max(sides, key=lambda name: len(sides[name].counts), default="positive")
+            _check_count(count, f"{prefix}.{longest}.bucket_counts", settings, "the zero, positive and negative buckets")
+            data = histograms.from_exponential(
+                message.scale, message.zero_count,
+                zero_threshold=message.zero_threshold or 0.0, total=message.sum, minimum=message.min,
+                maximum=message.max, **sides,
+            )
+    except DescriptorError as error:
+        raise _relocated(error, prefix) from None
+    return data, count
+
+
 @admission.giving_back
 def describe_samples(
     body: bytes, codec: Codec, answer: Codec, settings: Settings, figure: str | None = None
@@ -398,11 +458,31 @@ def describe_bins(
         )
 
 
+@admission.giving_back
+def describe_histogram(
+    body: bytes, codec: Codec, answer: Codec, settings: Settings, figure: str | None = None
+) -> Computed:
+    with admission.admitted(body, codec, settings) as ticket:
+        request = _decode(body, HistogramRequest, codec)
+        data, count = _histogram_data(request, settings)
+        options = _admitted([data], describe_options(request.options, settings, ticket.decoding, figure), ticket, figure)
+        description = describe(data, options, kind="histogram")
+        # A histogram is drawn and plotted as the bins it became.
+        if figure:
+            return _drawn(description, data, "bins", request.options, figure, count)
+        return _answer(
+            description, count, answer, request.options.score, selection=options.descriptors,
+            plot=_plot(data, "bins", request.options),
+        )
+
+
 def _input_data(message, settings: Settings, prefix: str):
     if isinstance(message, SamplesInput):
         return (*_samples_data(message, message.options.missing, settings, prefix), "samples")
     if isinstance(message, TableInput):
         return (*_table_data(message, message.options.normalize, settings, prefix), "table")
+    if isinstance(message, HistogramInput):
+        return (*_histogram_data(message, settings, prefix), "histogram")
     return (*_bins_data(message, settings, prefix), "bins")
 
 

@@ -74,6 +74,14 @@ _EXAMPLES = {
         "weight_kind": "counts",
     },
     "/v1/descriptors/bins": {"edges": [0, 15, 30, 45, 60, None], "counts": [18, 64, 41, 12, 5]},
+    "/v1/descriptors/histogram": {
+        "layout": "cumulative",
+        "upper_bounds": [0.025, 0.05, 0.1, 0.2, 0.3, 0.5, 1.0, 2.5, None],
+        "cumulative_counts": [1180, 5230, 10940, 13460, 14020, 14160, 14205, 14218, 14220],
+        "sum": 1298.4,
+        "count": 14220,
+        "options": {"probabilities": [0.5, 0.9, 0.99]},
+    },
     "/v1/descriptors/merge": {
         "states": [
             {"count": 4, "mean": 2.5, "central_sums": [5.0, 0.0, 10.25], "minimum": 1, "maximum": 4},
@@ -103,6 +111,10 @@ _PROBLEM_EXAMPLES = {
         400: {"edges": [0, 15, 30], "counts": [18, 64], "options": {"sheppard": True}},
         422: {"edges": [0, 30, 15], "counts": [18, 64]},
     },
+    "/v1/descriptors/histogram": {
+        400: {"layout": "exponential", "scale": 24, "zero_count": 0, "positive": {"offset": 0, "bucket_counts": [3, 5]}},
+        422: {"layout": "cumulative", "upper_bounds": [0.1, 0.3, None], "cumulative_counts": [40, 35, 50]},
+    },
     "/v1/descriptors/merge": {
         400: {"states": [{"count": 4, "central_sums": [5.0, 0.0, 10.25], "minimum": 1, "maximum": 4}]},
         422: {
@@ -114,7 +126,7 @@ _PROBLEM_EXAMPLES = {
     },
     "/v1/comparisons": {
         400: {
-            "first": {"kind": "histogram", "values": [34, 41, 38]},
+            "first": {"kind": "sketch", "values": [34, 41, 38]},
             "second": {"kind": "samples", "values": [31, 35, 33]},
         },
         422: {
@@ -185,6 +197,28 @@ OPERATIONS = (
     ),
     Operation(
         method="post",
+        path="/v1/descriptors/histogram",
+        operation_id="describeHistogram",
+        summary="Describe a histogram as a metrics system exports it",
+        description=(
+            "A histogram tagged by layout: cumulative (le upper bounds with cumulative counts, the last "
+            "bound null for +infinity), explicit (bounds with one more bucket count) or exponential "
+            "(base 2^(2^-scale) buckets on both sides of a zero bucket). It is described as bins (every "
+            "bins descriptor, option and interval applies; kind histogram); a known sum makes the mean "
+            "exact (sum / count), known min and max the extremes, and close the outer buckets; "
+            "grouping.known_summary says which descriptors they made exact. Accept: image/svg+xml or "
+            "image/png answers a figure of the bins it became."
+        ),
+        request=schemas.HistogramRequest,
+        response=schemas.DescriptionResponse,
+        problems=COMPUTE_PROBLEMS,
+        answers=WITH_FIGURES,
+        example=_EXAMPLES["/v1/descriptors/histogram"],
+        problem_examples=_PROBLEM_EXAMPLES["/v1/descriptors/histogram"],
+        tag="descriptors",
+    ),
+    Operation(
+        method="post",
         path="/v1/descriptors/merge",
         operation_id="mergeStates",
         summary="Describe the union of partial states computed where the data live",
@@ -210,10 +244,10 @@ OPERATIONS = (
         description=(
             "Both descriptor sets, the difference (second minus first) of every descriptor, ratios of "
             "the scale descriptors, Hedges' g, quantile shifts, both inputs' quantiles on the z scale, "
-            "and a two-sample test (Kolmogorov-Smirnov, or chi-square homogeneity for bins on the same "
-            "edges). With options.interval every contrast gets a bootstrap interval from independent "
-            "resampling of the two inputs. Accept: image/svg+xml or image/png answers a figure: both "
-            "empirical distribution functions and the quantile shifts with their intervals."
+            "and a two-sample test (Kolmogorov-Smirnov, or chi-square homogeneity of binned data on the "
+            "edges both inputs share). With options.interval every contrast gets a bootstrap interval from "
+            "independent resampling of the two inputs. Accept: image/svg+xml or image/png answers a figure: "
+            "both empirical distribution functions and the quantile shifts with their intervals."
         ),
         request=schemas.ComparisonRequest,
         response=schemas.ComparisonResponse,

@@ -159,6 +159,7 @@ BODIES = {
     "describeSamples": _computing(endpoints.describe_samples, "samples", "describeSamples"),
     "describeTable": _computing(endpoints.describe_table, "table", "describeTable"),
     "describeBins": _computing(endpoints.describe_bins, "bins", "describeBins"),
+    "describeHistogram": _computing(endpoints.describe_histogram, "histogram", "describeHistogram"),
     "mergeStates": _computing(endpoints.merge_states_request, "merge", "mergeStates"),
     "compare": _computing(endpoints.compare_inputs, "comparisons", "compare"),
     "catalog": describe_catalog,

@@ -125,7 +125,8 @@ _OPEN = "an open-ended bin holds data"
 # In the order of every response's ``descriptors`` and of the catalog.
 DESCRIPTORS: tuple[DescriptorFacts, ...] = (
     _descriptor(
-        "mean", "sum w x / sum w (bins: at their midpoints)", (), (_OPEN,),
+        "mean", "sum w x / sum w (bins: at their midpoints; a histogram with its sum: sum / count, exact, even "
+          "while an open-ended bin holds data)", (), (_OPEN,),
           "arithmetic mean; shifted-data summation (Chan, Golub & LeVeque 1983)",
         family="location", needs=_SUMS, classical=True,
     ),
@@ -170,11 +171,13 @@ DESCRIPTORS: tuple[DescriptorFacts, ...] = (
         family="shape", needs=_SUMS,
     ),
     _descriptor(
-        "minimum", "smallest value", (), ("bins (values unknown)",), "order statistic x(1)",
+        "minimum", "smallest value (a histogram's min when it sends one)", (),
+          ("bins (values unknown), unless a histogram sends its min",), "order statistic x(1)",
         family="extremes", needs=_EXTREMES, bootstrap_fails=_INCONSISTENT_FOR_EXTREMES,
     ),
     _descriptor(
-        "maximum", "largest value", (), ("bins (values unknown)",), "order statistic x(n)",
+        "maximum", "largest value (a histogram's max when it sends one)", (),
+          ("bins (values unknown), unless a histogram sends its max",), "order statistic x(n)",
         family="extremes", needs=_EXTREMES, bootstrap_fails=_INCONSISTENT_FOR_EXTREMES,
     ),
     _descriptor(
@@ -278,7 +281,17 @@ MEMBERS: tuple[CatalogEntry, ...] = (
     CatalogEntry("grouping", "grouping", "bins and open ends as sent, bin width, modal classes, whether Sheppard's "
           "corrections applied (central moments m2 - h^2/12 and m4 - h^2 m2/2 + 7 h^4/240; the variance s^2 - h^2/12 "
           "under the sample convention, m2 - h^2/12 under the population one)",
-          ("sheppard_correction",), ("input other than bins",), "Sheppard, Proc. London Math. Soc. 29, 1898"),
+          ("sheppard_correction",), ("input other than bins or a histogram",), "Sheppard, Proc. London Math. Soc. 29, 1898"),
+    CatalogEntry("grouping.known_summary", "grouping",
+          "a histogram's own count, sum, min and max as sent, and the descriptors taken from them, exact (exact): "
+          "the mean as sum / count (with every bin closed, each bin's midpoint moved by one shift to that mean, so "
+          "its interval and the moments agree), the minimum, maximum and range; min and max also close the outer "
+          "buckets. Histogram layouts: cumulative (le bounds, cumulative counts), explicit (bounds, one more "
+          "count), exponential (bucket k covers (base^k, base^(k+1)], base = 2^(2^-scale), boundaries correctly "
+          "rounded; a zero bucket of threshold 0 is spread over [-w, w], w the nearest boundary)", (),
+          ("bins sent as bins", "no sum, min or max sent"),
+          "OpenMetrics histogram exposition; OpenTelemetry metrics data model (histogram and exponential "
+          "histogram data points)"),
     CatalogEntry("normality.skewness_test", "normality", "D'Agostino's z transform of g1", (),
           ("n < 8", "not a sample with whole counts"), "D'Agostino, Biometrika 57, 1970"),
     CatalogEntry("normality.kurtosis_test", "normality", "Anscombe & Glynn's z transform of b2", (),
@@ -339,9 +352,11 @@ MEMBERS: tuple[CatalogEntry, ...] = (
           "first: shapes compared free of location and scale", ("probabilities",),
           ("zero or undefined spread",), "standardization; Hampel 1974 for the MAD"),
     CatalogEntry("distribution_test", "comparison",
-          "two-sample Kolmogorov-Smirnov (whole counts; exact up to 10000 per input, else asymptotic) or Pearson's "
-          "chi-square test of homogeneity (bins on the same edges)", (),
-          ("probabilities, reliability or fractional weights", "bins against other kinds or other edges"),
+          "two-sample Kolmogorov-Smirnov (whole counts; exact up to 10000 per input, else asymptotic) or, when "
+          "either input is binned (bins, histogram), Pearson's chi-square test of homogeneity on the common "
+          "coarsening: cells between the finite edges both binned inputs share (observations counted into the "
+          "bins' cells, upper edges included), listed in cell_edges", (),
+          ("probabilities, reliability or fractional weights", "fewer than two cells holding data"),
           "scipy.stats.ks_2samp, scipy.stats.chi2_contingency; Hodges, Arkiv for Matematik 3, 1958"),
     CatalogEntry("scores", "scores", "z = (x - mean) / sd and robust z = (x - median) / normal-consistent MAD",
           ("convention",), ("zero or undefined spread",), "standard scores; Hampel 1974 for the MAD"),
@@ -462,6 +477,10 @@ class WarningCode(enum.StrEnum):
     CHI_SQUARE_SMALL_EXPECTED = (
         "chi_square_small_expected",
         "expected counts below 5: the chi-square approximation may be poor",
+    )
+    BINS_COARSENED = (
+        "bins_coarsened",
+        "binned inputs on different edges were tested in the coarser cells between the edges both share",
     )
     SCORE_UNDEFINED = "score_undefined", "the reference's spread is zero or undefined: no z-score"
 

@@ -50,6 +50,21 @@ class SortedSupport:
         return float(self.cumulative[-1])
 
 
+@dataclass(frozen=True)
+class KnownSummary:
+    """What a histogram states of its observations beside its buckets (``core.histograms``).
+
+    ``count`` is the total of the counts; ``sum``, ``minimum`` and ``maximum`` are exact values
+    of the observations when the histogram carries them (``None`` otherwise). Describing uses
+    them where they make a descriptor exact (``describe.known``).
+    """
+
+    count: float
+    sum: float | None = None
+    minimum: float | None = None
+    maximum: float | None = None
+
+
 @dataclass(frozen=True, eq=False)
 class WeightedData:
     """Support values, their weights and the meaning of the weights.
@@ -65,7 +80,8 @@ class WeightedData:
     and ``values`` the k bin midpoints; an open bin's value is its finite edge, a placeholder
     that is never used because moments are undefined while an open bin holds data.
     ``empty_open_ends`` says which open-ended bins (lower, upper) were sent empty and left out,
-    so what was sent can still be reported.
+    so what was sent can still be reported. ``known``: a histogram's own count, sum, minimum and
+    maximum (``None`` for every other input).
     """
 
     values: np.ndarray
@@ -77,6 +93,7 @@ class WeightedData:
     normalised_from: float | None = None
     edges: np.ndarray | None = None
     empty_open_ends: tuple[bool, bool] = (False, False)
+    known: KnownSummary | None = None
 
     @property
     def count(self) -> int:

@@ -49,6 +49,9 @@ from tailgauge.figures.style import FORMATS, PNG, SVG  # noqa: E402,F401  (the m
 # Pixels per inch of the figure: a PNG is exactly width x height pixels; an SVG says the same
 # width and height (in CSS pixels) over a viewBox in points.
 DPI = 100
+# SVG ids (clip paths, markers, hatches) from a fixed salt instead of a random one per figure: the
+# same request draws the same bytes (set once, before any figure; nothing else reads it).
+matplotlib.rcParams["svg.hashsalt"] = "tailgauge"
 FONT_FILE = Path(matplotlib.get_data_path()) / "fonts" / "ttf" / "DejaVuSans.ttf"
 
 

@@ -72,6 +72,15 @@ class DistributionTest(Answer):
     degrees_of_freedom: int | None
     reference: str
     reason: Annotated[str | None, Meta(description="Why the test could not be computed.")]
+    cell_edges: Annotated[
+        list[float] | None,
+        Meta(
+            description=(
+                "Chi-square: the finite edges of the cells counted (the edges both binned inputs share, or "
+                "the bins' own against observations); null for other tests."
+            )
+        ),
+    ] = None
 
 
 class WarningSide(StrEnum):

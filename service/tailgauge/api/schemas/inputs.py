@@ -1,7 +1,7 @@
-"""Request bodies: the three input kinds and the comparison of two inputs.
+"""Request bodies: the four input kinds and the comparison of two inputs.
 
 Each input kind's data fields are declared once, in a base Struct (:class:`SamplesData`,
-:class:`TableData`, :class:`BinsData`). Its descriptor endpoint's request adds that endpoint's
+:class:`TableData`, :class:`BinsData`, :class:`HistogramData`). Its descriptor endpoint's request adds that endpoint's
 options; a comparison input adds the ``kind`` tag and the options that belong to the data. So a
 field means, checks and reads the same in both places.
 """
@@ -111,6 +111,96 @@ class BinsData(Message):
     ]
 
 
+class HistogramLayout(StrEnum):
+    """How a histogram's buckets are laid out: cumulative (le bounds with cumulative counts),
+    explicit (bounds with per-bucket counts) or exponential (base-2^(2^-scale) buckets)."""
+
+    CUMULATIVE = "cumulative"
+    EXPLICIT = "explicit"
+    EXPONENTIAL = "exponential"
+
+
+class ExponentialBuckets(Message):
+    """One side of an exponential histogram."""
+
+    offset: Annotated[
+        int,
+        Meta(
+            ge=-(2**31),
+            le=2**31 - 1,
+            description=(
+                "Index of the first bucket: bucket i covers (base^(offset+i), base^(offset+i+1)]; absent: 0 "
+                "(as OTLP JSON leaves a zero out)."
+            ),
+        ),
+    ] = 0
+    bucket_counts: Annotated[
+        list[NonNegative], Meta(description="Count in each bucket (>= 0), from index offset up; absent: none.")
+    ] = msgspec.field(default_factory=list)
+
+
+_BOUNDS_NOTE = "Every bucket includes its upper bound."
+
+
+class HistogramData(Message):
+    """A histogram as a metrics system exports it, tagged by layout; each layout has its own fields
+    (HISTOGRAM_LAYOUT_FIELDS), and a field of another layout is an error."""
+
+    layout: Annotated[HistogramLayout, Meta(description="Which fields follow: cumulative, explicit or exponential.")]
+    upper_bounds: Annotated[
+        Annotated[list[Finite | None], Meta(min_length=1)] | None,
+        Meta(description="cumulative: the buckets' upper bounds (le), strictly increasing; the last may be null for +infinity. " + _BOUNDS_NOTE),
+    ] = None
+    cumulative_counts: Annotated[
+        Annotated[list[NonNegative], Meta(min_length=1)] | None,
+        Meta(description="cumulative: observations at or below each upper bound, never decreasing."),
+    ] = None
+    lower_bound: Annotated[
+        Finite | None, Meta(description="cumulative: a bound below every observation; null or absent: the first bucket is open below.")
+    ] = None
+    count: Annotated[
+        NonNegative | None, Meta(description="cumulative: the number of observations; must equal the last cumulative count.")
+    ] = None
+    explicit_bounds: Annotated[
+        list[Finite] | None,
+        Meta(description="explicit: m strictly increasing bounds; bucket i covers (bounds[i-1], bounds[i]], the outer two open. " + _BOUNDS_NOTE),
+    ] = None
+    bucket_counts: Annotated[
+        Annotated[list[NonNegative], Meta(min_length=1)] | None,
+        Meta(description="explicit: the count of each of the m + 1 buckets (>= 0)."),
+    ] = None
+    scale: Annotated[
+        Annotated[int, Meta(ge=-10, le=20)] | None,
+        Meta(description="exponential: the scale, -10..20; base = 2^(2^-scale)."),
+    ] = None
+    zero_count: Annotated[
+        NonNegative | None, Meta(description="exponential: observations in the zero bucket [-zero_threshold, zero_threshold].")
+    ] = None
+    zero_threshold: Annotated[
+        NonNegative | None, Meta(description="exponential: the zero bucket's half-width; null or absent: 0.")
+    ] = None
+    positive: Annotated[
+        ExponentialBuckets | None, Meta(description="exponential: the buckets above zero; null or absent: none.")
+    ] = None
+    negative: Annotated[
+        ExponentialBuckets | None,
+        Meta(description="exponential: the buckets below zero, mirrored: bucket i covers [-base^(offset+i+1), -base^(offset+i)).")
+    ] = None
+    sum: Annotated[Finite | None, Meta(description="Every layout: the exact sum of the observations, if known.")] = None
+    min: Annotated[Finite | None, Meta(description="explicit, exponential: the smallest observation, if known.")] = None
+    max: Annotated[Finite | None, Meta(description="explicit, exponential: the largest observation, if known.")] = None
+
+
+# Each layout's fields: those it requires, then those it may carry. A field of another layout is a 400.
+HISTOGRAM_LAYOUT_FIELDS: dict[HistogramLayout, tuple[tuple[str, ...], tuple[str, ...]]] = {
+    HistogramLayout.CUMULATIVE: (("upper_bounds", "cumulative_counts"), ("lower_bound", "sum", "count")),
+    HistogramLayout.EXPLICIT: (("explicit_bounds", "bucket_counts"), ("sum", "min", "max")),
+    HistogramLayout.EXPONENTIAL: (
+        ("scale", "zero_count"), ("zero_threshold", "positive", "negative", "sum", "min", "max"),
+    ),
+}
+
+
 class SamplesRequest(SamplesData):
     options: Annotated[SampleOptions | None, Meta(description=NULL_MEANS_DEFAULTS)] = msgspec.field(
         default_factory=SampleOptions
@@ -132,6 +222,16 @@ class TableRequest(TableData):
 
 
 class BinsRequest(BinsData):
+    options: Annotated[BinOptions | None, Meta(description=NULL_MEANS_DEFAULTS)] = msgspec.field(
+        default_factory=BinOptions
+    )
+
+    def __post_init__(self) -> None:
+        if self.options is None:
+            self.options = BinOptions()
+
+
+class HistogramRequest(HistogramData):
     options: Annotated[BinOptions | None, Meta(description=NULL_MEANS_DEFAULTS)] = msgspec.field(
         default_factory=BinOptions
     )
@@ -168,8 +268,12 @@ class BinsInput(BinsData, tag_field="kind", tag="bins"):
     pass
 
 
+class HistogramInput(HistogramData, tag_field="kind", tag="histogram"):
+    pass
+
+
 ComparisonInput = Annotated[
-    SamplesInput | TableInput | BinsInput,
+    SamplesInput | TableInput | BinsInput | HistogramInput,
     Meta(description='One input, tagged by "kind", with the fields of its own descriptor endpoint.'),
 ]
 
@@ -193,6 +297,12 @@ __all__ = [
     "BinsRequest",
     "ComparisonInput",
     "ComparisonRequest",
+    "ExponentialBuckets",
+    "HISTOGRAM_LAYOUT_FIELDS",
+    "HistogramData",
+    "HistogramInput",
+    "HistogramLayout",
+    "HistogramRequest",
     "Outcome",
     "SampleWeightKind",
     "SamplesData",

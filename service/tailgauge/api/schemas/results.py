@@ -23,6 +23,7 @@ class InputKind(StrEnum):
     SAMPLES = "samples"
     TABLE = "table"
     BINS = "bins"
+    HISTOGRAM = "histogram"
 
 
 class NormalityTestName(StrEnum):
@@ -212,6 +213,19 @@ class ModalClass(Answer):
     grouped_mode: MaybeNumber
 
 
+class KnownSummary(Answer):
+    """A histogram's own values as sent, and the descriptors they made exact."""
+
+    count: Annotated[float, Meta(description="Observations: the total of the counts.")]
+    sum: Annotated[float | None, Meta(description="The histogram's sum; null when not sent.")]
+    minimum: Annotated[float | None, Meta(description="The histogram's min; null when not sent.")]
+    maximum: Annotated[float | None, Meta(description="The histogram's max; null when not sent.")]
+    exact: Annotated[
+        list[str],
+        Meta(description="Descriptors taken from them, exact: mean (sum / count), minimum, maximum, range."),
+    ]
+
+
 class Grouping(Answer):
     bins: int
     bin_width: Annotated[float | None, Meta(description="Common width of the closed bins; null when widths differ.")]
@@ -223,6 +237,10 @@ class Grouping(Answer):
     highest_edge: Annotated[float | None, Meta(description="Upper edge of the highest bin holding data (null if open).")]
     sheppard_correction_applied: bool
     modal_classes: list[ModalClass]
+    known_summary: Annotated[
+        KnownSummary | None,
+        Meta(description="A histogram's own count, sum, min and max and what they made exact; null for bins."),
+    ] = None
 
 
 class Conventions(Answer):
@@ -293,7 +311,7 @@ class DescriptionResponse(Answer, kw_only=True):
         ),
     ] = UNSET
     grouping: Annotated[
-        Grouping | None | UnsetType, Meta(description="Bin facts; null unless the input was bins.")
+        Grouping | None | UnsetType, Meta(description="Bin facts; null unless the input was bins or a histogram.")
     ] = UNSET
     normality: Annotated[
         list[NormalityTest] | UnsetType,
@@ -325,6 +343,7 @@ __all__ = [
     "DescriptorValue",
     "Descriptors",
     "Grouping",
+    "KnownSummary",
     "InputKind",
     "Interval",
     "ModalClass",

@@ -1,9 +1,15 @@
 """Two-sample tests of equal distributions: Kolmogorov-Smirnov for counted observations,
-Pearson's chi-square of homogeneity for bins on the same edges.
+Pearson's chi-square of homogeneity where either input is binned (bins or a histogram).
 
-Where no test applies (a probability table, reliability weights, fractional counts, bins against
-observations, bins on other edges) the test's statistic and p-value are ``None`` with its
-``reason``.
+Binned data on different edges are compared on the common coarsening of both edge sets: the
+cells between the finite edges both inputs share (with the two open cells beyond the outermost),
+the coarsest partition in which every bin of each input lies in one cell. Binned data against
+observations with whole counts: the observations are counted into the bins' own cells. Every
+cell includes its upper edge, as histogram buckets do; an observation on the lowest edge of a
+closed lowest bin counts in that bin.
+
+Where no test applies (a probability table, reliability weights, fractional counts, no two
+cells holding data) the test's statistic and p-value are ``None`` with its ``reason``.
 """
 
 from __future__ import annotations
@@ -37,35 +43,40 @@ class DistributionTest:
     degrees_of_freedom: int | None
     reference: str
     reason: str | None
+    # The chi-square test's cells: the finite edges between them (None for other tests).
+    cell_edges: list[float] | None = None
 
 
 def distribution_test(first: WeightedData, second: WeightedData, notes: Warnings) -> DistributionTest:
-    """Kolmogorov-Smirnov for observations with whole counts; chi-square for bins on the same edges."""
+    """Kolmogorov-Smirnov for observations with whole counts; chi-square when either input is binned."""
     if first.binned or second.binned:
-        if not (first.binned and second.binned):
-            return _no_test(
-                "chi_square_homogeneity",
-                "bins can only be tested against bins on the same edges (values within bins are unknown)",
-            )
+        for data, side in ((first, "first"), (second, "second")):
+            if not data.binned and (reason := _not_counted(data, side, "chi_square_homogeneity")):
+                return reason
         return _chi_square(first, second, notes)
     for data, side in ((first, "first"), (second, "second")):
-        if data.meaning is WeightMeaning.PROBABILITY:
-            return _no_test(
-                "kolmogorov_smirnov",
-                f"the {side} input is a probability table, a population with no sample size, so no "
-                "sampling test applies",
-            )
-        if data.meaning is WeightMeaning.RELIABILITY:
-            return _no_test(
-                "kolmogorov_smirnov",
-                f"the {side} input has reliability weights, which give no count of observations for "
-                "the test's null distribution",
-            )
-        if not data.integer_weights:
-            return _no_test(
-                "kolmogorov_smirnov", f"the {side} input's weights are not whole counts of observations"
-            )
+        if reason := _not_counted(data, side, "kolmogorov_smirnov"):
+            return reason
     return _kolmogorov_smirnov(first, second, notes)
+
+
+def _not_counted(data: WeightedData, side: str, test: str) -> DistributionTest | None:
+    """No test, with the reason, when ``data`` are not observations with whole counts."""
+    if data.meaning is WeightMeaning.PROBABILITY:
+        return _no_test(
+            test,
+            f"the {side} input is a probability table, a population with no sample size, so no "
+            "sampling test applies",
+        )
+    if data.meaning is WeightMeaning.RELIABILITY:
+        return _no_test(
+            test,
+            f"the {side} input has reliability weights, which give no count of observations for "
+            "the test's null distribution",
+        )
+    if not data.integer_weights:
+        return _no_test(test, f"the {side} input's weights are not whole counts of observations")
+    return None
 
 
 def _no_test(test: str, reason: str) -> DistributionTest:
@@ -120,31 +131,53 @@ def _kolmogorov_smirnov(first: WeightedData, second: WeightedData, notes: Warnin
     return DistributionTest("kolmogorov_smirnov", statistic, p_value, method, None, KS_REFERENCE, None)
 
 
-def _bin_columns(data: WeightedData) -> np.ndarray:
-    """Counts below the finite edges (open bin), in each closed bin, and above (open bin)."""
-    assert data.edges is not None and data.weights is not None
-    edges, weights = data.edges, data.weights
-    open_low, open_high = bool(np.isinf(edges[0])), bool(np.isinf(edges[-1]))
-    closed = weights[int(open_low): weights.size - int(open_high)]
-    return np.concatenate(([weights[0] if open_low else 0.0], closed, [weights[-1] if open_high else 0.0]))
+def _cell_counts(data: WeightedData, cuts: np.ndarray, lowest_closed: float | None) -> np.ndarray:
+    """``data``'s counts in the cells (-inf, cuts[0]], (cuts[0], cuts[1]], ..., (cuts[-1], inf).
+
+    A bin lies in the cell of its upper edge (every cut is one of its edges); an observation in
+    the cell of its value, except one on ``lowest_closed`` (the binned input's lowest edge, when
+    its lowest bin is closed), which counts in the cell above with the bin that holds it.
+    """
+    if data.binned:
+        assert data.edges is not None and data.weights is not None
+        where, weights = np.searchsorted(cuts, data.edges[1:], side="left"), data.weights
+    else:
+        support = data.support
+        where, weights = np.searchsorted(cuts, support.values, side="left"), support.weights
+        if lowest_closed is not None:
+            where = where + (support.values == lowest_closed)
+    return np.bincount(where, weights=weights, minlength=cuts.size + 1)
 
 
 def _chi_square(first: WeightedData, second: WeightedData, notes: Warnings) -> DistributionTest:
-    """Pearson's chi-square test of homogeneity on the 2 x k table of bin counts.
+    """Pearson's chi-square test of homogeneity on the 2 x m table of counts in common cells.
 
-    The bins must share their finite edges; an open-ended bin present in one input only counts
-    zero in the other (it holds nothing beyond that edge). Columns empty in both are dropped.
+    The cells are cut at the finite edges both binned inputs share (a binned input against
+    observations: at its own finite edges); columns empty in both are dropped. With bins on the
+    same edges the cells are the bins themselves.
     """
-    assert first.edges is not None and second.edges is not None
-    if not np.array_equal(first.edges[np.isfinite(first.edges)], second.edges[np.isfinite(second.edges)]):
-        return _no_test("chi_square_homogeneity", "the two inputs' bins have different edges")
-    if not (first.integer_weights and second.integer_weights):
+    binned = [data for data in (first, second) if data.binned]
+    finite = [data.edges[np.isfinite(data.edges)] for data in binned]  # type: ignore[index]
+    cuts = finite[0] if len(finite) == 1 else np.intersect1d(finite[0], finite[1])
+    lowest_closed = None
+    if len(binned) == 1 and np.isfinite(binned[0].edges[0]):  # type: ignore[index]
+        lowest_closed = float(binned[0].edges[0])  # type: ignore[index]
+    if not all(data.integer_weights for data in binned):
         return _no_test("chi_square_homogeneity", "the bin counts are not whole numbers of observations")
-    table = np.vstack((_bin_columns(first), _bin_columns(second)))
+    table = np.vstack([_cell_counts(data, cuts, lowest_closed) for data in (first, second)])
     table = table[:, np.any(table > 0.0, axis=0)]
     if table.shape[1] < 2:
         return _no_test(
-            "chi_square_homogeneity", "every count of both inputs lies in one bin: nothing to compare"
+            "chi_square_homogeneity",
+            "every count of both inputs lies in one cell of the edges they share: nothing to compare",
+        )
+    if len(binned) == 2 and not np.array_equal(finite[0], finite[1]):
+        notes.add(
+            WarningCode.BINS_COARSENED,
+            f"the inputs' bins have different edges: the test counts both in the {table.shape[1]} cells "
+            f"between the {cuts.size} edges they share, coarser than the bins sent, so it sees only "
+            "differences between those cells",
+            ["distribution_test"],
         )
     result = stats.chi2_contingency(table, correction=False)
     if float(np.min(result.expected_freq)) < SMALL_EXPECTED_COUNT:
@@ -157,5 +190,5 @@ def _chi_square(first: WeightedData, second: WeightedData, notes: Warnings) -> D
         )
     return DistributionTest(
         "chi_square_homogeneity", float(result.statistic), float(result.pvalue), "pearson", int(result.dof),
-        CHI_SQUARE_REFERENCE, None,
+        CHI_SQUARE_REFERENCE, None, [float(c) for c in cuts],
     )

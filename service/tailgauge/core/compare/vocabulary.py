@@ -61,6 +61,7 @@ COMPARISON_WARNINGS: frozenset[WarningCode] = frozenset({
     WarningCode.CONVENTIONS_DIFFER,
     WarningCode.DISTRIBUTION_TEST_TIES,
     WarningCode.CHI_SQUARE_SMALL_EXPECTED,
+    WarningCode.BINS_COARSENED,
     WarningCode.BCA_FALLBACK,
     WarningCode.INTERVAL_UNDEFINED,
     WarningCode.INTERVAL_NOT_OFFERED,

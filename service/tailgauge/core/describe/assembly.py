@@ -11,7 +11,7 @@ from collections.abc import Callable
 import numpy as np
 
 from tailgauge.core import cost, order_statistics
-from tailgauge.core.describe import evidence, intervals, moment_based, order_based, ordered, robust_shape
+from tailgauge.core.describe import evidence, intervals, known, moment_based, order_based, ordered, robust_shape
 from tailgauge.core.describe.basis import Basis
 from tailgauge.core.describe.warnings import Warnings, explain_remaining_nulls, finite_or_none, note_degenerate
 from tailgauge.core.describe.options import DescribeOptions
@@ -188,6 +188,7 @@ def describe(data: WeightedData, options: DescribeOptions, *, kind: str) -> Desc
             notes, structure,
         )
 
+    known.apply(data, descriptors, notes, selection, resampling)  # a histogram's own sum, min and max
     modes, modal = None, []
     if selection.computes("modes") or (data.binned and selection.computes("grouping")):  # grouping lists the modal classes
         modes, modal = order_based.modes(data, options.modes_limit, notes)
@@ -222,7 +223,7 @@ def describe(data: WeightedData, options: DescribeOptions, *, kind: str) -> Desc
             if selection.computes("tail_contributions") else None
         ),
         grouping=(
-            order_based.grouping(data, modal, sheppard_applied)
+            known.with_summary(order_based.grouping(data, modal, sheppard_applied), data, selection)
             if data.binned and selection.computes("grouping") else None
         ),
         normality=lambda: (

@@ -128,6 +128,17 @@ class ModalClass:
 
 
 @dataclass
+class KnownSummary:
+    """A histogram's own count, sum, min and max as sent, and the descriptors they made exact."""
+
+    count: float
+    sum: float | None
+    minimum: float | None
+    maximum: float | None
+    exact: list[str]
+
+
+@dataclass
 class Grouping:
     bins: int
     bin_width: float | None
@@ -139,6 +150,8 @@ class Grouping:
     highest_edge: float | None
     sheppard_correction_applied: bool
     modal_classes: list[ModalClass]
+    # A histogram's own summary (None for bins sent as bins).
+    known_summary: KnownSummary | None = None
 
 
 @dataclass
