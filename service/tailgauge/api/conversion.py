@@ -29,7 +29,8 @@ from typing import Any, TypeVar
 import msgspec
 
 from tailgauge.api import schemas
-from tailgauge.core import Comparison, Description, PartialState, Scores
+from tailgauge.core import Comparison, Description, GroupDescription, PartialState, Scores
+from tailgauge.core.compare import Contrasts
 from tailgauge.core.registry import SCALAR_DESCRIPTORS
 
 Message = TypeVar("Message", bound=msgspec.Struct)
@@ -56,6 +57,10 @@ NOT_SENT: dict[type, dict[str, str]] = {
     },
     schemas.MergedDescriptionResponse: {"absent": _ABSENT},
     schemas.ComparisonResponse: {"absent": _ABSENT},
+    schemas.GroupDescription: {
+        "sketches": "only merged states read quantiles from sketches (MergedDescriptionResponse.sketches)",
+        "absent": _ABSENT,
+    },
     schemas.Resampling: {"replicates": "the bootstrap replicates, kept in process for contrasts"},
     schemas.Scores: {"warnings": "added to the response's own warnings list"},
 }
@@ -64,6 +69,8 @@ ROOTS: tuple[tuple[type, type], ...] = (
     (Description, schemas.DescriptionResponse),
     (Description, schemas.MergedDescriptionResponse),
     (Comparison, schemas.ComparisonResponse),
+    (GroupDescription, schemas.GroupDescription),
+    (Contrasts, schemas.BaselineContrasts),
     (Scores, schemas.Scores),
     (PartialState, schemas.PartialState),
 )

@@ -40,16 +40,20 @@ from tailgauge.api.schemas import (
 )
 from tailgauge.core import (
     DescribeOptions,
+    UncomputableInput,
     DescriptorError,
+    Group,
     IntervalOptions,
     LimitExceeded,
     Location,
     WeightMeaning,
     Selection,
     admit,
+    admit_groups,
     choose,
     compare,
     describe,
+    describe_groups,
     from_bins,
     from_samples,
     from_table,
@@ -57,6 +61,7 @@ from tailgauge.core import (
     restricted_comparison,
     standardize,
 )
+from tailgauge.core.groups import from_columns
 from tailgauge.core.scoring import READ_BY_SCORES
 from tailgauge.core.partial import MIN_ORDER, PartialState, describe_state, merge_states, state_of
 from tailgauge.core.sketches import combine_sketches
@@ -371,3 +376,87 @@ def _compare(body: bytes, codec: Codec, answer: Codec, settings: Settings, ticke
     message = _with_scores(message, comparison.first, request.options.score)
     resamples = 0 if comparison.resampling is None else 2 * comparison.resampling.resamples
     return Computed(answer.encode(message), first_count + second_count, resamples)
+
+
+@admission.giving_back
+def describe_groups_request(body: bytes, codec: Codec, answer: Codec, settings: Settings) -> Computed:
+    with admission.admitted(body, codec, settings) as ticket:
+        request = _decode(body, schemas.GroupsRequest, codec)
+        chosen = request.options
+        groups, count = _groups(request, chosen.missing, settings)
+        options = describe_options(chosen, settings, ticket.decoding)
+        estimate = admit_groups(groups, options)
+        ticket.resize(ticket.decoding + estimate.peak_bytes, estimate.seconds)
+        results = describe_groups(
+            groups,
+            dataclasses.replace(options, admitted=True),
+            order=chosen.group_order.value,
+            baseline=chosen.baseline,
+            score=chosen.score,
+            partial_state_order=max(MIN_ORDER, chosen.moment_order) if chosen.partial_state else None,
+        )
+        message = schemas.GroupsResponse(
+            groups=[to_message(result, schemas.GroupDescription) for result in results], warnings=[]
+        )
+        resamples = sum(r.resampling.resamples for r in results if r.resampling is not None)
+        return Computed(answer.encode(message), count, resamples)
+
+
+def _groups(request: schemas.GroupsRequest, missing: str, settings: Settings) -> tuple[list[Group], int]:
+    """The request's groups in the core's form, from either form, within this server's limits."""
+    columnar = request.values is not None or request.keys is not None
+    if (request.groups is not None) == columnar:
+        path = "$.groups" if request.groups is None else "$.values"
+        raise ApiProblem(
+            "invalid-body",
+            "send either groups, or values with keys (the columnar form), not both and not neither",
+            [ProblemLocation(path=path, message="either groups, or values with keys")],
+        )
+    if not columnar:
+        if request.weights is not None:
+            raise ApiProblem(
+                "invalid-body",
+                "weights at the top level belong to the columnar form; give each group its own weights",
+                [ProblemLocation(path="$.weights", message="only with values and keys")],
+            )
+        return _listed_groups(request.groups, missing, settings)
+    for field, given in (("values", request.values), ("keys", request.keys)):
+        if given is None:
+            raise ApiProblem(
+                "invalid-body",
+                "the columnar form needs both values and keys",
+                [ProblemLocation(path=f"$.{field}", message="required with the columnar form")],
+            )
+    values = _float64s(request.values, "$.values", missing=True)
+    _check_count(len(values), "$.values", settings)
+    weights = None if request.weights is None else _float64s(request.weights, "$.weights", missing=False)
+    groups = from_columns(
+        values,
+        request.keys,
+        weights,
+        omit_missing=missing == "omit",
+        meaning=WeightMeaning.RELIABILITY if request.weight_kind == "reliability" else WeightMeaning.FREQUENCY,
+        max_groups=settings.max_groups,
+    )
+    return groups, len(values)
+
+
+def _listed_groups(listed: list[schemas.Group], missing: str, settings: Settings) -> tuple[list[Group], int]:
+    if len(listed) > settings.max_groups:
+        raise LimitExceeded(
+            detail=f"{len(listed)} groups sent; this server describes at most {settings.max_groups} groups per request",
+            locations=[Location("groups", f"at most {settings.max_groups} groups")],
+        )
+    count = sum(len(g.values) for g in listed)
+    _check_count(count, "$.groups", settings, "all groups together")
+    first_at: dict = {}
+    groups = []
+    for index, group in enumerate(listed):
+        earlier = first_at.setdefault(group.key, index)
+        if earlier != index:
+            raise UncomputableInput.at(
+                f"groups[{index}].key", f"repeats the key of groups[{earlier}]; keys must be unique"
+            )
+        data, _ = _samples_data(group, missing, settings, f"$.groups[{index}]")
+        groups.append(Group(group.key, data, field=f"groups[{index}]"))
+    return groups, count

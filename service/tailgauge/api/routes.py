@@ -120,6 +120,7 @@ def describe_catalog(request: Request) -> Response[bytes]:
 # cheap and run on the event loop. Metric labels of the compute endpoints are API (dashboards).
 BODIES = {
     "describeSamples": _computing(endpoints.describe_samples, "samples"),
+    "describeGroups": _computing(endpoints.describe_groups_request, "groups"),
     "describeTable": _computing(endpoints.describe_table, "table"),
     "describeBins": _computing(endpoints.describe_bins, "bins"),
     "mergeStates": _computing(endpoints.merge_states_request, "merge"),

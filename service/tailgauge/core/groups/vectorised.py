@@ -1,0 +1,190 @@
+"""The basic descriptors of many raw samples at once: mean, variance, standard deviation,
+median, extremes, range, IQR and quantiles of every group, bit for bit what ``describe`` gives
+for each group alone.
+
+Groups of one length are stacked as the rows of one array and computed together: the power
+sums by :func:`tailgauge.core.moments.row_central_sums` (``central_sums``' one-pass arithmetic,
+row by row), one sort of the rows, and the order-statistic rules of
+:mod:`tailgauge.core.order_rules` over :class:`RowsOfEqualLength` (each row a sorted sample, read
+by index as ``SortedRow`` reads one). So no number here has an arithmetic of its own.
+
+A group takes this path when the request asks for nothing else (``options.descriptors`` within
+:data:`VECTORISED`, no intervals) and its data are ordinary: unit weights, nothing omitted, at
+least two values and not all equal, at most ``ROW_SUMS_AT_MOST`` values, power sums accepted
+by the one-pass test, every result finite and normal, and no +0 tied with -0 (whose order a sort
+leaves open). Every other group is described alone by ``describe``: so are the degenerate ones,
+whose answers carry warnings about themselves.
+"""
+
+from __future__ import annotations
+
+import dataclasses
+from collections import defaultdict
+
+import numpy as np
+
+from tailgauge.core import order_rules
+from tailgauge.core.describe import (
+    Description,
+    Descriptor,
+    DescribeOptions,
+    Quantile,
+    Size,
+    check_description,
+    describe,
+    restricted,
+)
+from tailgauge.core.describe.assembly import NOT_COMPUTED
+from tailgauge.core.moments import ROW_SUMS_AT_MOST, row_central_sums, variance_factor
+from tailgauge.core.registry import SCALAR_DESCRIPTORS
+from tailgauge.core.weighted import WeightedData
+
+# What this path computes; a selection computing anything else describes each group alone.
+VECTORISED = frozenset(
+    ("mean", "variance", "standard_deviation", "median", "minimum", "maximum", "range", "interquartile_range", "quantiles")
+)
+# The smallest normal float64: scale_by_power_of_two reads anything smaller as not representable.
+_NORMAL = 2.0**-1021
+
+
+def applies(options: DescribeOptions) -> bool:
+    """Whether ``options`` ask for nothing beyond :data:`VECTORISED` (and no intervals)."""
+    return options.interval is None and options.descriptors is not None and options.descriptors.computed <= VECTORISED
+
+
+class RowsOfEqualLength:
+    """Rows of unit weights over sorted samples of ``n`` values each, laid end to end (row ``r``
+    at positions ``r n .. r n + n - 1`` of the flat array): the order-statistic rules' row
+    interface (:class:`tailgauge.core.order_rules.Rows`) as ``SortedRow`` gives it for one row,
+    shifted to each row's place."""
+
+    prefers_search = True
+    unit_sorted = True
+
+    def __init__(self, rows: int, n: int) -> None:
+        self.count = rows
+        self.size = n
+        self.total = np.full(rows, float(n))
+        self._offsets = (np.arange(rows, dtype=np.intp) * n)[:, None]
+
+    def first_reaching(self, target: np.ndarray) -> np.ndarray:
+        return np.clip(np.ceil(target), 1, self.size).astype(np.intp) - 1 + self._offsets
+
+
+def _ordinary(data: WeightedData) -> bool:
+    return data.weights is None and not data.binned and data.omitted == 0 and 2 <= data.count <= ROW_SUMS_AT_MOST
+
+
+def describe_together(
+    datas: list[WeightedData], options: DescribeOptions, *, shown_only: bool = False
+) -> dict[int, Description]:
+    """The descriptions of the groups this path takes, by their index in ``datas``; the caller
+    describes the others alone. ``options`` are admitted (planned) by the caller. ``shown_only``:
+    each description as ``describe.restricted`` leaves it (what the answer shows), not as
+    ``describe`` returns it."""
+    if not applies(options):
+        return {}
+    by_length: dict[int, list[int]] = defaultdict(list)
+    for index, data in enumerate(datas):
+        if _ordinary(data):
+            by_length[data.count].append(index)
+    computed: dict[int, tuple] = {}
+    for n, indices in by_length.items():
+        computed.update(_length(n, [datas[i] for i in indices], indices, options))
+    if not computed:
+        return {}
+    first = min(computed)
+    template = describe(datas[first], options, kind="samples")
+    if restricted(template, options.descriptors).warnings or not _same(template, computed[first]):
+        return {}  # never expected: the shared arithmetic is tested; every group is then described alone
+    # What other groups share with the template: labels, conventions, no warnings; a descriptor
+    # not computed is one shared placeholder (left out when ``shown_only``, as restricted() does).
+    template = dataclasses.replace(template, warnings=[])
+    selection = options.descriptors
+    labels = {name: d.estimator for name, d in template.descriptors.items() if name in VECTORISED and d.value is not None}
+    if shown_only:
+        template = dataclasses.replace(template, absent=selection.absent)
+        placeholders = {}
+        names = [name for name in SCALAR_DESCRIPTORS if selection.shows(name)]
+    else:
+        skipped = Descriptor(None, NOT_COMPUTED)
+        placeholders = {name: skipped for name in SCALAR_DESCRIPTORS}
+        names = list(labels)
+    probabilities = [q.probability for q in template.quantiles]
+    fields = {f.name: getattr(template, f.name) for f in dataclasses.fields(template)}
+    results = {}
+    for index, (n, values, quantiles, distinct) in computed.items():
+        descriptors = dict(placeholders)
+        for name in names:
+            descriptors[name] = Descriptor(values[name], labels[name])
+        fields["size"] = Size(
+            n=n,
+            total_weight=float(n),
+            omitted=0,
+            distinct_values=None if template.size.distinct_values is None else distinct,
+            zero_weight=0,
+            effective_n=None,
+        )
+        fields["descriptors"] = descriptors
+        fields["quantiles"] = [Quantile(p, v) for p, v in zip(probabilities, quantiles)]
+        results[index] = Description(**fields)
+    return results
+
+
+def _length(n: int, datas: list[WeightedData], indices: list[int], options: DescribeOptions) -> dict[int, tuple]:
+    """The numbers of the ordinary groups of ``n`` values, keyed by index (the others left out)."""
+    basis = check_description(datas[0], options)
+    rows = np.stack([d.values for d in datas])
+    ordered = np.sort(rows, axis=1)
+    constant = ordered[:, 0] == ordered[:, -1]
+    sums = row_central_sums(rows, max(options.moment_order, 4), constant)
+    factor = variance_factor(basis.variance_rule, float(n))
+    with np.errstate(over="ignore", invalid="ignore", under="ignore"):
+        variance = sums.sums[2] / sums.sums[0] * factor
+        sd = np.sqrt(variance)
+        minimum, maximum = ordered[:, 0], ordered[:, -1]
+        spread = maximum - minimum
+        table = RowsOfEqualLength(len(datas), n)
+        flat = ordered.ravel()
+        probabilities = np.concatenate(([0.25, 0.75], np.asarray(options.probabilities, dtype=np.float64)))
+        assert basis.quantile_type is not None
+        quantiles = order_rules.hf_quantiles(table, flat, probabilities, basis.quantile_type)
+        median = order_rules.median(table, flat, whole=True, average=True)
+        iqr = quantiles[:, 1] - quantiles[:, 0]
+    zeros = ordered == 0.0
+    signed = np.signbit(ordered)
+    mixed_zeros = (signed & zeros).any(axis=1) & (~signed & zeros).any(axis=1)
+    ok = (
+        ~constant
+        & sums.accepted
+        & ~mixed_zeros
+        & np.isfinite(sums.mean)
+        & (np.abs(variance) >= _NORMAL) & np.isfinite(variance)
+        & (np.abs(sd) >= _NORMAL) & np.isfinite(sd)
+        & np.isfinite(spread)
+        & np.isfinite(iqr)
+        & np.all(np.isfinite(quantiles), axis=1)
+    )
+    distinct = np.count_nonzero(ordered[:, 1:] != ordered[:, :-1], axis=1) + 1
+    found = {}
+    columns = {
+        "mean": sums.mean, "variance": variance, "standard_deviation": sd, "median": median, "minimum": minimum,
+        "maximum": maximum, "range": spread, "interquartile_range": iqr,
+    }
+    lists = {name: column.tolist() for name, column in columns.items()}
+    requested = quantiles[:, 2:].tolist()
+    counts = distinct.tolist()
+    for row in np.flatnonzero(ok).tolist():
+        values = {name: column[row] for name, column in lists.items()}
+        found[indices[row]] = (n, values, requested[row], counts[row])
+    return found
+
+
+def _same(template: Description, numbers: tuple) -> bool:
+    """Whether ``describe``'s own answer for a group has the numbers this path computed for it."""
+    _, values, quantiles, _ = numbers
+    for name, value in values.items():
+        shown = template.descriptors[name].value
+        if shown is not None and shown != value:
+            return False
+    return all(q.value == v for q, v in zip(template.quantiles, quantiles))
