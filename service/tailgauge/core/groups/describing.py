@@ -109,6 +109,9 @@ def _for_group(group: Group, function, *args, **kwargs):
             else Location(f"{group.field}.{loc.path}", loc.message)
             for loc in error.locations
         ]
+        if group.field and any(loc.path.startswith("options") for loc in error.locations):
+            # An option this group's data cannot meet: the group is named beside the option.
+            locations.append(Location(f"{group.field}.values", "the group whose data the option does not apply to"))
         raise type(error)(detail=f"group {group.key!r}: {error.detail}", locations=locations) from None
 
 
