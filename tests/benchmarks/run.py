@@ -530,6 +530,7 @@ SECTIONS: dict[str, tuple[Callable[..., None], str]] = {
     "merge": (bench_merge, "10,000 partial states; the Dask recipe (size: merge=1e8)"),
     "transport": (bench_transport, "1e6 values through gunicorn by body format (size: transport=1e6)"),
     "cost": (bench_cost, "the cost model beside measured memory and time"),
+    "groups": (lambda size="": __import__("groups_bench").main(size, quick=QUICK), "1,000 x 1,000 and 10,000 x 100 groups"),
 }
 SIZED = {"order", "quantiles", "moments", "merge", "transport"}
 

@@ -81,7 +81,7 @@ def test_strd_certified_values_hold_for_every_group():
     loaded = {name: load_strd(name) for name in DATASETS}
     groups = [Group(name, _sample(x)) for name, (_, x) in loaded.items()]
     options = DescribeOptions(descriptors=choose(["mean", "standard_deviation"]))
-    for result in describe_groups(groups, options):
+    for result in describe_groups(groups, options).descriptions():
         header, _ = loaded[result.key]
         assert relative_error(result.descriptors["mean"].value, float(header["certified_mean"])) <= 1e-15
         sd = result.descriptors["standard_deviation"].value
@@ -113,7 +113,7 @@ def _mixed_groups(seed: int, count: int = 120) -> list[Group]:
 def test_each_group_is_described_as_alone(selection, quantile_type):
     groups = _mixed_groups(7)
     options = DescribeOptions(descriptors=choose(selection), quantile_type=quantile_type, probabilities=(0.0, 0.07, 0.5, 0.9, 1.0))
-    results = describe_groups(groups, options)
+    results = describe_groups(groups, options).descriptions()
     assert [r.key for r in results] == [g.key for g in groups]
     for group, result in zip(groups, results):
         assert _as_described(result) == _alone(group.data, options), group.key
@@ -122,7 +122,7 @@ def test_each_group_is_described_as_alone(selection, quantile_type):
 def test_the_basic_descriptors_take_the_vectorised_path():
     groups = _mixed_groups(3)
     options = dataclasses.replace(DescribeOptions(descriptors=choose(BASIC)), admitted=True)
-    together = vectorised.describe_together([g.data for g in groups], options)
+    together = vectorised.describe_together([g.data for g in groups], options).numbers
     ordinary = {i for i, g in enumerate(groups) if (g.key.startswith("g") or g.key == "two") and g.data.count >= 2}
     # Every ordinary group but the constant ones (rounding can make a short group constant).
     constant = {i for i in ordinary if np.ptp(groups[i].data.values) == 0}
@@ -144,7 +144,7 @@ def test_quantiles_match_numpy():
     probabilities = (0.01, 0.25, 0.5, 0.9)
     for quantile_type, method in ((7, "linear"), (6, "weibull"), (8, "median_unbiased")):
         options = DescribeOptions(descriptors=choose(BASIC), quantile_type=quantile_type, probabilities=probabilities)
-        for group, result in zip(groups, describe_groups(groups, options)):
+        for group, result in zip(groups, describe_groups(groups, options).descriptions()):
             expected = np.quantile(group.data.values, probabilities, method=method)
             got = [q.value for q in result.quantiles]
             np.testing.assert_allclose(got, expected, rtol=1e-14)
@@ -159,8 +159,8 @@ def test_seeds_come_from_the_seed_and_the_key_alone():
     interval = IntervalOptions(method="percentile", level=0.9, resamples=200, seed=99)
     options = DescribeOptions(descriptors=choose(["mean", "median"]), interval=interval)
     groups = [Group(f"k{i}", _sample(rng.normal(0, 1, 25))) for i in range(4)]
-    first = describe_groups(groups, options)
-    shuffled = describe_groups([groups[2], Group("new", _sample(rng.normal(0, 1, 25))), groups[0]], options)
+    first = describe_groups(groups, options).descriptions()
+    shuffled = describe_groups([groups[2], Group("new", _sample(rng.normal(0, 1, 25))), groups[0]], options).descriptions()
     by_key = {r.key: r for r in first}
     for result in shuffled:
         if result.key in by_key:
@@ -175,7 +175,7 @@ def test_order_by_key_puts_integers_first():
     keys = ["b", 10, "a", -3, "10", 2]
     assert sorted(keys, key=sort_key) == [-3, 2, 10, "10", "a", "b"]
     groups = [Group(k, _sample([1.0, 2.0, 4.0])) for k in keys]
-    results = describe_groups(groups, DescribeOptions(descriptors=choose(BASIC)), order="by_key")
+    results = describe_groups(groups, DescribeOptions(descriptors=choose(BASIC)), order="by_key").descriptions()
     assert [r.key for r in results] == [-3, 2, 10, "10", "a", "b"]
 
 

@@ -31,6 +31,7 @@ import msgspec
 from tailgauge.api import schemas
 from tailgauge.core import Comparison, Description, GroupDescription, PartialState, Scores
 from tailgauge.core.compare import Contrasts
+from tailgauge.core.groups import Described, Shared
 from tailgauge.core.registry import SCALAR_DESCRIPTORS
 
 Message = TypeVar("Message", bound=msgspec.Struct)
@@ -224,4 +225,41 @@ def _leave_out(result: Any) -> Any:
     return fields
 
 
-__all__ = ["FILLED_BY_EDGE", "NOT_SENT", "PAIRS", "ROOTS", "ConversionMismatch", "check", "structs_in", "to_message"]
+def group_messages(described: Described) -> list[schemas.GroupDescription]:
+    """Every group's answer. A group described together with others (:class:`Shared`) is the
+    template's answer, converted once by :func:`to_message`, with the group's own key, size,
+    descriptor values and quantile values put in: what converting its whole description would
+    give (tests/api/test_groups.py checks each group against the samples endpoint alone)."""
+    template: schemas.GroupDescription | None = None
+    messages = []
+    for entry in described.entries:
+        if not isinstance(entry, Shared):
+            messages.append(to_message(entry, schemas.GroupDescription))
+            continue
+        if template is None:
+            template = to_message(described.description(entry), schemas.GroupDescription)
+            names = described.together.names
+            values = {name: getattr(template.descriptors, name) for name in names}
+            quantiles = template.quantiles
+        numbers = entry.numbers
+        size = described.together.size(numbers)
+        messages.append(msgspec.structs.replace(
+            template,
+            key=entry.key,
+            size=schemas.Size(n=size.n, total_weight=size.total_weight, omitted=size.omitted,
+                              distinct_values=size.distinct_values, zero_weight=size.zero_weight,
+                              effective_n=size.effective_n),
+            descriptors=msgspec.structs.replace(
+                template.descriptors,
+                **{name: msgspec.structs.replace(values[name], value=numbers.values[name]) for name in names},
+            ),
+            quantiles=[msgspec.structs.replace(q, value=v) for q, v in zip(quantiles, numbers.quantiles)],
+            partial_state=None if entry.partial_state is None else to_message(entry.partial_state, schemas.PartialState),
+        ))
+    return messages
+
+
+__all__ = [
+    "FILLED_BY_EDGE", "NOT_SENT", "PAIRS", "ROOTS", "ConversionMismatch", "check", "group_messages", "structs_in",
+    "to_message",
+]

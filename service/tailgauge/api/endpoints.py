@@ -16,7 +16,7 @@ import msgspec
 import numpy as np
 
 from tailgauge.api import admission, schemas
-from tailgauge.api.conversion import to_message
+from tailgauge.api.conversion import group_messages, to_message
 from tailgauge.api.media import Codec
 from tailgauge.api.problems import ApiProblem, invalid_body, json_path
 from tailgauge.api.schemas import (
@@ -387,7 +387,7 @@ def describe_groups_request(body: bytes, codec: Codec, answer: Codec, settings: 
         options = describe_options(chosen, settings, ticket.decoding)
         estimate = admit_groups(groups, options)
         ticket.resize(ticket.decoding + estimate.peak_bytes, estimate.seconds)
-        results = describe_groups(
+        described = describe_groups(
             groups,
             dataclasses.replace(options, admitted=True),
             order=chosen.group_order.value,
@@ -395,10 +395,8 @@ def describe_groups_request(body: bytes, codec: Codec, answer: Codec, settings: 
             score=chosen.score,
             partial_state_order=max(MIN_ORDER, chosen.moment_order) if chosen.partial_state else None,
         )
-        message = schemas.GroupsResponse(
-            groups=[to_message(result, schemas.GroupDescription) for result in results], warnings=[]
-        )
-        resamples = sum(r.resampling.resamples for r in results if r.resampling is not None)
+        message = schemas.GroupsResponse(groups=group_messages(described), warnings=[])
+        resamples = sum(g.resampling.resamples for g in message.groups if g.resampling is not None)
         return Computed(answer.encode(message), count, resamples)
 
 

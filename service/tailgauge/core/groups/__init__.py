@@ -12,9 +12,11 @@ Modules (each imports only those above it):
 
 from tailgauge.core.groups.columns import from_columns
 from tailgauge.core.groups.describing import (
+    Described,
     Group,
     GroupDescription,
     GroupOrder,
+    Shared,
     admit_groups,
     describe_groups,
     group_options,
@@ -24,6 +26,8 @@ from tailgauge.core.groups.vectorised import VECTORISED
 
 __all__ = [
     "VECTORISED",
+    "Described",
+    "Shared",
     "Group",
     "GroupDescription",
     "GroupOrder",

@@ -123,7 +123,7 @@ def describe_groups(
     baseline: Key | None = None,
     score: Sequence[float] = (),
     partial_state_order: int | None = None,
-) -> list[GroupDescription]:
+) -> Described:
     """Describe every group by ``options``, as ``describe`` describes each group alone.
 
     Keys are unique (the caller checks). ``order``: ``"as_sent"`` keeps the groups' order,
@@ -149,42 +149,73 @@ def describe_groups(
     if not options.admitted:
         admit_groups(groups, options)
         options = dataclasses.replace(options, admitted=True)
-    # Without a baseline nothing reads what the answers do not show: the vectorised groups come
-    # restricted already.
+    # Without a baseline or scores nothing reads what the answers do not show: the groups
+    # described together stay numbers on one restricted template.
     shown_only = base_index is None and selection is not None and not score
     together = vectorised.describe_together([g.data for g in groups], options, shown_only=shown_only)
+    shared = {} if together is None else together.numbers
 
     def described(index: int) -> Description:
-        found = together.get(index)
-        if found is None:
-            group = groups[index]
-            found = _for_group(group, describe, group.data, group_options(options, group.key), kind="samples")
-        return found
+        if index in shared:
+            return together.description(shared[index])
+        group = groups[index]
+        return _for_group(group, describe, group.data, group_options(options, group.key), kind="samples")
 
     base = None if base_index is None else described(base_index)
-    results = []
+    entries: list[GroupDescription | Shared] = []
     for index, group in enumerate(groups):
-        description = base if index == base_index else described(index)
-        contrasts = None
-        if base is not None:
-            contrasts = contrast(
-                (base, description), (groups[base_index].data, group.data), options.interval, selection
-            )
-        # Each group's replicates served its contrasts: only the baseline's are kept meanwhile.
-        scores = standardize(description, score) if score else None
-        if not (shown_only and index in together):
-            description = restricted(_without_replicates(description), selection)
-        fields = {f.name: getattr(description, f.name) for f in _DESCRIPTION_FIELDS}
-        if scores is not None:
-            fields["warnings"] = [*description.warnings, *scores.warnings]
         state = None
         if partial_state_order is not None:
             state = _for_group(group, state_of, group.data, order=partial_state_order)
-        results.append(GroupDescription(**fields, key=group.key, contrasts=contrasts, scores=scores, partial_state=state))
+        if shown_only and index in shared:
+            entries.append(Shared(group.key, shared[index], state))
+            continue
+        description = base if index == base_index else described(index)
+        contrasts = None
+        if base is not None:
+            contrasts = contrast((base, description), (groups[base_index].data, group.data), options.interval, selection)
+        scores = standardize(description, score) if score else None
+        # Each group's replicates served its contrasts: only the baseline's are kept meanwhile.
+        description = restricted(_without_replicates(description), selection)
+        fields = {f.name: getattr(description, f.name) for f in _DESCRIPTION_FIELDS}
+        if scores is not None:
+            fields["warnings"] = [*description.warnings, *scores.warnings]
+        entries.append(GroupDescription(**fields, key=group.key, contrasts=contrasts, scores=scores, partial_state=state))
         _on_time(options)
     if order == "by_key":
-        results.sort(key=lambda r: sort_key(r.key))
-    return results
+        entries.sort(key=lambda entry: sort_key(entry.key))
+    return Described(entries, together)
+
+
+@dataclass(frozen=True)
+class Shared:
+    """A group described together with others: its key, its numbers on the template (see
+    :class:`Described`) and its partial state when asked for."""
+
+    key: Key
+    numbers: vectorised.Numbers
+    partial_state: PartialState | None = None
+
+
+@dataclass(frozen=True)
+class Described:
+    """What :func:`describe_groups` returns, in the answer's order: each group as a
+    :class:`GroupDescription`, or as :class:`Shared` numbers on ``together``'s template (a
+    restricted description shared by the groups described together; converting it once and
+    putting each group's numbers in saves building every group's description)."""
+
+    entries: list[GroupDescription | Shared]
+    together: vectorised.Together | None
+
+    def descriptions(self) -> list[GroupDescription]:
+        """Every group's full description, shared ones built from the template."""
+        return [entry if isinstance(entry, GroupDescription) else self.description(entry) for entry in self.entries]
+
+    def description(self, entry: Shared) -> GroupDescription:
+        assert self.together is not None
+        description = self.together.description(entry.numbers)
+        fields = {f.name: getattr(description, f.name) for f in _DESCRIPTION_FIELDS}
+        return GroupDescription(**fields, key=entry.key, partial_state=entry.partial_state)
 
 
 _DESCRIPTION_FIELDS = dataclasses.fields(Description)

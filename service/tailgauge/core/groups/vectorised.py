@@ -20,6 +20,7 @@ from __future__ import annotations
 
 import dataclasses
 from collections import defaultdict
+from dataclasses import dataclass
 
 import numpy as np
 
@@ -75,63 +76,91 @@ def _ordinary(data: WeightedData) -> bool:
     return data.weights is None and not data.binned and data.omitted == 0 and 2 <= data.count <= ROW_SUMS_AT_MOST
 
 
+@dataclass(frozen=True)
+class Numbers:
+    """What a group described together has of its own: its size, the values of the descriptors
+    this path computes (by name) and of the requested quantiles. Everything else of its
+    description is the template's (:class:`Together`)."""
+
+    n: int
+    distinct: int
+    values: dict[str, float]
+    quantiles: list[float]
+
+
+@dataclass(frozen=True)
+class Together:
+    """The groups this path described: ``numbers`` by index, and ``template``, ``describe``'s own
+    description of one of them (restricted to what the answer shows when asked), which every
+    other one shares but for its :class:`Numbers`. The template describes no group by itself
+    here: :meth:`description` gives each group's."""
+
+    template: Description
+    numbers: dict[int, Numbers]
+    # The descriptors whose values come from ``Numbers`` (the others are the template's).
+    names: tuple[str, ...]
+
+    def description(self, numbers: Numbers) -> Description:
+        """The description of the group of ``numbers``, as ``describe`` (or ``restricted``) gives it."""
+        template = self.template
+        descriptors = dict(template.descriptors)
+        for name in self.names:
+            descriptors[name] = Descriptor(numbers.values[name], template.descriptors[name].estimator)
+        return dataclasses.replace(
+            template,
+            size=self.size(numbers),
+            descriptors=descriptors,
+            quantiles=[Quantile(q.probability, v) for q, v in zip(template.quantiles, numbers.quantiles)],
+        )
+
+    def size(self, numbers: Numbers) -> Size:
+        distinct = None if self.template.size.distinct_values is None else numbers.distinct
+        return Size(n=numbers.n, total_weight=float(numbers.n), omitted=0, distinct_values=distinct, zero_weight=0,
+                    effective_n=None)
+
+
 def describe_together(
     datas: list[WeightedData], options: DescribeOptions, *, shown_only: bool = False
-) -> dict[int, Description]:
-    """The descriptions of the groups this path takes, by their index in ``datas``; the caller
-    describes the others alone. ``options`` are admitted (planned) by the caller. ``shown_only``:
-    each description as ``describe.restricted`` leaves it (what the answer shows), not as
-    ``describe`` returns it."""
+) -> Together | None:
+    """The groups this path takes (``None``: none); the caller describes the others alone.
+    ``options`` are admitted (planned) by the caller. ``shown_only``: each description as
+    ``describe.restricted`` leaves it (what the answer shows), not as ``describe`` returns it."""
     if not applies(options):
-        return {}
+        return None
     by_length: dict[int, list[int]] = defaultdict(list)
     for index, data in enumerate(datas):
         if _ordinary(data):
             by_length[data.count].append(index)
-    computed: dict[int, tuple] = {}
+    computed: dict[int, Numbers] = {}
     for n, indices in by_length.items():
         computed.update(_length(n, [datas[i] for i in indices], indices, options))
     if not computed:
-        return {}
+        return None
     first = min(computed)
     template = describe(datas[first], options, kind="samples")
-    if restricted(template, options.descriptors).warnings or not _same(template, computed[first]):
-        return {}  # never expected: the shared arithmetic is tested; every group is then described alone
-    # What other groups share with the template: labels, conventions, no warnings; a descriptor
-    # not computed is one shared placeholder (left out when ``shown_only``, as restricted() does).
-    template = dataclasses.replace(template, warnings=[])
-    selection = options.descriptors
-    labels = {name: d.estimator for name, d in template.descriptors.items() if name in VECTORISED and d.value is not None}
+    shown = restricted(template, options.descriptors)
+    if shown.warnings or not _same(template, computed[first]):
+        return None  # never expected: the shared arithmetic is tested; every group is then described alone
     if shown_only:
-        template = dataclasses.replace(template, absent=selection.absent)
-        placeholders = {}
-        names = [name for name in SCALAR_DESCRIPTORS if selection.shows(name)]
+        template = shown
     else:
+        # Only what this path computes is shared; the rest of the template's own (hidden) values
+        # would belong to the template's group alone.
         skipped = Descriptor(None, NOT_COMPUTED)
-        placeholders = {name: skipped for name in SCALAR_DESCRIPTORS}
-        names = list(labels)
-    probabilities = [q.probability for q in template.quantiles]
-    fields = {f.name: getattr(template, f.name) for f in dataclasses.fields(template)}
-    results = {}
-    for index, (n, values, quantiles, distinct) in computed.items():
-        descriptors = dict(placeholders)
-        for name in names:
-            descriptors[name] = Descriptor(values[name], labels[name])
-        fields["size"] = Size(
-            n=n,
-            total_weight=float(n),
-            omitted=0,
-            distinct_values=None if template.size.distinct_values is None else distinct,
-            zero_weight=0,
-            effective_n=None,
+        own = template.descriptors
+        template = dataclasses.replace(
+            template,
+            warnings=[],
+            descriptors={
+                name: own[name] if name in VECTORISED and own[name].value is not None else skipped
+                for name in SCALAR_DESCRIPTORS
+            },
         )
-        fields["descriptors"] = descriptors
-        fields["quantiles"] = [Quantile(p, v) for p, v in zip(probabilities, quantiles)]
-        results[index] = Description(**fields)
-    return results
+    names = tuple(name for name, d in template.descriptors.items() if name in VECTORISED and d.value is not None)
+    return Together(template, computed, names)
 
 
-def _length(n: int, datas: list[WeightedData], indices: list[int], options: DescribeOptions) -> dict[int, tuple]:
+def _length(n: int, datas: list[WeightedData], indices: list[int], options: DescribeOptions) -> dict[int, Numbers]:
     """The numbers of the ordinary groups of ``n`` values, keyed by index (the others left out)."""
     basis = check_description(datas[0], options)
     rows = np.stack([d.values for d in datas])
@@ -176,15 +205,14 @@ def _length(n: int, datas: list[WeightedData], indices: list[int], options: Desc
     counts = distinct.tolist()
     for row in np.flatnonzero(ok).tolist():
         values = {name: column[row] for name, column in lists.items()}
-        found[indices[row]] = (n, values, requested[row], counts[row])
+        found[indices[row]] = Numbers(n, counts[row], values, requested[row])
     return found
 
 
-def _same(template: Description, numbers: tuple) -> bool:
+def _same(template: Description, numbers: Numbers) -> bool:
     """Whether ``describe``'s own answer for a group has the numbers this path computed for it."""
-    _, values, quantiles, _ = numbers
-    for name, value in values.items():
+    for name, value in numbers.values.items():
         shown = template.descriptors[name].value
         if shown is not None and shown != value:
             return False
-    return all(q.value == v for q, v in zip(template.quantiles, quantiles))
+    return all(q.value == v for q, v in zip(template.quantiles, numbers.quantiles))
