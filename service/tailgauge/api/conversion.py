@@ -251,7 +251,7 @@ def group_messages(described: Described) -> list[schemas.GroupDescription]:
                               effective_n=size.effective_n),
             descriptors=msgspec.structs.replace(
                 template.descriptors,
-                **{name: msgspec.structs.replace(values[name], value=numbers.values[name]) for name in names},
+                **{name: msgspec.structs.replace(values[name], value=numbers.value(name)) for name in names},
             ),
             quantiles=[msgspec.structs.replace(q, value=v) for q, v in zip(quantiles, numbers.quantiles)],
             partial_state=None if entry.partial_state is None else to_message(entry.partial_state, schemas.PartialState),

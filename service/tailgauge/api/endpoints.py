@@ -65,6 +65,7 @@ from tailgauge.core.groups import from_columns
 from tailgauge.core.scoring import READ_BY_SCORES
 from tailgauge.core.partial import MIN_ORDER, PartialState, describe_state, merge_states, state_of
 from tailgauge.core.sketches import combine_sketches
+from tailgauge.runtime.memory import collection_paused
 from tailgauge.settings import Settings
 
 # A body this small (about 2,000 values as JSON) and without intervals computes in about the time of
@@ -380,7 +381,7 @@ def _compare(body: bytes, codec: Codec, answer: Codec, settings: Settings, ticke
 
 @admission.giving_back
 def describe_groups_request(body: bytes, codec: Codec, answer: Codec, settings: Settings) -> Computed:
-    with admission.admitted(body, codec, settings) as ticket:
+    with admission.admitted(body, codec, settings) as ticket, collection_paused():
         request = _decode(body, schemas.GroupsRequest, codec)
         chosen = request.options
         groups, count = _groups(request, chosen.missing, settings)
@@ -445,7 +446,7 @@ def _listed_groups(listed: list[schemas.Group], missing: str, settings: Settings
             detail=f"{len(listed)} groups sent; this server describes at most {settings.max_groups} groups per request",
             locations=[Location("groups", f"at most {settings.max_groups} groups")],
         )
-    count = sum(len(g.values) for g in listed)
+    count = sum(len(g.values) // 8 if isinstance(g.values, bytes) else len(g.values) for g in listed)
     _check_count(count, "$.groups", settings, "all groups together")
     first_at: dict = {}
     groups = []
@@ -455,6 +456,8 @@ def _listed_groups(listed: list[schemas.Group], missing: str, settings: Settings
             raise UncomputableInput.at(
                 f"groups[{index}].key", f"repeats the key of groups[{earlier}]; keys must be unique"
             )
-        data, _ = _samples_data(group, missing, settings, f"$.groups[{index}]")
+    for index, group in enumerate(listed):
+        prefix = f"$.groups[{index}]"
+        data, _ = _samples_data(group, missing, settings, prefix)
         groups.append(Group(group.key, data, field=f"groups[{index}]"))
     return groups, count

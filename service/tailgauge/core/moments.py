@@ -472,19 +472,29 @@ def row_central_sums(rows: np.ndarray, order: int, constant: np.ndarray) -> RowS
     order = max(order, 2)
     count, n = rows.shape
     assert n <= ROW_SUMS_AT_MOST
+    step = max(1, n // _SHIFT_SAMPLE)
+    sums = np.empty((order + 1, count))
+    sums[0] = float(n)
+    shift = np.empty(count)
+    # Rows a block at a time, so the deviations and powers stay in cache and their buffers are
+    # reused (each row's numbers do not depend on which rows share its block).
+    block = max(1, _BLOCK // n)
+    deviations = np.empty((min(block, count), n))
+    power = np.empty_like(deviations)
     with np.errstate(over="ignore", invalid="ignore", under="ignore"):
-        step = max(1, n // _SHIFT_SAMPLE)
-        sample = rows if step == 1 else np.ascontiguousarray(rows[:, ::step])
-        shift = sample.sum(axis=1) / sample.shape[1]
-        deviations = rows - shift[:, None]
-        sums = np.empty((order + 1, count))
-        sums[0] = float(n)
-        sums[1] = deviations.sum(axis=1) + 0.0
-        power = deviations * deviations
-        sums[2] = power.sum(axis=1) + 0.0
-        for j in range(3, order + 1):
-            np.multiply(power, deviations, out=power)
-            sums[j] = power.sum(axis=1) + 0.0
+        for start in range(0, count, block):
+            stop = min(start + block, count)
+            part = rows[start:stop]
+            d, p = deviations[: stop - start], power[: stop - start]
+            sample = part if step == 1 else np.ascontiguousarray(part[:, ::step])
+            shift[start:stop] = sample.sum(axis=1) / sample.shape[1]
+            np.subtract(part, shift[start:stop, None], out=d)
+            sums[1, start:stop] = d.sum(axis=1) + 0.0
+            np.multiply(d, d, out=p)
+            sums[2, start:stop] = p.sum(axis=1) + 0.0
+            for j in range(3, order + 1):
+                np.multiply(p, d, out=p)
+                sums[j, start:stop] = p.sum(axis=1) + 0.0
         accepted = np.isfinite(shift) & _accurate_rows(sums, order, constant)
         centre = sums[1] / sums[0]
         mean = shift + centre

@@ -79,13 +79,25 @@ def _ordinary(data: WeightedData) -> bool:
 @dataclass(frozen=True)
 class Numbers:
     """What a group described together has of its own: its size, the values of the descriptors
-    this path computes (by name) and of the requested quantiles. Everything else of its
-    description is the template's (:class:`Together`)."""
+    this path computes and of the requested quantiles (row ``row`` of its length's columns).
+    Everything else of its description is the template's (:class:`Together`)."""
 
     n: int
     distinct: int
-    values: dict[str, float]
-    quantiles: list[float]
+    columns: dict[str, list[float]]  # descriptor name -> one value per row
+    requested: list[list[float]]  # the requested quantiles, one list per row
+    row: int
+
+    def value(self, name: str) -> float:
+        return self.columns[name][self.row]
+
+    @property
+    def values(self) -> dict[str, float]:
+        return {name: column[self.row] for name, column in self.columns.items()}
+
+    @property
+    def quantiles(self) -> list[float]:
+        return self.requested[self.row]
 
 
 @dataclass(frozen=True)
@@ -105,7 +117,7 @@ class Together:
         template = self.template
         descriptors = dict(template.descriptors)
         for name in self.names:
-            descriptors[name] = Descriptor(numbers.values[name], template.descriptors[name].estimator)
+            descriptors[name] = Descriptor(numbers.value(name), template.descriptors[name].estimator)
         return dataclasses.replace(
             template,
             size=self.size(numbers),
@@ -131,15 +143,16 @@ def describe_together(
     for index, data in enumerate(datas):
         if _ordinary(data):
             by_length[data.count].append(index)
-    computed: dict[int, Numbers] = {}
-    for n, indices in by_length.items():
-        computed.update(_length(n, [datas[i] for i in indices], indices, options))
-    if not computed:
+    if not by_length:
         return None
-    first = min(computed)
+    first = min(index for indices in by_length.values() for index in indices)
     template = describe(datas[first], options, kind="samples")
     shown = restricted(template, options.descriptors)
-    if shown.warnings or not _same(template, computed[first]):
+    distinct = template.size.distinct_values is not None
+    computed: dict[int, Numbers] = {}
+    for n, indices in by_length.items():
+        computed.update(_length(n, [datas[i] for i in indices], indices, options, distinct))
+    if first not in computed or shown.warnings or not _same(template, computed[first]):
         return None  # never expected: the shared arithmetic is tested; every group is then described alone
     if shown_only:
         template = shown
@@ -160,10 +173,15 @@ def describe_together(
     return Together(template, computed, names)
 
 
-def _length(n: int, datas: list[WeightedData], indices: list[int], options: DescribeOptions) -> dict[int, Numbers]:
-    """The numbers of the ordinary groups of ``n`` values, keyed by index (the others left out)."""
+def _length(
+    n: int, datas: list[WeightedData], indices: list[int], options: DescribeOptions, distinct: bool
+) -> dict[int, Numbers]:
+    """The numbers of the ordinary groups of ``n`` values, keyed by index (the others left out);
+    ``distinct``: whether their distinct values are counted (else 0)."""
     basis = check_description(datas[0], options)
-    rows = np.stack([d.values for d in datas])
+    rows = np.empty((len(datas), n))
+    for row, data in zip(rows, datas):
+        row[...] = data.values
     ordered = np.sort(rows, axis=1)
     constant = ordered[:, 0] == ordered[:, -1]
     sums = row_central_sums(rows, max(options.moment_order, 4), constant)
@@ -180,9 +198,13 @@ def _length(n: int, datas: list[WeightedData], indices: list[int], options: Desc
         quantiles = order_rules.hf_quantiles(table, flat, probabilities, basis.quantile_type)
         median = order_rules.median(table, flat, whole=True, average=True)
         iqr = quantiles[:, 1] - quantiles[:, 0]
-    zeros = ordered == 0.0
-    signed = np.signbit(ordered)
-    mixed_zeros = (signed & zeros).any(axis=1) & (~signed & zeros).any(axis=1)
+    mixed_zeros = np.zeros(len(datas), dtype=bool)
+    spanning = np.flatnonzero((minimum <= 0.0) & (maximum >= 0.0))  # rows that may hold zeros
+    if spanning.size:
+        candidates = ordered[spanning]
+        zeros = candidates == 0.0
+        negative = np.signbit(candidates)
+        mixed_zeros[spanning] = (zeros & negative).any(axis=1) & (zeros & ~negative).any(axis=1)
     ok = (
         ~constant
         & sums.accepted
@@ -194,7 +216,7 @@ def _length(n: int, datas: list[WeightedData], indices: list[int], options: Desc
         & np.isfinite(iqr)
         & np.all(np.isfinite(quantiles), axis=1)
     )
-    distinct = np.count_nonzero(ordered[:, 1:] != ordered[:, :-1], axis=1) + 1
+    counted = np.count_nonzero(ordered[:, 1:] != ordered[:, :-1], axis=1) + 1 if distinct else np.zeros(len(datas), int)
     found = {}
     columns = {
         "mean": sums.mean, "variance": variance, "standard_deviation": sd, "median": median, "minimum": minimum,
@@ -202,10 +224,9 @@ def _length(n: int, datas: list[WeightedData], indices: list[int], options: Desc
     }
     lists = {name: column.tolist() for name, column in columns.items()}
     requested = quantiles[:, 2:].tolist()
-    counts = distinct.tolist()
+    counts = counted.tolist()
     for row in np.flatnonzero(ok).tolist():
-        values = {name: column[row] for name, column in lists.items()}
-        found[indices[row]] = Numbers(n, counts[row], values, requested[row])
+        found[indices[row]] = Numbers(n, counts[row], lists, requested, row)
     return found
 
 
