@@ -28,6 +28,7 @@ def answers():
         "/v1/descriptors/bins",
         "/v1/comparisons",
         "/v1/descriptors/merge",
+        "/v1/descriptors/groups",
     }
     found = {}
     with TestClient(create_app(Settings())) as client:
@@ -140,3 +141,19 @@ def test_python_examples_run_as_written(marker, capsys):
         exec(compile(code, f"README:{marker}", "exec"), {"client": client})
     printed = capsys.readouterr().out
     assert printed.strip() and "None" not in printed.split()[0]
+
+
+def test_fill_head_example_quotes_served_numbers(answers):
+    groups = {g["key"]: g for g in answers["/v1/descriptors/groups"]["groups"]}
+    assert list(groups) == ["head-1", "head-2", "head-3"]
+    assert groups["head-1"]["descriptors"]["mean"]["value"] == 500.61
+    assert groups["head-1"]["resampling"]["seed"] == 7155830076583600
+    head2 = groups["head-2"]["contrasts"]
+    assert round(head2["differences"]["mean"]["value"], 2) == 1.49
+    interval = head2["differences"]["mean"]["interval"]
+    assert (round(interval["low"], 2), round(interval["high"], 2)) == (1.16, 1.81)
+    assert round(head2["ratios"]["standard_deviation"]["value"], 3) == 0.947
+    assert round(head2["standardized_mean_difference"]["value"], 2) == 3.65
+    ratio = groups["head-3"]["contrasts"]["ratios"]["standard_deviation"]
+    assert round(ratio["value"], 2) == 3.36
+    assert (round(ratio["interval"]["low"], 2), round(ratio["interval"]["high"], 2)) == (2.03, 6.36)

@@ -86,6 +86,8 @@ OPTION_SETS = [
     {"convention": "population", "moment_order": 6, "skewness_estimator": "b1", "kurtosis_estimator": "g2"},
     {"score": [499.0, 503.5], "partial_state": True},
     {"descriptors": ["location", "spread"], "quantile_type": 8},
+    {"descriptors": ["mean", "standard_deviation", "median", "range"]},  # no quantiles member
+    {"descriptors": ["minimum", "maximum"], "missing": "omit"},
 ]
 
 

@@ -253,7 +253,9 @@ def group_messages(described: Described) -> list[schemas.GroupDescription]:
                 template.descriptors,
                 **{name: msgspec.structs.replace(values[name], value=numbers.value(name)) for name in names},
             ),
-            quantiles=[msgspec.structs.replace(q, value=v) for q, v in zip(quantiles, numbers.quantiles)],
+            quantiles=quantiles if quantiles is msgspec.UNSET else [
+                msgspec.structs.replace(q, value=v) for q, v in zip(quantiles, numbers.quantiles)
+            ],
             partial_state=None if entry.partial_state is None else to_message(entry.partial_state, schemas.PartialState),
         ))
     return messages
