@@ -242,13 +242,15 @@ def group_messages(described: Described) -> list[schemas.GroupDescription]:
             values = {name: getattr(template.descriptors, name) for name in names}
             quantiles = template.quantiles
         numbers = entry.numbers
-        size = described.together.size(numbers)
         messages.append(msgspec.structs.replace(
             template,
             key=entry.key,
-            size=schemas.Size(n=size.n, total_weight=size.total_weight, omitted=size.omitted,
-                              distinct_values=size.distinct_values, zero_weight=size.zero_weight,
-                              effective_n=size.effective_n),
+            size=msgspec.structs.replace(
+                template.size,
+                n=numbers.n,
+                total_weight=float(numbers.n),
+                distinct_values=None if template.size.distinct_values is None else numbers.distinct,
+            ),
             descriptors=msgspec.structs.replace(
                 template.descriptors,
                 **{name: msgspec.structs.replace(values[name], value=numbers.value(name)) for name in names},

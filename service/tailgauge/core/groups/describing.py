@@ -187,7 +187,7 @@ def describe_groups(
     return Described(entries, together)
 
 
-@dataclass(frozen=True)
+@dataclass(slots=True)
 class Shared:
     """A group described together with others: its key, its numbers on the template (see
     :class:`Described`) and its partial state when asked for."""

@@ -76,7 +76,7 @@ def _ordinary(data: WeightedData) -> bool:
     return data.weights is None and not data.binned and data.omitted == 0 and 2 <= data.count <= ROW_SUMS_AT_MOST
 
 
-@dataclass(frozen=True)
+@dataclass(slots=True)
 class Numbers:
     """What a group described together has of its own: its size, the values of the descriptors
     this path computes and of the requested quantiles (row ``row`` of its length's columns).
