@@ -215,6 +215,8 @@ def test_ten_thousand_groups(client):
         ({"values": [1.0, None, 2.0], "keys": ["a", "b", "a"]}, 422, "$.values[1]"),
         ({"values": [1.0, 2.0], "keys": ["a", "b"], "weights": [1.0]}, 422, "$.weights"),
         ({"groups": [{"key": "a", "values": [1.0]}], "weights": [1.0]}, 400, "$.weights"),
+        ({"groups": [{"key": "a", "values": [1.0]}], "weight_kind": "reliability"}, 400, "$.weight_kind"),
+        ({"values": [1.0, 2.0], "keys": [True, "b"]}, 400, "$.keys[0]"),
         ({}, 400, "$.groups"),
     ],
 )
@@ -248,3 +250,18 @@ def test_budget_covers_every_groups_resamples(make_client):
     advice = int(response.json()["detail"].rsplit(" ", 1)[1])
     resent = _post(client, {"groups": groups, "options": {"interval": {"method": "percentile", "resamples": advice}}})
     assert resent.status_code == 200, resent.text
+
+
+def test_columnar_weights_are_split_with_their_values(client):
+    listed = [
+        {"key": "a", "values": [500.1, 500.4, 499.8, 500.9], "weights": [0.5, 1.5, 1.0, 2.0], "weight_kind": "reliability"},
+        {"key": "b", "values": [501.0, 501.6, 500.7], "weights": [1.0, 0.25, 2.0], "weight_kind": "reliability"},
+    ]
+    keys = ["a", "b", "a", "b", "a", "b", "a"]
+    values = [500.1, 501.0, 500.4, 501.6, 499.8, 500.7, 500.9]
+    weights = [0.5, 1.0, 1.5, 0.25, 1.0, 2.0, 2.0]
+    options = {"quantile_type": 2}
+    columnar = _post(client, {"values": values, "keys": keys, "weights": weights, "weight_kind": "reliability",
+                              "options": options})
+    assert columnar.status_code == 200, columnar.text
+    assert _exact(columnar) == _check_each_group_alone(client, listed, options)

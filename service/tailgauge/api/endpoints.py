@@ -412,12 +412,13 @@ def _groups(request: schemas.GroupsRequest, missing: str, settings: Settings) ->
             [ProblemLocation(path=path, message="either groups, or values with keys")],
         )
     if not columnar:
-        if request.weights is not None:
-            raise ApiProblem(
-                "invalid-body",
-                "weights at the top level belong to the columnar form; give each group its own weights",
-                [ProblemLocation(path="$.weights", message="only with values and keys")],
-            )
+        for field in ("weights", "weight_kind"):
+            if getattr(request, field) is not None:
+                raise ApiProblem(
+                    "invalid-body",
+                    f"{field} at the top level belongs to the columnar form; give each group its own {field}",
+                    [ProblemLocation(path=f"$.{field}", message="only with values and keys")],
+                )
         return _listed_groups(request.groups, missing, settings)
     for field, given in (("values", request.values), ("keys", request.keys)):
         if given is None:

@@ -14,7 +14,6 @@ from tailgauge.api.schemas.comparisons import ComparisonWarning, Contrast, Quant
 from tailgauge.api.schemas.inputs import (
     NULL_MEANS_DEFAULTS,
     SampleValues,
-    SampleWeightKind,
     SampleWeightMeaning,
     SampleWeights,
     SamplesData,
@@ -84,9 +83,10 @@ class GroupsRequest(Message):
         Meta(description="Columnar form: the key of each value (same length as values)."),
     ] = None
     weights: Annotated[SampleWeights, Meta(description="Columnar form: optional weight per value.")] = None
-    weight_kind: Annotated[SampleWeightMeaning, Meta(description="Columnar form: what the weights mean.")] = (
-        SampleWeightKind.FREQUENCY
-    )
+    weight_kind: Annotated[
+        SampleWeightMeaning | None,
+        Meta(description="Columnar form: what the weights mean (null: frequency). Listed groups give their own."),
+    ] = None
     options: Annotated[
         GroupOptions | None,
         Meta(description="Every option of /v1/descriptors/samples, for each group; " + NULL_MEANS_DEFAULTS),

@@ -152,7 +152,7 @@ def describe_together(
     computed: dict[int, Numbers] = {}
     for n, indices in by_length.items():
         computed.update(_length(n, [datas[i] for i in indices], indices, options, distinct))
-    if first not in computed or shown.warnings or not _same(template, computed[first]):
+    if first not in computed or shown.warnings or not _same(Together(template, computed, ()), computed[first]):
         return None  # never expected: the shared arithmetic is tested; every group is then described alone
     if shown_only:
         template = shown
@@ -230,8 +230,12 @@ def _length(
     return found
 
 
-def _same(template: Description, numbers: Numbers) -> bool:
-    """Whether ``describe``'s own answer for a group has the numbers this path computed for it."""
+def _same(together: Together, numbers: Numbers) -> bool:
+    """Whether ``describe``'s own answer for a group has the numbers and size this path computed
+    for it (so the template has nothing of its own group but these)."""
+    template = together.template
+    if template.size != together.size(numbers):
+        return False
     for name, value in numbers.values.items():
         shown = template.descriptors[name].value
         if shown is not None and shown != value:
