@@ -215,3 +215,17 @@ def test_columns_locate_errors_where_they_were_sent():
         from_columns([1.0, 2.0, 3.0], ["a", "b", "b"], [1.0, 0.0, 0.0], omit_missing=False,
                      meaning=WeightMeaning.FREQUENCY, max_groups=5)
     assert [loc.path for loc in caught.value.locations] == ["weights"]
+
+
+def test_options_are_checked_against_every_group_before_any_is_described(monkeypatch):
+    from tailgauge.core.groups import describing
+
+    calls = []
+    monkeypatch.setattr(describing, "describe", lambda *a, **k: calls.append(a) or describe(*a, **k))
+    interval = IntervalOptions(method="percentile", level=0.9, resamples=200, seed=1)
+    groups = [Group("a", _sample([1.0, 2.0, 3.0])), Group("b", _sample([2.0, 5.0])), Group("c", _sample([4.0]), "groups[2]")]
+    with pytest.raises(UncomputableInput) as caught:
+        describe_groups(groups, DescribeOptions(interval=interval))
+    assert calls == []  # refused before the first group was resampled
+    assert [loc.path for loc in caught.value.locations] == ["options.interval", "groups[2].values"]
+    assert "'c'" in caught.value.detail

@@ -13,7 +13,7 @@ from typing import Literal
 from tailgauge.core import cost
 from tailgauge.core.compare import Contrasts, contrast
 from tailgauge.core.compare.assembly import READ_BY_COMPARISON
-from tailgauge.core.describe import Description, DescribeOptions, describe, restricted
+from tailgauge.core.describe import Description, DescribeOptions, check_description, describe, restricted
 from tailgauge.core.errors import DescriptorError, LimitExceeded, Location, UncomputableInput
 from tailgauge.core.groups import vectorised
 from tailgauge.core.groups.keys import Key, group_seed, sort_key
@@ -149,6 +149,7 @@ def describe_groups(
     if not options.admitted:
         admit_groups(groups, options)
         options = dataclasses.replace(options, admitted=True)
+    _check_groups(groups, options)
     # Without a baseline or scores nothing reads what the answers do not show: the groups
     # described together stay numbers on one restricted template.
     shown_only = base_index is None and selection is not None and not score
@@ -216,6 +217,21 @@ class Described:
         description = self.together.description(entry.numbers)
         fields = {f.name: getattr(description, f.name) for f in _DESCRIPTION_FIELDS}
         return GroupDescription(**fields, key=entry.key, partial_state=entry.partial_state)
+
+
+def _check_groups(groups: list[Group], options: DescribeOptions) -> None:
+    """Every rule options and data must meet together (``check_description``), for every group,
+    before any group is computed: a group the options do not apply to is refused at once, not
+    after the groups before it were described. Groups the vectorised path takes are alike in all
+    that the rules read but their length, so one of each length is checked."""
+    together = vectorised.applies(options)
+    lengths = set()
+    for group in groups:
+        if together and vectorised.ordinary(group.data):
+            if group.data.count in lengths:
+                continue
+            lengths.add(group.data.count)
+        _for_group(group, check_description, group.data, options)
 
 
 _DESCRIPTION_FIELDS = dataclasses.fields(Description)

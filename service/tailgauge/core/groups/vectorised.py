@@ -72,7 +72,8 @@ class RowsOfEqualLength:
         return np.clip(np.ceil(target), 1, self.size).astype(np.intp) - 1 + self._offsets
 
 
-def _ordinary(data: WeightedData) -> bool:
+def ordinary(data: WeightedData) -> bool:
+    """Whether ``data`` are a raw sample this path can take (its numbers decide the rest)."""
     return data.weights is None and not data.binned and data.omitted == 0 and 2 <= data.count <= ROW_SUMS_AT_MOST
 
 
@@ -141,7 +142,7 @@ def describe_together(
         return None
     by_length: dict[int, list[int]] = defaultdict(list)
     for index, data in enumerate(datas):
-        if _ordinary(data):
+        if ordinary(data):
             by_length[data.count].append(index)
     if not by_length:
         return None
