@@ -459,23 +459,19 @@ def _accurate_rows(sums: np.ndarray, order: int, constant: np.ndarray) -> np.nda
 ROW_SUMS_AT_MOST = _BLOCK
 
 
-def row_central_sums(rows: np.ndarray, order: int, constant: np.ndarray) -> RowSums:
-    """:func:`central_sums` of each row of unit weights of a C-contiguous rows x n array
-    (``n <= ROW_SUMS_AT_MOST``), all rows at once, by the same operations in the same order:
-    the shift from the same strided subsample, the deviations, the powers built one product at
-    a time and each row's pairwise sums (numpy sums a contiguous row of a 2-D array as it sums
-    a 1-D one), the same acceptance test and re-centring (:func:`_recentre`, column-wise).
-
-    ``constant``: per row, whether its values all equal the first. Rows the one-pass path does
-    not accept (``accepted`` False) must be given to :func:`central_sums` itself.
-    """
+def row_power_sums(rows: np.ndarray, order: int, out: np.ndarray, shift: np.ndarray) -> None:
+    """The one-pass power sums of :func:`central_sums` for each row of unit weights of a
+    C-contiguous rows x n array (``n <= ROW_SUMS_AT_MOST``), by the same operations in the same
+    order: the shift from the same strided subsample, the deviations, the powers built one
+    product at a time and each row's pairwise sums (numpy sums a contiguous row of a 2-D array
+    as it sums a 1-D one). Written into ``out`` (``max(order, 2) + 1`` x rows, about the shift,
+    not yet re-centred) and ``shift`` (rows); :func:`finish_row_sums` completes them, for rows of
+    any lengths at once."""
     order = max(order, 2)
     count, n = rows.shape
     assert n <= ROW_SUMS_AT_MOST
     step = max(1, n // _SHIFT_SAMPLE)
-    sums = np.empty((order + 1, count))
-    sums[0] = float(n)
-    shift = np.empty(count)
+    out[0] = float(n)
     # Rows a block at a time, so the deviations and powers stay in cache and their buffers are
     # reused (each row's numbers do not depend on which rows share its block).
     block = max(1, _BLOCK // n)
@@ -489,13 +485,32 @@ def row_central_sums(rows: np.ndarray, order: int, constant: np.ndarray) -> RowS
             sample = part if step == 1 else np.ascontiguousarray(part[:, ::step])
             shift[start:stop] = sample.sum(axis=1) / sample.shape[1]
             np.subtract(part, shift[start:stop, None], out=d)
-            sums[1, start:stop] = d.sum(axis=1) + 0.0
+            out[1, start:stop] = d.sum(axis=1) + 0.0
             np.multiply(d, d, out=p)
-            sums[2, start:stop] = p.sum(axis=1) + 0.0
+            out[2, start:stop] = p.sum(axis=1) + 0.0
             for j in range(3, order + 1):
                 np.multiply(p, d, out=p)
-                sums[j, start:stop] = p.sum(axis=1) + 0.0
+                out[j, start:stop] = p.sum(axis=1) + 0.0
+
+
+def finish_row_sums(sums: np.ndarray, shift: np.ndarray, order: int, constant: np.ndarray) -> RowSums:
+    """:func:`central_sums`' acceptance test and re-centring (:func:`_recentre`, column-wise) of
+    power sums from :func:`row_power_sums`. ``constant``: per row, whether its values all equal
+    the first. Rows the one-pass path does not accept (``accepted`` False) must be given to
+    :func:`central_sums` itself."""
+    order = max(order, 2)
+    with np.errstate(over="ignore", invalid="ignore", under="ignore"):
         accepted = np.isfinite(shift) & _accurate_rows(sums, order, constant)
         centre = sums[1] / sums[0]
         mean = shift + centre
         return RowSums(mean=mean, shift=shift, centre=centre, sums=_recentre(sums), accepted=accepted)
+
+
+def row_central_sums(rows: np.ndarray, order: int, constant: np.ndarray) -> RowSums:
+    """:func:`central_sums` of each row of unit weights of a C-contiguous rows x n array
+    (``n <= ROW_SUMS_AT_MOST``), all rows at once, bit for bit (:func:`row_power_sums`, then
+    :func:`finish_row_sums`)."""
+    sums = np.empty((max(order, 2) + 1, rows.shape[0]))
+    shift = np.empty(rows.shape[0])
+    row_power_sums(rows, order, sums, shift)
+    return finish_row_sums(sums, shift, order, constant)

@@ -36,7 +36,7 @@ from tailgauge.core.describe import (
     restricted,
 )
 from tailgauge.core.describe.assembly import NOT_COMPUTED
-from tailgauge.core.moments import ROW_SUMS_AT_MOST, row_central_sums, variance_factor
+from tailgauge.core.moments import ROW_SUMS_AT_MOST, finish_row_sums, row_power_sums, variance_factor
 from tailgauge.core.registry import SCALAR_DESCRIPTORS
 from tailgauge.core.weighted import WeightedData
 
@@ -53,23 +53,23 @@ def applies(options: DescribeOptions) -> bool:
     return options.interval is None and options.descriptors is not None and options.descriptors.computed <= VECTORISED
 
 
-class RowsOfEqualLength:
-    """Rows of unit weights over sorted samples of ``n`` values each, laid end to end (row ``r``
-    at positions ``r n .. r n + n - 1`` of the flat array): the order-statistic rules' row
+class Segments:
+    """Rows of unit weights over sorted samples laid end to end (row ``r`` at positions
+    ``offsets[r] .. offsets[r] + sizes[r] - 1`` of the flat array): the order-statistic rules' row
     interface (:class:`tailgauge.core.order_rules.Rows`) as ``SortedRow`` gives it for one row,
     shifted to each row's place."""
 
     prefers_search = True
     unit_sorted = True
 
-    def __init__(self, rows: int, n: int) -> None:
-        self.count = rows
-        self.size = n
-        self.total = np.full(rows, float(n))
-        self._offsets = (np.arange(rows, dtype=np.intp) * n)[:, None]
+    def __init__(self, offsets: np.ndarray, sizes: np.ndarray) -> None:
+        self.count = sizes.size
+        self.total = sizes.astype(np.float64)
+        self._sizes = sizes[:, None]
+        self._offsets = offsets[:, None]
 
     def first_reaching(self, target: np.ndarray) -> np.ndarray:
-        return np.clip(np.ceil(target), 1, self.size).astype(np.intp) - 1 + self._offsets
+        return np.clip(np.ceil(target), 1, self._sizes).astype(np.intp) - 1 + self._offsets
 
 
 def ordinary(data: WeightedData) -> bool:
@@ -140,19 +140,14 @@ def describe_together(
     ``describe.restricted`` leaves it (what the answer shows), not as ``describe`` returns it."""
     if not applies(options):
         return None
-    by_length: dict[int, list[int]] = defaultdict(list)
-    for index, data in enumerate(datas):
-        if ordinary(data):
-            by_length[data.count].append(index)
-    if not by_length:
+    indices = [index for index, data in enumerate(datas) if ordinary(data)]
+    if not indices:
         return None
-    first = min(index for indices in by_length.values() for index in indices)
+    first = indices[0]
     template = describe(datas[first], options, kind="samples")
     shown = restricted(template, options.descriptors)
     distinct = template.size.distinct_values is not None
-    computed: dict[int, Numbers] = {}
-    for n, indices in by_length.items():
-        computed.update(_length(n, [datas[i] for i in indices], indices, options, distinct))
+    computed = _numbers([datas[i] for i in indices], indices, options, distinct)
     if first not in computed or shown.warnings or not _same(Together(template, computed, ()), computed[first]):
         return None  # never expected: the shared arithmetic is tested; every group is then described alone
     if shown_only:
@@ -174,61 +169,88 @@ def describe_together(
     return Together(template, computed, names)
 
 
-def _length(
-    n: int, datas: list[WeightedData], indices: list[int], options: DescribeOptions, distinct: bool
+def _numbers(
+    datas: list[WeightedData], indices: list[int], options: DescribeOptions, distinct: bool
 ) -> dict[int, Numbers]:
-    """The numbers of the ordinary groups of ``n`` values, keyed by index (the others left out);
-    ``distinct``: whether their distinct values are counted (else 0)."""
+    """The numbers of the ordinary groups ``datas`` (at ``indices``), keyed by index, the groups
+    this path cannot take left out; ``distinct``: whether distinct values are counted (else 0).
+
+    Per length, the groups' values stacked as rows give their power sums and, one sort of the
+    rows, their sorted values, laid end to end with every other length's (pairwise sums follow
+    the length, so rows of one length are summed together); everything else once for all groups:
+    the acceptance test and re-centring, the variance, and the order statistics read from the
+    sorted values by :class:`Segments`.
+    """
     basis = check_description(datas[0], options)
-    rows = np.empty((len(datas), n))
-    for row, data in zip(rows, datas):
-        row[...] = data.values
-    ordered = np.sort(rows, axis=1)
-    constant = ordered[:, 0] == ordered[:, -1]
-    sums = row_central_sums(rows, max(options.moment_order, 4), constant)
-    factor = variance_factor(basis.variance_rule, float(n))
+    order = max(options.moment_order, 4)
+    sizes = np.array([d.count for d in datas], dtype=np.intp)
+    offsets = np.concatenate(([0], np.cumsum(sizes)[:-1])).astype(np.intp)
+    ordered = np.empty(int(sizes.sum()))
+    sums = np.empty((order + 1, len(datas)))
+    shift = np.empty(len(datas))
+    by_length: dict[int, list[int]] = defaultdict(list)
+    for position, size in enumerate(sizes.tolist()):
+        by_length[size].append(position)
+    for n, positions in by_length.items():
+        rows = np.empty((len(positions), n))
+        for row, position in zip(rows, positions):
+            row[...] = datas[position].values
+        part_sums = np.empty((order + 1, len(positions)))
+        part_shift = np.empty(len(positions))
+        row_power_sums(rows, order, part_sums, part_shift)
+        sums[:, positions] = part_sums
+        shift[positions] = part_shift
+        rows.sort(axis=1)
+        ordered[(offsets[positions][:, None] + np.arange(n)).ravel()] = rows.ravel()
+    first, last = offsets, offsets + sizes - 1
+    minimum, maximum = ordered[first], ordered[last]
+    constant = minimum == maximum
+    found = finish_row_sums(sums, shift, order, constant)
+    factor = variance_factor(basis.variance_rule, sizes.astype(np.float64))
     with np.errstate(over="ignore", invalid="ignore", under="ignore"):
-        variance = sums.sums[2] / sums.sums[0] * factor
+        variance = found.sums[2] / found.sums[0] * factor
         sd = np.sqrt(variance)
-        minimum, maximum = ordered[:, 0], ordered[:, -1]
         spread = maximum - minimum
-        table = RowsOfEqualLength(len(datas), n)
-        flat = ordered.ravel()
+        segments = Segments(offsets, sizes)
         probabilities = np.concatenate(([0.25, 0.75], np.asarray(options.probabilities, dtype=np.float64)))
         assert basis.quantile_type is not None
-        quantiles = order_rules.hf_quantiles(table, flat, probabilities, basis.quantile_type)
-        median = order_rules.median(table, flat, whole=True, average=True)
+        quantiles = order_rules.hf_quantiles(segments, ordered, probabilities, basis.quantile_type)
+        median = order_rules.median(segments, ordered, whole=True, average=True)
         iqr = quantiles[:, 1] - quantiles[:, 0]
-    mixed_zeros = np.zeros(len(datas), dtype=bool)
-    spanning = np.flatnonzero((minimum <= 0.0) & (maximum >= 0.0))  # rows that may hold zeros
-    if spanning.size:
-        candidates = ordered[spanning]
-        zeros = candidates == 0.0
-        negative = np.signbit(candidates)
-        mixed_zeros[spanning] = (zeros & negative).any(axis=1) & (zeros & ~negative).any(axis=1)
+    zeros = ordered == 0.0
+    negative_zeros = _per_segment(zeros & np.signbit(ordered), first, last)
+    mixed_zeros = (negative_zeros > 0) & (negative_zeros < _per_segment(zeros, first, last))
     ok = (
         ~constant
-        & sums.accepted
+        & found.accepted
         & ~mixed_zeros
-        & np.isfinite(sums.mean)
+        & np.isfinite(found.mean)
         & (np.abs(variance) >= _NORMAL) & np.isfinite(variance)
         & (np.abs(sd) >= _NORMAL) & np.isfinite(sd)
         & np.isfinite(spread)
         & np.isfinite(iqr)
         & np.all(np.isfinite(quantiles), axis=1)
     )
-    counted = np.count_nonzero(ordered[:, 1:] != ordered[:, :-1], axis=1) + 1 if distinct else np.zeros(len(datas), int)
-    found = {}
+    if distinct:
+        counted = _per_segment(np.concatenate(([False], ordered[1:] != ordered[:-1])), first + 1, last) + 1
+    else:
+        counted = np.zeros(len(datas), dtype=np.intp)
     columns = {
-        "mean": sums.mean, "variance": variance, "standard_deviation": sd, "median": median, "minimum": minimum,
+        "mean": found.mean, "variance": variance, "standard_deviation": sd, "median": median, "minimum": minimum,
         "maximum": maximum, "range": spread, "interquartile_range": iqr,
     }
     lists = {name: column.tolist() for name, column in columns.items()}
     requested = quantiles[:, 2:].tolist()
     counts = counted.tolist()
-    for row in np.flatnonzero(ok).tolist():
-        found[indices[row]] = Numbers(n, counts[row], lists, requested, row)
-    return found
+    n_of = sizes.tolist()
+    return {indices[row]: Numbers(n_of[row], counts[row], lists, requested, row) for row in np.flatnonzero(ok).tolist()}
+
+
+def _per_segment(flags: np.ndarray, first: np.ndarray, last: np.ndarray) -> np.ndarray:
+    """How many of ``flags[first[r] .. last[r]]`` are set, for each segment ``r`` (none when
+    ``first[r] > last[r]``)."""
+    running = np.concatenate(([0], np.cumsum(flags, dtype=np.intp)))
+    return np.maximum(running[last + 1] - running[first], 0)
 
 
 def _same(together: Together, numbers: Numbers) -> bool:
