@@ -201,7 +201,11 @@ def _numbers(
         sums[:, positions] = part_sums
         shift[positions] = part_shift
         rows.sort(axis=1)
-        ordered[(offsets[positions][:, None] + np.arange(n)).ravel()] = rows.ravel()
+        if positions[-1] - positions[0] == len(positions) - 1:  # consecutive groups: one stretch
+            start = int(offsets[positions[0]])
+            ordered[start : start + rows.size] = rows.ravel()
+        else:
+            ordered[(offsets[positions][:, None] + np.arange(n)).ravel()] = rows.ravel()
     first, last = offsets, offsets + sizes - 1
     minimum, maximum = ordered[first], ordered[last]
     constant = minimum == maximum
@@ -217,9 +221,11 @@ def _numbers(
         quantiles = order_rules.hf_quantiles(segments, ordered, probabilities, basis.quantile_type)
         median = order_rules.median(segments, ordered, whole=True, average=True)
         iqr = quantiles[:, 1] - quantiles[:, 0]
-    zeros = ordered == 0.0
-    negative_zeros = _per_segment(zeros & np.signbit(ordered), first, last)
-    mixed_zeros = (negative_zeros > 0) & (negative_zeros < _per_segment(zeros, first, last))
+    mixed_zeros = np.zeros(len(datas), dtype=bool)
+    if np.any((minimum <= 0.0) & (maximum >= 0.0)):  # some groups may hold zeros of both signs
+        zeros = ordered == 0.0
+        negative_zeros = _per_segment(zeros & np.signbit(ordered), first, last)
+        mixed_zeros = (negative_zeros > 0) & (negative_zeros < _per_segment(zeros, first, last))
     ok = (
         ~constant
         & found.accepted
