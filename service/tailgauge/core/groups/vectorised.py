@@ -2,11 +2,13 @@
 median, extremes, range, IQR and quantiles of every group, bit for bit what ``describe`` gives
 for each group alone.
 
-Groups of one length are stacked as the rows of one array and computed together: the power
-sums by :func:`tailgauge.core.moments.row_central_sums` (``central_sums``' one-pass arithmetic,
-row by row), one sort of the rows, and the order-statistic rules of
-:mod:`tailgauge.core.order_rules` over :class:`RowsOfEqualLength` (each row a sorted sample, read
-by index as ``SortedRow`` reads one). So no number here has an arithmetic of its own.
+Groups of one length are stacked as the rows of one array for their power sums
+(:func:`tailgauge.core.moments.row_power_sums`, ``central_sums``' one-pass arithmetic row by
+row: a pairwise sum follows the length) and one sort of the rows; the sorted groups are laid end
+to end, and everything else is computed once for all groups: the acceptance test and
+re-centring (:func:`~tailgauge.core.moments.finish_row_sums`) and the order-statistic rules of
+:mod:`tailgauge.core.order_rules` over :class:`Segments` (each group a sorted sample, read by
+index as ``SortedRow`` reads one). So no number here has an arithmetic of its own.
 
 A group takes this path when the request asks for nothing else (``options.descriptors`` within
 :data:`VECTORISED`, no intervals) and its data are ordinary: unit weights, nothing omitted, at
