@@ -120,7 +120,8 @@ def test_each_group_is_described_as_alone(selection, quantile_type):
 
 
 def test_the_basic_descriptors_take_the_vectorised_path():
-    groups = _mixed_groups(3)
+    # The first group is one the path cannot take: the others still take it.
+    groups = [Group("first-constant", _sample([3.0, 3.0, 3.0]))] + _mixed_groups(3)
     options = dataclasses.replace(DescribeOptions(descriptors=choose(BASIC)), admitted=True)
     together = vectorised.describe_together([g.data for g in groups], options).numbers
     ordinary = {i for i, g in enumerate(groups) if (g.key.startswith("g") or g.key == "two") and g.data.count >= 2}

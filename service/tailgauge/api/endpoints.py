@@ -442,6 +442,9 @@ def _groups(request: schemas.GroupsRequest, missing: str, settings: Settings) ->
 
 
 def _listed_groups(listed: list[schemas.Group], missing: str, settings: Settings) -> tuple[list[Group], int]:
+    """Listed groups: at most ``max_groups``, their values together within ``max_values``, keys
+    unique (all checked before any group's data are read), then each group's data by the samples
+    endpoint's own rules, located under ``$.groups[i]``."""
     if len(listed) > settings.max_groups:
         raise LimitExceeded(
             detail=f"{len(listed)} groups sent; this server describes at most {settings.max_groups} groups per request",
@@ -450,15 +453,14 @@ def _listed_groups(listed: list[schemas.Group], missing: str, settings: Settings
     count = sum(len(g.values) // 8 if isinstance(g.values, bytes) else len(g.values) for g in listed)
     _check_count(count, "$.groups", settings, "all groups together")
     first_at: dict = {}
-    groups = []
     for index, group in enumerate(listed):
         earlier = first_at.setdefault(group.key, index)
         if earlier != index:
             raise UncomputableInput.at(
                 f"groups[{index}].key", f"repeats the key of groups[{earlier}]; keys must be unique"
             )
+    groups = []
     for index, group in enumerate(listed):
-        prefix = f"$.groups[{index}]"
-        data, _ = _samples_data(group, missing, settings, prefix)
+        data, _ = _samples_data(group, missing, settings, f"$.groups[{index}]")
         groups.append(Group(group.key, data, field=f"groups[{index}]"))
     return groups, count

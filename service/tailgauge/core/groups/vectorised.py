@@ -145,12 +145,14 @@ def describe_together(
     indices = [index for index, data in enumerate(datas) if ordinary(data)]
     if not indices:
         return None
-    first = indices[0]
+    computed = _numbers([datas[i] for i in indices], indices, options)
+    if not computed:
+        return None
+    # The template: the first group this path took, described alone.
+    first = min(computed)
     template = describe(datas[first], options, kind="samples")
     shown = restricted(template, options.descriptors)
-    distinct = template.size.distinct_values is not None
-    computed = _numbers([datas[i] for i in indices], indices, options, distinct)
-    if first not in computed or shown.warnings or not _same(Together(template, computed, ()), computed[first]):
+    if shown.warnings or not _same(Together(template, computed, ()), computed[first]):
         return None  # never expected: the shared arithmetic is tested; every group is then described alone
     if shown_only:
         template = shown
@@ -171,11 +173,9 @@ def describe_together(
     return Together(template, computed, names)
 
 
-def _numbers(
-    datas: list[WeightedData], indices: list[int], options: DescribeOptions, distinct: bool
-) -> dict[int, Numbers]:
+def _numbers(datas: list[WeightedData], indices: list[int], options: DescribeOptions) -> dict[int, Numbers]:
     """The numbers of the ordinary groups ``datas`` (at ``indices``), keyed by index, the groups
-    this path cannot take left out; ``distinct``: whether distinct values are counted (else 0).
+    this path cannot take left out.
 
     Per length, the groups' values stacked as rows give their power sums and, one sort of the
     rows, their sorted values, laid end to end with every other length's (pairwise sums follow
@@ -239,10 +239,7 @@ def _numbers(
         & np.isfinite(iqr)
         & np.all(np.isfinite(quantiles), axis=1)
     )
-    if distinct:
-        counted = _per_segment(np.concatenate(([False], ordered[1:] != ordered[:-1])), first + 1, last) + 1
-    else:
-        counted = np.zeros(len(datas), dtype=np.intp)
+    counted = _per_segment(np.concatenate(([False], ordered[1:] != ordered[:-1])), first + 1, last) + 1
     columns = {
         "mean": found.mean, "variance": variance, "standard_deviation": sd, "median": median, "minimum": minimum,
         "maximum": maximum, "range": spread, "interquartile_range": iqr,
