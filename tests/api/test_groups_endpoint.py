@@ -265,3 +265,14 @@ def test_columnar_weights_are_split_with_their_values(client):
                               "options": options})
     assert columnar.status_code == 200, columnar.text
     assert _exact(columnar) == _check_each_group_alone(client, listed, options)
+
+
+def test_a_listed_group_may_send_float64_bytes(client):
+    groups = [g for g in _fill_heads(6) if len(g["values"]) > 1]
+    packed = [dict(g, values=base64.b64encode(np.array(g["values"], dtype="<f8").tobytes()).decode()) for g in groups]
+    options = {"descriptors": ["mean", "median", "quantiles"]}
+    assert _exact(_post(client, {"groups": packed, "options": options})) == _exact(
+        _post(client, {"groups": groups, "options": options}))
+    bad = dict(packed[0], values=base64.b64encode(np.array([1.0, np.inf]).tobytes()).decode())
+    response = _post(client, {"groups": [bad]})
+    assert response.status_code == 400 and [e["path"] for e in response.json()["errors"]] == ["$.groups[0].values[1]"]
