@@ -153,6 +153,17 @@ def test_list_and_columnar_forms_give_the_same_answer(client):
     assert listed.status_code == 200
 
 
+def test_the_drawn_seed_is_echoed_and_reproduces_every_group(client):
+    groups = [g for g in _fill_heads(3) if len(g["values"]) > 1]
+    options = {"descriptors": ["mean"], "interval": {"method": "percentile", "resamples": 200}}
+    first = _exact(_post(client, {"groups": groups, "options": options}))
+    seed = int(first["seed"])
+    assert [int(g["resampling"]["seed"]) for g in first["groups"]] == [group_seed(seed, g["key"]) for g in groups]
+    again = _post(client, {"groups": groups, "options": {**options, "interval": {**options["interval"], "seed": seed}}})
+    assert _exact(again) == first
+    assert _exact(_post(client, {"groups": groups}))["seed"] is None
+
+
 def test_a_group_keeps_its_intervals_when_others_are_added_or_reordered(client):
     groups = _fill_heads(2)[:4]
     options = {"descriptors": ["mean", "median"], "interval": {"method": "percentile", "resamples": 300, "seed": 77}}

@@ -396,7 +396,8 @@ def describe_groups_request(body: bytes, codec: Codec, answer: Codec, settings: 
             score=chosen.score,
             partial_state_order=max(MIN_ORDER, chosen.moment_order) if chosen.partial_state else None,
         )
-        message = schemas.GroupsResponse(groups=group_messages(described), warnings=[])
+        seed = None if options.interval is None else options.interval.seed
+        message = schemas.GroupsResponse(groups=group_messages(described), seed=seed, warnings=[])
         resamples = sum(g.resampling.resamples for g in message.groups if g.resampling is not None)
         return Computed(answer.encode(message), count, resamples)
 

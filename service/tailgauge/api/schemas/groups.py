@@ -122,6 +122,16 @@ class GroupDescription(DescriptionResponse, kw_only=True):
 
 class GroupsResponse(Answer):
     groups: Annotated[list[GroupDescription], Meta(description="One answer per group, in options.group_order.")]
+    seed: Annotated[
+        int | None,
+        Meta(
+            description=(
+                "The seed every group's own seed (its resampling.seed) was derived from with its key: "
+                "options.interval.seed, or the one drawn; sent back, it reproduces every group. null "
+                "without options.interval."
+            )
+        ),
+    ]
     warnings: Annotated[
         list[ResultWarning],
         Meta(description="Warnings about the request as a whole; each group's own are in its answer."),
