@@ -16,7 +16,6 @@ import json
 
 import numpy as np
 import pytest
-
 from tailgauge.core import group_seed
 
 GROUPS = "/v1/descriptors/groups"

@@ -15,12 +15,12 @@ import dataclasses
 
 import numpy as np
 import pytest
-
 from tailgauge.core import DescribeOptions, IntervalOptions, choose, describe, from_samples, restricted
 from tailgauge.core.errors import LimitExceeded, UncomputableInput
 from tailgauge.core.groups import Group, describe_groups, from_columns, group_seed, sort_key, vectorised
 from tailgauge.core.moments import ROW_SUMS_AT_MOST, central_sums, row_central_sums
 from tailgauge.core.weighted import WeightMeaning
+
 from tests.core.test_moments import DATASETS, SD_DIGITS, load_strd, relative_error
 
 BASIC = ["mean", "standard_deviation", "quantiles"]

@@ -10,13 +10,18 @@ import msgspec
 from msgspec import Meta
 
 from tailgauge.api.schemas.common import MAX_SEED, Answer, Message
-from tailgauge.api.schemas.comparisons import ComparisonWarning, Contrast, QuantileShift, StandardizedMeanDifference
+from tailgauge.api.schemas.comparisons import (
+    ComparisonWarning,
+    Contrast,
+    QuantileShift,
+    StandardizedMeanDifference,
+)
 from tailgauge.api.schemas.inputs import (
     NULL_MEANS_DEFAULTS,
+    SamplesData,
     SampleValues,
     SampleWeightMeaning,
     SampleWeights,
-    SamplesData,
 )
 from tailgauge.api.schemas.options import SampleOptions
 from tailgauge.api.schemas.results import DescriptionResponse, ResultWarning

@@ -27,11 +27,11 @@ from tailgauge.core.groups.vectorised import VECTORISED
 __all__ = [
     "VECTORISED",
     "Described",
-    "Shared",
     "Group",
     "GroupDescription",
     "GroupOrder",
     "Key",
+    "Shared",
     "admit_groups",
     "describe_groups",
     "from_columns",

@@ -13,7 +13,7 @@ from typing import Literal
 from tailgauge.core import cost
 from tailgauge.core.compare import Contrasts, contrast
 from tailgauge.core.compare.assembly import READ_BY_COMPARISON
-from tailgauge.core.describe import Description, DescribeOptions, check_description, describe, restricted
+from tailgauge.core.describe import DescribeOptions, Description, check_description, describe, restricted
 from tailgauge.core.errors import DescriptorError, LimitExceeded, Location, UncomputableInput
 from tailgauge.core.groups import vectorised
 from tailgauge.core.groups.keys import Key, group_seed, sort_key

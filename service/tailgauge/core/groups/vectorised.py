@@ -28,9 +28,9 @@ import numpy as np
 
 from tailgauge.core import order_rules
 from tailgauge.core.describe import (
+    DescribeOptions,
     Description,
     Descriptor,
-    DescribeOptions,
     Quantile,
     Size,
     check_description,
@@ -82,8 +82,9 @@ def ordinary(data: WeightedData) -> bool:
 @dataclass(slots=True)
 class Numbers:
     """What a group described together has of its own: its size, the values of the descriptors
-    this path computes and of the requested quantiles (row ``row`` of its length's columns).
-    Everything else of its description is the template's (:class:`Together`)."""
+    this path computes and of the requested quantiles (row ``row`` of columns shared by every
+    group described together). Everything else of its description is the template's
+    (:class:`Together`)."""
 
     n: int
     distinct: int
