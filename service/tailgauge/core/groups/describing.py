@@ -12,7 +12,6 @@ from typing import Literal
 
 from tailgauge.core import cost
 from tailgauge.core.compare import Contrasts, contrast
-from tailgauge.core.compare.assembly import READ_BY_COMPARISON
 from tailgauge.core.describe import DescribeOptions, Description, check_description, describe, restricted
 from tailgauge.core.errors import DescriptorError, LimitExceeded, Location, UncomputableInput
 from tailgauge.core.groups import vectorised
@@ -22,6 +21,9 @@ from tailgauge.core.scoring import Scores, standardize
 from tailgauge.core.weighted import WeightedData
 
 GroupOrder = Literal["as_sent", "by_key"]
+# What contrasting a group with the baseline reads of both, shown or not: the standardized mean
+# difference's mean and standard deviation (the differences and ratios read what is shown).
+READ_BY_CONTRASTS = ("mean", "standard_deviation")
 
 
 @dataclass(frozen=True)
@@ -145,7 +147,7 @@ def describe_groups(
         if base_index is None:
             raise UncomputableInput.at("options.baseline", f"no group has the key {baseline!r}")
         if selection is not None:
-            options = dataclasses.replace(options, descriptors=selection.also(READ_BY_COMPARISON))
+            options = dataclasses.replace(options, descriptors=selection.also(READ_BY_CONTRASTS))
     if not options.admitted:
         admit_groups(groups, options)
         options = dataclasses.replace(options, admitted=True)
