@@ -30,6 +30,7 @@ def answers():
         "/v1/descriptors/histogram",
         "/v1/comparisons",
         "/v1/descriptors/merge",
+        "/v1/descriptors/groups",
     }
     found = {}
     with TestClient(create_app(Settings())) as client:
@@ -177,6 +178,8 @@ def test_client_examples_run_as_written(marker, capsys):
     if marker.startswith("client.describe_samples"):
         # The problem: the string at $.values[3] (line 2), after the mean and estimator (line 1).
         assert any(line.startswith("400 ") and "$.values[3]" in line for line in printed)
+
+
 def test_checkout_histogram_example_quotes_served_numbers(answers):
     result = answers["/v1/descriptors/histogram"]
     assert result["kind"] == "histogram"
@@ -210,3 +213,19 @@ def test_histogram_comparison_example_quotes_served_numbers():
     assert body["distribution_test"]["cell_edges"] == [0.5]
     assert round(body["distribution_test"]["p_value"], 4) == 0.0002
     assert {"bins_coarsened", "interval_not_offered"} <= {w["code"] for w in body["warnings"]}
+
+
+def test_fill_head_example_quotes_served_numbers(answers):
+    groups = {g["key"]: g for g in answers["/v1/descriptors/groups"]["groups"]}
+    assert list(groups) == ["head-1", "head-2", "head-3"]
+    assert groups["head-1"]["descriptors"]["mean"]["value"] == 500.61
+    assert groups["head-1"]["resampling"]["seed"] == 7155830076583600
+    head2 = groups["head-2"]["contrasts"]
+    assert round(head2["differences"]["mean"]["value"], 2) == 1.49
+    interval = head2["differences"]["mean"]["interval"]
+    assert (round(interval["low"], 2), round(interval["high"], 2)) == (1.16, 1.81)
+    assert round(head2["ratios"]["standard_deviation"]["value"], 3) == 0.947
+    assert round(head2["standardized_mean_difference"]["value"], 2) == 3.65
+    ratio = groups["head-3"]["contrasts"]["ratios"]["standard_deviation"]
+    assert round(ratio["value"], 2) == 3.36
+    assert (round(ratio["interval"]["low"], 2), round(ratio["interval"]["high"], 2)) == (2.03, 6.36)

@@ -34,6 +34,9 @@ class Settings:
     max_body_bytes: int = 32 * 1024 * 1024
     # Most observations (values, nulls included) in one request (413 beyond).
     max_values: int = 2_000_000
+    # Most groups in one POST /v1/descriptors/groups (422 beyond); their values count against
+    # max_values together.
+    max_groups: int = 10_000
     # Highest moment order a caller may request.
     max_moment_order: int = 12
     # Most quantile probabilities in one request.
@@ -77,6 +80,7 @@ class Settings:
     _BOUNDS = {
         "max_body_bytes": (1024, 1024**3),
         "max_values": (1, 100_000_000),
+        "max_groups": (1, 1_000_000),
         "max_moment_order": (4, SCHEMA_MAX_MOMENT_ORDER),
         "max_probabilities": (1, SCHEMA_MAX_PROBABILITIES),
         "max_modes_listed": (1, 100_000),

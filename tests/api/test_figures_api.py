@@ -82,7 +82,7 @@ def test_the_document_declares_the_figure_types_per_operation(client):
         if op.method != "post":
             continue
         content = document["paths"][op.path]["post"]["responses"]["200"]["content"]
-        if op.path == MERGE:
+        if op.path in (MERGE, "/v1/descriptors/groups"):  # no values to draw; no layout for many inputs yet
             assert SVG not in content and PNG not in content
             continue
         assert content[SVG]["schema"] == {"type": "string", "contentMediaType": SVG}

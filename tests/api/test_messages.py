@@ -152,7 +152,8 @@ def wrong_kind_cases(operation, segments, tp, bounds) -> list[Case]:
     if numbers:
         base, number_bounds = numbers[0]
         words = "a whole number" if base is int else "a number"
-        cases.append(Case(operation, "number-wrong-type", segments, "12", path, says=(words, "got a string")))
+        if not any(m is str for m in bases):  # where a string is also allowed (a group key) "12" is right
+            cases.append(Case(operation, "number-wrong-type", segments, "12", path, says=(words, "got a string")))
         if base is int:
             cases.append(Case(operation, "fraction-for-integer", segments, 2.5, path, says=("a whole number",)))
         low = number_bounds.get("ge", number_bounds.get("gt"))

@@ -301,6 +301,7 @@ LEFT_OUT = {
     "Descriptors": set(SCALAR_DESCRIPTORS),
     "DescriptionResponse": set(MEMBERS),
     "MergedDescriptionResponse": set(MEMBERS),
+    "GroupDescription": set(MEMBERS),
     "ComparisonResponse": {"quantile_shifts", "standardized_quantiles"},
 }
 

@@ -577,6 +577,7 @@ SECTIONS: dict[str, tuple[Callable[..., None], str]] = {
     "gzip": (bench_gzip, "answers compressed at levels 1, 6, 9: sizes, TCP segments, times"),
     "figures": (bench_figures, "a figure of 1e6 values, SVG and PNG, after describing them (size: figures=1e6)"),
     "histogram": (lambda: __import__("histogram_section").bench_histogram(TREE, QUICK), "200 exponential buckets described in process (histogram_section.py)"),
+    "groups": (lambda size="": __import__("groups_bench").main(size, quick=QUICK), "1,000 x 1,000 and 10,000 x 100 groups"),
 }
 SIZED = {"order", "quantiles", "moments", "merge", "transport", "figures"}
 

@@ -29,7 +29,9 @@ from typing import Any, TypeVar
 import msgspec
 
 from tailgauge.api import schemas
-from tailgauge.core import Comparison, Description, PartialState, Scores
+from tailgauge.core import Comparison, Description, GroupDescription, PartialState, Scores
+from tailgauge.core.compare import Contrasts
+from tailgauge.core.groups import Described, Shared
 from tailgauge.core.registry import SCALAR_DESCRIPTORS
 from tailgauge.figures import PlotData
 
@@ -49,6 +51,9 @@ FILLED_BY_EDGE: dict[type, dict[str, str]] = {
         "plot_data": "merged states carry no values to draw: always null",
     },
     schemas.ComparisonResponse: {"scores": "standardize() scores options.score against the first input"},
+    schemas.GroupDescription: {
+        "plot_data": "tailgauge.figures.plot_data() reads each group's values beside its description when options.plot_data asks",
+    },
 }
 # Response Struct -> {core field: why it is not sent}.
 _ABSENT = "names the members options.descriptors leaves out: they are sent as absent (UNSET)"
@@ -59,6 +64,10 @@ NOT_SENT: dict[type, dict[str, str]] = {
     },
     schemas.MergedDescriptionResponse: {"absent": _ABSENT},
     schemas.ComparisonResponse: {"absent": _ABSENT},
+    schemas.GroupDescription: {
+        "sketches": "only merged states read quantiles from sketches (MergedDescriptionResponse.sketches)",
+        "absent": _ABSENT,
+    },
     schemas.Resampling: {"replicates": "the bootstrap replicates, kept in process for contrasts"},
     schemas.Scores: {"warnings": "added to the response's own warnings list"},
 }
@@ -67,6 +76,8 @@ ROOTS: tuple[tuple[type, type], ...] = (
     (Description, schemas.DescriptionResponse),
     (Description, schemas.MergedDescriptionResponse),
     (Comparison, schemas.ComparisonResponse),
+    (GroupDescription, schemas.GroupDescription),
+    (Contrasts, schemas.BaselineContrasts),
     (Scores, schemas.Scores),
     (PartialState, schemas.PartialState),
     (PlotData, schemas.PlotData),
@@ -221,4 +232,45 @@ def _leave_out(result: Any) -> Any:
     return fields
 
 
-__all__ = ["FILLED_BY_EDGE", "NOT_SENT", "PAIRS", "ROOTS", "ConversionMismatch", "check", "structs_in", "to_message"]
+def group_messages(described: Described) -> list[schemas.GroupDescription]:
+    """Every group's answer. A group described together with others (:class:`Shared`) is the
+    template's answer, converted once by :func:`to_message`, with the group's own key, size,
+    descriptor values and quantile values put in: what converting its whole description would
+    give (tests/api/test_groups.py checks each group against the samples endpoint alone)."""
+    template: schemas.GroupDescription | None = None
+    messages = []
+    for entry in described.entries:
+        if not isinstance(entry, Shared):
+            messages.append(to_message(entry, schemas.GroupDescription))
+            continue
+        if template is None:
+            template = to_message(described.description(entry), schemas.GroupDescription)
+            names = described.together.names
+            values = {name: getattr(template.descriptors, name) for name in names}
+            quantiles = template.quantiles
+        numbers = entry.numbers
+        messages.append(msgspec.structs.replace(
+            template,
+            key=entry.key,
+            size=msgspec.structs.replace(
+                template.size,
+                n=numbers.n,
+                total_weight=float(numbers.n),
+                distinct_values=None if template.size.distinct_values is None else numbers.distinct,
+            ),
+            descriptors=msgspec.structs.replace(
+                template.descriptors,
+                **{name: msgspec.structs.replace(values[name], value=numbers.value(name)) for name in names},
+            ),
+            quantiles=quantiles if quantiles is msgspec.UNSET else [
+                msgspec.structs.replace(q, value=v) for q, v in zip(quantiles, numbers.quantiles)
+            ],
+            partial_state=None if entry.partial_state is None else to_message(entry.partial_state, schemas.PartialState),
+        ))
+    return messages
+
+
+__all__ = [
+    "FILLED_BY_EDGE", "NOT_SENT", "PAIRS", "ROOTS", "ConversionMismatch", "check", "group_messages", "structs_in",
+    "to_message",
+]

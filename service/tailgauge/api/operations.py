@@ -68,6 +68,18 @@ _EXAMPLES = {
         "values": [251.2, 249.8, 250.4, 252.9, 250.1, 249.5, 250.7, 251.0, 248.9, 250.3, 250.3],
         "options": {"probabilities": [0.05, 0.5, 0.95], "order": "as_sent"},
     },
+    "/v1/descriptors/groups": {
+        "groups": [
+            {"key": "head-1", "values": [500.8, 501.2, 499.9, 500.4, 501.0, 500.6, 500.1, 500.9]},
+            {"key": "head-2", "values": [501.9, 502.4, 501.6, 502.8, 502.1, 501.7, 502.5, 502.0]},
+            {"key": "head-3", "values": [499.2, 500.9, 498.7, 501.5, 499.8, 500.3, 498.9, 501.1]},
+        ],
+        "options": {
+            "descriptors": ["mean", "standard_deviation", "quantiles"],
+            "probabilities": [0.05, 0.5, 0.95],
+            "baseline": "head-1",
+        },
+    },
     "/v1/descriptors/table": {
         "outcomes": [{"value": 0, "weight": 412}, {"value": 1, "weight": 187}, {"value": 2, "weight": 61},
                      {"value": 3, "weight": 17}, {"value": 4, "weight": 3}],
@@ -102,6 +114,13 @@ _PROBLEM_EXAMPLES = {
     "/v1/descriptors/samples": {
         400: {"values": [251.2, 249.8, 250.4], "options": {"skewness_estimator": "G3"}},
         422: {"values": [251.2, None, 250.4]},
+    },
+    "/v1/descriptors/groups": {
+        400: {"groups": [{"key": "head-1", "values": [500.8, 501.2]}, {"key": "head-2", "values": []}]},
+        422: {
+            "groups": [{"key": "head-1", "values": [500.8, 501.2]}, {"key": "head-2", "values": [501.9, 502.4]}],
+            "options": {"baseline": "head-9"},
+        },
     },
     "/v1/descriptors/table": {
         400: {"outcomes": [{"value": 0, "weight": 412}, {"value": 1, "weight": -3}], "weight_kind": "counts"},
@@ -157,6 +176,27 @@ OPERATIONS = (
         answers=WITH_FIGURES,
         example=_EXAMPLES["/v1/descriptors/samples"],
         problem_examples=_PROBLEM_EXAMPLES["/v1/descriptors/samples"],
+        tag="descriptors",
+    ),
+    Operation(
+        method="post",
+        path="/v1/descriptors/groups",
+        operation_id="describeGroups",
+        summary="Describe many raw samples at once, one per key",
+        description=(
+            "Each group's answer is the samples endpoint's answer for that group alone, bit for bit, "
+            "by the same options (intervals with a seed per group, derived from the one seed and the "
+            "key, and reported in resampling.seed). Groups come as a list (key, values, weights) or "
+            "in columns (values with one key per value). options.group_order sorts them by key; "
+            "options.baseline contrasts every group with one of them. The basic descriptors (mean, "
+            "variance, standard deviation, median, extremes, range, IQR, quantiles) of all groups are "
+            "computed together."
+        ),
+        request=schemas.GroupsRequest,
+        response=schemas.GroupsResponse,
+        problems=COMPUTE_PROBLEMS,
+        example=_EXAMPLES["/v1/descriptors/groups"],
+        problem_examples=_PROBLEM_EXAMPLES["/v1/descriptors/groups"],
         tag="descriptors",
     ),
     Operation(

@@ -157,6 +157,7 @@ def describe_catalog(request: Request) -> Response[bytes]:
 # cheap and run on the event loop. Metric labels of the compute endpoints are API (dashboards).
 BODIES = {
     "describeSamples": _computing(endpoints.describe_samples, "samples", "describeSamples"),
+    "describeGroups": _computing(endpoints.describe_groups_request, "groups", "describeGroups"),
     "describeTable": _computing(endpoints.describe_table, "table", "describeTable"),
     "describeBins": _computing(endpoints.describe_bins, "bins", "describeBins"),
     "describeHistogram": _computing(endpoints.describe_histogram, "histogram", "describeHistogram"),

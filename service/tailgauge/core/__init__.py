@@ -4,6 +4,7 @@ from tailgauge.core.compare import Comparison, compare, restricted_comparison
 from tailgauge.core.cost import Estimate
 from tailgauge.core.describe import DEFAULT_PROBABILITIES, Description, DescribeOptions, admit, describe, restricted
 from tailgauge.core.errors import DescriptorError, LimitExceeded, Location, UncomputableInput
+from tailgauge.core.groups import Group, GroupDescription, admit_groups, describe_groups, group_seed
 from tailgauge.core.moments import CentralSums, central_sums
 from tailgauge.core.partial import (
     PartialState,
@@ -43,6 +44,8 @@ __all__ = [
     "Description",
     "DescriptorError",
     "Estimate",
+    "Group",
+    "GroupDescription",
     "IntervalOptions",
     "KllSketchContents",
     "LimitExceeded",
@@ -56,17 +59,20 @@ __all__ = [
     "WeightMeaning",
     "WeightedData",
     "admit",
+    "admit_groups",
     "central_sums",
     "check_states",
     "choose",
     "combine_sketches",
     "compare",
     "describe",
+    "describe_groups",
     "describe_state",
     "from_array",
     "from_bins",
     "from_samples",
     "from_table",
+    "group_seed",
     "kll_sketch_bytes",
     "merge",
     "merge_states",

@@ -17,6 +17,7 @@ every long stage, stays the safety net for a slower machine.
 from __future__ import annotations
 
 import math
+from collections import Counter
 from dataclasses import dataclass
 
 from tailgauge.core import resample, serial
@@ -315,6 +316,29 @@ def estimate(
     return Estimate(tuple(stages), float(resident))
 
 
+def estimate_separately(
+    shapes: list[Shape],
+    *,
+    probabilities: int,
+    resamples: int,
+    method: str | None,
+    threads: int,
+    max_work: float = math.inf,
+) -> Estimate:
+    """The stages of describing inputs one after another with nothing kept between them (the
+    groups of one request): their times add up, their working memory peaks at the largest.
+    Inputs of the same shape are planned once and counted."""
+    resident = sum(NORMALISED_BYTES_PER_ENTRY * s.entries for s in shapes)
+    stages: list[Stage] = []
+    for shape, count in Counter(shapes).items():
+        one = estimate(
+            [shape], probabilities=probabilities, resamples=resamples, method=method, threads=threads, max_work=max_work
+        )
+        label = f"{count} input(s) of {shape.entries} entries: "
+        stages.extend(Stage(label + stage.name, stage.bytes, stage.seconds * count) for stage in one.stages)
+    return Estimate(tuple(stages), float(resident))
+
+
 def _side(index: int, shapes: list[Shape]) -> str:
     return "" if len(shapes) == 1 else ("first input: " if index == 0 else "second input: ")
 
@@ -348,15 +372,20 @@ def admit(
     seconds: float,
     max_work: float = math.inf,
     min_resamples: int = 100,
+    separately: bool = False,
 ) -> Estimate:
     """The estimate of a request, or :class:`LimitExceeded` naming what would fit.
+
+    ``separately``: the inputs are described one after another (:func:`estimate_separately`),
+    not compared.
 
     The advice is the largest resample count (a multiple of ``resample.SUBSETS`` when an input
     is resampled by little bootstraps, whose counts are rounded up to one) whose estimate fits;
     failing that, the largest number of probabilities, or the percentile method instead of BCa;
     failing all, fewer values.
     """
-    wanted = estimate(
+    planned = estimate_separately if separately else estimate
+    wanted = planned(
         shapes, probabilities=probabilities, resamples=resamples, method=method, threads=threads, max_work=max_work
     )
     if wanted.peak_bytes <= max_bytes and wanted.seconds <= seconds:
@@ -379,7 +408,7 @@ def admit(
     def fits(**change) -> bool:
         arguments = dict(probabilities=probabilities, resamples=resamples, method=method, threads=threads)
         arguments.update(change)
-        e = estimate(shapes, max_work=max_work, **arguments)
+        e = planned(shapes, max_work=max_work, **arguments)
         work = resampling_work(shapes, arguments["resamples"]) if arguments["method"] is not None else 0.0
         # Advice must still fit when resent against the same deadline a moment later: the time
         # it leaves is a little less than now (ADVICE_TIME_SHARE of it).
@@ -432,4 +461,4 @@ def admit(
     )
 
 
-__all__ = ["Estimate", "Shape", "Stage", "admit", "estimate", "resampling_work", "shape_of"]
+__all__ = ["Estimate", "Shape", "Stage", "admit", "estimate", "estimate_separately", "resampling_work", "shape_of"]

@@ -324,12 +324,17 @@ def _shift_estimate(values: np.ndarray, weights: np.ndarray | None) -> float:
 
 def _acceptable(sums: np.ndarray, order: int, values: np.ndarray) -> bool:
     """Whether one-pass sums about a guessed shift are as accurate as the two-pass ones."""
+    return _accurate(sums, order, lambda: bool(np.all(values == values[0])))
+
+
+def _accurate(sums: np.ndarray, order: int, constant) -> bool:
+    """:func:`_acceptable` given ``constant()``, whether the values all equal the first."""
     if not np.all(np.isfinite(sums)):
         return False
     weight, first, second = sums[0], sums[1], sums[2]
     if second <= 0.0:
         # Constant data, or squares that underflowed: only the first keeps the fast path.
-        return bool(np.all(values == values[0]))
+        return constant()
     mean_square = second / weight
     delta = first / weight
     if delta * delta > _MAX_SHIFT_ERROR**2 * mean_square:
@@ -338,16 +343,24 @@ def _acceptable(sums: np.ndarray, order: int, values: np.ndarray) -> bool:
 
 
 def _recentre(sums: np.ndarray) -> np.ndarray:
-    """Power sums about ``shift`` to power sums about the mean (binomial theorem)."""
+    """Power sums about ``shift`` to power sums about the mean (binomial theorem), for one
+    sample's sums (``order + 1``) or many samples' as columns (``order + 1`` x samples).
+
+    The powers of the shift's error are products taken in turn, element by element, so one
+    sample's sums and a column of many are re-centred by the same operations, bit for bit.
+    """
     weight = sums[0]
-    delta = sums[1] / weight
+    step = -(sums[1] / weight)
+    powers = [np.ones_like(step)]
+    for _ in range(1, sums.shape[0]):
+        powers.append(powers[-1] * step)
     centred = np.empty_like(sums)
     centred[0] = weight
     centred[1] = 0.0
-    for k in range(2, sums.size):
+    for k in range(2, sums.shape[0]):
         total = 0.0
         for j in range(k + 1):
-            total += math.comb(k, j) * sums[j] * (-delta) ** (k - j)
+            total = total + math.comb(k, j) * sums[j] * powers[k - j]
         centred[k] = total
     return centred
 
@@ -407,3 +420,97 @@ def central_sums(values: np.ndarray, weights: np.ndarray | None, order: int) -> 
         post_exponent=post,
         centre=centre,
     )
+
+
+@dataclass(frozen=True)
+class RowSums:
+    """:func:`row_central_sums`: per row, what :func:`central_sums` gives on its one-pass path."""
+
+    mean: np.ndarray  # (rows,)
+    shift: np.ndarray  # (rows,)
+    centre: np.ndarray  # (rows,)
+    sums: np.ndarray  # (order + 1, rows), re-centred
+    accepted: np.ndarray  # (rows,) bool: False where central_sums would take its two-pass path
+
+    def of(self, row: int) -> CentralSums:
+        """Row ``row`` as :func:`central_sums` returns it (for an accepted row)."""
+        return CentralSums(
+            mean=float(self.mean[row]), sums=self.sums[:, row].copy(), shift=float(self.shift[row]),
+            centre=float(self.centre[row]),
+        )
+
+
+def _accurate_rows(sums: np.ndarray, order: int, constant: np.ndarray) -> np.ndarray:
+    """:func:`_accurate` of each column of ``sums`` (the logarithm by ``math.log10``, as there)."""
+    weight, first, second = sums[0], sums[1], sums[2]
+    finite = np.all(np.isfinite(sums), axis=0)
+    mean_square = second / weight
+    delta = first / weight
+    close = ~(delta * delta > _MAX_SHIFT_ERROR**2 * mean_square)
+    positive = finite & (second > 0.0)
+    inside = np.zeros(sums.shape[1], dtype=bool)
+    inside[positive] = [
+        abs(order * 0.5 * math.log10(x)) <= _MAX_POWER_EXPONENT for x in mean_square[positive].tolist()
+    ]
+    return finite & np.where(second > 0.0, close & inside, constant)
+
+
+# Longest rows :func:`row_central_sums` takes: central_sums sums them in one block.
+ROW_SUMS_AT_MOST = _BLOCK
+
+
+def row_power_sums(rows: np.ndarray, order: int, out: np.ndarray, shift: np.ndarray) -> None:
+    """The one-pass power sums of :func:`central_sums` for each row of unit weights of a
+    C-contiguous rows x n array (``n <= ROW_SUMS_AT_MOST``), by the same operations in the same
+    order: the shift from the same strided subsample, the deviations, the powers built one
+    product at a time and each row's pairwise sums (numpy sums a contiguous row of a 2-D array
+    as it sums a 1-D one). Written into ``out`` (``max(order, 2) + 1`` x rows, about the shift,
+    not yet re-centred) and ``shift`` (rows); :func:`finish_row_sums` completes them, for rows of
+    any lengths at once."""
+    order = max(order, 2)
+    count, n = rows.shape
+    assert n <= ROW_SUMS_AT_MOST
+    step = max(1, n // _SHIFT_SAMPLE)
+    out[0] = float(n)
+    # Rows a block at a time, so the deviations and powers stay in cache and their buffers are
+    # reused (each row's numbers do not depend on which rows share its block).
+    block = max(1, _BLOCK // n)
+    deviations = np.empty((min(block, count), n))
+    power = np.empty_like(deviations)
+    with np.errstate(over="ignore", invalid="ignore", under="ignore"):
+        for start in range(0, count, block):
+            stop = min(start + block, count)
+            part = rows[start:stop]
+            d, p = deviations[: stop - start], power[: stop - start]
+            sample = part if step == 1 else np.ascontiguousarray(part[:, ::step])
+            shift[start:stop] = sample.sum(axis=1) / sample.shape[1]
+            np.subtract(part, shift[start:stop, None], out=d)
+            out[1, start:stop] = d.sum(axis=1) + 0.0
+            np.multiply(d, d, out=p)
+            out[2, start:stop] = p.sum(axis=1) + 0.0
+            for j in range(3, order + 1):
+                np.multiply(p, d, out=p)
+                out[j, start:stop] = p.sum(axis=1) + 0.0
+
+
+def finish_row_sums(sums: np.ndarray, shift: np.ndarray, order: int, constant: np.ndarray) -> RowSums:
+    """:func:`central_sums`' acceptance test and re-centring (:func:`_recentre`, column-wise) of
+    power sums from :func:`row_power_sums`. ``constant``: per row, whether its values all equal
+    the first. Rows the one-pass path does not accept (``accepted`` False) must be given to
+    :func:`central_sums` itself."""
+    order = max(order, 2)
+    with np.errstate(over="ignore", invalid="ignore", under="ignore"):
+        accepted = np.isfinite(shift) & _accurate_rows(sums, order, constant)
+        centre = sums[1] / sums[0]
+        mean = shift + centre
+        return RowSums(mean=mean, shift=shift, centre=centre, sums=_recentre(sums), accepted=accepted)
+
+
+def row_central_sums(rows: np.ndarray, order: int, constant: np.ndarray) -> RowSums:
+    """:func:`central_sums` of each row of unit weights of a C-contiguous rows x n array
+    (``n <= ROW_SUMS_AT_MOST``), all rows at once, bit for bit (:func:`row_power_sums`, then
+    :func:`finish_row_sums`)."""
+    sums = np.empty((max(order, 2) + 1, rows.shape[0]))
+    shift = np.empty(rows.shape[0])
+    row_power_sums(rows, order, sums, shift)
+    return finish_row_sums(sums, shift, order, constant)

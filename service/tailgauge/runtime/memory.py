@@ -25,6 +25,9 @@ import ctypes.util
 import gc
 import logging
 import os
+import threading
+from collections.abc import Iterator
+from contextlib import contextmanager
 
 logger = logging.getLogger("tailgauge.memory")
 
@@ -66,6 +69,37 @@ def freeze_startup_objects() -> None:
     gc.freeze()
 
 
+_pauses = 0  # pauses in progress (any thread)
+_enabled_before = False
+_pausing = threading.Lock()
+
+
+@contextmanager
+def collection_paused() -> Iterator[None]:
+    """Pause the cyclic garbage collector while a request builds many small acyclic objects.
+
+    A request of 10,000 groups builds about 200,000 answer objects beside the decoded body's
+    10,000 lists; each collection the allocations trigger scans them all and frees nothing (the
+    answers hold no cycles), which took a quarter of such a request's time here. Nested and
+    concurrent pauses count: the collector is enabled again when the last one ends, if it was
+    enabled before the first. Cycles made meanwhile wait for the next collection
+    (:func:`give_back` runs one after a large request).
+    """
+    global _pauses, _enabled_before
+    with _pausing:
+        if _pauses == 0:
+            _enabled_before = gc.isenabled()
+            gc.disable()
+        _pauses += 1
+    try:
+        yield
+    finally:
+        with _pausing:
+            _pauses -= 1
+            if _pauses == 0 and _enabled_before:
+                gc.enable()
+
+
 def resident_bytes(pid: int | None = None) -> int:
     """Resident set size of ``pid`` (default: this process) in bytes, from /proc (0 elsewhere)."""
     try:
@@ -75,4 +109,4 @@ def resident_bytes(pid: int | None = None) -> int:
         return 0
 
 
-__all__ = ["freeze_startup_objects", "give_back", "resident_bytes"]
+__all__ = ["collection_paused", "freeze_startup_objects", "give_back", "resident_bytes"]

@@ -44,31 +44,38 @@ class TableWeightKind(StrEnum):
 NULL_MEANS_DEFAULTS = "null or absent: every default."
 
 
+# A raw sample's fields, declared once: its endpoint's, a comparison input's, a group's and the
+# columnar groups form's.
+SampleValues = Annotated[
+    Annotated[list[Observation], Meta(min_length=1)] | Float64Bytes,
+    Meta(
+        description=(
+            "Raw observations in observation order: a list, or float64 bytes (NaN marks a "
+            "missing value there)."
+        )
+    ),
+]
+SampleWeights = Annotated[
+    list[NonNegative] | Float64Bytes | None,
+    Meta(description="Optional weight per value (same length as values), a list or float64 bytes; see weight_kind."),
+]
+SampleWeightMeaning = Annotated[
+    SampleWeightKind,
+    Meta(
+        description=(
+            "frequency: a weight w is the same as repeating the value w times; reliability: "
+            "analytic weights (inverse-variance), effective size (sum w)^2 / sum w^2."
+        )
+    ),
+]
+
+
 class SamplesData(Message):
     """Raw observations, optionally weighted."""
 
-    values: Annotated[
-        Annotated[list[Observation], Meta(min_length=1)] | Float64Bytes,
-        Meta(
-            description=(
-                "Raw observations in observation order: a list, or float64 bytes (NaN marks a "
-                "missing value there)."
-            )
-        ),
-    ]
-    weights: Annotated[
-        list[NonNegative] | Float64Bytes | None,
-        Meta(description="Optional weight per value (same length as values), a list or float64 bytes; see weight_kind."),
-    ] = None
-    weight_kind: Annotated[
-        SampleWeightKind,
-        Meta(
-            description=(
-                "frequency: a weight w is the same as repeating the value w times; reliability: "
-                "analytic weights (inverse-variance), effective size (sum w)^2 / sum w^2."
-            )
-        ),
-    ] = SampleWeightKind.FREQUENCY
+    values: SampleValues
+    weights: SampleWeights = None
+    weight_kind: SampleWeightMeaning = SampleWeightKind.FREQUENCY
 
 
 class Outcome(Message):
@@ -304,7 +311,10 @@ __all__ = [
     "HistogramLayout",
     "HistogramRequest",
     "Outcome",
+    "SampleValues",
     "SampleWeightKind",
+    "SampleWeightMeaning",
+    "SampleWeights",
     "SamplesData",
     "SamplesInput",
     "SamplesRequest",

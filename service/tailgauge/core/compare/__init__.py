@@ -34,7 +34,7 @@ ch. 2 and 8 (two-sample bootstrap: each sample resampled on its own), ch. 14 (BC
 B. L. Welch, Biometrika 34, 1947 (the t interval for a difference of means with unequal variances).
 """
 
-from tailgauge.core.compare.assembly import Comparison, compare, restricted_comparison, side_seeds
+from tailgauge.core.compare.assembly import Comparison, Contrasts, compare, contrast, restricted_comparison, side_seeds
 from tailgauge.core.compare.contrasts import Difference, QuantileShift, StandardizedPair, StandardizedQuantile
 from tailgauge.core.compare.effect_size import StandardizedMeanDifference, hedges_correction
 from tailgauge.core.compare.warnings import ComparisonWarning
@@ -48,6 +48,7 @@ __all__ = [
     "SCALE_DESCRIPTORS",
     "SMALL_EXPECTED_COUNT",
     "Comparison",
+    "Contrasts",
     "ComparisonWarning",
     "Difference",
     "DistributionTest",
@@ -56,6 +57,7 @@ __all__ = [
     "StandardizedPair",
     "StandardizedQuantile",
     "compare",
+    "contrast",
     "hedges_correction",
     "side_seeds",
 ]

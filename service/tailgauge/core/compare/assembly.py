@@ -154,19 +154,9 @@ def compare(
         _for_side("first", describe, first, side_options[0], kind=kinds[0]),
         _for_side("second", describe, second, side_options[1], kind=kinds[1]),
     )
-    estimates = (_estimates(described[0]), _estimates(described[1]))
     notes = Warnings()
     pending = IntervalWarnings()
-    resampled = None
-    if interval is not None:
-        replicates = [d.resampling.replicates if d.resampling is not None else None for d in described]
-        assert replicates[0] is not None and replicates[1] is not None
-        resampled = Resampled(replicates[0], replicates[1], estimates, interval)
-
-    contrasts = differences(estimates, resampled, notes, pending)
-    scale_ratios = ratios(estimates, resampled, notes, pending)
-    welch(contrasts, described, (first, second), interval)
-    shifts = quantile_shifts(described, resampled, notes, pending)
+    estimates, resampled, contrasts, scale_ratios, shifts = _paired(described, (first, second), interval, notes, pending)
     standardized = standardized_quantiles(described, estimates, resampled, notes, pending)
     effect = standardized_mean_difference(described, estimates, resampled, notes, pending)
     test = distribution_test(first, second, notes)
@@ -197,6 +187,68 @@ def compare(
         warnings=notes.of_comparison(),
         resampling=resampling,
     )
+
+
+def _paired(
+    described: tuple[Description, Description],
+    data: tuple[WeightedData, WeightedData],
+    interval: resample.IntervalOptions | None,
+    notes: Warnings,
+    pending: IntervalWarnings,
+):
+    """The contrasts every comparison has, in the order their warnings are given: the estimates,
+    the paired replicates (``None`` without intervals), differences (with Welch's interval),
+    ratios and quantile shifts."""
+    estimates = (_estimates(described[0]), _estimates(described[1]))
+    resampled = None
+    if interval is not None:
+        replicates = [d.resampling.replicates if d.resampling is not None else None for d in described]
+        assert replicates[0] is not None and replicates[1] is not None
+        resampled = Resampled(replicates[0], replicates[1], estimates, interval)
+    contrasts = differences(estimates, resampled, notes, pending)
+    scale_ratios = ratios(estimates, resampled, notes, pending)
+    welch(contrasts, described, data, interval)
+    shifts = quantile_shifts(described, resampled, notes, pending)
+    return estimates, resampled, contrasts, scale_ratios, shifts
+
+
+@dataclass(frozen=True)
+class Contrasts:
+    """A second description contrasted with a first, as :func:`compare` contrasts them (its
+    differences, ratios, quantile shifts and standardized mean difference, with their
+    warnings), for descriptions already computed, e.g. each group against a baseline group."""
+
+    differences: dict[str, Difference]
+    ratios: dict[str, Difference]
+    standardized_mean_difference: StandardizedMeanDifference
+    quantile_shifts: list[QuantileShift]
+    warnings: list[ComparisonWarning]
+
+
+def contrast(
+    described: tuple[Description, Description],
+    data: tuple[WeightedData, WeightedData],
+    interval: resample.IntervalOptions | None,
+    selection: Selection | None = None,
+) -> Contrasts:
+    """The second of ``described`` against the first, by :func:`compare`'s rules; with
+    ``interval`` each description must carry its resamples' replicates (the intervals of the
+    contrasts pair replicate k of each). ``selection``: only the contrasts of shown descriptors,
+    as :func:`restricted_comparison` keeps them. Each description reads only the mean and the
+    standard deviation of the other (the standardized mean difference)."""
+    notes = Warnings()
+    pending = IntervalWarnings()
+    estimates, resampled, contrasts, scale_ratios, shifts = _paired(described, data, interval, notes, pending)
+    effect = standardized_mean_difference(described, estimates, resampled, notes, pending)
+    note_conventions(described, notes)
+    pending.emit(notes)
+    warnings = notes.of_comparison()
+    if selection is not None:
+        contrasts = {name: d for name, d in contrasts.items() if selection.shows(name)}
+        scale_ratios = {name: d for name, d in scale_ratios.items() if selection.shows(name)}
+        shifts = shifts if selection.shows("quantiles") else []
+        warnings = shown_warnings(warnings, selection)
+    return Contrasts(contrasts, scale_ratios, effect, shifts, warnings)
 
 
 # Comparison members that follow the quantiles member.

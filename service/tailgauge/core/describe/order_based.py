@@ -101,7 +101,9 @@ def order_descriptors(
     descriptors["range"] = Descriptor(spread_range, "maximum - minimum")
     iqr = None
     if not basis.single and quartiles.size and np.all(np.isfinite(quartiles)):
-        iqr = notes.finite(float(quartiles[1] - quartiles[0]), "interquartile_range")
+        with np.errstate(over="ignore"):  # quartiles of opposite sign near float64's limit
+            spread = float(quartiles[1] - quartiles[0])
+        iqr = notes.finite(spread, "interquartile_range")
     elif not basis.single and data.binned:
         notes.add(WarningCode.QUANTILE_IN_OPEN_BIN, "a quartile falls inside an open-ended bin", ["interquartile_range"])
     method = "grouped" if data.binned else f"type {basis.quantile_type}"
