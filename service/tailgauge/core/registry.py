@@ -19,7 +19,7 @@ from collections.abc import Callable
 from dataclasses import dataclass
 from typing import Literal
 
-Family = Literal["location", "spread", "shape", "extremes", "serial", "robust_shape", "l_moment"]
+Family = Literal["location", "spread", "shape", "extremes", "serial", "robust_shape", "l_moment", "tail"]
 # What a descriptor is computed from. "sums": the shifted central power sums (what partial states
 # carry); "extremes": the minimum and maximum; "quantiles": order statistics (a quantile sketch
 # can stand in); "values": the observed values themselves; "order": their order of observation;
@@ -256,6 +256,45 @@ DESCRIPTORS: tuple[DescriptorFacts, ...] = (
 )
 
 
+_TRIM = "g = floor(gamma n) per side for whole counts (scipy.stats.trim_mean's rule), gamma W for other weights"
+_OPEN_WINDOW = "its window reaches an open-ended bin holding data"
+# Location beyond the arithmetic mean and Hill's tail index (core/location_means.py, core/tail_measures.py).
+DESCRIPTORS += (
+    _descriptor(
+        "trimmed_mean", f"(1/(W - 2g)) integral of the step quantile function Q over (g, W - g]; {_TRIM}; bins: the "
+          "interpolated grouped quantile function", ("trim_proportion", "weights"), (_OPEN_WINDOW,),
+          "Tukey & McLaughlin, Sankhya A 25, 1963",
+        family="location", needs=_VALUES,
+    ),
+    _descriptor(
+        "winsorized_mean", f"(g Q(g+) + integral_g^(W-g) Q + g Q(W - g)) / W: the g smallest set to x(g+1), the g "
+          f"largest to x(n-g); {_TRIM}", ("trim_proportion", "weights"), (_OPEN_WINDOW,),
+          "Tukey & McLaughlin 1963; scipy.stats.mstats.winsorize",
+        family="location", needs=_VALUES,
+    ),
+    _descriptor(
+        "geometric_mean", "exp(sum w ln x / W) (bins: at their midpoints)", ("weights",),
+          ("zero or negative values (bins: reaching below zero)", _OPEN), "scipy.stats.gmean",
+        family="location", needs=_VALUES,
+    ),
+    _descriptor(
+        "harmonic_mean", "W / sum (w / x) (bins: at their midpoints)", ("weights",),
+          ("zero or negative values (bins: reaching below zero)", _OPEN), "scipy.stats.hmean",
+        family="location", needs=_VALUES,
+    ),
+    _descriptor(
+        "upper_tail_index", "Hill's alpha = k / sum_{i=1..k} ln(X_(n-i+1) / X_(n-k)) over the k largest observations, "
+          "k = options.tail_count or round(sqrt(n)) (a common rule of thumb); asymptotic standard error alpha / "
+          "sqrt(k). A smaller index is a heavier tail: below 4 the population kurtosis does not exist, below 2 the "
+          "variance does not", ("tail_count",),
+          ("fewer than 50 observations", "X_(n-k) <= 0 (a non-positive tail threshold)",
+           "bins, probabilities, reliability or fractional weights"),
+          "Hill, Annals of Statistics 3, 1975",
+        family="tail", needs=frozenset({"values", "whole_counts"}),
+    ),
+)
+
+
 # The response members beside the scalar descriptors, as the catalog describes them.
 MEMBERS: tuple[CatalogEntry, ...] = (
     CatalogEntry("moments.raw", "moments", "plug-in E[x^k], k = 1 .. moment_order", ("moment_order",),
@@ -326,6 +365,19 @@ MEMBERS: tuple[CatalogEntry, ...] = (
           "chi-square test of homogeneity (bins on the same edges)", (),
           ("probabilities, reliability or fractional weights", "bins against other kinds or other edges"),
           "scipy.stats.ks_2samp, scipy.stats.chi2_contingency; Hodges, Arkiv for Matematik 3, 1958"),
+    CatalogEntry("exceedances", "exceedances",
+          "per threshold t: proportion_above = weight of values > t / W, proportion_at_or_below, count_above (whole "
+          "counts), and a Clopper-Pearson interval of proportion_above: exact for whole counts, on Kish's effective n "
+          "for reliability weights, on the total weight for fractional counts; bins: the count above a threshold "
+          "inside a bin is interpolated (even spread within it), labelled interpolated", ("thresholds", "interval"),
+          ("the threshold falls in an open-ended bin holding data", "interval: a probability table (exact)"),
+          "Clopper & Pearson, Biometrika 26, 1934; Korn & Graubard, Survey Methodology 24, 1998"),
+    CatalogEntry("tail_means", "tail_means",
+          "per level alpha: upper = (1/(1 - alpha)) integral_alpha^1 q(u) du and lower = (1/(1 - alpha)) "
+          "integral_0^(1-alpha) q(u) du, q the step quantile function (the boundary observation enters with its "
+          "fractional weight); bins: the interpolated grouped quantile function; bootstrap intervals", ("tail_levels",
+          "interval"), ("the tail reaches an open-ended bin holding data",),
+          "Acerbi & Tasche, Journal of Banking & Finance 26, 2002 (expected shortfall)"),
     CatalogEntry("scores", "scores", "z = (x - mean) / sd and robust z = (x - median) / normal-consistent MAD",
           ("convention",), ("zero or undefined spread",), "standard scores; Hampel 1974 for the MAD"),
     CatalogEntry("partial_state", "partial_state",
@@ -402,7 +454,7 @@ class WarningCode(enum.StrEnum):
         "interval_not_offered",
         "the bootstrap is inconsistent, or not known to be consistent, for this descriptor (extremes, "
         "serial order, the half-sample mode), or resampling it is too costly for these data within the "
-        "budget (the medcouple)",
+        "budget (the medcouple), or the data are a whole population (a probability table's exceedances)",
     )
     RESAMPLING_SCHEME = "resampling_scheme", "how fractional weights were resampled"
     BOOTSTRAP_SMALL_SAMPLE = "bootstrap_small_sample", "n < 20: intervals may cover less than their level"
@@ -435,6 +487,24 @@ class WarningCode(enum.StrEnum):
         "expected counts below 5: the chi-square approximation may be poor",
     )
     SCORE_UNDEFINED = "score_undefined", "the reference's spread is zero or undefined: no z-score"
+    TAIL_INDEX_UNDEFINED = (
+        "tail_index_undefined",
+        "Hill's tail index needs 50 or more observations with whole counts and a positive tail threshold X_(n-k)",
+    )
+    KURTOSIS_MAY_NOT_EXIST = (
+        "kurtosis_may_not_exist",
+        "the estimated upper tail index is below 4: the population kurtosis may not exist, so the sample kurtosis "
+        "may estimate nothing finite",
+    )
+    POSITIVE_VALUES_REQUIRED = "positive_values_required", "geometric and harmonic means need positive values"
+    EXCEEDANCE_INTERPOLATED = (
+        "exceedance_interpolated",
+        "a threshold falls inside a bin: the count above it is interpolated (even spread within the bin)",
+    )
+    TAIL_IN_OPEN_BIN = (
+        "tail_in_open_bin",
+        "a threshold, a tail or a trimming window reaches an open-ended bin holding data, whose values are unknown",
+    )
 
 
 # --- derived lists -------------------------------------------------------------------------

@@ -10,6 +10,7 @@ import math
 import numpy as np
 
 from tailgauge.core import classical, grouped, resample
+from tailgauge.core.describe import tails
 from tailgauge.core.describe.basis import Basis
 from tailgauge.core.describe.options import DescribeOptions
 from tailgauge.core.describe.order_based import ROBUST_PROBABILITIES
@@ -32,11 +33,14 @@ def intervals(
     quantiles: list[Quantile],
     probabilities: np.ndarray,
     notes: Warnings,
+    tail_point: tails.TailPoint | None = None,
 ) -> Resampling:
-    """Bootstrap and classical intervals for every defined descriptor and quantile.
+    """Bootstrap and classical intervals for every defined descriptor and quantile, and for the
+    tail means (``tail_point``).
 
     The data were checked for resampling beforehand (``validation.check_description``).
     """
+    tail_point = tails.TailPoint() if tail_point is None else tail_point
     interval = options.interval
     assert interval is not None
     # Open bins leave the moments undefined; the plan still needs a finite scaling of the values.
@@ -49,10 +53,11 @@ def intervals(
     families = (
         (basis.skewness_family, basis.kurtosis_family) if basis.bias_correctable else ("g1", "g2")
     )
+    estimates = {name: d.value for name, d in descriptors.items() if options.selection.computes(name)}
     outcome = resample.bootstrap(
         data,
         plan_sums,
-        {name: d.value for name, d in descriptors.items() if options.selection.computes(name)},
+        estimates | tail_point.estimates,
         [q.value for q in quantiles],
         probabilities,
         families=families,
@@ -65,10 +70,19 @@ def intervals(
         subset_rows=options.subset_rows,
         sheppard_width=sheppard_width,
         quantile_shape=resample.QuantileShape(ROBUST_PROBABILITIES, NORMAL_OCTILE_KURTOSIS),
+        tails=resample.TailSpec(
+            np.array([m.level for m in tail_point.tail_means], dtype=np.float64), options.trim_proportion,
+            tail_point.tail_count,
+        ),
     )
     fallbacks: dict[str, list[str]] = {}
     undefined: dict[str, list[str]] = {}
     for name, result in outcome.results.items():
+        if name.startswith((tails.UPPER, tails.LOWER)):
+            name = _tail_mean_result(tail_point, name, result)
+            if result.reason is not None:
+                (fallbacks if result.interval is not None else undefined).setdefault(result.reason, []).append(name)
+            continue
         descriptors[name].interval = result.interval
         descriptors[name].standard_error = finite_or_none(result.standard_error) if result.standard_error is not None else None
         if result.reason is not None:
@@ -116,6 +130,9 @@ def intervals(
             ["median", "interquartile_range", "median_absolute_deviation", "quantiles"],
         )
     _classical_intervals(data, sums, basis, interval.level, descriptors, quantiles, probabilities, notes)
+    if tail_point.tail_count is not None:
+        index = descriptors[tails.TAIL_INDEX]
+        index.classical_interval = tails.tail_index_interval(index, tail_point.tail_count, interval.level)
     return Resampling(
         method=interval.method,
         level=interval.level,
@@ -125,6 +142,15 @@ def intervals(
         replicates=outcome.replicates,
     )
 
+
+
+def _tail_mean_result(tail_point: tails.TailPoint, name: str, result: resample.BootstrapResult) -> str:
+    """Put a tail mean's interval in its place; return its name in the answer (tail_means[i])."""
+    upper = name.startswith(tails.UPPER)
+    i = int(name.split(":")[1])
+    side = tail_point.tail_means[i].upper if upper else tail_point.tail_means[i].lower
+    side.interval = result.interval
+    return f"tail_means[{i}]"
 
 
 def _classical_intervals(

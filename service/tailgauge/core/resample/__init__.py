@@ -71,6 +71,7 @@ from tailgauge.core.resample.little import little_bootstraps
 from tailgauge.core.resample.pool import pool
 from tailgauge.core.resample.rows import LeaveOneOut, Rows, Scratch
 from tailgauge.core.resample.statistics import QuantileShape, Statistics
+from tailgauge.core.resample.tail_rows import TailSpec
 from tailgauge.core.weighted import WeightedData
 
 __all__ = [
@@ -85,6 +86,7 @@ __all__ = [
     "Interval",
     "IntervalOptions",
     "QuantileShape",
+    "TailSpec",
     "Replicates",
     "acceleration",
     "allowed_resamples",
@@ -262,6 +264,7 @@ def bootstrap(
     subset_rows: int = 100_000,
     sheppard_width: float | None = None,
     quantile_shape: QuantileShape | None = None,
+    tails: TailSpec | None = None,
 ) -> BootstrapOutcome:
     """Bootstrap every defined scalar descriptor and requested quantile of ``data`` in one pass.
 
@@ -288,10 +291,12 @@ def bootstrap(
     if uses_subsets(plan, subset_rows):
         return little_bootstraps(
             plan, notes, estimates, quantile_estimates, probabilities,
-            Statistics(plan, families, quantile_type, factor_rule, quantile_shape=quantile_shape, left_out=left_out),
+            Statistics(
+                plan, families, quantile_type, factor_rule, quantile_shape=quantile_shape, left_out=left_out, tails=tails
+            ),
             options, deadline,
         )
-    statistics = Statistics(plan, families, quantile_type, factor_rule, sheppard_width, quantile_shape, left_out)
+    statistics = Statistics(plan, families, quantile_type, factor_rule, sheppard_width, quantile_shape, left_out, tails)
     wanted = statistics.wanted(estimates)
 
     own = threading.local()

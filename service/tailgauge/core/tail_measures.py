@@ -1,0 +1,158 @@
+"""Tail questions of one input: exceedances of thresholds, tail means (expected shortfall) and
+Hill's tail index, as point estimates of the data.
+
+The tail means and Hill's estimator read the data as one row of the resampling engine's row
+interface (:func:`one_row`) through :mod:`tailgauge.core.quantile_integrals`, so the point
+estimate and every bootstrap replicate follow the same arithmetic.
+
+References
+----------
+C. J. Clopper and E. S. Pearson, "The use of confidence or fiducial limits illustrated in the
+case of the binomial", Biometrika 26(4), 404-413, 1934.
+E. L. Korn and B. I. Graubard, "Confidence intervals for proportions with small expected number
+of positive counts estimated from survey data", Survey Methodology 24(2), 193-201, 1998
+(Clopper-Pearson on the effective sample size).
+C. Acerbi and D. Tasche, "On the coherence of expected shortfall", J. Banking & Finance 26, 2002.
+B. M. Hill, "A simple general approach to inference about the tail of a distribution", Annals
+of Statistics 3(5), 1163-1174, 1975.
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass
+
+import numpy as np
+from scipy import special
+
+from tailgauge.core import quantile_integrals as qi
+from tailgauge.core.resample.rows import Rows
+from tailgauge.core.weighted import WeightedData, WeightMeaning
+
+# Hill's estimator is given from this many observations on (fewer leave too few in the tail).
+HILL_MIN_N = 50
+CLOPPER_PEARSON = "clopper_pearson"
+CLOPPER_PEARSON_EFFECTIVE_N = "clopper_pearson_effective_n"
+CLOPPER_PEARSON_FRACTIONAL = "clopper_pearson_fractional_counts"
+CLOPPER_PEARSON_INTERPOLATED = "clopper_pearson_interpolated_count"
+
+
+@dataclass(frozen=True)
+class OneRow:
+    """The data as one row of the engine's row interface, with its grid (values less ``centre``,
+    and bin edges for bins) and the raw values."""
+
+    view: Rows
+    grid: qi.Grid
+    centre: float
+    values: np.ndarray
+    whole: bool
+
+
+def one_row(data: WeightedData) -> OneRow:
+    """The data as one row (support values and weights; bins at their midpoints with edges)."""
+    if data.binned:
+        assert data.weights is not None and data.edges is not None
+        values, weights = data.values, data.weights
+    else:
+        support = data.support
+        values, weights = support.values, support.weights
+    whole = data.integer_weights and data.meaning is not WeightMeaning.PROBABILITY
+    # Centred on a middle support value: sums of the deviations keep the digits a far offset would take.
+    centre = float(values[values.size // 2])
+    with np.errstate(over="ignore", invalid="ignore"):
+        column = values - centre
+        edges = None if data.edges is None else data.edges - centre
+    open_ends = (bool(np.isinf(data.edges[0])), bool(np.isinf(data.edges[-1]))) if data.binned else (False, False)
+    row = weights[None, :].astype(np.float64)
+    view = Rows(row, None, whole, row.astype(np.int64) if whole else None)
+    return OneRow(view, qi.Grid(column, edges, open_ends), centre, values, whole)
+
+
+def tail_means(row: OneRow, levels: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """Upper and lower tail means at each level (NaN where undefined)."""
+    with np.errstate(over="ignore", invalid="ignore"):
+        upper, lower = qi.tail_means(row.view, row.grid, levels)
+        return upper[0] + row.centre, lower[0] + row.centre
+
+
+def default_tail_count(n: float) -> int:
+    """k = round(sqrt(n)): a common rule of thumb for Hill's estimator (not an optimal choice)."""
+    return int(round(math.sqrt(n)))
+
+
+def hill_estimate(row: OneRow, k: int) -> float:
+    """Hill's estimate over the k largest observations (NaN when undefined)."""
+    positive = row.values > 0.0
+    logs = np.log(np.where(positive, row.values, 1.0))
+    return float(qi.hill(row.view, row.values, logs, k)[0])
+
+
+def tail_threshold(row: OneRow, k: int) -> float:
+    """X_(n-k), the largest observation below the k largest."""
+    total = float(row.view.total[0])
+    return float(row.values[row.view.first_reaching(np.array([[total - k]]))[0, 0]])
+
+
+@dataclass(frozen=True)
+class Exceeded:
+    """The weight above one threshold, and whether it was interpolated within a bin."""
+
+    above: float | None  # None: the threshold falls in an open bin holding data
+    interpolated: bool
+
+
+def weight_above(data: WeightedData, thresholds: np.ndarray) -> list[Exceeded]:
+    """The weight of values strictly above each threshold; for bins, the weight of the bins above
+    and, for a threshold inside a bin, the share of that bin above it (even spread within bins)."""
+    if not data.binned:
+        support = data.support
+        index = np.searchsorted(support.values, thresholds, side="right")
+        below = np.where(index > 0, support.cumulative[np.maximum(index - 1, 0)], 0.0)
+        return [Exceeded(float(support.total - b), False) for b in below]
+    assert data.weights is not None and data.edges is not None
+    edges, weights = data.edges, data.weights
+    cumulative = np.cumsum(weights)
+    total = float(cumulative[-1])
+    found = []
+    for t in thresholds:
+        # Bin i spans (edges[i], edges[i + 1]]: i is the bin holding t (t at an edge: the bin below).
+        i = int(np.searchsorted(edges, t, side="left")) - 1
+        if i < 0:
+            found.append(Exceeded(total, False))
+            continue
+        if i >= weights.size:
+            found.append(Exceeded(0.0, False))
+            continue
+        above_bin = total - float(cumulative[i])
+        low, high = float(edges[i]), float(edges[i + 1])
+        if t == high:
+            found.append(Exceeded(above_bin, False))
+        elif weights[i] > 0.0 and not (math.isfinite(low) and math.isfinite(high)):
+            found.append(Exceeded(None, False))
+        elif weights[i] == 0.0:
+            found.append(Exceeded(above_bin, False))
+        else:
+            found.append(Exceeded(above_bin + float(weights[i]) * (high - t) / (high - low), True))
+    return found
+
+
+def clopper_pearson(successes: float, trials: float, level: float) -> tuple[float, float]:
+    """The Clopper-Pearson interval of a proportion (successes and trials may be fractional: the
+    beta quantiles extend to them, as with an effective sample size)."""
+    alpha = 1.0 - level
+    low = 0.0 if successes <= 0.0 else float(special.betaincinv(successes, trials - successes + 1.0, alpha / 2.0))
+    high = 1.0 if successes >= trials else float(special.betaincinv(successes + 1.0, trials - successes, 1.0 - alpha / 2.0))
+    return low, high
+
+
+def interval_method(data: WeightedData, interpolated: bool) -> tuple[str, float] | None:
+    """How the interval of a proportion above is made for these data, and its number of trials
+    (``None`` for a probability table, whose proportions are exact)."""
+    if data.meaning is WeightMeaning.PROBABILITY:
+        return None
+    if data.meaning is WeightMeaning.RELIABILITY:
+        return CLOPPER_PEARSON_EFFECTIVE_N, data.effective_size
+    if not data.integer_weights:
+        return CLOPPER_PEARSON_FRACTIONAL, data.total_weight
+    return (CLOPPER_PEARSON_INTERPOLATED if interpolated else CLOPPER_PEARSON), data.total_weight
