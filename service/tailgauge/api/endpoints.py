@@ -202,6 +202,10 @@ def describe_options(options: CoreChoices, settings: Settings, decoding: float =
         contributions_limit=settings.max_contributions_listed,
         # The schema admits only known names; scores read four descriptors whether shown or not.
         descriptors=choose(options.descriptors, also=READ_BY_SCORES if options.score else ()),
+        thresholds=tuple(options.thresholds),
+        tail_levels=tuple(options.tail_levels),
+        trim_proportion=options.trim_proportion,
+        tail_count=options.tail_count,
     )
 
 

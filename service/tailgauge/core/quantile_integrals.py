@@ -28,21 +28,29 @@ import numpy as np
 PART_BYTES = 4 << 20
 
 
-def _prefix_at(view, column: np.ndarray, index: np.ndarray) -> np.ndarray:
-    """P(index) = sum_{j <= index} w_j column_j for each row of ``view`` (rows x m)."""
+def _prefix_before(view, column: np.ndarray, index: np.ndarray) -> np.ndarray:
+    """P(index - 1) = sum_{j < index} w_j column_j for each row of ``view`` (rows x m)."""
+    before = index - 1
     if hasattr(view, "positions"):  # leave-one-out rows: the data's prefix less one observation
         base = np.cumsum(view.base * column)
         removed = (view.removed * column[view.positions])[:, None]
-        return base[index] - np.where(index >= view.positions[:, None], removed, 0.0)
+        found = base[np.maximum(before, 0)] - np.where(before >= view.positions[:, None], removed, 0.0)
+        return np.where(before >= 0, found, 0.0)
     weights = view.weights
     rows, k = weights.shape
     out = np.empty(index.shape)
     step = max(1, PART_BYTES // (8 * max(k, 1)))
+    clipped = np.maximum(before, 0)
     for start in range(0, rows, step):
         part = slice(start, start + step)
         prefix = np.cumsum(weights[part] * column, axis=1)
-        out[part] = np.take_along_axis(prefix, index[part], axis=1)
-    return out
+        out[part] = np.take_along_axis(prefix, clipped[part], axis=1)
+    return np.where(before >= 0, out, 0.0)
+
+
+def _cumulative_before(view, index: np.ndarray) -> np.ndarray:
+    """C(index - 1): the weight below position ``index`` of each row."""
+    return np.where(index > 0, view.cumulative_at(np.maximum(index - 1, 0)), 0.0)
 
 
 def dense_sum(view, column: np.ndarray) -> np.ndarray:
@@ -70,27 +78,38 @@ class Grid:
         self.open_lower, self.open_upper = open_ends
 
 
-def _looked_up(view, grid: Grid, targets: np.ndarray):
+def _pieces(view, grid: Grid, targets: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """Per row and target: the position i reaching it, P(i - 1), and the part of G(t) inside
+    position i ((t - C(i-1)) x_i; for bins the integral of the interpolated quantile over it)."""
     index = view.first_reaching(targets)
-    cumulative = view.cumulative_at(index)
+    inside = targets - _cumulative_before(view, index)
+    prefix = _prefix_before(view, grid.column, index)
+    if grid.edges is None:
+        return index, prefix, inside * grid.column[index]
     weight = view.weight_at(index)
-    return index, cumulative, weight
+    lower = grid.edges[index]
+    width = grid.edges[index + 1] - lower
+    with np.errstate(invalid="ignore", divide="ignore"):
+        share = np.where(weight > 0.0, inside / weight, 0.0)
+    return index, prefix, np.where(inside > 0.0, inside * (lower + 0.5 * share * width), 0.0)
 
 
 def integral(view, grid: Grid, targets: np.ndarray) -> np.ndarray:
     """G(t) of each row at ``targets`` (rows x m, each in [0, W])."""
-    index, cumulative, weight = _looked_up(view, grid, targets)
-    prefix = _prefix_at(view, grid.column, index)
-    values = grid.column[index]
-    if grid.edges is None:
-        return prefix - (cumulative - targets) * values
-    lower = grid.edges[index]
-    width = grid.edges[index + 1] - lower
-    before = prefix - weight * values
-    inside = targets - (cumulative - weight)
-    with np.errstate(invalid="ignore", divide="ignore"):
-        share = np.where(weight > 0.0, inside / weight, 0.0)
-    return before + np.where(inside > 0.0, inside * (lower + 0.5 * share * width), 0.0)
+    _, prefix, part = _pieces(view, grid, targets)
+    return prefix + part
+
+
+def difference(view, grid: Grid, low: np.ndarray, high: np.ndarray) -> np.ndarray:
+    """G(high) - G(low) per row and window; (high - low) x_i exactly when both ends fall on the
+    same support value i (no cancellation of the prefix sums)."""
+    m = low.shape[1]
+    index, prefix, part = _pieces(view, grid, np.concatenate((low, high), axis=1))
+    general = (prefix[:, m:] - prefix[:, :m]) + (part[:, m:] - part[:, :m])
+    if grid.edges is not None:
+        return general
+    same = index[:, :m] == index[:, m:]
+    return np.where(same, (high - low) * grid.column[index[:, :m]], general)
 
 
 def quantile(view, grid: Grid, targets: np.ndarray, *, after: bool = False) -> np.ndarray:
@@ -99,11 +118,12 @@ def quantile(view, grid: Grid, targets: np.ndarray, *, after: bool = False) -> n
     if grid.edges is None:
         found = targets if not after else np.nextafter(targets, np.inf)
         return grid.column[view.first_reaching(found)]
-    index, cumulative, weight = _looked_up(view, grid, targets)
+    index = view.first_reaching(targets)
+    weight = view.weight_at(index)
     lower = grid.edges[index]
     width = grid.edges[index + 1] - lower
     with np.errstate(invalid="ignore", divide="ignore"):
-        share = np.where(weight > 0.0, (targets - (cumulative - weight)) / weight, 0.0)
+        share = np.where(weight > 0.0, (targets - _cumulative_before(view, index)) / weight, 0.0)
     return lower + share * width
 
 
@@ -126,10 +146,8 @@ def reaches_open_bin(view, grid: Grid, low: np.ndarray, high: np.ndarray) -> np.
 def window_means(view, grid: Grid, low: np.ndarray, high: np.ndarray) -> np.ndarray:
     """(G(high) - G(low)) / (high - low) per row and window: the mean of Q over the window
     (NaN where it is empty or reaches an open bin holding weight)."""
-    both = integral(view, grid, np.concatenate((low, high), axis=1))
-    m = low.shape[1]
     with np.errstate(invalid="ignore", divide="ignore"):
-        means = (both[:, m:] - both[:, :m]) / (high - low)
+        means = difference(view, grid, low, high) / (high - low)
     return np.where(reaches_open_bin(view, grid, low, high) | ~(high > low), np.nan, means)
 
 
@@ -166,8 +184,7 @@ def trimmed_and_winsorized(view, grid: Grid, proportion: float, whole: bool) -> 
     total = np.asarray(view.total, dtype=np.float64).reshape(-1, 1)
     cut = trimmed_count(total, proportion, whole)
     low, high = cut, total - cut
-    both = integral(view, grid, np.concatenate((low, high), axis=1))
-    middle = both[:, 1] - both[:, 0]
+    middle = difference(view, grid, low, high)[:, 0]
     bottom = quantile(view, grid, low, after=True)[:, 0]
     top = quantile(view, grid, high)[:, 0]
     cut, total = cut[:, 0], total[:, 0]
@@ -186,8 +203,6 @@ def hill(view, values: np.ndarray, logs: np.ndarray, k: int) -> np.ndarray:
     total = np.asarray(view.total, dtype=np.float64).reshape(-1, 1)
     start = total - k
     threshold = values[view.first_reaching(start)][:, 0]
-    grid = Grid(logs)
-    both = integral(view, grid, np.concatenate((start, total), axis=1))
     with np.errstate(invalid="ignore", divide="ignore"):
-        spread = (both[:, 1] - both[:, 0]) - k * np.log(np.where(threshold > 0.0, threshold, np.nan))
+        spread = difference(view, Grid(logs), start, total)[:, 0] - k * np.log(np.where(threshold > 0.0, threshold, np.nan))
         return np.where((threshold > 0.0) & (spread > 0.0), k / spread, np.nan)

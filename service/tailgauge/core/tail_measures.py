@@ -108,8 +108,9 @@ def weight_above(data: WeightedData, thresholds: np.ndarray) -> list[Exceeded]:
     if not data.binned:
         support = data.support
         index = np.searchsorted(support.values, thresholds, side="right")
-        below = np.where(index > 0, support.cumulative[np.maximum(index - 1, 0)], 0.0)
-        return [Exceeded(float(support.total - b), False) for b in below]
+        # Summed from the top (one pass): a small share above is not the difference of two near totals.
+        from_top = np.append(np.cumsum(support.weights[::-1])[::-1], 0.0)
+        return [Exceeded(float(from_top[i]), False) for i in index]
     assert data.weights is not None and data.edges is not None
     edges, weights = data.edges, data.weights
     cumulative = np.cumsum(weights)

@@ -61,6 +61,7 @@ def admit(inputs: list[WeightedData], options: DescribeOptions) -> cost.Estimate
         max_bytes=options.max_memory_bytes,
         seconds=left,
         max_work=options.max_resample_work,
+        tail_levels=len(options.tail_levels),
     )
 
 

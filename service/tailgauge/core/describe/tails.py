@@ -225,9 +225,9 @@ def exceedances(data: WeightedData, options: DescribeOptions, notes: Warnings) -
     for i, (threshold, exceeded) in enumerate(zip(options.thresholds, tail_measures.weight_above(data, np.array(options.thresholds)))):
         if exceeded.above is None:
             in_open.append(f"exceedances[{i}]")
-            found.append(Exceedance(threshold, None, None, None, False, None))
+            found.append(Exceedance(float(threshold), None, None, None, False, None))
             continue
-        above = min(max(exceeded.above, 0.0), total)
+        above = float(min(max(exceeded.above, 0.0), total))
         share = above / total
         how = tail_measures.interval_method(data, exceeded.interpolated)
         interval = None
@@ -239,7 +239,7 @@ def exceedances(data: WeightedData, options: DescribeOptions, notes: Warnings) -
         if exceeded.interpolated:
             interpolated.append(f"exceedances[{i}]")
         count = int(round(above)) if counted and not exceeded.interpolated else None
-        found.append(Exceedance(threshold, share, (total - above) / total, count, exceeded.interpolated, interval))
+        found.append(Exceedance(float(threshold), share, (total - above) / total, count, exceeded.interpolated, interval))
     if interpolated:
         notes.add(
             WarningCode.EXCEEDANCE_INTERPOLATED,
