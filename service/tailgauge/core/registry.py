@@ -287,10 +287,10 @@ DESCRIPTORS += (
           "k = options.tail_count or round(sqrt(n)) (a common rule of thumb); asymptotic standard error alpha / "
           "sqrt(k). A smaller index is a heavier tail: below 4 the population kurtosis does not exist, below 2 the "
           "variance does not", ("tail_count",),
-          ("fewer than 50 observations", "X_(n-k) <= 0 (a non-positive tail threshold)",
+          ("fewer than 50 observations", "X_(n-k) <= 0 (a non-positive tail threshold)", _CONSTANT,
            "bins, probabilities, reliability or fractional weights"),
-          "Hill, Annals of Statistics 3, 1975",
-        family="tail", needs=frozenset({"values", "whole_counts"}),
+          "Hill, Annals of Statistics 3, 1975; asymptotic normality: Hall, JRSS-B 44, 1982",
+        family="tail", needs=frozenset({"values", "whole_counts"}), classical=True,
     ),
 )
 
@@ -539,7 +539,7 @@ UNDEFINED_FOR_ONE = names(
     "spread", "shape", "robust_shape", "l_moment", "serial", where=lambda facts: facts.undefined_for_one
 )
 UNDEFINED_FOR_CONSTANT = names(
-    "shape", "robust_shape", "l_moment", "serial", where=lambda facts: facts.undefined_for_constant
+    "shape", "robust_shape", "l_moment", "serial", "tail", where=lambda facts: facts.undefined_for_constant
 )
 # Undefined while an open-ended bin holds data (its values are unknown), in response order.
 UNDEFINED_FOR_OPEN_BIN = tuple(facts.name for facts in DESCRIPTORS if _OPEN in facts.undefined_when)

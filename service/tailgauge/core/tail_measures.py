@@ -47,6 +47,11 @@ class OneRow:
     centre: float
     values: np.ndarray
     whole: bool
+    exponent: int = 0  # the grid's column is (values - centre) / 2**exponent
+
+    def unscaled(self, scaled: np.ndarray) -> np.ndarray:
+        """A mean over the grid's column, back in the data's units."""
+        return np.ldexp(scaled, self.exponent) + self.centre
 
 
 def one_row(data: WeightedData) -> OneRow:
@@ -58,22 +63,25 @@ def one_row(data: WeightedData) -> OneRow:
         support = data.support
         values, weights = support.values, support.weights
     whole = data.integer_weights and data.meaning is not WeightMeaning.PROBABILITY
-    # Centred on a middle support value: sums of the deviations keep the digits a far offset would take.
+    # Centred on a middle support value (sums of the deviations keep the digits a far offset would
+    # take) and scaled by a power of two, exactly, so no deviation overflows near float64's limit.
     centre = float(values[values.size // 2])
+    largest = float(np.max(np.abs(values)))
+    exponent = math.frexp(largest)[1] + 1 if largest > 0.0 else 0
     with np.errstate(over="ignore", invalid="ignore"):
-        column = values - centre
-        edges = None if data.edges is None else data.edges - centre
+        column = np.ldexp(values, -exponent) - math.ldexp(centre, -exponent)
+        edges = None if data.edges is None else np.ldexp(data.edges, -exponent) - math.ldexp(centre, -exponent)
     open_ends = (bool(np.isinf(data.edges[0])), bool(np.isinf(data.edges[-1]))) if data.binned else (False, False)
     row = weights[None, :].astype(np.float64)
     view = Rows(row, None, whole, row.astype(np.int64) if whole else None)
-    return OneRow(view, qi.Grid(column, edges, open_ends), centre, values, whole)
+    return OneRow(view, qi.Grid(column, edges, open_ends), centre, values, whole, exponent)
 
 
 def tail_means(row: OneRow, levels: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
     """Upper and lower tail means at each level (NaN where undefined)."""
     with np.errstate(over="ignore", invalid="ignore"):
         upper, lower = qi.tail_means(row.view, row.grid, levels)
-        return upper[0] + row.centre, lower[0] + row.centre
+        return row.unscaled(upper[0]), row.unscaled(lower[0])
 
 
 def default_tail_count(n: float) -> int:

@@ -115,7 +115,8 @@ def _trimmed(descriptors: dict[str, Descriptor], seen: _Data, proportion: float,
               "nearest value kept"}
     undefined = []
     for name, value in zip(TRIMMED, (trimmed[0], winsorized[0])):
-        result = finite_or_none(float(value) + row.centre)
+        with np.errstate(over="ignore"):
+            result = finite_or_none(float(row.unscaled(value)))
         descriptors[name] = Descriptor(result, labels[name])
         if result is None:
             undefined.append(name)
