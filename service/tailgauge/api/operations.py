@@ -54,14 +54,18 @@ class Operation:
 _EXAMPLES = {
     "/v1/descriptors/samples": {
         "values": [251.2, 249.8, 250.4, 252.9, 250.1, 249.5, 250.7, 251.0, 248.9, 250.3, 250.3],
-        "options": {"probabilities": [0.05, 0.5, 0.95]},
+        "options": {"probabilities": [0.05, 0.5, 0.95], "thresholds": [249.5], "tail_levels": [0.9]},
     },
     "/v1/descriptors/table": {
         "outcomes": [{"value": 0, "weight": 412}, {"value": 1, "weight": 187}, {"value": 2, "weight": 61},
                      {"value": 3, "weight": 17}, {"value": 4, "weight": 3}],
         "weight_kind": "counts",
+        "options": {"thresholds": [2], "tail_levels": [0.95, 0.99]},
     },
-    "/v1/descriptors/bins": {"edges": [0, 15, 30, 45, 60, None], "counts": [18, 64, 41, 12, 5]},
+    "/v1/descriptors/bins": {
+        "edges": [0, 15, 30, 45, 60, None], "counts": [18, 64, 41, 12, 5],
+        "options": {"thresholds": [40], "tail_levels": [0.5]},
+    },
     "/v1/descriptors/merge": {
         "states": [
             {"count": 4, "mean": 2.5, "central_sums": [5.0, 0.0, 10.25], "minimum": 1, "maximum": 4},
