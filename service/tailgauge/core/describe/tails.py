@@ -210,7 +210,12 @@ def _tail_means(seen: _Data, levels: tuple[float, ...], notes: Warnings, estimat
         if seen.data.open_bin_weight > 0.0:
             notes.add(WarningCode.TAIL_IN_OPEN_BIN, "the tail reaches an open-ended bin holding data", undefined)
         else:
-            notes.add(WarningCode.NOT_REPRESENTABLE, "a tail mean is outside float64's range", undefined)
+            notes.add(
+                WarningCode.UNDEFINED_FOR_THESE_DATA,
+                "the tail holds no weight at this level (1 - level rounds to 0 against the total), or its mean is "
+                "beyond float64's range",
+                undefined,
+            )
     return found
 
 
