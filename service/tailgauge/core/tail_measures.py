@@ -26,7 +26,6 @@ import numpy as np
 from scipy import special
 
 from tailgauge.core import quantile_integrals as qi
-from tailgauge.core.resample.rows import Rows
 from tailgauge.core.weighted import WeightedData, WeightMeaning
 
 # Hill's estimator is given from this many observations on (fewer leave too few in the tail).
@@ -39,42 +38,43 @@ CLOPPER_PEARSON_INTERPOLATED = "clopper_pearson_interpolated_count"
 
 @dataclass(frozen=True)
 class OneRow:
-    """The data as one row of the engine's row interface, with its grid (values less ``centre``,
-    and bin edges for bins) and the raw values."""
+    """The data as one row of the row interface, with its grid (values less ``centre``, scaled by
+    2**-exponent, read only where a window needs them; bin edges for bins) and the raw values."""
 
-    view: Rows
+    view: qi.SupportRow
     grid: qi.Grid
     centre: float
     values: np.ndarray
     whole: bool
-    exponent: int = 0  # the grid's column is (values - centre) / 2**exponent
+    exponent: int = 0
 
     def unscaled(self, scaled: np.ndarray) -> np.ndarray:
-        """A mean over the grid's column, back in the data's units."""
+        """A mean over the grid's values, back in the data's units."""
         return np.ldexp(scaled, self.exponent) + self.centre
 
 
 def one_row(data: WeightedData) -> OneRow:
-    """The data as one row (support values and weights; bins at their midpoints with edges)."""
+    """The data as one row (support values and weights; bins at their midpoints with edges),
+    from the arrays the data already hold (the support's cumulative weights)."""
     if data.binned:
         assert data.weights is not None and data.edges is not None
         values, weights = data.values, data.weights
+        cumulative = np.cumsum(weights)
     else:
         support = data.support
-        values, weights = support.values, support.weights
+        values, cumulative = support.values, support.cumulative
+        # A raw sample without ties: one observation per position (no weights array is read).
+        weights = None if data.weights is None and values.size == data.values.size else support.weights
     whole = data.integer_weights and data.meaning is not WeightMeaning.PROBABILITY
     # Centred on a middle support value (sums of the deviations keep the digits a far offset would
     # take) and scaled by a power of two, exactly, so no deviation overflows near float64's limit.
     centre = float(values[values.size // 2])
-    largest = float(np.max(np.abs(values)))
+    largest = max(abs(float(values[0])), abs(float(values[-1]))) if not data.binned else float(np.max(np.abs(values)))
     exponent = math.frexp(largest)[1] + 1 if largest > 0.0 else 0
-    with np.errstate(over="ignore", invalid="ignore"):
-        column = np.ldexp(values, -exponent) - math.ldexp(centre, -exponent)
-        edges = None if data.edges is None else np.ldexp(data.edges, -exponent) - math.ldexp(centre, -exponent)
+    shift = math.ldexp(centre, -exponent)
     open_ends = (bool(np.isinf(data.edges[0])), bool(np.isinf(data.edges[-1]))) if data.binned else (False, False)
-    row = weights[None, :].astype(np.float64)
-    view = Rows(row, None, whole, row.astype(np.int64) if whole else None)
-    return OneRow(view, qi.Grid(column, edges, open_ends), centre, values, whole, exponent)
+    grid = qi.Grid(values, data.edges, open_ends, transform=lambda x: np.ldexp(x, -exponent) - shift)
+    return OneRow(qi.SupportRow(weights, cumulative), grid, centre, values, whole, exponent)
 
 
 def tail_means(row: OneRow, levels: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
@@ -90,10 +90,9 @@ def default_tail_count(n: float) -> int:
 
 
 def hill_estimate(row: OneRow, k: int) -> float:
-    """Hill's estimate over the k largest observations (NaN when undefined)."""
-    positive = row.values > 0.0
-    logs = np.log(np.where(positive, row.values, 1.0))
-    return float(qi.hill(row.view, row.values, logs, k)[0])
+    """Hill's estimate over the k largest observations (NaN when undefined); logarithms are
+    taken of the k + 1 largest only."""
+    return float(qi.hill(row.view, row.values, qi.Grid(row.values, transform=np.log), k)[0])
 
 
 def tail_threshold(row: OneRow, k: int) -> float:
@@ -116,9 +115,15 @@ def weight_above(data: WeightedData, thresholds: np.ndarray) -> list[Exceeded]:
     if not data.binned:
         support = data.support
         index = np.searchsorted(support.values, thresholds, side="right")
-        # Summed from the top (one pass): a small share above is not the difference of two near totals.
-        from_top = np.append(np.cumsum(support.weights[::-1])[::-1], 0.0)
-        return [Exceeded(float(from_top[i]), False) for i in index]
+        k = support.values.size
+        if data.integer_weights:  # whole counts: the total less the count at or below, exactly
+            below = np.where(index > 0, support.cumulative[np.maximum(index - 1, 0)], 0.0)
+            return [Exceeded(float(support.total - b), False) for b in below]
+        # Other weights: summed from the top over the part above the lowest threshold only (a
+        # small share above is not the difference of two near totals).
+        lowest = int(index.min())
+        from_top = np.append(np.cumsum(support.weights[lowest:][::-1])[::-1], 0.0)
+        return [Exceeded(float(from_top[min(i, k) - lowest]), False) for i in index]
     assert data.weights is not None and data.edges is not None
     edges, weights = data.edges, data.weights
     cumulative = np.cumsum(weights)

@@ -46,6 +46,7 @@ class TailColumns:
         self.grid = qi.Grid(plan.powers[:, 1], edges, open_ends)
         positive = plan.values > 0.0
         self.logs = np.log(np.where(positive, plan.values, 1.0))
+        self.log_grid = qi.Grid(self.logs)
         with np.errstate(divide="ignore", over="ignore"):
             self.reciprocals = np.where(positive, 1.0 / np.where(positive, plan.values, 1.0), np.nan)
 
@@ -64,7 +65,7 @@ def evaluate(plan: Plan, spec: TailSpec, columns: TailColumns, view, names: tupl
         if "harmonic_mean" in names:
             out["harmonic_mean"] = location_means.harmonic_rows(view, columns.reciprocals)
         if "upper_tail_index" in names and spec.tail_count is not None:
-            out["upper_tail_index"] = qi.hill(view, plan.values, columns.logs, spec.tail_count)
+            out["upper_tail_index"] = qi.hill(view, plan.values, columns.log_grid, spec.tail_count)
         if spec.levels.size and any(name.startswith((UPPER, LOWER)) for name in names):
             upper, lower = qi.tail_means(view, columns.grid, spec.levels)
             for i in range(spec.levels.size):
