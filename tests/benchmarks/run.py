@@ -530,8 +530,9 @@ SECTIONS: dict[str, tuple[Callable[..., None], str]] = {
     "merge": (bench_merge, "10,000 partial states; the Dask recipe (size: merge=1e8)"),
     "transport": (bench_transport, "1e6 values through gunicorn by body format (size: transport=1e6)"),
     "cost": (bench_cost, "the cost model beside measured memory and time"),
+    "tails": (lambda size="": __import__("tail_sections").bench_tails(QUICK, size), "exceedances, tail means: added passes"),
 }
-SIZED = {"order", "quantiles", "moments", "merge", "transport"}
+SIZED = {"order", "quantiles", "moments", "merge", "transport", "tails"}
 
 
 def summary() -> str:
