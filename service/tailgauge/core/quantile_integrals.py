@@ -61,6 +61,9 @@ class Grid:
                     edges[-1] = edges[-2]
         self.edges = edges
         self.open_lower, self.open_upper = open_ends
+        # Which column of a resample view's power sums (``view.sums``) is sum_l w_l x_l over this
+        # grid's values, when one is (the engine's scaled deviations are its first power).
+        self.sums_column: int | None = None
 
     def of(self, raw: np.ndarray) -> np.ndarray:
         if self.transform is None:
@@ -126,17 +129,46 @@ def _between(view, grid: Grid, low: np.ndarray, high: np.ndarray) -> np.ndarray:
             return prefix[index] - np.where(positions < index, removed, 0.0)
 
         return np.where(high > low + 1, before(high) - before(low + 1), 0.0)
+    # Resample rows: per window, sums over the positions some row's window spans only (a tail
+    # spans its share of the support); a window wider than half the support (a trimmed mean's) is
+    # the row's total (one matrix-vector product) less the sums below and above it.
     weights = view.weights
-    rows, k = weights.shape
-    out = np.empty(low.shape)
-    step = max(1, PART_BYTES // (8 * max(k, 1)))
-    for start in range(0, rows, step):
-        part = slice(start, start + step)
-        prefix = np.cumsum(weights[part] * column, axis=1)
-        # sum over (low, high) = P(high - 1) - P(low), zero where the window holds no whole position.
-        upper = np.take_along_axis(prefix, np.maximum(high[part] - 1, 0), axis=1)
-        lower = np.take_along_axis(prefix, low[part], axis=1)
-        out[part] = np.where(high[part] > low[part] + 1, upper - lower, 0.0)
+    k = weights.shape[1]
+    out = np.zeros(low.shape)
+    total = None
+    for j in range(low.shape[1]):
+        first, last = int(low[:, j].min()), int(high[:, j].max())
+        if last <= first + 1:
+            continue
+        if last - first <= k // 2:
+            out[:, j] = _span_sums(weights, column, first, last, low[:, j] + 1, high[:, j])
+            continue
+        if total is None:
+            known = grid.sums_column is not None and hasattr(view, "sums")
+            total = view.sums[:, grid.sums_column] if known else weights @ column
+        below = _span_sums(weights, column, 0, int(low[:, j].max()) + 1, np.zeros_like(low[:, j]), low[:, j] + 1)
+        above = _span_sums(weights, column, int(high[:, j].min()), k, high[:, j], np.full_like(high[:, j], k))
+        out[:, j] = np.where(high[:, j] > low[:, j] + 1, total - below - above, 0.0)
+    return out
+
+
+def _span_sums(weights: np.ndarray, column: np.ndarray, first: int, last: int, start: np.ndarray, stop: np.ndarray) -> np.ndarray:
+    """sum_{start_r <= l < stop_r} w_rl column_l per row r, every start and stop within
+    [first, last]: prefix sums over those positions only, a part of the rows at a time."""
+    rows = weights.shape[0]
+    out = np.zeros(rows)
+    width = last - first
+    if width <= 0:
+        return out
+    step = max(1, PART_BYTES // (8 * width))
+    for begin in range(0, rows, step):
+        part = slice(begin, begin + step)
+        prefix = np.zeros((min(step, rows - begin), width + 1))
+        np.cumsum(weights[part, first:last] * column[first:last], axis=1, out=prefix[:, 1:])
+        # prefix[:, i] = sum over positions first .. first + i - 1
+        upper = np.take_along_axis(prefix, (stop[part] - first).clip(0, width)[:, None], axis=1)[:, 0]
+        lower = np.take_along_axis(prefix, (start[part] - first).clip(0, width)[:, None], axis=1)[:, 0]
+        out[part] = np.where(stop[part] > start[part], upper - lower, 0.0)
     return out
 
 
@@ -211,22 +243,29 @@ def reaches_open_bin(view, grid: Grid, low: np.ndarray, high: np.ndarray) -> np.
     return touched
 
 
-def window_means(view, grid: Grid, low: np.ndarray, high: np.ndarray) -> np.ndarray:
-    """The mean of Q over each window (NaN where it is empty or reaches an open bin holding weight)."""
+def means_from(view, grid: Grid, sums: np.ndarray, low: np.ndarray, high: np.ndarray) -> np.ndarray:
+    """The mean of Q over each window from its integral ``sums`` (NaN where the window is empty or
+    reaches an open bin holding weight)."""
     with np.errstate(invalid="ignore", divide="ignore"):
-        means = difference(view, grid, low, high) / (high - low)
+        means = sums / (high - low)
     return np.where(reaches_open_bin(view, grid, low, high) | ~(high > low), np.nan, means)
 
 
-def tail_means(view, grid: Grid, levels: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
-    """Upper and lower tail means of each row at each level (rows x levels): the windows
-    (alpha W, W] and (0, (1 - alpha) W]."""
+def tail_windows(view, levels: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """The windows of the tail means (rows x 2 levels): the upper tails (alpha W, W], then the
+    lower tails (0, (1 - alpha) W]."""
     total = np.asarray(view.total, dtype=np.float64).reshape(-1, 1)
     upper_low = total * levels[None, :]
     lower_high = total * (1.0 - levels[None, :])
     low = np.concatenate((upper_low, np.zeros_like(lower_high)), axis=1)
     high = np.concatenate((np.broadcast_to(total, upper_low.shape), lower_high), axis=1)
-    means = window_means(view, grid, low, high)
+    return low, high
+
+
+def tail_means(view, grid: Grid, levels: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """Upper and lower tail means of each row at each level (rows x levels)."""
+    low, high = tail_windows(view, levels)
+    means = means_from(view, grid, difference(view, grid, low, high), low, high)
     return means[:, : levels.size], means[:, levels.size :]
 
 
@@ -237,22 +276,33 @@ def trimmed_count(total: np.ndarray, proportion: float, whole: bool) -> np.ndarr
     return np.floor(cut) if whole else cut
 
 
-def trimmed_and_winsorized(view, grid: Grid, proportion: float, whole: bool) -> tuple[np.ndarray, np.ndarray]:
-    """Trimmed mean (integral over (g, W - g]) / (W - 2g) and winsorized mean
-    (g Q(g+) + integral over (g, W - g] + g Q(W - g)) / W of each row (rows,)."""
+def trim_window(view, proportion: float, whole: bool) -> tuple[np.ndarray, np.ndarray]:
+    """The window kept by trimming, (g, W - g], of each row (rows x 1 each)."""
     total = np.asarray(view.total, dtype=np.float64).reshape(-1, 1)
     cut = trimmed_count(total, proportion, whole)
-    low, high = cut, total - cut
-    middle = difference(view, grid, low, high)[:, 0]
+    return cut, total - cut
+
+
+def trimmed_from(view, grid: Grid, middle: np.ndarray, low: np.ndarray, high: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """Trimmed mean (integral over (g, W - g]) / (W - 2g) and winsorized mean
+    (g Q(g+) + integral over (g, W - g] + g Q(W - g)) / W of each row (rows,), from the integral
+    ``middle`` over the window (low, high] = (g, W - g] (rows x 1)."""
+    cut, total = low, high + low
     bottom = quantile(view, grid, low, after=True)[:, 0]
     top = quantile(view, grid, high)[:, 0]
     kept_open = reaches_open_bin(view, grid, low, high)[:, 0]
     any_open = reaches_open_bin(view, grid, np.zeros_like(low), total)[:, 0]
-    cut, total = cut[:, 0], total[:, 0]
+    middle, cut, total = middle[:, 0], cut[:, 0], total[:, 0]
     with np.errstate(invalid="ignore", divide="ignore"):
         trimmed = middle / (total - 2.0 * cut)
         winsorized = (cut * bottom + middle + cut * top) / total
     return np.where(kept_open, np.nan, trimmed), np.where(any_open, np.nan, winsorized)
+
+
+def trimmed_and_winsorized(view, grid: Grid, proportion: float, whole: bool) -> tuple[np.ndarray, np.ndarray]:
+    """Trimmed and winsorized means of each row (rows,), see :func:`trimmed_from`."""
+    low, high = trim_window(view, proportion, whole)
+    return trimmed_from(view, grid, difference(view, grid, low, high), low, high)
 
 
 def hill(view, values: np.ndarray, logs: Grid, k: int) -> np.ndarray:

@@ -44,6 +44,7 @@ class TailColumns:
                 edges = plan.sums.scaled_deviations(plan.edges)
             open_ends = (bool(np.isinf(plan.edges[0])), bool(np.isinf(plan.edges[-1])))
         self.grid = qi.Grid(plan.powers[:, 1], edges, open_ends)
+        self.grid.sums_column = 1  # view.sums[:, 1] = sum w d, d the scaled deviations
         positive = plan.values > 0.0
         self.logs = np.log(np.where(positive, plan.values, 1.0))
         self.log_grid = qi.Grid(self.logs)
@@ -52,22 +53,36 @@ class TailColumns:
 
 
 def evaluate(plan: Plan, spec: TailSpec, columns: TailColumns, view, names: tuple[str, ...], out: dict) -> None:
-    """Add the tail statistics among ``names`` of each row of ``view`` to ``out``."""
+    """Add the tail statistics among ``names`` of each row of ``view`` to ``out``. The trimming
+    window and the tails are integrated together: one prefix sum over the support per row."""
     exponent = plan.sums.scale_exponent
     mean = plan.sums.mean
+    trimming = any(name in names for name in TRIMMED)
+    tails = bool(spec.levels.size) and any(name.startswith((UPPER, LOWER)) for name in names)
     with np.errstate(all="ignore"):
-        if any(name in names for name in TRIMMED):
-            trimmed, winsorized = qi.trimmed_and_winsorized(view, columns.grid, spec.trim_proportion, plan.integer)
+        lows, highs = [], []
+        if trimming:
+            low, high = qi.trim_window(view, spec.trim_proportion, plan.integer)
+            lows.append(low)
+            highs.append(high)
+        if tails:
+            tail_low, tail_high = qi.tail_windows(view, spec.levels)
+            lows.append(tail_low)
+            highs.append(tail_high)
+        if lows:
+            sums = qi.difference(view, columns.grid, np.concatenate(lows, axis=1), np.concatenate(highs, axis=1))
+        if trimming:
+            trimmed, winsorized = qi.trimmed_from(view, columns.grid, sums[:, :1], low, high)
             out["trimmed_mean"] = mean + np.ldexp(trimmed, exponent)
             out["winsorized_mean"] = mean + np.ldexp(winsorized, exponent)
+        if tails:
+            means = qi.means_from(view, columns.grid, sums[:, 1:] if trimming else sums, tail_low, tail_high)
+            for i in range(spec.levels.size):
+                out[f"{UPPER}{i}"] = mean + np.ldexp(means[:, i], exponent)
+                out[f"{LOWER}{i}"] = mean + np.ldexp(means[:, spec.levels.size + i], exponent)
         if "geometric_mean" in names:
             out["geometric_mean"] = location_means.geometric_rows(view, columns.logs)
         if "harmonic_mean" in names:
             out["harmonic_mean"] = location_means.harmonic_rows(view, columns.reciprocals)
         if "upper_tail_index" in names and spec.tail_count is not None:
             out["upper_tail_index"] = qi.hill(view, plan.values, columns.log_grid, spec.tail_count)
-        if spec.levels.size and any(name.startswith((UPPER, LOWER)) for name in names):
-            upper, lower = qi.tail_means(view, columns.grid, spec.levels)
-            for i in range(spec.levels.size):
-                out[f"{UPPER}{i}"] = mean + np.ldexp(upper[:, i], exponent)
-                out[f"{LOWER}{i}"] = mean + np.ldexp(lower[:, i], exponent)
