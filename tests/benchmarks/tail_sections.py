@@ -30,7 +30,7 @@ def _with(core, names: list[str], **tails):
 
 
 def bench_tails(quick: bool, size: str = "") -> None:
-    import tailgauge.core as core
+    from tailgauge import core
 
     n = int(float(size)) if size else (200_000 if quick else 2_000_000)
     rounds = 5 if quick else 9

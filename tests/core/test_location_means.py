@@ -17,8 +17,15 @@ import numpy as np
 import pytest
 from scipy import stats
 from scipy.stats import mstats
-
-from tailgauge.core import DescribeOptions, WeightMeaning, describe, from_array, from_bins, from_samples, from_table
+from tailgauge.core import (
+    DescribeOptions,
+    WeightMeaning,
+    describe,
+    from_array,
+    from_bins,
+    from_samples,
+    from_table,
+)
 from tailgauge.core.registry import WarningCode
 
 

@@ -23,15 +23,22 @@ from fractions import Fraction
 import numpy as np
 import pytest
 from scipy import stats
-
-from tailgauge.core import DescribeOptions, UncomputableInput, describe, from_array, from_bins, from_samples, from_table
-from tailgauge.core import quantile_integrals as qi
+from tailgauge.core import (
+    DescribeOptions,
+    UncomputableInput,
+    WeightMeaning,
+    describe,
+    from_array,
+    from_bins,
+    from_samples,
+    from_table,
+)
+from tailgauge.core.moments import central_sums
 from tailgauge.core.registry import WarningCode
 from tailgauge.core.resample import IntervalOptions
 from tailgauge.core.resample.draws import plan_of
 from tailgauge.core.resample.rows import LeaveOneOut, Rows
 from tailgauge.core.resample.tail_rows import TailColumns, TailSpec, evaluate
-from tailgauge.core.moments import central_sums
 
 
 def _codes(description) -> dict[str, set[str]]:
@@ -89,7 +96,7 @@ def test_reliability_weights_use_clopper_pearson_on_kishs_effective_n():
     values = LATENCIES[:60]
     weights = np.random.default_rng(4).uniform(0.5, 2.0, values.size)
     data = from_samples(list(values), omit_missing=False, weights=list(weights),
-                        meaning=__import__("tailgauge.core", fromlist=["WeightMeaning"]).WeightMeaning.RELIABILITY)
+                        meaning=WeightMeaning.RELIABILITY)
     (found,) = describe(data, DescribeOptions(thresholds=(150.0,)), kind="samples").exceedances
     share = float(weights[values > 150.0].sum() / weights.sum())
     n_eff = weights.sum() ** 2 / np.sum(weights**2)

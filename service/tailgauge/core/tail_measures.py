@@ -86,7 +86,7 @@ def tail_means(row: OneRow, levels: np.ndarray) -> tuple[np.ndarray, np.ndarray]
 
 def default_tail_count(n: float) -> int:
     """k = round(sqrt(n)): a common rule of thumb for Hill's estimator (not an optimal choice)."""
-    return int(round(math.sqrt(n)))
+    return round(math.sqrt(n))
 
 
 def hill_estimate(row: OneRow, k: int) -> float:

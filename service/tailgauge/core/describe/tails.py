@@ -244,7 +244,7 @@ def exceedances(data: WeightedData, options: DescribeOptions, notes: Warnings) -
             interval = Interval(low, high, level, method)
         if exceeded.interpolated:
             interpolated.append(f"exceedances[{i}]")
-        count = int(round(above)) if counted and not exceeded.interpolated else None
+        count = round(above) if counted and not exceeded.interpolated else None
         found.append(Exceedance(float(threshold), share, (total - above) / total, count, exceeded.interpolated, interval))
     if interpolated:
         notes.add(
