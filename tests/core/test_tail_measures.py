@@ -378,3 +378,20 @@ def test_tail_means_get_bootstrap_intervals_from_the_same_resamples():
     assert found.upper.interval.method == "bca" and found.upper.interval.low < found.upper.value < found.upper.interval.high
     assert found.lower.interval.low <= found.lower.value <= found.lower.interval.high
     assert result.resampling.replicates.values["tail_mean_upper:0"].shape == (1, 500)
+
+
+def test_the_bag_of_little_bootstraps_gives_the_tail_intervals_but_hills():
+    """Above options.subset_rows distinct values the little bootstraps resample the tail means and
+    the location means; Hill's index is left out with its reason (subsets repeat their largest)."""
+    x = np.random.default_rng(3).pareto(2.5, 3000) + 1.0
+    interval = IntervalOptions(method="percentile", level=0.95, resamples=400, seed=2)
+    result = describe(from_array(x), DescribeOptions(subset_rows=500, tail_levels=(0.95,), interval=interval),
+                      kind="samples")
+    assert result.resampling.scheme.startswith("bag of little bootstraps")
+    (found,) = result.tail_means
+    assert found.upper.interval.method == "percentile" and found.lower.interval is not None
+    for name in ("trimmed_mean", "winsorized_mean", "geometric_mean", "harmonic_mean"):
+        assert result.descriptors[name].interval is not None, name
+    assert result.descriptors["upper_tail_index"].value is not None
+    assert result.descriptors["upper_tail_index"].interval is None
+    assert WarningCode.INTERVAL_NOT_OFFERED in _codes(result)["upper_tail_index"]

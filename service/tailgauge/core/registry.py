@@ -49,6 +49,9 @@ NOT_RESAMPLED = "bootstrap intervals are not offered for this descriptor"
 # Why the engine leaves out a descriptor it resamples when the request is large (see
 # ``resample.budget.costly_left_out``); the descriptor's facts mark it ``costly``.
 TOO_COSTLY = "resampling it is too costly for these data within the budget"
+# Why the bag of little bootstraps leaves out Hill's index: each resample repeats a subset of
+# n^0.7 values, so its k largest are few values tied many times, which inflates the estimate.
+FEW_TAIL_VALUES = "the bag of little bootstraps draws from subsets whose largest values repeat: Hill's index is biased there"
 
 
 @dataclass(frozen=True)
@@ -332,6 +335,7 @@ MEMBERS: tuple[CatalogEntry, ...] = (
            "lag-1 autocorrelation (resampling destroys the order)",
            "half-sample mode (the bootstrap is not known to be consistent for it)",
            "medcouple, when resampling it is too costly for the data within the budget",
+           "upper_tail_index under the bag of little bootstraps (subsets repeat their largest values)",
            "a probability table (a population)"),
           "Efron & Tibshirani 1993 (eq. 14.10); bag of little bootstraps: Kleiner et al., JRSS-B 76, 2014"),
     CatalogEntry("standard_error", "descriptors.*, quantiles[*]", "standard deviation of the bootstrap replicates",
@@ -454,7 +458,8 @@ class WarningCode(enum.StrEnum):
         "interval_not_offered",
         "the bootstrap is inconsistent, or not known to be consistent, for this descriptor (extremes, "
         "serial order, the half-sample mode), or resampling it is too costly for these data within the "
-        "budget (the medcouple), or the data are a whole population (a probability table's exceedances)",
+        "budget (the medcouple), or biased by the bag of little bootstraps (Hill's index), or the data are a "
+        "whole population (a probability table's exceedances)",
     )
     RESAMPLING_SCHEME = "resampling_scheme", "how fractional weights were resampled"
     BOOTSTRAP_SMALL_SAMPLE = "bootstrap_small_sample", "n < 20: intervals may cover less than their level"

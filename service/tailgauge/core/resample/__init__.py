@@ -31,7 +31,7 @@ from collections.abc import Callable
 import numpy as np
 
 from tailgauge.core.moments import CentralSums
-from tailgauge.core.registry import TOO_COSTLY
+from tailgauge.core.registry import FEW_TAIL_VALUES, TOO_COSTLY
 from tailgauge.core.resample import medcouple_rows
 from tailgauge.core.resample.budget import (
     EVALUATION_PART_BYTES,
@@ -289,6 +289,8 @@ def bootstrap(
     if estimates.get("medcouple") is not None and not medcouple_fits(rows, options.resamples, max_work):
         left_out["medcouple"] = TOO_COSTLY
     if uses_subsets(plan, subset_rows):
+        if estimates.get("upper_tail_index") is not None:
+            left_out["upper_tail_index"] = FEW_TAIL_VALUES
         return little_bootstraps(
             plan, notes, estimates, quantile_estimates, probabilities,
             Statistics(
