@@ -52,7 +52,8 @@ class Grid:
         self.values = values
         self.transform = transform
         if edges is not None:
-            edges = self.of(edges)
+            with np.errstate(over="ignore", invalid="ignore"):
+                edges = self.of(edges)
             if not np.all(np.isfinite(edges)):
                 edges = edges.copy()
                 if not np.isfinite(edges[0]):
@@ -66,10 +67,9 @@ class Grid:
         self.sums_column: int | None = None
 
     def of(self, raw: np.ndarray) -> np.ndarray:
-        if self.transform is None:
-            return raw
-        with np.errstate(over="ignore", invalid="ignore", divide="ignore"):
-            return self.transform(raw)
+        """``raw`` in the grid's units (callers set numpy's error state: a logarithm of a value
+        no window reads may be of a non-positive one)."""
+        return raw if self.transform is None else self.transform(raw)
 
     def at(self, index: np.ndarray) -> np.ndarray:
         return self.of(self.values[index])
@@ -93,7 +93,7 @@ class SupportRow:
         self.total = np.array([float(cumulative[-1])])
 
     def first_reaching(self, target: np.ndarray) -> np.ndarray:
-        found = np.searchsorted(self._cumulative, target, side="left")
+        found = self._cumulative.searchsorted(target, side="left")
         return np.minimum(found, self._cumulative.size - 1)
 
     def cumulative_at(self, index: np.ndarray) -> np.ndarray:
@@ -110,6 +110,37 @@ class SupportRow:
         if self._weights is None:
             return float(np.sum(part))
         return float(np.dot(self._weights[start:stop], part))
+
+    def difference(self, grid: Grid, low: np.ndarray, high: np.ndarray) -> np.ndarray:
+        """:func:`difference` for this one row, window by window in scalars (the same formula:
+        the first position's part, the whole positions between, the last position's part)."""
+        cumulative = self._cumulative
+        firsts = self.first_reaching(low)[0].tolist()
+        lasts = self.first_reaching(high)[0].tolist()
+        out = np.empty((1, len(firsts)))
+        for j, (a, b, i, last) in enumerate(zip(low[0].tolist(), high[0].tolist(), firsts, lasts)):
+            start = float(cumulative[i - 1]) if i > 0 else 0.0
+            if i == last:
+                out[0, j] = self._part(grid, i, a - start, b - start)
+                continue
+            final = float(cumulative[last - 1]) if last > 0 else 0.0
+            out[0, j] = (
+                self._part(grid, i, a - start, float(cumulative[i]) - start)
+                + self.segment_sum(grid, i + 1, last)
+                + self._part(grid, last, 0.0, b - final)
+            )
+        return out
+
+    def _part(self, grid: Grid, index: int, start: float, stop: float) -> float:
+        """The integral of Q over (start, stop] inside position ``index`` (see :func:`_within`)."""
+        if not stop > start:
+            return 0.0
+        if grid.edges is None:
+            return (stop - start) * float(grid.of(grid.values[index]))
+        weight = 1.0 if self._weights is None else float(self._weights[index])
+        lower = float(grid.edges[index])
+        slope = (float(grid.edges[index + 1]) - lower) / weight if weight > 0.0 else 0.0
+        return (stop - start) * (lower + 0.5 * (start + stop) * slope)
 
     def total_sum(self, column: np.ndarray) -> float:
         return float(np.sum(column)) if self._weights is None else float(np.dot(self._weights, column))
@@ -202,6 +233,8 @@ def _within(view, grid: Grid, index: np.ndarray, start: np.ndarray, stop: np.nda
 
 def difference(view, grid: Grid, low: np.ndarray, high: np.ndarray) -> np.ndarray:
     """integral_low^high Q per row and window (rows x m; low <= high, both in [0, W])."""
+    if isinstance(view, SupportRow):
+        return view.difference(grid, low, high)
     first = view.first_reaching(low)
     last = view.first_reaching(high)
     first_start = _cumulative_before(view, first)

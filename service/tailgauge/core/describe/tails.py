@@ -79,14 +79,15 @@ def tail_descriptors(
     point = TailPoint()
     selection = options.selection
     seen = _Data(data)
-    if selection.computes_any(TRIMMED):
-        _trimmed(descriptors, seen, options.trim_proportion, notes)
-    if selection.computes_any(POSITIVE_MEANS):
-        _positive_means(descriptors, data, notes)
-    if selection.computes(TAIL_INDEX):
-        point.tail_count = _tail_index(descriptors, seen, options, notes)
-    if options.tail_levels and selection.computes("tail_means"):
-        point.tail_means = _tail_means(seen, options.tail_levels, notes, point.estimates)
+    with np.errstate(all="ignore"):  # every undefined value becomes None with its reason below
+        if selection.computes_any(TRIMMED):
+            _trimmed(descriptors, seen, options.trim_proportion, notes)
+        if selection.computes_any(POSITIVE_MEANS):
+            _positive_means(descriptors, data, notes)
+        if selection.computes(TAIL_INDEX):
+            point.tail_count = _tail_index(descriptors, seen, options, notes)
+        if options.tail_levels and selection.computes("tail_means"):
+            point.tail_means = _tail_means(seen, options.tail_levels, notes, point.estimates)
     value = descriptors.get(TAIL_INDEX)
     shown = [name for name in ("kurtosis", "excess_kurtosis") if name in descriptors and descriptors[name].value is not None]
     if value is not None and value.value is not None and value.value < 4.0 and shown:
@@ -101,8 +102,7 @@ def tail_descriptors(
 
 def _trimmed(descriptors: dict[str, Descriptor], seen: _Data, proportion: float, notes: Warnings) -> None:
     row = seen.row
-    with np.errstate(all="ignore"):
-        trimmed, winsorized = qi.trimmed_and_winsorized(row.view, row.grid, proportion, row.whole)
+    trimmed, winsorized = qi.trimmed_and_winsorized(row.view, row.grid, proportion, row.whole)
     total = float(row.view.total[0])
     cut = float(qi.trimmed_count(np.array(total), proportion, row.whole))
     how = (
@@ -115,8 +115,7 @@ def _trimmed(descriptors: dict[str, Descriptor], seen: _Data, proportion: float,
               "nearest value kept"}
     undefined = []
     for name, value in zip(TRIMMED, (trimmed[0], winsorized[0])):
-        with np.errstate(over="ignore"):
-            result = finite_or_none(float(row.unscaled(value)))
+        result = finite_or_none(float(row.unscaled(value)))
         descriptors[name] = Descriptor(result, labels[name])
         if result is None:
             undefined.append(name)
@@ -140,9 +139,8 @@ def _positive_means(descriptors: dict[str, Descriptor], data: WeightedData, note
         values, weights = data.support.values, data.support.weights
     logs, reciprocals = location_means.support_columns(values)
     total = float(np.sum(weights))
-    with np.errstate(all="ignore"):
-        geometric = float(np.exp(np.dot(weights, logs) / total))
-        harmonic = float(total / np.dot(weights, reciprocals))
+    geometric = float(np.exp(np.dot(weights, logs) / total))
+    harmonic = float(total / np.dot(weights, reciprocals))
     descriptors["geometric_mean"] = Descriptor(notes.finite(geometric, "geometric_mean"), labels["geometric_mean"])
     descriptors["harmonic_mean"] = Descriptor(notes.finite(harmonic, "harmonic_mean"), labels["harmonic_mean"])
 
