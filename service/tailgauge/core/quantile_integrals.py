@@ -16,8 +16,9 @@ bin l's weight w_l from its start integrates to u (lo_l + u h_l / (2 w_l)). The 
 trimmed and winsorized means and Hill's estimator are such windows. The sums over whole
 positions are read per kind of row: one row (:class:`SupportRow`, the data) sums only the
 positions inside each window, so a tail costs its share of the data and never a whole pass; a
-batch of resamples takes prefix sums (a part of its rows at a time); the jackknife's rows take the
-data's prefix sums less the one observation each leaves out.
+batch of resamples takes prefix sums over the positions its rows' windows span (a part of its
+rows at a time), and a window wider than half the support as the rows' power sum less its two
+ends; the jackknife's rows take the data's prefix sums less the one observation each leaves out.
 
 References
 ----------
