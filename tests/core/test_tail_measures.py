@@ -395,3 +395,15 @@ def test_the_bag_of_little_bootstraps_gives_the_tail_intervals_but_hills():
     assert result.descriptors["upper_tail_index"].value is not None
     assert result.descriptors["upper_tail_index"].interval is None
     assert WarningCode.INTERVAL_NOT_OFFERED in _codes(result)["upper_tail_index"]
+
+
+def test_the_plan_counts_the_tail_levels():
+    """core/cost.py: each tail level keeps two more values per resample (and per jackknife row)."""
+    from tailgauge.core import cost
+
+    shape = cost.shape_of(from_array(LATENCIES), 100_000)
+    plain = cost.estimate([shape], probabilities=9, resamples=9999, method="bca", threads=2)
+    tails = cost.estimate([shape], probabilities=9, resamples=9999, method="bca", threads=2, tail_levels=20)
+    assert tails.peak_bytes > plain.peak_bytes and tails.seconds > plain.seconds
+    # Forty more float64 per resample are kept at least: 40 x 8 x 9,999 bytes.
+    assert tails.peak_bytes - plain.peak_bytes >= 40 * 8 * 9999
