@@ -33,7 +33,8 @@ def positive_reason(data: WeightedData) -> str | None:
         if not lowest >= 0.0:
             return "the bins holding data reach below zero (or are open below): positive values only"
         return None
-    if float(data.support.values[0]) <= 0.0:
+    lowest = float(np.min(data.values)) if data.weights is None else float(data.support.values[0])
+    if lowest <= 0.0:
         return "the data hold zero or negative values: positive values only"
     return None
 

@@ -31,6 +31,9 @@ TRIMMED = ("trimmed_mean", "winsorized_mean")
 POSITIVE_MEANS = ("geometric_mean", "harmonic_mean")
 TAIL_INDEX = "upper_tail_index"
 TAIL_DESCRIPTORS = TRIMMED + POSITIVE_MEANS + (TAIL_INDEX,)
+# What reads the sorted support (the geometric and harmonic means of a raw sample read the values
+# as they come).
+READS_SORTED = TRIMMED + (TAIL_INDEX, "exceedances", "tail_means")
 # Level of the exceedances' intervals without options.interval (common practice).
 DEFAULT_LEVEL = 0.95
 
@@ -133,14 +136,18 @@ def _positive_means(descriptors: dict[str, Descriptor], data: WeightedData, note
         if reason is not None:
             notes.add(WarningCode.POSITIVE_VALUES_REQUIRED, reason, POSITIVE_MEANS)
         return  # an open bin: the assembly's open_bin_holds_data names them
-    if data.binned:
-        values, weights = data.values, data.weights
-    else:
-        values, weights = data.support.values, data.support.weights
+    # A raw sample as it comes (no sort); weighted data and bins by their weights.
+    values = data.values if data.binned or data.weights is None else data.support.values
+    weights = data.weights if data.binned or data.weights is None else data.support.weights
     logs, reciprocals = location_means.support_columns(values)
-    total = float(np.sum(weights))
-    geometric = float(np.exp(np.dot(weights, logs) / total))
-    harmonic = float(total / np.dot(weights, reciprocals))
+    if weights is None:
+        total = float(values.size)
+        geometric = float(np.exp(np.sum(logs) / total))
+        harmonic = float(total / np.sum(reciprocals))
+    else:
+        total = float(np.sum(weights))
+        geometric = float(np.exp(np.dot(weights, logs) / total))
+        harmonic = float(total / np.dot(weights, reciprocals))
     descriptors["geometric_mean"] = Descriptor(notes.finite(geometric, "geometric_mean"), labels["geometric_mean"])
     descriptors["harmonic_mean"] = Descriptor(notes.finite(harmonic, "harmonic_mean"), labels["harmonic_mean"])
 
