@@ -92,6 +92,8 @@ OPTION_SETS = [
     {"order": "as_sent", "interval": {"method": "percentile", "resamples": 300, "seed": 23}},
     {"order": "as_sent", "block_scheme": "circular", "block_length": 2, "plot_data": True},
     {"plot_data": True, "descriptors": ["mean", "quantiles"]},
+    {"thresholds": [500.0, 501.5], "tail_levels": [0.9], "trim_proportion": 0.2},
+    {"thresholds": [500.5], "tail_levels": [0.75], "interval": {"method": "bca", "resamples": 200, "seed": 29}},
 ]
 
 

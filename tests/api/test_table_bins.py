@@ -24,6 +24,11 @@ BINS = "/v1/descriptors/bins"
 SAMPLES = "/v1/descriptors/samples"
 PROBLEM = "application/problem+json"
 DESCRIPTOR_NAMES = {
+    "trimmed_mean",
+    "winsorized_mean",
+    "geometric_mean",
+    "harmonic_mean",
+    "upper_tail_index",
     "mean",
     "median",
     "variance",

@@ -23,7 +23,7 @@ import numpy as np
 if not os.environ.get("PYTHONPATH"):
     sys.path.insert(0, str(Path(__file__).resolve().parents[2] / "service"))
 
-from tailgauge.core import DescribeOptions, IntervalOptions, admit, compare, describe, from_bins, from_samples, from_table  # noqa: E402
+from tailgauge.core import DescribeOptions, IntervalOptions, admit, describe, from_bins, from_samples, from_table  # noqa: E402
 
 
 def _inputs(rng: np.random.Generator):

@@ -24,7 +24,7 @@ BASIC = ["mean", "standard_deviation", "quantiles"]
 
 def main(size: str = "", *, quick: bool = False) -> None:
     try:
-        from tailgauge.api import endpoints
+        from tailgauge.api import endpoints, group_endpoints
         from tailgauge.api.media import JSON_CODEC, MSGPACK_CODEC
         from tailgauge.settings import Settings
     except ImportError as error:  # pragma: no cover - another tree
@@ -55,7 +55,7 @@ def main(size: str = "", *, quick: bool = False) -> None:
     whole = msgspec.msgpack.encode({"values": values.ravel().astype("<f8").tobytes(), "options": {"descriptors": BASIC}})
     codec = MSGPACK_CODEC
     timed = alternate({
-        "groups": lambda: endpoints.describe_groups_request(grouped, codec, codec, settings),
+        "groups": lambda: group_endpoints.describe_groups_request(grouped, codec, codec, settings),
         "one request": lambda: endpoints.describe_samples(whole, codec, codec, settings),
     }, rounds)
     print(f"  {groups:,} groups x {size_each:,} values, descriptors {BASIC} (MessagePack, float64 bytes):")
@@ -78,7 +78,7 @@ def main(size: str = "", *, quick: bool = False) -> None:
             endpoints.describe_samples(body, codec, codec, settings)
 
     timed = alternate({
-        "groups": lambda: endpoints.describe_groups_request(grouped, codec, codec, settings),
+        "groups": lambda: group_endpoints.describe_groups_request(grouped, codec, codec, settings),
         "separate": one_by_one,
     }, max(2, rounds - 2))
     ratio = timed.ratio("separate", "groups")

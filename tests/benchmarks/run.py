@@ -28,7 +28,7 @@ import time
 from collections.abc import Callable
 
 import numpy as np
-from timing import FIGURES, NA, alternate, best_of, record
+from timing import FIGURES, NA, alternate, best_of, record, traced_peak
 
 HERE = Path(__file__).resolve().parent
 THIS_TREE = HERE.parents[1]
@@ -155,19 +155,6 @@ def bench_tables() -> None:
 
 
 # --- rows 5 and 6 --------------------------------------------------------------------------
-
-
-def traced_peak(fn: Callable[[], object]) -> tuple[float, object]:
-    """Peak MB traced by tracemalloc over one call (numpy's buffers are traced; the call is slower),
-    and the call's result."""
-    import tracemalloc
-
-    tracemalloc.start()
-    try:
-        result = fn()
-        return tracemalloc.get_traced_memory()[1] / 2**20, result
-    finally:
-        tracemalloc.stop()
 
 
 def with_intervals(answer: object) -> str:
@@ -514,44 +501,6 @@ def bench_gzip() -> None:
 
     print("gzip: the service's answers compressed at levels 1, 6, 9 (api/compression.py's threshold)")
     compression.main(QUICK)
-def bench_figures(size: str = "") -> None:
-    """A figure of 1e6 values (SVG and PNG), after describing them, and the largest PNG's memory."""
-    try:
-        from tailgauge import figures
-        from tailgauge.figures import describing
-    except ImportError:
-        print(f"figures: {NA}")
-        record("figures", "figure of 1e6 values", None, "s", "< 1 s", NA)
-        return
-    from tailgauge.core import DescribeOptions, describe, from_array
-
-    n = int(float(size)) if size else (100_000 if QUICK else 1_000_000)
-    repeats = 3 if QUICK else 5
-    data = from_array(np.random.default_rng(20261205).lognormal(5.5, 0.4, n))
-    options = DescribeOptions()
-    description = describe(data, options, kind="samples")
-    probabilities = options.probabilities
-
-    def drawn(media: str, width: int = 800, height: int = 600) -> bytes:
-        plot = figures.plot_data(data, "samples")  # the support is already sorted by describe, as in the service
-        return describing.draw(description, plot, probabilities, figures.FigureOptions(width=width, height=height), media)
-
-    described = best_of(lambda: describe(from_array(data.values), options, kind="samples"), repeats)
-    svg = best_of(lambda: drawn(figures.SVG), repeats)
-    png = best_of(lambda: drawn(figures.PNG), repeats)
-    largest = best_of(lambda: drawn(figures.PNG, 2400, 1800), repeats)
-    peak, _ = traced_peak(lambda: drawn(figures.PNG, 2400, 1800))
-    canvas = 2400 * 1800 * 4
-    print(f"figures: {n:.0e} lognormal values, best of {repeats}")
-    print(f"  describe (every descriptor)          {described:8.3f} s")
-    print(f"  plot data + SVG figure, 800 x 600     {svg:8.3f} s  ({len(drawn(figures.SVG)) / 1024:.0f} KiB)")
-    print(f"  plot data + PNG figure, 800 x 600     {png:8.3f} s")
-    print(f"  plot data + PNG figure, 2400 x 1800   {largest:8.3f} s; traced peak {peak:.1f} MiB + canvas "
-          f"{canvas / 2**20:.1f} MiB (Agg's buffer, outside tracemalloc) vs RENDER_BYTES {figures.RENDER_BYTES / 2**20:.0f} MiB")
-    record("figures", f"SVG figure of {n:.0e} values (after describing them)", svg, "s", "< 1 s")
-    record("figures", f"PNG figure of {n:.0e} values, 800 x 600", png, "s", "< 1 s")
-
-
 def _http(name: str) -> Callable[[], None]:
     def section() -> None:
         import http_sections
@@ -575,11 +524,12 @@ SECTIONS: dict[str, tuple[Callable[..., None], str]] = {
     "transport": (bench_transport, "1e6 values through gunicorn by body format (size: transport=1e6)"),
     "cost": (bench_cost, "the cost model beside measured memory and time"),
     "gzip": (bench_gzip, "answers compressed at levels 1, 6, 9: sizes, TCP segments, times"),
-    "figures": (bench_figures, "a figure of 1e6 values, SVG and PNG, after describing them (size: figures=1e6)"),
+    "figures": (lambda size="": __import__("figures_section").bench_figures(QUICK, size), "a figure of 1e6 values, SVG and PNG, after describing them (size: figures=1e6)"),
     "histogram": (lambda: __import__("histogram_section").bench_histogram(TREE, QUICK), "200 exponential buckets described in process (histogram_section.py)"),
     "groups": (lambda size="": __import__("groups_bench").main(size, quick=QUICK), "1,000 x 1,000 and 10,000 x 100 groups"),
+    "tails": (lambda size="": __import__("tail_sections").bench_tails(QUICK, size), "exceedances, tail means: added passes"),
 }
-SIZED = {"order", "quantiles", "moments", "merge", "transport", "figures"}
+SIZED = {"order", "quantiles", "moments", "merge", "transport", "figures", "tails"}
 
 
 def summary() -> str:

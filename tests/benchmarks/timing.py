@@ -124,3 +124,16 @@ def alternate(sides: dict[str, Callable[[], object] | str], rounds: int) -> Alte
                 continue
             result.times[name].append(time.perf_counter() - start)
     return result
+
+
+def traced_peak(fn: Callable[[], object]) -> tuple[float, object]:
+    """Peak MB traced by tracemalloc over one call (numpy's buffers are traced; the call is slower),
+    and the call's result."""
+    import tracemalloc
+
+    tracemalloc.start()
+    try:
+        result = fn()
+        return tracemalloc.get_traced_memory()[1] / 2**20, result
+    finally:
+        tracemalloc.stop()

@@ -139,3 +139,15 @@ def test_no_in_place_ndarray_sort_in_the_core():
             if re.search(r"(?<!np)\.(?:sort|argsort|partition|argpartition)\(", code):
                 offenders.append(f"{path.name}:{number}: {line.strip()}")
     assert not offenders, offenders
+
+
+def test_the_tail_members_read_the_one_sort(recorder):
+    """Exceedances and tail means read the sorted support (core/describe/tails.py, READS_SORTED):
+    with them the order statistics come from that one sort too, not from a selection beside it."""
+    from tailgauge.core import choose
+
+    options = DescribeOptions(descriptors=choose(["quantiles", "exceedances", "tail_means"]), thresholds=(50.0,),
+                              tail_levels=(0.9,))
+    result = describe(from_array(SAMPLE), options, kind="samples")
+    assert len(recorder.sorts) == 1 and not recorder.selections, _report(recorder)
+    assert result.exceedances[0].count_above == int(np.sum(SAMPLE > 50.0))

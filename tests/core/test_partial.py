@@ -414,6 +414,7 @@ def test_what_needs_the_values_is_null_with_a_reason():
         "median", "interquartile_range", "median_absolute_deviation", "median_absolute_deviation_normal",
         "quartile_skewness", "octile_kurtosis", "octile_excess_kurtosis", "medcouple", "half_sample_mode",
         "mean_median_gap", "l_location", "l_scale", "l_skewness", "l_kurtosis", "lag1_autocorrelation",
+        "trimmed_mean", "winsorized_mean", "geometric_mean", "harmonic_mean", "upper_tail_index",
     }
     assert set(nulls) <= reasons
     assert all(q.value is None for q in description.quantiles) and "quantiles" in reasons

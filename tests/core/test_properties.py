@@ -93,13 +93,20 @@ LAWS = {
     "l_scale": SPREAD,
     "l_skewness": ODD_SHAPE,
     "l_kurtosis": EVEN_SHAPE,
+    # Symmetric trimming: -x trims the same observations (core/location_means.py).
+    "trimmed_mean": LOCATION,
+    "winsorized_mean": LOCATION,
+    "geometric_mean": Law(None, 1, None, "positive data only (a ratio scale): null with a reason otherwise"),
+    "harmonic_mean": Law(None, 1, None, "positive data only (a ratio scale): null with a reason otherwise"),
+    # k / sum ln(X_(n-i+1) / X_(n-k)): free of scale, defined only for a positive tail.
+    "upper_tail_index": Law(None, 0, None, "defined for a positive tail only: a shift or sign change has no law"),
 }
 # Where sums about the mean are involved (moments, L-moments from sums) rounding is relative to
 # the magnitude of the data, not the result; order statistics are exact.
 FROM_SUMS = {
     "mean", "variance", "standard_deviation", "coefficient_of_variation", "skewness", "kurtosis",
     "excess_kurtosis", "lag1_autocorrelation", "mean_median_gap", "l_location", "l_scale", "l_skewness",
-    "l_kurtosis",
+    "l_kurtosis", "trimmed_mean", "winsorized_mean", "geometric_mean", "harmonic_mean", "upper_tail_index",
 }
 SHAPE_NULL_WHEN_CONSTANT = (
     *SHAPE_DESCRIPTORS, "quartile_skewness", "octile_kurtosis", "octile_excess_kurtosis", "medcouple",

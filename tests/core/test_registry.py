@@ -43,7 +43,7 @@ def _values(n: int = 60) -> np.ndarray:
 
 def test_every_descriptor_is_named_once_in_response_order():
     names = [facts.name for facts in registry.DESCRIPTORS]
-    assert len(names) == len(set(names)) == 25
+    assert len(names) == len(set(names)) == 30
     assert registry.SCALAR_DESCRIPTORS == tuple(names)
     assert set(describe(from_array(_values()), DescribeOptions(), kind="samples").descriptors) == set(names)
 
@@ -201,6 +201,14 @@ def _produced() -> dict[str, str]:
             from_array(np.arange(50.0).repeat(2)), DescribeOptions(modes_limit=5), kind="samples"),
         "states of order 4 asked for 6": lambda: describe_state(
             merge_states([partial_state(values[:30]), partial_state(values[30:])]), DescribeOptions(moment_order=6)),
+        # Pareto tail of index 1.5 (core/tail_measures.py): Hill's index below 4 beside the kurtosis.
+        "a heavy tail": lambda: describe(
+            from_array(np.random.default_rng(5).pareto(1.5, 400) + 1.0), DescribeOptions(), kind="samples"),
+        "thresholds inside bins": lambda: describe(
+            from_bins(edges, [12.0, 30.0, 25.0, 9.0, 4.0]), DescribeOptions(thresholds=(2.0,)), kind="bins"),
+        "a threshold in an open bin": lambda: describe(
+            from_bins([None, 0.0, 1.0, 2.0, None], [3.0, 10.0, 14.0, 2.0]), DescribeOptions(thresholds=(2.5,)),
+            kind="bins"),
         "states with sketches": lambda: describe_state(
             partial_state(values), DescribeOptions(), combine_sketches([kll_sketch_bytes(values)])),
     }

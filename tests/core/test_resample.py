@@ -631,7 +631,7 @@ SCALE_POWER = {
     "variance": 2,
     **dict.fromkeys(
         ("skewness", "kurtosis", "excess_kurtosis", "coefficient_of_variation", "quartile_skewness", "octile_kurtosis",
-         "octile_excess_kurtosis", "mean_median_gap", "medcouple", "l_skewness", "l_kurtosis"),
+         "octile_excess_kurtosis", "mean_median_gap", "medcouple", "l_skewness", "l_kurtosis", "upper_tail_index"),
         0,
     ),
 }
@@ -651,6 +651,9 @@ def test_intervals_are_equivariant_under_power_of_two_scaling(k):
     mismatched = {}
     for name in resample.INTERVAL_DESCRIPTORS:
         power = SCALE_POWER.get(name, 1)
+        if base.descriptors[name].value is None:  # Hill's index needs 50 observations, not 30
+            assert name == "upper_tail_index", name
+            continue
         if scaled.descriptors[name].value is None:  # 2**(2k) not representable: no variance
             assert name == "variance" and abs(k) == 1000, name
             continue

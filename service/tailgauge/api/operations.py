@@ -66,7 +66,7 @@ _EXAMPLES = {
     "/v1/descriptors/samples": {
         # Bag weights in filling order: order as_sent adds the effective n from their autocorrelation.
         "values": [251.2, 249.8, 250.4, 252.9, 250.1, 249.5, 250.7, 251.0, 248.9, 250.3, 250.3],
-        "options": {"probabilities": [0.05, 0.5, 0.95], "order": "as_sent"},
+        "options": {"probabilities": [0.05, 0.5, 0.95], "order": "as_sent", "thresholds": [249.5], "tail_levels": [0.9]},
     },
     "/v1/descriptors/groups": {
         "groups": [
@@ -84,15 +84,19 @@ _EXAMPLES = {
         "outcomes": [{"value": 0, "weight": 412}, {"value": 1, "weight": 187}, {"value": 2, "weight": 61},
                      {"value": 3, "weight": 17}, {"value": 4, "weight": 3}],
         "weight_kind": "counts",
+        "options": {"thresholds": [2], "tail_levels": [0.95, 0.99]},
     },
-    "/v1/descriptors/bins": {"edges": [0, 15, 30, 45, 60, None], "counts": [18, 64, 41, 12, 5]},
+    "/v1/descriptors/bins": {
+        "edges": [0, 15, 30, 45, 60, None], "counts": [18, 64, 41, 12, 5],
+        "options": {"thresholds": [40], "tail_levels": [0.5]},
+    },
     "/v1/descriptors/histogram": {
         "layout": "cumulative",
         "upper_bounds": [0.025, 0.05, 0.1, 0.2, 0.3, 0.5, 1.0, 2.5, None],
         "cumulative_counts": [1180, 5230, 10940, 13460, 14020, 14160, 14205, 14218, 14220],
         "sum": 1298.4,
         "count": 14220,
-        "options": {"probabilities": [0.5, 0.9, 0.99]},
+        "options": {"probabilities": [0.5, 0.9, 0.99], "thresholds": [0.3]},
     },
     "/v1/descriptors/merge": {
         "states": [

@@ -17,7 +17,7 @@ import msgspec
 from litestar import Request, Response, get, post
 from litestar.handlers import HTTPRouteHandler
 
-from tailgauge.api import compression, endpoints, media, metrics, schemas
+from tailgauge.api import compression, endpoints, group_endpoints, media, metrics, schemas
 from tailgauge.api.media import MediaTypeError
 from tailgauge.api.operations import OPERATION_IDS, OPERATIONS, Operation
 from tailgauge.api.problems import ApiProblem
@@ -157,7 +157,7 @@ def describe_catalog(request: Request) -> Response[bytes]:
 # cheap and run on the event loop. Metric labels of the compute endpoints are API (dashboards).
 BODIES = {
     "describeSamples": _computing(endpoints.describe_samples, "samples", "describeSamples"),
-    "describeGroups": _computing(endpoints.describe_groups_request, "groups", "describeGroups"),
+    "describeGroups": _computing(group_endpoints.describe_groups_request, "groups", "describeGroups"),
     "describeTable": _computing(endpoints.describe_table, "table", "describeTable"),
     "describeBins": _computing(endpoints.describe_bins, "bins", "describeBins"),
     "describeHistogram": _computing(endpoints.describe_histogram, "histogram", "describeHistogram"),

@@ -70,6 +70,14 @@ MEDCOUPLE_SECONDS = 20e-9
 JACKKNIFE_LOOKUP_SECONDS = 300e-9
 # Seconds per (row x bin) of the grouped MAD, in resamples and in the jackknife.
 GROUPED_MAD_SECONDS = 150e-9
+# The tail statistics of a resample (trimmed, winsorized, geometric, harmonic means, Hill's
+# index, the tail means): up to three prefix sums over the support (core.quantile_integrals), in
+# parts of its PART_BYTES, and a few order-statistic lookups each; two more recorded values and
+# lookups per tail level.
+TAIL_SECONDS = 6e-9
+TAIL_PASSES = 3
+TAIL_LOOKUPS = 8
+TAIL_PART_BYTES = 2 * (4 << 20)
 # What every stage takes whatever the sizes (small arrays, the interpreter's own work).
 STAGE_BYTES = 4 << 20
 # Advice fits in this share of the seconds left, so it is admitted when resent a moment later.
@@ -207,12 +215,15 @@ def _medcouple(shape: Shape, rows: int, resamples: int, max_work: float, batch: 
 
 
 def resampling_stages(
-    shape: Shape, resamples: int, probabilities: int, method: str, threads: int, max_work: float = math.inf
+    shape: Shape, resamples: int, probabilities: int, method: str, threads: int, max_work: float = math.inf,
+    tail_levels: int = 0,
 ) -> list[Stage]:
     """The bootstrap (or bag of little bootstraps) and, for BCa, the jackknife of one input;
-    ``max_work``, the resampling budget, decides whether the medcouple is resampled."""
-    q = probabilities + SHAPE_LOOKUPS
-    recorded = (_RECORDED + probabilities) * 8.0
+    ``max_work``, the resampling budget, decides whether the medcouple is resampled;
+    ``tail_levels``, the levels of the tail means, each two more statistics."""
+    q = probabilities + SHAPE_LOOKUPS + TAIL_LOOKUPS + 2 * tail_levels
+    recorded = (_RECORDED + probabilities + 2 * tail_levels) * 8.0
+    tails_seconds = TAIL_SECONDS * TAIL_PASSES
     k = shape.rows
     stages = []
     part = float(resample.EVALUATION_PART_BYTES)
@@ -223,13 +234,15 @@ def resampling_stages(
         batch = max(1, min(per_subset, BATCH_ELEMENTS // m))
         row_bytes = resample.evaluation_row_bytes(m, probabilities, bins=False)
         working = batch * m * 32.0 + min(batch, max(1, part // row_bytes)) * row_bytes
-        working += min(part, batch * m * float(LMOMENT_BYTES_PER_ELEMENT))
+        working += min(part, batch * m * float(LMOMENT_BYTES_PER_ELEMENT)) + TAIL_PART_BYTES
         medcouple_seconds, medcouple_bytes = _medcouple(shape, m, drawn, max_work, batch)
         working += medcouple_bytes
         # The whole sample's plan (powers, cumulative counts), choosing a subset, its plan.
         subset = 80.0 * k + 8.0 * shape.entries + 64.0 * m
         stored = 2.0 * drawn * recorded  # the rounds, then stacked
-        seconds = drawn * (DRAW_SECONDS["subset"] * m + LOOKUP_SECONDS * q * _log2(m) + LMOMENT_SECONDS * m)
+        seconds = drawn * (
+            DRAW_SECONDS["subset"] * m + LOOKUP_SECONDS * q * _log2(m) + LMOMENT_SECONDS * m + tails_seconds * m
+        )
         seconds += medcouple_seconds
         memory = STAGE_BYTES + subset + working + stored + 2 * batch * recorded
         stages.append(Stage("bag of little bootstraps", memory, STAGE_SECONDS + seconds))
@@ -240,7 +253,7 @@ def resampling_stages(
     batches = -(-resamples // batch)
     busy = max(1, min(threads, batches))
     row_bytes = resample.evaluation_row_bytes(k, probabilities, bins=shape.bins)
-    evaluation = min(batch, max(1, part // row_bytes)) * row_bytes + _lmoment_part(batch, shape)
+    evaluation = min(batch, max(1, part // row_bytes)) * row_bytes + _lmoment_part(batch, shape) + TAIL_PART_BYTES
     medcouple_seconds, medcouple_bytes = _medcouple(shape, k, resamples, max_work, batch)
     evaluation += medcouple_bytes
     per_thread = batch * k * _per_element_bytes(shape) + evaluation + 2.0 * batch * recorded
@@ -258,7 +271,7 @@ def resampling_stages(
         draw = DRAW_SECONDS["picks"] * max(1.0, shape.draws / max(k, 1))
     else:
         draw = DRAW_SECONDS["multinomial"]
-    seconds = resamples * (draw * k + LOOKUP_SECONDS * q * _log2(batch * k) + LMOMENT_SECONDS * k)
+    seconds = resamples * (draw * k + LOOKUP_SECONDS * q * _log2(batch * k) + (LMOMENT_SECONDS + tails_seconds) * k)
     if shape.bins:
         seconds += resamples * GROUPED_MAD_SECONDS * k
     seconds = (seconds + medcouple_seconds) / busy
@@ -291,6 +304,7 @@ def estimate(
     method: str | None,
     threads: int,
     max_work: float = math.inf,
+    tail_levels: int = 0,
 ) -> Estimate:
     """The stages of describing (one shape) or comparing (two shapes) inputs of these sizes.
 
@@ -308,11 +322,11 @@ def estimate(
             stages.append(Stage(f"{_side(index, shapes)}{own_serial.name}", own_serial.bytes + kept, own_serial.seconds))
         if method is None:
             continue
-        own = resampling_stages(shape, resamples, probabilities, method, threads, max_work)
+        own = resampling_stages(shape, resamples, probabilities, method, threads, max_work, tail_levels)
         for stage in own:
             stages.append(Stage(f"{_side(index, shapes)}{stage.name}", stage.bytes + kept, stage.seconds))
         jackknife = method == "bca" and not shape.ordered
-        kept += (_RECORDED + probabilities) * 8.0 * (resamples + (shape.rows if jackknife else 0))
+        kept += (_RECORDED + probabilities + 2 * tail_levels) * 8.0 * (resamples + (shape.rows if jackknife else 0))
     return Estimate(tuple(stages), float(resident))
 
 
@@ -324,6 +338,7 @@ def estimate_separately(
     method: str | None,
     threads: int,
     max_work: float = math.inf,
+    tail_levels: int = 0,
 ) -> Estimate:
     """The stages of describing inputs one after another with nothing kept between them (the
     groups of one request): their times add up, their working memory peaks at the largest.
@@ -332,7 +347,8 @@ def estimate_separately(
     stages: list[Stage] = []
     for shape, count in Counter(shapes).items():
         one = estimate(
-            [shape], probabilities=probabilities, resamples=resamples, method=method, threads=threads, max_work=max_work
+            [shape], probabilities=probabilities, resamples=resamples, method=method, threads=threads, max_work=max_work,
+            tail_levels=tail_levels,
         )
         label = f"{count} input(s) of {shape.entries} entries: "
         stages.extend(Stage(label + stage.name, stage.bytes, stage.seconds * count) for stage in one.stages)
@@ -373,6 +389,7 @@ def admit(
     max_work: float = math.inf,
     min_resamples: int = 100,
     separately: bool = False,
+    tail_levels: int = 0,
 ) -> Estimate:
     """The estimate of a request, or :class:`LimitExceeded` naming what would fit.
 
@@ -386,7 +403,8 @@ def admit(
     """
     planned = estimate_separately if separately else estimate
     wanted = planned(
-        shapes, probabilities=probabilities, resamples=resamples, method=method, threads=threads, max_work=max_work
+        shapes, probabilities=probabilities, resamples=resamples, method=method, threads=threads, max_work=max_work,
+        tail_levels=tail_levels,
     )
     if wanted.peak_bytes <= max_bytes and wanted.seconds <= seconds:
         return wanted  # the resampling budget alone is checked by the bootstrap, as before
@@ -406,7 +424,9 @@ def admit(
     detail = "this request would take " + " and ".join(over)
 
     def fits(**change) -> bool:
-        arguments = dict(probabilities=probabilities, resamples=resamples, method=method, threads=threads)
+        arguments = dict(
+            probabilities=probabilities, resamples=resamples, method=method, threads=threads, tail_levels=tail_levels
+        )
         arguments.update(change)
         e = planned(shapes, max_work=max_work, **arguments)
         work = resampling_work(shapes, arguments["resamples"]) if arguments["method"] is not None else 0.0

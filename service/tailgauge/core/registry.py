@@ -9,17 +9,21 @@ subsets, the interval eligibility, what partial states cannot give) are derived 
 so a new descriptor is one entry here plus the code that computes it.
 
 This module is a data table and exceeds the house's ~500-line guide on purpose: splitting the
-table would only spread one fact over several files.
+table would only spread one fact over several files. The warning codes, a second table, are in
+``warning_codes`` and re-exported here.
 """
 
 from __future__ import annotations
 
-import enum
 from collections.abc import Callable
 from dataclasses import dataclass
 from typing import Literal
 
-Family = Literal["location", "spread", "shape", "extremes", "serial", "robust_shape", "l_moment"]
+# The warning codes' vocabulary lives in its own module (a table of its own); it is part of this
+# registry and imported from here.
+from tailgauge.core.warning_codes import WarningCode  # noqa: F401
+
+Family = Literal["location", "spread", "shape", "extremes", "serial", "robust_shape", "l_moment", "tail"]
 # What a descriptor is computed from. "sums": the shifted central power sums (what partial states
 # carry); "extremes": the minimum and maximum; "quantiles": order statistics (a quantile sketch
 # can stand in); "values": the observed values themselves; "order": their order of observation;
@@ -49,6 +53,9 @@ NOT_RESAMPLED = "bootstrap intervals are not offered for this descriptor"
 # Why the engine leaves out a descriptor it resamples when the request is large (see
 # ``resample.budget.costly_left_out``); the descriptor's facts mark it ``costly``.
 TOO_COSTLY = "resampling it is too costly for these data within the budget"
+# Why the bag of little bootstraps leaves out Hill's index: each resample repeats a subset of
+# n^0.7 values, so its k largest are few values tied many times, which inflates the estimate.
+FEW_TAIL_VALUES = "the bag of little bootstraps draws from subsets whose largest values repeat: Hill's index is biased there"
 
 
 @dataclass(frozen=True)
@@ -259,6 +266,45 @@ DESCRIPTORS: tuple[DescriptorFacts, ...] = (
 )
 
 
+_TRIM = "g = floor(gamma n) per side for whole counts (scipy.stats.trim_mean's rule), gamma W for other weights"
+_OPEN_WINDOW = "its window reaches an open-ended bin holding data"
+# Location beyond the arithmetic mean and Hill's tail index (core/location_means.py, core/tail_measures.py).
+DESCRIPTORS += (
+    _descriptor(
+        "trimmed_mean", f"(1/(W - 2g)) integral of the step quantile function Q over (g, W - g]; {_TRIM}; bins: the "
+          "interpolated grouped quantile function", ("trim_proportion", "weights"), (_OPEN_WINDOW,),
+          "Tukey & McLaughlin, Sankhya A 25, 1963",
+        family="location", needs=_VALUES,
+    ),
+    _descriptor(
+        "winsorized_mean", f"(g Q(g+) + integral_g^(W-g) Q + g Q(W - g)) / W: the g smallest set to x(g+1), the g "
+          f"largest to x(n-g); {_TRIM}", ("trim_proportion", "weights"), (_OPEN_WINDOW,),
+          "Tukey & McLaughlin 1963; scipy.stats.mstats.winsorize",
+        family="location", needs=_VALUES,
+    ),
+    _descriptor(
+        "geometric_mean", "exp(sum w ln x / W) (bins: at their midpoints)", ("weights",),
+          ("zero or negative values (bins: reaching below zero)", _OPEN), "scipy.stats.gmean",
+        family="location", needs=_VALUES,
+    ),
+    _descriptor(
+        "harmonic_mean", "W / sum (w / x) (bins: at their midpoints)", ("weights",),
+          ("zero or negative values (bins: reaching below zero)", _OPEN), "scipy.stats.hmean",
+        family="location", needs=_VALUES,
+    ),
+    _descriptor(
+        "upper_tail_index", "Hill's alpha = k / sum_{i=1..k} ln(X_(n-i+1) / X_(n-k)) over the k largest observations, "
+          "k = options.tail_count or round(sqrt(n)) (a common rule of thumb); asymptotic standard error alpha / "
+          "sqrt(k). A smaller index is a heavier tail: below 4 the population kurtosis does not exist, below 2 the "
+          "variance does not", ("tail_count",),
+          ("fewer than 50 observations", "X_(n-k) <= 0 (a non-positive tail threshold)", _CONSTANT,
+           "bins, probabilities, reliability or fractional weights"),
+          "Hill, Annals of Statistics 3, 1975; asymptotic normality: Hall, JRSS-B 44, 1982",
+        family="tail", needs=frozenset({"values", "whole_counts"}), classical=True,
+    ),
+)
+
+
 # The response members beside the scalar descriptors, as the catalog describes them.
 MEMBERS: tuple[CatalogEntry, ...] = (
     CatalogEntry("moments.raw", "moments", "plug-in E[x^k], k = 1 .. moment_order", ("moment_order",),
@@ -306,6 +352,7 @@ MEMBERS: tuple[CatalogEntry, ...] = (
            "lag-1 autocorrelation (resampling destroys the order)",
            "half-sample mode (the bootstrap is not known to be consistent for it)",
            "medcouple, when resampling it is too costly for the data within the budget",
+           "upper_tail_index under the bag of little bootstraps (subsets repeat their largest values)",
            "a probability table (a population)"),
           "Efron & Tibshirani 1993 (eq. 14.10); bag of little bootstraps: Kleiner et al., JRSS-B 76, 2014"),
     CatalogEntry("standard_error", "descriptors.*, quantiles[*]", "standard deviation of the bootstrap replicates",
@@ -358,6 +405,19 @@ MEMBERS: tuple[CatalogEntry, ...] = (
           "bins' cells, upper edges included), listed in cell_edges", (),
           ("probabilities, reliability or fractional weights", "fewer than two cells holding data"),
           "scipy.stats.ks_2samp, scipy.stats.chi2_contingency; Hodges, Arkiv for Matematik 3, 1958"),
+    CatalogEntry("exceedances", "exceedances",
+          "per threshold t: proportion_above = weight of values > t / W, proportion_at_or_below, count_above (whole "
+          "counts), and a Clopper-Pearson interval of proportion_above: exact for whole counts, on Kish's effective n "
+          "for reliability weights, on the total weight for fractional counts; bins: the count above a threshold "
+          "inside a bin is interpolated (even spread within it), labelled interpolated", ("thresholds", "interval"),
+          ("the threshold falls in an open-ended bin holding data", "interval: a probability table (exact)"),
+          "Clopper & Pearson, Biometrika 26, 1934; Korn & Graubard, Survey Methodology 24, 1998"),
+    CatalogEntry("tail_means", "tail_means",
+          "per level alpha: upper = (1/(1 - alpha)) integral_alpha^1 q(u) du and lower = (1/(1 - alpha)) "
+          "integral_0^(1-alpha) q(u) du, q the step quantile function (the boundary observation enters with its "
+          "fractional weight); bins: the interpolated grouped quantile function; bootstrap intervals", ("tail_levels",
+          "interval"), ("the tail reaches an open-ended bin holding data",),
+          "Acerbi & Tasche, Journal of Banking & Finance 26, 2002 (expected shortfall)"),
     CatalogEntry("scores", "scores", "z = (x - mean) / sd and robust z = (x - median) / normal-consistent MAD",
           ("convention",), ("zero or undefined spread",), "standard scores; Hampel 1974 for the MAD"),
     CatalogEntry("partial_state", "partial_state",
@@ -378,111 +438,6 @@ MEMBERS: tuple[CatalogEntry, ...] = (
           ("no sketches sent with the states",),
           "Karnin, Lang & Liberty, FOCS 2016; Apache DataSketches KLL"),
 )
-
-
-class WarningCode(enum.StrEnum):
-    """The closed vocabulary of warning codes, each with its meaning (served by GET /v1/catalog).
-
-    A member is its code string (``WarningCode.CONSTANT_DATA == "constant_data"``), so responses
-    carry the plain code. Codes are API: never rename one; add instead.
-    """
-
-    meaning: str
-
-    def __new__(cls, code: str, meaning: str) -> WarningCode:
-        member = str.__new__(cls, code)
-        member._value_ = code
-        member.meaning = meaning
-        return member
-
-    MISSING_VALUES_OMITTED = "missing_values_omitted", "nulls in values were dropped under options.missing = omit"
-    ZERO_WEIGHTS_DROPPED = "zero_weights_dropped", "entries of weight zero were left out"
-    PROBABILITIES_NORMALIZED = (
-        "probabilities_normalized",
-        "probabilities not summing to 1 were divided by their sum on request",
-    )
-    SINGLE_OBSERVATION = "single_observation", "one observation: spread and shape are undefined"
-    SINGLE_BIN = "single_bin", "every count in one bin: the spread within it is unknown"
-    CONSTANT_DATA = "constant_data", "all values equal: shape and standardized quantities are undefined"
-    TOO_FEW_OBSERVATIONS = "too_few_observations", "n below what an estimator needs"
-    COEFFICIENT_OF_VARIATION_UNDEFINED = (
-        "coefficient_of_variation_undefined",
-        "negative values, a zero mean, or an unrepresentable spread",
-    )
-    NOT_REPRESENTABLE = "not_representable", "a result outside float64's range"
-    UNDEFINED_FOR_THESE_DATA = "undefined_for_these_data", "a ratio's denominator is zero or outside float64's range"
-    NO_REPEATED_VALUES = "no_repeated_values", "every value occurs once: no mode"
-    MODES_TRUNCATED = "modes_truncated", "more tied modes than the server lists"
-    NO_OBSERVATION_ORDER = "no_observation_order", "lag-1 autocorrelation needs unweighted observations in order"
-    PLUG_IN_ESTIMATOR = (
-        "plug_in_estimator",
-        "no bias-corrected form for reliability weights; the plug-in value is given",
-    )
-    INTEGER_COUNTS_REQUIRED = (
-        "integer_counts_required",
-        "a quantile type that needs whole counts was asked for fractional weights",
-    )
-    OPEN_BIN_HOLDS_DATA = "open_bin_holds_data", "moments are undefined while an open-ended bin holds data"
-    QUANTILE_IN_OPEN_BIN = "quantile_in_open_bin", "a quantile falls inside an open-ended bin"
-    QUANTILE_SPREAD_ZERO = "quantile_spread_zero", "quartiles or octiles coincide: the robust ratio is undefined"
-    NEEDS_VALUES = "needs_values", "a descriptor that needs observed values was asked of bins or distributions"
-    GROUPED_EXTREMES = "grouped_extremes", "bins hide the minimum and maximum"
-    GROUPED_MODE_UNDEFINED = "grouped_mode_undefined", "a modal class has unknown or tied neighbours"
-    SHEPPARD_NOT_APPLICABLE = "sheppard_not_applicable", "unequal widths or bins too wide: no Sheppard correction"
-    ASYMMETRY_DESPITE_SMALL_SKEWNESS = (
-        "asymmetry_despite_small_skewness",
-        "skewness near zero while quartiles or the mean-median gap show asymmetry",
-    )
-    NORMALITY_SMALL_SAMPLE = "normality_small_sample", "n < 20: the kurtosis test's approximation is poor"
-    BCA_FALLBACK = "bca_fallback", "BCa could not be computed; the percentile interval is given"
-    INTERVAL_UNDEFINED = "interval_undefined", "some resamples leave the descriptor undefined"
-    INTERVAL_NOT_OFFERED = (
-        "interval_not_offered",
-        "the bootstrap is inconsistent, or not known to be consistent, for this descriptor (extremes, "
-        "serial order, the half-sample mode), or resampling it is too costly for these data within the "
-        "budget (the medcouple)",
-    )
-    RESAMPLING_SCHEME = "resampling_scheme", "how fractional weights were resampled"
-    SERIAL_DEPENDENCE = (
-        "serial_dependence",
-        "intervals that assume independent observations: named when the lag-1 autocorrelation of the "
-        "values in the order sent is significant at the 1 % level (send options.order as_sent), or left "
-        "out for a series sent with options.order as_sent",
-    )
-    BOOTSTRAP_SMALL_SAMPLE = "bootstrap_small_sample", "n < 20: intervals may cover less than their level"
-    BOOTSTRAP_DISCRETE = "bootstrap_discrete", "few distinct values: order-statistic intervals are coarse"
-    NOT_AVAILABLE_FROM_STATES = (
-        "not_available_from_states",
-        "merged partial states carry no values: order statistics, L-moments and resampling are undefined",
-    )
-    APPROXIMATE_QUANTILES = (
-        "approximate_quantiles",
-        "quantiles from KLL sketches: within the stated normalized rank error, not exact",
-    )
-    BEYOND_STATE_ORDER = "beyond_state_order", "a moment above the highest order the partial states carry"
-    DIFFERENCE_UNDEFINED = (
-        "difference_undefined",
-        "a contrast of two inputs is undefined because an input leaves its descriptor undefined",
-    )
-    RATIO_UNDEFINED = "ratio_undefined", "the first input's value is zero: the ratio second / first is undefined"
-    EFFECT_SIZE_UNDEFINED = (
-        "effect_size_undefined",
-        "no sample sizes (probabilities) or no spread: no standardized mean difference",
-    )
-    CONVENTIONS_DIFFER = "conventions_differ", "the two inputs are described by different estimators"
-    DISTRIBUTION_TEST_TIES = (
-        "distribution_test_ties",
-        "ties in the pooled data: the Kolmogorov-Smirnov p-value is conservative",
-    )
-    CHI_SQUARE_SMALL_EXPECTED = (
-        "chi_square_small_expected",
-        "expected counts below 5: the chi-square approximation may be poor",
-    )
-    BINS_COARSENED = (
-        "bins_coarsened",
-        "binned inputs on different edges were tested in the coarser cells between the edges both share",
-    )
-    SCORE_UNDEFINED = "score_undefined", "the reference's spread is zero or undefined: no z-score"
 
 
 # --- derived lists -------------------------------------------------------------------------
@@ -517,7 +472,7 @@ UNDEFINED_FOR_ONE = names(
     "spread", "shape", "robust_shape", "l_moment", "serial", where=lambda facts: facts.undefined_for_one
 )
 UNDEFINED_FOR_CONSTANT = names(
-    "shape", "robust_shape", "l_moment", "serial", where=lambda facts: facts.undefined_for_constant
+    "shape", "robust_shape", "l_moment", "serial", "tail", where=lambda facts: facts.undefined_for_constant
 )
 # Undefined while an open-ended bin holds data (its values are unknown), in response order.
 UNDEFINED_FOR_OPEN_BIN = tuple(facts.name for facts in DESCRIPTORS if _OPEN in facts.undefined_when)

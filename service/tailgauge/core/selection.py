@@ -28,7 +28,10 @@ Warned = TypeVar("Warned", bound=Any)  # a result or comparison warning: a datac
 
 # The members of a description that can be asked for by name (the others, size, conventions,
 # warnings and resampling, say what the answer is and are always there).
-MEMBERS = ("moments", "quantiles", "modes", "shape_estimators", "tail_contributions", "grouping", "normality")
+MEMBERS = (
+    "moments", "quantiles", "modes", "shape_estimators", "tail_contributions", "grouping", "normality", "exceedances",
+    "tail_means",
+)
 FAMILIES = tuple(dict.fromkeys(facts.family for facts in DESCRIPTORS))
 # Every name options.descriptors accepts, in the order the schema lists them.
 CHOICES = SCALAR_DESCRIPTORS + MEMBERS + FAMILIES
@@ -47,7 +50,7 @@ _COMPUTED_FROM: dict[str, tuple[str, ...]] = {
 # and every descriptor computed from the observed values except the serial one.
 _SORTED = frozenset(
     facts.name for facts in DESCRIPTORS if facts.needs & {"quantiles", "extremes", "values"} and "order" not in facts.needs
-) | {"quantiles", "modes"}
+) | {"quantiles", "modes", "exceedances", "tail_means"}
 
 
 @dataclass(frozen=True)

@@ -147,6 +147,12 @@ Normalize = Annotated[
 ]
 
 
+# Bounds of the tail options (the core's defaults beside them: core.location_means, core.tail_measures).
+MAX_THRESHOLDS = 100
+MAX_TAIL_LEVELS = 20
+TailLevel = Annotated[float, Meta(gt=0.0, lt=1.0, description="A tail level alpha in (0, 1), e.g. 0.99.")]
+
+
 class CoreChoices(Protocol):
     """What every option set tells the core (see :func:`tailgauge.api.endpoints.describe_options`)."""
 
@@ -156,6 +162,10 @@ class CoreChoices(Protocol):
     probabilities: list[float]
     moment_order: int
     score: list[float]
+    thresholds: list[float]
+    tail_levels: list[float]
+    trim_proportion: float
+    tail_count: int | None
 
     @property
     def interval(self) -> IntervalRequest | None: ...
@@ -254,6 +264,46 @@ class SummaryOptions(Message):
             ),
         ),
     ] = msgspec.field(default_factory=list)
+    thresholds: Annotated[
+        list[Finite],
+        Meta(
+            max_length=MAX_THRESHOLDS,
+            description=(
+                "Thresholds t: member exceedances gives, for each, the proportion of the data above t and at or "
+                "below it, the count above (whole counts) and a Clopper-Pearson interval of the proportion above."
+            ),
+        ),
+    ] = msgspec.field(default_factory=list)
+    tail_levels: Annotated[
+        list[TailLevel],
+        Meta(
+            max_length=MAX_TAIL_LEVELS,
+            description=(
+                "Levels alpha, e.g. 0.95 and 0.99: member tail_means gives the mean of the upper 1 - alpha share "
+                "(expected shortfall) and of the lower 1 - alpha share, with bootstrap intervals under options.interval."
+            ),
+        ),
+    ] = msgspec.field(default_factory=list)
+    trim_proportion: Annotated[
+        float,
+        Meta(
+            ge=0.0,
+            lt=0.5,
+            description=(
+                "Share cut from each end for trimmed_mean and winsorized_mean: floor(proportion x n) observations "
+                "for whole counts, that share of the weight otherwise; 0.1 is common practice."
+            ),
+        ),
+    ] = 0.1
+    tail_count: Annotated[
+        Annotated[int, Meta(ge=1, le=MAX_SEED)] | None,
+        Meta(
+            description=(
+                "k, the number of largest observations upper_tail_index (Hill 1975) uses; null: round(sqrt(n)), "
+                "a common rule of thumb. Must be below n."
+            ),
+        ),
+    ] = None
 
 
 class DescriptorOptions(SummaryOptions):
@@ -367,7 +417,9 @@ class MergeOptions(SummaryOptions, Unordered):
     """The options of a descriptor endpoint that a merged state can honour (no resampling).
 
     Quantiles at options.probabilities come from sketches, when sent; moments stop at the
-    states' order.
+    states' order. options.thresholds and options.tail_levels need the values: sending either is
+    a 422 located at it; trim_proportion and tail_count are accepted, and the descriptors they
+    tune are null (not_available_from_states), as every descriptor that needs the values.
     """
 
     @property
@@ -416,6 +468,7 @@ __all__ = [
     "SampleOptions",
     "SamplesInputOptions",
     "SummaryOptions",
+    "TailLevel",
     "TableInputOptions",
     "TableOptions",
 ]

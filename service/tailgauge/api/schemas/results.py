@@ -243,6 +243,40 @@ class Grouping(Answer):
     ] = None
 
 
+class Exceedance(Answer):
+    threshold: float
+    proportion_above: Annotated[MaybeNumber, Meta(description="Weight of values above the threshold / total weight.")]
+    proportion_at_or_below: MaybeNumber
+    count_above: Annotated[
+        int | None, Meta(description="Observations above the threshold (whole counts only; null otherwise).")
+    ]
+    interpolated: Annotated[
+        bool, Meta(description="The threshold falls inside a bin: the count above is interpolated within it.")
+    ]
+    interval: Annotated[
+        Interval | None,
+        Meta(
+            description=(
+                "Interval of proportion_above: clopper_pearson (whole counts), clopper_pearson_effective_n (Kish's "
+                "effective n, reliability weights), clopper_pearson_fractional_counts, or "
+                "clopper_pearson_interpolated_count (bins); level options.interval.level or 0.95. null for a "
+                "probability table (exact)."
+            )
+        ),
+    ]
+
+
+class TailMeanSide(Answer):
+    value: MaybeNumber
+    interval: Annotated[Interval | None, Meta(description="Bootstrap interval (when options.interval is given).")] = None
+
+
+class TailMean(Answer):
+    level: float
+    upper: Annotated[TailMeanSide, Meta(description="Mean of the upper 1 - level share (expected shortfall).")]
+    lower: Annotated[TailMeanSide, Meta(description="Mean of the lower 1 - level share.")]
+
+
 class Conventions(Answer):
     convention: str
     variance_divisor: str
@@ -317,6 +351,12 @@ class DescriptionResponse(Answer, kw_only=True):
         list[NormalityTest] | UnsetType,
         Meta(description="Normality tests from skewness and kurtosis (samples and count tables)."),
     ] = UNSET
+    exceedances: Annotated[
+        list[Exceedance] | UnsetType, Meta(description="One entry per options.thresholds value, in order.")
+    ] = UNSET
+    tail_means: Annotated[
+        list[TailMean] | UnsetType, Meta(description="One entry per options.tail_levels value, in order.")
+    ] = UNSET
     conventions: Conventions
     warnings: list[ResultWarning]
     resampling: Annotated[
@@ -341,6 +381,7 @@ __all__ = [
     "Conventions",
     "DescriptionResponse",
     "DescriptorValue",
+    "Exceedance",
     "Descriptors",
     "Grouping",
     "KnownSummary",
@@ -361,4 +402,6 @@ __all__ = [
     "ShapeEstimators",
     "Size",
     "TailContributions",
+    "TailMean",
+    "TailMeanSide",
 ]

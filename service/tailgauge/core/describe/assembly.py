@@ -11,7 +11,7 @@ from collections.abc import Callable
 import numpy as np
 
 from tailgauge.core import cost, order_statistics
-from tailgauge.core.describe import evidence, intervals, known, moment_based, order_based, ordered, robust_shape
+from tailgauge.core.describe import evidence, intervals, known, moment_based, order_based, ordered, robust_shape, tails
 from tailgauge.core.describe.basis import Basis
 from tailgauge.core.describe.warnings import Warnings, explain_remaining_nulls, finite_or_none, note_degenerate
 from tailgauge.core.describe.options import DescribeOptions
@@ -19,6 +19,7 @@ from tailgauge.core.describe.results import (
     Conventions,
     Description,
     Descriptor,
+    Exceedance,
     Grouping,
     Modes,
     Moments,
@@ -28,6 +29,7 @@ from tailgauge.core.describe.results import (
     Resampling,
     Size,
     TailContributions,
+    TailMean,
 )
 from tailgauge.core.describe.validation import check_description
 from tailgauge.core.errors import LimitExceeded, Location
@@ -62,6 +64,7 @@ def admit(inputs: list[WeightedData], options: DescribeOptions) -> cost.Estimate
         max_bytes=options.max_memory_bytes,
         seconds=left,
         max_work=options.max_resample_work,
+        tail_levels=len(options.tail_levels),
     )
 
 
@@ -157,6 +160,8 @@ def describe(data: WeightedData, options: DescribeOptions, *, kind: str) -> Desc
         descriptors["lag1_autocorrelation"] = Descriptor(
             moment_based.lag1(data, sums, basis.single, constant, notes), moment_based.LAG1_LABEL
         )
+    tail_point = tails.tail_descriptors(descriptors, data, options, notes)
+    _on_time(options)
     # What the selection leaves uncomputed holds None here; restrict() takes it out of the answer.
     for name in SCALAR_DESCRIPTORS:
         descriptors.setdefault(name, Descriptor(None, NOT_COMPUTED))
@@ -185,7 +190,7 @@ def describe(data: WeightedData, options: DescribeOptions, *, kind: str) -> Desc
     if options.interval is not None:
         resampling = intervals.intervals(
             data, sums, midpoint_sums, sheppard_applied, basis, options, descriptors, quantile_list, probabilities,
-            notes, structure,
+            notes, structure, tail_point,
         )
 
     known.apply(data, descriptors, notes, selection, resampling)  # a histogram's own sum, min and max
@@ -235,6 +240,8 @@ def describe(data: WeightedData, options: DescribeOptions, *, kind: str) -> Desc
         weights=data.meaning,
         resampling=resampling,
         selection=selection,
+        exceedances=tails.exceedances(data, options, notes),
+        tail_means=tail_point.tail_means,
     )
 
 
@@ -279,6 +286,8 @@ def assemble(
     resampling: Resampling | None = None,
     sketches: QuantileSketches | None = None,
     selection: Selection = EVERYTHING,
+    exceedances: list[Exceedance] | None = None,
+    tail_means: list[TailMean] | None = None,
 ) -> Description:
     """The one assembly of a ``Description``, for data (``describe``) and merged partial states.
 
@@ -317,6 +326,8 @@ def assemble(
         warnings=notes.items,
         resampling=resampling,
         sketches=sketches,
+        exceedances=exceedances or [],
+        tail_means=tail_means or [],
     )
 
 

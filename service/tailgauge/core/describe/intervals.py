@@ -10,7 +10,7 @@ import math
 import numpy as np
 
 from tailgauge.core import classical, grouped, resample
-from tailgauge.core.describe import ordered
+from tailgauge.core.describe import ordered, tails
 from tailgauge.core.describe.basis import Basis
 from tailgauge.core.describe.options import DescribeOptions
 from tailgauge.core.describe.order_based import ROBUST_PROBABILITIES
@@ -34,14 +34,17 @@ def intervals(
     probabilities: np.ndarray,
     notes: Warnings,
     structure: ordered.Serial | None = None,
+    tail_point: tails.TailPoint | None = None,
 ) -> Resampling:
-    """Bootstrap and classical intervals for every defined descriptor and quantile.
+    """Bootstrap and classical intervals for every defined descriptor and quantile, and for the
+    tail means (``tail_point``).
 
     The data were checked for resampling beforehand (``validation.check_description``).
     ``structure``: the serial structure of a sample sent with options.order as_sent, whose
     resamples join blocks; BCa then falls back to percentile (its acceleration is a jackknife
     of independent observations), and the classical intervals are the mean's with the effective n.
     """
+    tail_point = tails.TailPoint() if tail_point is None else tail_point
     interval = options.interval
     assert interval is not None
     blocks = chosen = None
@@ -60,10 +63,11 @@ def intervals(
     families = (
         (basis.skewness_family, basis.kurtosis_family) if basis.bias_correctable else ("g1", "g2")
     )
+    estimates = {name: d.value for name, d in descriptors.items() if options.selection.computes(name)}
     outcome = resample.bootstrap(
         data,
         plan_sums,
-        {name: d.value for name, d in descriptors.items() if options.selection.computes(name)},
+        estimates | tail_point.estimates,
         [q.value for q in quantiles],
         probabilities,
         families=families,
@@ -77,6 +81,10 @@ def intervals(
         sheppard_width=sheppard_width,
         quantile_shape=resample.QuantileShape(ROBUST_PROBABILITIES, NORMAL_OCTILE_KURTOSIS),
         blocks=blocks,
+        tails=resample.TailSpec(
+            np.array([m.level for m in tail_point.tail_means], dtype=np.float64), options.trim_proportion,
+            tail_point.tail_count,
+        ),
     )
     if engine_options is not interval:
         blocked = [name for name, result in outcome.results.items() if result.interval is not None]
@@ -90,6 +98,11 @@ def intervals(
     fallbacks: dict[str, list[str]] = {}
     undefined: dict[str, list[str]] = {}
     for name, result in outcome.results.items():
+        if name.startswith((tails.UPPER, tails.LOWER)):
+            name = _tail_mean_result(tail_point, name, result)
+            if result.reason is not None:
+                (fallbacks if result.interval is not None else undefined).setdefault(result.reason, []).append(name)
+            continue
         descriptors[name].interval = result.interval
         descriptors[name].standard_error = finite_or_none(result.standard_error) if result.standard_error is not None else None
         if result.reason is not None:
@@ -142,6 +155,9 @@ def intervals(
     else:
         _effective_mean_interval(sums, interval.level, descriptors, structure)
         ordered.note_independent_classical(descriptors, quantiles, notes)
+    if tail_point.tail_count is not None:
+        index = descriptors[tails.TAIL_INDEX]
+        index.classical_interval = tails.tail_index_interval(index, tail_point.tail_count, interval.level)
     return Resampling(
         method=interval.method,
         level=interval.level,
@@ -169,6 +185,15 @@ def _effective_mean_interval(
             mean, math.sqrt(sample_variance), structure.effective_n, level
         )
 
+
+
+def _tail_mean_result(tail_point: tails.TailPoint, name: str, result: resample.BootstrapResult) -> str:
+    """Put a tail mean's interval in its place; return its name in the answer (tail_means[i])."""
+    upper = name.startswith(tails.UPPER)
+    i = int(name.split(":")[1])
+    side = tail_point.tail_means[i].upper if upper else tail_point.tail_means[i].lower
+    side.interval = result.interval
+    return f"tail_means[{i}]"
 
 
 def _classical_intervals(

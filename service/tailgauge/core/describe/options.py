@@ -58,6 +58,12 @@ class DescribeOptions:
     admitted: bool = False
     # What the answer shows and what is computed for it (tailgauge.core.selection); None: everything.
     descriptors: Selection | None = None
+    # Tails (core/tail_measures.py, core/location_means.py): thresholds of the exceedances, levels of
+    # the tail means, the share trimmed from each end, and k of Hill's estimator (None: round(sqrt(n))).
+    thresholds: tuple[float, ...] = ()
+    tail_levels: tuple[float, ...] = ()
+    trim_proportion: float = 0.1
+    tail_count: int | None = None
 
     @property
     def selection(self) -> Selection:

@@ -8,6 +8,7 @@ import math
 import numpy as np
 
 from tailgauge.core import grouped, order_statistics
+from tailgauge.core.describe import tails
 from tailgauge.core.describe.basis import Basis
 from tailgauge.core.describe.warnings import Warnings, finite_or_none
 from tailgauge.core.describe.options import DescribeOptions
@@ -118,7 +119,9 @@ def order_descriptors(
 
 
 # Computed from the sorted data (or its support) beside the order statistics themselves.
-_SORT_USERS = frozenset(QUANTILE_SHAPE_DESCRIPTORS + names("l_moment") + ("medcouple", "half_sample_mode", "modes"))
+_SORT_USERS = frozenset(
+    QUANTILE_SHAPE_DESCRIPTORS + names("l_moment") + ("medcouple", "half_sample_mode", "modes") + tails.READS_SORTED
+)
 
 
 def selects_without_sorting(data: WeightedData, options: DescribeOptions) -> bool:

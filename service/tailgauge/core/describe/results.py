@@ -155,6 +155,29 @@ class Grouping:
 
 
 @dataclass
+class Exceedance:
+    threshold: float
+    proportion_above: float | None
+    proportion_at_or_below: float | None
+    count_above: int | None  # whole counts only
+    interpolated: bool  # inside a bin: the count above is interpolated
+    interval: resample.Interval | None  # of proportion_above (Clopper-Pearson)
+
+
+@dataclass
+class TailMeanSide:
+    value: float | None
+    interval: resample.Interval | None = None
+
+
+@dataclass
+class TailMean:
+    level: float
+    upper: TailMeanSide
+    lower: TailMeanSide
+
+
+@dataclass
 class Conventions:
     convention: str
     variance_divisor: str
@@ -199,3 +222,5 @@ class Description:
     sketches: QuantileSketches | None = None
     # Descriptors and members left out of the answer by options.descriptors (tailgauge.core.selection).
     absent: tuple[str, ...] = ()
+    exceedances: list[Exceedance] = field(default_factory=list)
+    tail_means: list[TailMean] = field(default_factory=list)

@@ -10,6 +10,7 @@ from __future__ import annotations
 
 from tailgauge.core.describe.basis import Basis, basis_of_data
 from tailgauge.core.describe.options import DescribeOptions
+from tailgauge.core.describe.tails import check_tail_options
 from tailgauge.core.errors import UncomputableInput
 from tailgauge.core.weighted import WeightedData, WeightMeaning
 
@@ -28,6 +29,7 @@ def check_description(data: WeightedData, options: DescribeOptions) -> Basis:
     if data.meaning is WeightMeaning.PROBABILITY:
         _check_population_options(options)
     basis = basis_of_data(data, options)
+    check_tail_options(data, options)
     if options.interval is not None:
         _check_interval(data, basis)
     _check_order(data, options)

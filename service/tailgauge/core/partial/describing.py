@@ -174,6 +174,8 @@ def describe_state(
     for name in robust_shape.L_MOMENT_DESCRIPTORS:
         descriptors[name] = Descriptor(None, robust_shape.L_MOMENTS_LABEL)
     descriptors["lag1_autocorrelation"] = Descriptor(None, moment_based.LAG1_LABEL)
+    for name in NEEDS_VALUES:  # the rest that needs the values (the tail and location means, Hill's index)
+        descriptors.setdefault(name, Descriptor(None, "needs the values themselves"))
     missing = NEEDS_VALUES + (("quantiles",) + FROM_QUANTILES if sketch is None else ())
     notes.add(
         WarningCode.NOT_AVAILABLE_FROM_STATES,

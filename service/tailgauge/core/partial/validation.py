@@ -170,7 +170,7 @@ def check_state_source(data: WeightedData) -> None:
 
 def check_state_request(state: PartialState, options: DescribeOptions, sketches: SketchUnion | None) -> None:
     """What describing a merged state needs: a non-empty state, no option that needs the values
-    (intervals, a quantile rule), and sketches of the same data when sketches are sent."""
+    (intervals, a quantile rule, thresholds, tail levels), and sketches of the same data when sketches are sent."""
     if state.count == 0.0:
         raise UncomputableInput.at("states", "every state is empty (count 0), so there is nothing to describe")
     if options.interval is not None:
@@ -183,5 +183,12 @@ def check_state_request(state: PartialState, options: DescribeOptions, sketches:
             "options.quantile_type",
             "quantile rules need the values; from states, quantiles come only from sketches, by their own rule",
         )
+    for path, asked in (("options.thresholds", options.thresholds), ("options.tail_levels", options.tail_levels)):
+        if asked:
+            raise UncomputableInput.at(
+                path,
+                "exceedances and tail means need the values (or their order); partial states carry only counts, "
+                "moments and extremes: send the values, or a table or bins of them, to a descriptor endpoint",
+            )
     if sketches is not None:
         _check_sketches_match(sketches, state)

@@ -31,7 +31,7 @@ from collections.abc import Callable
 import numpy as np
 
 from tailgauge.core.moments import CentralSums
-from tailgauge.core.registry import TOO_COSTLY
+from tailgauge.core.registry import FEW_TAIL_VALUES, TOO_COSTLY
 from tailgauge.core.resample import blocks as block_draws
 from tailgauge.core.resample import medcouple_rows
 from tailgauge.core.resample.blocks import Blocks
@@ -73,6 +73,7 @@ from tailgauge.core.resample.little import little_bootstraps
 from tailgauge.core.resample.pool import pool
 from tailgauge.core.resample.rows import LeaveOneOut, Rows, Scratch
 from tailgauge.core.resample.statistics import QuantileShape, Statistics
+from tailgauge.core.resample.tail_rows import TailSpec
 from tailgauge.core.weighted import WeightedData
 
 __all__ = [
@@ -88,6 +89,7 @@ __all__ = [
     "Interval",
     "IntervalOptions",
     "QuantileShape",
+    "TailSpec",
     "Replicates",
     "acceleration",
     "allowed_resamples",
@@ -266,6 +268,7 @@ def bootstrap(
     sheppard_width: float | None = None,
     quantile_shape: QuantileShape | None = None,
     blocks: Blocks | None = None,
+    tails: TailSpec | None = None,
 ) -> BootstrapOutcome:
     """Bootstrap every defined scalar descriptor and requested quantile of ``data`` in one pass.
 
@@ -297,12 +300,16 @@ def bootstrap(
     if estimates.get("medcouple") is not None and not medcouple_fits(rows, options.resamples, max_work):
         left_out["medcouple"] = TOO_COSTLY
     if uses_subsets(plan, subset_rows, blocks):
+        if estimates.get("upper_tail_index") is not None:
+            left_out["upper_tail_index"] = FEW_TAIL_VALUES
         return little_bootstraps(
             plan, notes, estimates, quantile_estimates, probabilities,
-            Statistics(plan, families, quantile_type, factor_rule, quantile_shape=quantile_shape, left_out=left_out),
+            Statistics(
+                plan, families, quantile_type, factor_rule, quantile_shape=quantile_shape, left_out=left_out, tails=tails
+            ),
             options, deadline,
         )
-    statistics = Statistics(plan, families, quantile_type, factor_rule, sheppard_width, quantile_shape, left_out)
+    statistics = Statistics(plan, families, quantile_type, factor_rule, sheppard_width, quantile_shape, left_out, tails)
     wanted = statistics.wanted(estimates)
 
     own = threading.local()

@@ -72,7 +72,7 @@ def little_bootstraps(
         )
         statistics = Statistics(
             subset, (full.skewness_family, full.kurtosis_family), full.quantile_type, full.factor_rule,
-            quantile_shape=full.quantile_shape, left_out=full.left_out,
+            quantile_shape=full.quantile_shape, left_out=full.left_out, tails=full.tails,
         )
         # The subset's resamples in batches of at most BATCH_ELEMENTS counts (a subset of a
         # large sample would otherwise hold resamples x m counts at once); the generator's

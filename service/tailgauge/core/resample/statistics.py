@@ -15,7 +15,7 @@ import numpy as np
 from tailgauge.core import deviation_rules, grouped, order_rules, shape
 from tailgauge.core.moments import variance_factor
 from tailgauge.core.order_statistics import NORMAL_MAD_FACTOR
-from tailgauge.core.resample import lmoment_rows, medcouple_rows
+from tailgauge.core.resample import lmoment_rows, medcouple_rows, tail_rows
 from tailgauge.core.resample.budget import (
     EVALUATION_PART_BYTES,
     LMOMENT_BYTES_PER_ELEMENT,
@@ -59,8 +59,12 @@ class Statistics:
         sheppard_width: float | None = None,
         quantile_shape: QuantileShape | None = None,
         left_out: dict[str, str] | None = None,
+        tails: tail_rows.TailSpec | None = None,
     ):
         self.plan = plan
+        # The tail statistics' options (levels, trimming, Hill's k) and the columns they read.
+        self.tails = tail_rows.TailSpec() if tails is None else tails
+        self.tail_columns = tail_rows.TailColumns(plan)
         self.quantile_shape = quantile_shape
         self.left_out = {} if left_out is None else left_out  # name -> why it is not resampled
         # The data's own weights are whole counts (what robust.medcouple asks of the data): so are
@@ -84,6 +88,10 @@ class Statistics:
             if estimates.get(name) is not None
             and name not in self.left_out
             and (self.quantile_shape is not None or name not in QUANTILE_SHAPE)
+            and (name != "upper_tail_index" or self.tails.tail_count is not None)
+        ) + tuple(
+            name for name, value in estimates.items()
+            if name.startswith((tail_rows.UPPER, tail_rows.LOWER)) and value is not None and self.tails.levels.size
         )
 
     def quantiles(self, view, p: np.ndarray) -> np.ndarray:
@@ -260,6 +268,7 @@ class Statistics:
             self._lmoments(out, view)
         if "medcouple" in names:
             out["medcouple"] = given["medcouple"] if "medcouple" in given else self.medcouples(view, median)
+        tail_rows.evaluate(plan, self.tails, self.tail_columns, view, names, out)
         return out
 
     def _quantile_shape(self, out: dict[str, np.ndarray], found: np.ndarray) -> None:
