@@ -122,8 +122,10 @@ def _exposition(directory: Path) -> dict[tuple, float]:
 
 
 def _totals(directory: Path) -> dict[tuple, float]:
-    """The exported counters and histograms (what folding must keep), without the live gauges."""
-    return {key: value for key, value in _exposition(directory).items() if not key[0].startswith("tailgauge_inflight")}
+    """The exported counters and histograms (what folding must keep), without the live gauges (work in
+    flight, and the build info: each worker's own, gone with it)."""
+    live = ("tailgauge_inflight", "tailgauge_build_info")
+    return {key: value for key, value in _exposition(directory).items() if not key[0].startswith(live)}
 
 
 CATALOG_200 = ("tailgauge_http_requests_total", (("method", "GET"), ("route", "/v1/catalog"), ("status", "200")))

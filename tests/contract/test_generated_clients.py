@@ -246,6 +246,11 @@ const bins: Schemas["BinsRequest"] = { edges: [0, 10, null], counts: [4, 1] };
 const merge: Schemas["MergeRequest"] = {
   states: [{ count: 2, mean: 1.5, central_sums: [0.5, 0, 0.125], minimum: 1, maximum: 2 }],
 };
+const histogram: Schemas["HistogramRequest"] = {
+  layout: "cumulative", upper_bounds: [0.1, 0.3, null], cumulative_counts: [4, 9, 10],
+};
+const groups: Schemas["GroupsRequest"] = { groups: [{ key: "head-1", values: [1, 2] }, { key: 7, values: [3] }] };
+const columns: Schemas["GroupsRequest"] = { values: [1, 2, 3], keys: ["a", "a", 7], options: { baseline: "a" } };
 const comparison: Schemas["ComparisonRequest"] = {
   first: { kind: "samples", values: [1, 2, 3] },
   second: { kind: "bins", edges: [0, 1, 2], counts: [1, 1] },
@@ -258,7 +263,7 @@ const chosen: Schemas["SamplesRequest"] = { values: [1, 2, 3], options: { descri
 declare const answer: SamplesAnswer;
 const mean: number | null | undefined = answer.descriptors.mean?.value;
 const estimator: string | undefined = answer.descriptors.skewness?.estimator;
-const kind: "samples" | "table" | "bins" = answer.kind;
+const kind: "samples" | "table" | "bins" | "histogram" = answer.kind;
 const firstQuantile: number | null | undefined = answer.quantiles?.[0]?.value;
 const warningCodes: string[] = answer.warnings.map((w) => w.code);
 declare const problem: Schemas["Problem"];
@@ -267,7 +272,8 @@ declare const compared: Schemas["ComparisonResponse"];
 const side: "first" | "second" | "comparison" | undefined = compared.warnings[0]?.side;
 const g: number | null = compared.standardized_mean_difference.value;
 
-export const used = [samples, defaults, chosen, table, bins, merge, comparison, mean, estimator, kind,
+export const used = [samples, defaults, chosen, table, bins, histogram, groups, columns, merge, comparison, mean,
+  estimator, kind,
   firstQuantile, warningCodes, where, side, g];
 """
 

@@ -130,8 +130,10 @@ def test_effect_size_sample_sizes_for_reliability_weights_and_bins():
     assert effect.first_n == pytest.approx(weights.sum() ** 2 / np.sum(weights**2), rel=1e-12)
     assert effect.second_n == 70
     assert effect.value is not None
-    # Neither a probability table nor reliability weights give a Kolmogorov-Smirnov test.
-    assert result.distribution_test.p_value is None and "bins" in result.distribution_test.reason
+    # Binned data against observations get the chi-square test on the bins' cells, but reliability
+    # weights give no count of observations for its null distribution: no test, and the reason says so.
+    assert result.distribution_test.test == "chi_square_homogeneity"
+    assert result.distribution_test.p_value is None and "reliability weights" in result.distribution_test.reason
 
 
 def test_effect_size_is_undefined_for_probability_tables_and_for_no_spread():

@@ -36,6 +36,10 @@ def _as_bin(text: str) -> bytes | None:
     return raw if len(raw) >= _MIN_BIN_BYTES else None
 
 
+# The schema's bound on every number (schemas.common.LARGEST), as the document writes it.
+_LARGEST_AS_WRITTEN = 17976931348623157 * 10**292
+
+
 def _representable(value):
     """The generated JSON-like value as a MessagePack client would send it.
 
@@ -48,10 +52,13 @@ def _representable(value):
         raw = _as_bin(value)
         return value if raw is None else raw
     if isinstance(value, int) and not -(2**63) <= value < 2**64:
-        try:
-            return float(value)
-        except OverflowError:  # beyond float64 as well: sent as an infinity, which must be a 400
+        if abs(value) > _LARGEST_AS_WRITTEN:
+            # Beyond the schema's bound as written (1.7976931348623157e+308, a little below float64's
+            # largest value, which it stands for): sent as an infinity, which must be a 400. As a
+            # float it would round to the largest value, and a body that broke the bound as a
+            # validator reads the document would arrive as one the server must accept.
             return math.inf if value > 0 else -math.inf
+        return float(value)
     if isinstance(value, dict):
         return {key: _representable(item) for key, item in value.items()}
     if isinstance(value, list):

@@ -114,6 +114,16 @@ class AsyncClient:
     ) -> schemas.DescriptionResponse:
         return await self.call("describeBins", request, **fields)
 
+    async def describe_histogram(
+        self, request: schemas.HistogramRequest | dict | None = None, /, **fields: Any
+    ) -> schemas.DescriptionResponse:
+        return await self.call("describeHistogram", request, **fields)
+
+    async def describe_groups(
+        self, request: schemas.GroupsRequest | dict | None = None, /, **fields: Any
+    ) -> schemas.GroupsResponse:
+        return await self.call("describeGroups", request, **fields)
+
     async def merge_states(
         self, request: schemas.MergeRequest | dict | None = None, /, **fields: Any
     ) -> schemas.MergedDescriptionResponse:

@@ -114,6 +114,16 @@ class Client:
     ) -> schemas.DescriptionResponse:
         return self.call("describeBins", request, **fields)
 
+    def describe_histogram(
+        self, request: schemas.HistogramRequest | dict | None = None, /, **fields: Any
+    ) -> schemas.DescriptionResponse:
+        return self.call("describeHistogram", request, **fields)
+
+    def describe_groups(
+        self, request: schemas.GroupsRequest | dict | None = None, /, **fields: Any
+    ) -> schemas.GroupsResponse:
+        return self.call("describeGroups", request, **fields)
+
     def merge_states(
         self, request: schemas.MergeRequest | dict | None = None, /, **fields: Any
     ) -> schemas.MergedDescriptionResponse:
