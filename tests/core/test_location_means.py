@@ -27,14 +27,7 @@ from tailgauge.core import (
     from_table,
 )
 from tailgauge.core.registry import WarningCode
-
-
-def _named(description) -> dict[str, set[str]]:
-    named: dict[str, set[str]] = {}
-    for note in description.warnings:
-        for name in note.descriptors:
-            named.setdefault(name, set()).add(note.code)
-    return named
+from tests.core.warning_lookup import codes_by_descriptor
 
 
 @pytest.mark.parametrize("n", [1, 2, 5, 9, 10, 11, 37, 100, 1001])
@@ -131,14 +124,14 @@ def test_zero_or_negative_data_leave_them_null_with_a_reason(data):
     result = describe(data, DescribeOptions(), kind="bins" if data.binned else "samples")
     for name in ("geometric_mean", "harmonic_mean"):
         assert result.descriptors[name].value is None
-        assert WarningCode.POSITIVE_VALUES_REQUIRED in _named(result)[name]
+        assert WarningCode.POSITIVE_VALUES_REQUIRED in codes_by_descriptor(result)[name]
     # The trimmed and winsorized means need no positivity.
     assert result.descriptors["trimmed_mean"].value is not None
 
 
 def test_an_open_bin_holding_data_leaves_them_null():
     result = describe(from_bins([0.0, 10.0, None], [8.0, 2.0]), DescribeOptions(trim_proportion=0.25), kind="bins")
-    named = _named(result)
+    named = codes_by_descriptor(result)
     assert result.descriptors["geometric_mean"].value is None and WarningCode.OPEN_BIN_HOLDS_DATA in named["geometric_mean"]
     # g = floor(0.25 x 10) = 2 cuts the open bin away: the trimmed mean is defined (counts 2 to 8 of
     # the first bin, spread over (2.5, 10], mean 6.25), the winsorized mean is not.

@@ -44,6 +44,7 @@ from tailgauge.core.registry import (
     UNDEFINED_FOR_OPEN_BIN,
     WarningCode as W,
 )
+from tests.core.warning_lookup import codes_by_descriptor
 
 L_MOMENTS = ("l_location", "l_scale", "l_skewness", "l_kurtosis")
 QUANTILE_SHAPE = ("quartile_skewness", "octile_kurtosis", "octile_excess_kurtosis")
@@ -232,19 +233,11 @@ CATCH_ALL_CASES = {
 }
 
 
-def _named(description) -> dict[str, set[str]]:
-    named: dict[str, set[str]] = {}
-    for note in description.warnings:
-        for name in note.descriptors:
-            named.setdefault(name, set()).add(note.code)
-    return named
-
-
 @pytest.mark.parametrize("case", CASES, ids=lambda c: f"{c.kind}, {c.degenerate}, {c.convention}")
 def test_every_null_descriptor_names_its_specific_reason(case):
     description = build(case)
     assert set(description.descriptors) == set(SCALAR_DESCRIPTORS)
-    named = _named(description)
+    named = codes_by_descriptor(description)
     problems = []
     for name in SCALAR_DESCRIPTORS:
         value = description.descriptors[name].value
@@ -286,7 +279,7 @@ def test_reliability_weights_under_the_sample_convention_say_plug_in():
     data = from_samples(values, omit_missing=False, weights=_weights("reliability weights", len(values)),
                         meaning=WeightMeaning.RELIABILITY)
     sample = describe(data, DescribeOptions(), kind="samples")
-    named = _named(sample)
+    named = codes_by_descriptor(sample)
     for name in ("skewness", "kurtosis", "excess_kurtosis"):
         assert sample.descriptors[name].value is not None
         assert W.PLUG_IN_ESTIMATOR in named[name]

@@ -39,14 +39,7 @@ from tailgauge.core.resample import IntervalOptions
 from tailgauge.core.resample.draws import plan_of
 from tailgauge.core.resample.rows import LeaveOneOut, Rows
 from tailgauge.core.resample.tail_rows import TailColumns, TailSpec, evaluate
-
-
-def _codes(description) -> dict[str, set[str]]:
-    named: dict[str, set[str]] = {}
-    for note in description.warnings:
-        for name in note.descriptors:
-            named.setdefault(name, set()).add(note.code)
-    return named
+from tests.core.warning_lookup import codes_by_descriptor
 
 
 # ---------------------------------------------------------------------------------------------
@@ -121,7 +114,7 @@ def test_a_threshold_inside_a_bin_is_interpolated_and_labelled():
     assert edge.count_above == 10 and not edge.interpolated
     want = stats.binomtest(10, 100).proportion_ci(method="exact")
     assert (edge.interval.low, edge.interval.high) == pytest.approx((want.low, want.high), rel=1e-12)
-    assert WarningCode.EXCEEDANCE_INTERPOLATED in _codes(result)["exceedances[0]"]
+    assert WarningCode.EXCEEDANCE_INTERPOLATED in codes_by_descriptor(result)["exceedances[0]"]
 
 
 def test_a_threshold_in_an_open_bin_holding_data_is_null_with_its_reason():
@@ -129,7 +122,7 @@ def test_a_threshold_in_an_open_bin_holding_data_is_null_with_its_reason():
     result = describe(data, DescribeOptions(thresholds=(150.0, 250.0)), kind="bins")
     assert result.exceedances[0].proportion_above == pytest.approx(0.35)
     assert result.exceedances[1].proportion_above is None and result.exceedances[1].interval is None
-    assert WarningCode.TAIL_IN_OPEN_BIN in _codes(result)["exceedances[1]"]
+    assert WarningCode.TAIL_IN_OPEN_BIN in codes_by_descriptor(result)["exceedances[1]"]
 
 
 def test_a_probability_table_is_exact_and_has_no_interval():
@@ -138,7 +131,7 @@ def test_a_probability_table_is_exact_and_has_no_interval():
     result = describe(table, DescribeOptions(thresholds=(1000.0,)), kind="table")
     (found,) = result.exceedances
     assert found.proportion_above == 0.15 and found.interval is None and found.count_above is None
-    assert WarningCode.INTERVAL_NOT_OFFERED in _codes(result)["exceedances"]
+    assert WarningCode.INTERVAL_NOT_OFFERED in codes_by_descriptor(result)["exceedances"]
 
 
 # ---------------------------------------------------------------------------------------------
@@ -263,7 +256,7 @@ def test_a_tail_reaching_an_open_bin_is_null_with_its_reason():
     result = describe(data, DescribeOptions(tail_levels=(0.5,)), kind="bins")
     (found,) = result.tail_means
     assert found.upper.value is None and found.lower.value == pytest.approx(50.0)
-    assert WarningCode.TAIL_IN_OPEN_BIN in _codes(result)["tail_means[0]"]
+    assert WarningCode.TAIL_IN_OPEN_BIN in codes_by_descriptor(result)["tail_means[0]"]
 
 
 # ---------------------------------------------------------------------------------------------
@@ -310,7 +303,7 @@ def test_hill_is_null_with_a_reason_where_it_does_not_apply():
     bins = describe(from_bins([1.0, 2.0, 3.0], [40.0, 40.0]), DescribeOptions(), kind="bins")
     for description in (few, negative, bins):
         assert description.descriptors["upper_tail_index"].value is None
-        assert WarningCode.TAIL_INDEX_UNDEFINED in _codes(description)["upper_tail_index"]
+        assert WarningCode.TAIL_INDEX_UNDEFINED in codes_by_descriptor(description)["upper_tail_index"]
     with pytest.raises(UncomputableInput) as refused:
         describe(from_array(np.arange(1.0, 61.0)), DescribeOptions(tail_count=60), kind="samples")
     assert refused.value.locations[0].path == "options.tail_count"
@@ -319,7 +312,7 @@ def test_hill_is_null_with_a_reason_where_it_does_not_apply():
 def test_the_kurtosis_is_flagged_when_the_tail_index_is_below_four():
     heavy = describe(from_array(np.random.default_rng(5).pareto(1.5, 400) + 1.0), DescribeOptions(), kind="samples")
     assert heavy.descriptors["upper_tail_index"].value < 4.0
-    assert WarningCode.KURTOSIS_MAY_NOT_EXIST in _codes(heavy)["kurtosis"]
+    assert WarningCode.KURTOSIS_MAY_NOT_EXIST in codes_by_descriptor(heavy)["kurtosis"]
     light = describe(from_array(np.random.default_rng(5).uniform(1.0, 2.0, 400)), DescribeOptions(), kind="samples")
     assert light.descriptors["upper_tail_index"].value > 4.0
     assert WarningCode.KURTOSIS_MAY_NOT_EXIST not in {n.code for n in light.warnings}
@@ -394,7 +387,7 @@ def test_the_bag_of_little_bootstraps_gives_the_tail_intervals_but_hills():
         assert result.descriptors[name].interval is not None, name
     assert result.descriptors["upper_tail_index"].value is not None
     assert result.descriptors["upper_tail_index"].interval is None
-    assert WarningCode.INTERVAL_NOT_OFFERED in _codes(result)["upper_tail_index"]
+    assert WarningCode.INTERVAL_NOT_OFFERED in codes_by_descriptor(result)["upper_tail_index"]
 
 
 def test_the_plan_counts_the_tail_levels():

@@ -435,14 +435,7 @@ def describe_table(
     with admission.admitted(body, codec, settings) as ticket:
         request = _decode(body, TableRequest, codec)
         data, count = _table_data(request, request.options.normalize, settings)
-        options = _admitted([data], describe_options(request.options, settings, ticket.decoding, figure), ticket, figure)
-        description = describe(data, options, kind="table")
-        if figure:
-            return _drawn(description, data, "table", request.options, figure, count)
-        return _answer(
-            description, count, answer, request.options.score, selection=options.descriptors,
-            plot=_plot(data, "table", request.options),
-        )
+        return _described(data, count, request.options, "table", "table", answer, settings, ticket, figure)
 
 
 @admission.giving_back
@@ -452,14 +445,7 @@ def describe_bins(
     with admission.admitted(body, codec, settings) as ticket:
         request = _decode(body, BinsRequest, codec)
         data, count = _bins_data(request, settings)
-        options = _admitted([data], describe_options(request.options, settings, ticket.decoding, figure), ticket, figure)
-        description = describe(data, options, kind="bins")
-        if figure:
-            return _drawn(description, data, "bins", request.options, figure, count)
-        return _answer(
-            description, count, answer, request.options.score, selection=options.descriptors,
-            plot=_plot(data, "bins", request.options),
-        )
+        return _described(data, count, request.options, "bins", "bins", answer, settings, ticket, figure)
 
 
 @admission.giving_back
@@ -469,15 +455,21 @@ def describe_histogram(
     with admission.admitted(body, codec, settings) as ticket:
         request = _decode(body, HistogramRequest, codec)
         data, count = _histogram_data(request, settings)
-        options = _admitted([data], describe_options(request.options, settings, ticket.decoding, figure), ticket, figure)
-        description = describe(data, options, kind="histogram")
         # A histogram is drawn and plotted as the bins it became.
-        if figure:
-            return _drawn(description, data, "bins", request.options, figure, count)
-        return _answer(
-            description, count, answer, request.options.score, selection=options.descriptors,
-            plot=_plot(data, "bins", request.options),
-        )
+        return _described(data, count, request.options, "histogram", "bins", answer, settings, ticket, figure)
+
+
+def _described(data, count: int, request_options, kind: str, drawn_as: str, answer: Codec, settings: Settings,
+               ticket, figure: str | None) -> Computed:
+    """One input of ``kind`` described, answered as a figure (drawn as ``drawn_as``) or as a message."""
+    options = _admitted([data], describe_options(request_options, settings, ticket.decoding, figure), ticket, figure)
+    description = describe(data, options, kind=kind)
+    if figure:
+        return _drawn(description, data, drawn_as, request_options, figure, count)
+    return _answer(
+        description, count, answer, request_options.score, selection=options.descriptors,
+        plot=_plot(data, drawn_as, request_options),
+    )
 
 
 def _input_data(message, settings: Settings, prefix: str):
