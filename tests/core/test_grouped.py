@@ -368,3 +368,29 @@ def test_grouping_reports_the_bins_as_sent_with_an_empty_open_bin():
     closed = bins([0.0, 1.0, 2.0, 3.0], [1.0, 2.0, 3.0])
     assert bins([0.0, 1.0, 2.0, 3.0, None], [1.0, 2.0, 3.0, 0.0]).descriptors == closed.descriptors
     assert closed.grouping.bins == 3 and not closed.grouping.open_upper
+
+
+# ----------------------------------------------------------------------------------------------
+# Bins at the edge of float64's range
+# ----------------------------------------------------------------------------------------------
+
+LARGEST = np.finfo(np.float64).max
+
+
+def test_a_bin_wider_than_the_largest_float64_is_refused_at_its_edge():
+    # 1e308 - (-1e308) = 2e308 is beyond float64 (about 1.8e308): no width, midpoint spread or density.
+    with pytest.raises(UncomputableInput) as refused:
+        from_bins([-1e308, 1e308, LARGEST], [1.0, 2.0])
+    assert [location.path for location in refused.value.locations] == ["edges[1]"]
+    assert "beyond the largest float64" in refused.value.locations[0].message
+    with pytest.raises(UncomputableInput) as open_below:
+        from_bins([None, -1e308, 1e308], [1.0, 2.0])
+    assert [location.path for location in open_below.value.locations] == ["edges[2]"]
+
+
+def test_equal_widths_near_the_largest_float64_stay_finite():
+    # Two widths of exactly LARGEST (from -LARGEST to 0 to LARGEST): their sum overflows, their mean
+    # does not. Reference: the width itself (both bins are LARGEST wide).
+    with np.errstate(all="ignore"):  # the moments of such bins overflow and are reported null
+        description = describe(from_bins([-LARGEST, 0.0, LARGEST], [3.0, 4.0]), DescribeOptions(), kind="bins")
+    assert description.grouping.bin_width == LARGEST and description.grouping.equal_widths

@@ -100,7 +100,11 @@ def equal_width(data: WeightedData) -> float | None:
         return None
     if np.max(widths) - np.min(widths) > 1e-9 * np.max(widths):
         return None
-    return float(np.mean(widths))
+    with np.errstate(over="ignore"):
+        mean = np.mean(widths)
+    if not np.isfinite(mean):  # widths near float64's largest value: their sum overflows, their halves' does not
+        mean = np.mean(widths * 0.5) * 2.0
+    return float(mean)
 
 
 def sheppard_corrected(m2: float, m4: float, width: float) -> tuple[float, float]:

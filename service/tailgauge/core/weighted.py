@@ -338,11 +338,23 @@ def from_bins(edges: list[float | None], counts: list[float]) -> WeightedData:
         [-np.inf if edges[0] is None else edges[0], *edges[1:-1], np.inf if edges[-1] is None else edges[-1]],
         dtype=np.float64,
     )
-    steps = np.diff(edge_array)
+    with np.errstate(over="ignore"):  # (a width beyond float64's range is refused just below)
+        steps = np.diff(edge_array)
     bad = np.flatnonzero(~(steps > 0.0))
     if bad.size:
         i = int(bad[0]) + 1
         raise UncomputableInput.at(f"edges[{i}]", f"edges must increase strictly; this one is not above edges[{i - 1}]")
+    # Finite edges whose distance is beyond the largest float64 number: no width, midpoint spread
+    # or density of that bin can be computed (an open end is the only infinite width).
+    closed = np.isfinite(edge_array[:-1]) & np.isfinite(edge_array[1:])
+    wide = np.flatnonzero(closed & np.isinf(steps))
+    if wide.size:
+        i = int(wide[0]) + 1
+        raise UncomputableInput.at(
+            f"edges[{i}]",
+            f"the width from edges[{i - 1}] to this edge is beyond the largest float64 number (about 1.8e308); "
+            "rescale the data (for example to another unit)",
+        )
     count_array = np.asarray(counts, dtype=np.float64)
     total = _check_total(count_array, "counts")
     keep = np.ones(count_array.size, dtype=bool)
