@@ -210,3 +210,13 @@ def test_a_histogram_is_drawn_and_plotted_as_the_bins_it_became(client):
     assert plotted[HISTOGRAM] == plotted[BINS] and plotted[BINS]["histogram"]["counts"] == [18, 64, 41, 12, 5]
     figures = [client.post(path, json=BODIES[path], headers={"accept": SVG}).content for path in (BINS, HISTOGRAM)]
     assert figures[0] == figures[1]
+
+
+def test_an_svg_is_compressed_when_accepted_and_a_png_is_not(client):
+    """A PNG is compressed already (gzip would only cost CPU); an SVG is text and shrinks as JSON does."""
+    headers = {"accept-encoding": "gzip"}
+    svg = client.post(SAMPLES, json=BODIES[SAMPLES], headers={**headers, "accept": SVG})
+    png = client.post(SAMPLES, json=BODIES[SAMPLES], headers={**headers, "accept": PNG})
+    assert svg.status_code == png.status_code == 200
+    assert svg.headers.get("content-encoding") == "gzip" and parse(svg.content) is not None  # inflated by httpx
+    assert "content-encoding" not in png.headers and png.content[:8] == b"\x89PNG\r\n\x1a\n"
