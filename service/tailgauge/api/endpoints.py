@@ -96,14 +96,14 @@ class Computed:
     resamples: int
 
 
-def _decode(body: bytes, kind: type[Request], codec: Codec) -> Request:
+def decode_request(body: bytes, kind: type[Request], codec: Codec) -> Request:
     try:
         return codec.decode(body, kind)
     except msgspec.MsgspecError as error:
         raise invalid_body(error, body, codec, kind) from None
 
 
-def _float64s(raw: list | bytes, path: str, *, missing: bool) -> np.ndarray | list:
+def float64s(raw: list | bytes, path: str, *, missing: bool) -> np.ndarray | list:
     """A list as sent, or float64 bytes as an array checked like the list form would be.
 
     In bytes, NaN marks a missing value where nulls are allowed (``missing``); infinities,
@@ -144,7 +144,7 @@ def _shown(value: float) -> str:
     return repr(value)
 
 
-def _check_count(count: int, path: str, settings: Settings, what: str | None = None) -> None:
+def check_count(count: int, path: str, settings: Settings, what: str | None = None) -> None:
     if count > settings.max_values:
         raise ApiProblem(
             "body-too-large",
@@ -273,10 +273,10 @@ def _relocated(error: DescriptorError, prefix: str) -> DescriptorError:
     )
 
 
-def _samples_data(message: SamplesData, missing: str, settings: Settings, prefix: str = "$"):
-    values = _float64s(message.values, f"{prefix}.values", missing=True)
-    _check_count(len(values), f"{prefix}.values", settings)
-    weights = None if message.weights is None else _float64s(message.weights, f"{prefix}.weights", missing=False)
+def samples_data(message: SamplesData, missing: str, settings: Settings, prefix: str = "$"):
+    values = float64s(message.values, f"{prefix}.values", missing=True)
+    check_count(len(values), f"{prefix}.values", settings)
+    weights = None if message.weights is None else float64s(message.weights, f"{prefix}.weights", missing=False)
     try:
         data = from_samples(
             values,
@@ -290,7 +290,7 @@ def _samples_data(message: SamplesData, missing: str, settings: Settings, prefix
 
 
 def _table_data(message: TableData, normalize: bool, settings: Settings, prefix: str = "$"):
-    _check_count(len(message.outcomes), f"{prefix}.outcomes", settings)
+    check_count(len(message.outcomes), f"{prefix}.outcomes", settings)
     count = len(message.outcomes)
     values = np.fromiter((o.value for o in message.outcomes), dtype=np.float64, count=count)
     weights = np.fromiter((o.weight for o in message.outcomes), dtype=np.float64, count=count)
@@ -304,8 +304,8 @@ def _table_data(message: TableData, normalize: bool, settings: Settings, prefix:
 
 
 def _bins_data(message: BinsData, settings: Settings, prefix: str = "$"):
-    counts = _float64s(message.counts, f"{prefix}.counts", missing=False)
-    _check_count(len(counts), f"{prefix}.counts", settings)
+    counts = float64s(message.counts, f"{prefix}.counts", missing=False)
+    check_count(len(counts), f"{prefix}.counts", settings)
     try:
         data = from_bins(message.edges, counts)
     except DescriptorError as error:
@@ -337,14 +337,14 @@ def _histogram_data(message: HistogramData, settings: Settings, prefix: str = "$
     try:
         if layout == "cumulative":
             count = len(message.cumulative_counts)
-            _check_count(count, f"{prefix}.cumulative_counts", settings)
+            check_count(count, f"{prefix}.cumulative_counts", settings)
             data = histograms.from_cumulative(
                 message.upper_bounds, message.cumulative_counts, lower_bound=message.lower_bound,
                 total=message.sum, count=message.count,
             )
         elif layout == "explicit":
             count = len(message.bucket_counts)
-            _check_count(count, f"{prefix}.bucket_counts", settings)
+            check_count(count, f"{prefix}.bucket_counts", settings)
             data = histograms.from_explicit(
                 message.explicit_bounds, message.bucket_counts, total=message.sum, minimum=message.min,
                 maximum=message.max,
@@ -357,7 +357,7 @@ def _histogram_data(message: HistogramData, settings: Settings, prefix: str = "$
             }
             count = 1 + sum(len(side.counts) for side in sides.values())
             longest = max(sides, key=lambda name: len(sides[name].counts), default="positive")
-            _check_count(count, f"{prefix}.{longest}.bucket_counts", settings, "the zero, positive and negative buckets")
+            check_count(count, f"{prefix}.{longest}.bucket_counts", settings, "the zero, positive and negative buckets")
             data = histograms.from_exponential(
                 message.scale, message.zero_count,
                 zero_threshold=message.zero_threshold or 0.0, total=message.sum, minimum=message.min,
@@ -373,8 +373,8 @@ def describe_samples(
     body: bytes, codec: Codec, answer: Codec, settings: Settings, figure: str | None = None
 ) -> Computed:
     with admission.admitted(body, codec, settings) as ticket:
-        request = _decode(body, SamplesRequest, codec)
-        data, count = _samples_data(request, request.options.missing, settings)
+        request = decode_request(body, SamplesRequest, codec)
+        data, count = samples_data(request, request.options.missing, settings)
         options = _admitted([data], describe_options(request.options, settings, ticket.decoding, figure), ticket, figure)
         description = describe(data, options, kind="samples")
         if figure:
@@ -384,7 +384,7 @@ def describe_samples(
             state = state_of(data, order=max(MIN_ORDER, request.options.moment_order))
         return _answer(
             description, count, answer, request.options.score, state, options.descriptors,
-            _plot(data, "samples", request.options),
+            plot_data_of(data, "samples", request.options),
         )
 
 
@@ -394,7 +394,7 @@ def _drawn(description, data, kind: str, request_options, figure: str, count: in
     return Computed(pictures.description_figure(description, data, kind, request_options, figure), count, resamples)
 
 
-def _plot(data, kind: str, request_options) -> schemas.PlotData | None:
+def plot_data_of(data, kind: str, request_options) -> schemas.PlotData | None:
     return pictures.plot_data_message(data, kind) if request_options.plot_data else None
 
 
@@ -409,7 +409,7 @@ def merge_states_request(
 
 
 def _merge_states(body: bytes, codec: Codec, answer: Codec, settings: Settings) -> Computed:
-    request = _decode(body, MergeRequest, codec)
+    request = decode_request(body, MergeRequest, codec)
     states = [
         PartialState(
             count=s.count, mean=s.mean, central_sums=tuple(s.central_sums), minimum=s.minimum, maximum=s.maximum
@@ -433,7 +433,7 @@ def describe_table(
     body: bytes, codec: Codec, answer: Codec, settings: Settings, figure: str | None = None
 ) -> Computed:
     with admission.admitted(body, codec, settings) as ticket:
-        request = _decode(body, TableRequest, codec)
+        request = decode_request(body, TableRequest, codec)
         data, count = _table_data(request, request.options.normalize, settings)
         return _described(data, count, request.options, "table", "table", answer, settings, ticket, figure)
 
@@ -443,7 +443,7 @@ def describe_bins(
     body: bytes, codec: Codec, answer: Codec, settings: Settings, figure: str | None = None
 ) -> Computed:
     with admission.admitted(body, codec, settings) as ticket:
-        request = _decode(body, BinsRequest, codec)
+        request = decode_request(body, BinsRequest, codec)
         data, count = _bins_data(request, settings)
         return _described(data, count, request.options, "bins", "bins", answer, settings, ticket, figure)
 
@@ -453,7 +453,7 @@ def describe_histogram(
     body: bytes, codec: Codec, answer: Codec, settings: Settings, figure: str | None = None
 ) -> Computed:
     with admission.admitted(body, codec, settings) as ticket:
-        request = _decode(body, HistogramRequest, codec)
+        request = decode_request(body, HistogramRequest, codec)
         data, count = _histogram_data(request, settings)
         # A histogram is drawn and plotted as the bins it became.
         return _described(data, count, request.options, "histogram", "bins", answer, settings, ticket, figure)
@@ -468,13 +468,13 @@ def _described(data, count: int, request_options, kind: str, drawn_as: str, answ
         return _drawn(description, data, drawn_as, request_options, figure, count)
     return _answer(
         description, count, answer, request_options.score, selection=options.descriptors,
-        plot=_plot(data, drawn_as, request_options),
+        plot=plot_data_of(data, drawn_as, request_options),
     )
 
 
 def _input_data(message, settings: Settings, prefix: str):
     if isinstance(message, SamplesInput):
-        return (*_samples_data(message, message.options.missing, settings, prefix), "samples")
+        return (*samples_data(message, message.options.missing, settings, prefix), "samples")
     if isinstance(message, TableInput):
         return (*_table_data(message, message.options.normalize, settings, prefix), "table")
     if isinstance(message, HistogramInput):
@@ -491,10 +491,10 @@ def compare_inputs(
 
 
 def _compare(body: bytes, codec: Codec, answer: Codec, settings: Settings, ticket, figure: str | None) -> Computed:
-    request = _decode(body, ComparisonRequest, codec)
+    request = decode_request(body, ComparisonRequest, codec)
     first, first_count, first_kind = _input_data(request.first, settings, "$.first")
     second, second_count, second_kind = _input_data(request.second, settings, "$.second")
-    _check_count(first_count + second_count, "$.second", settings, "$.first and $.second together")
+    check_count(first_count + second_count, "$.second", settings, "$.first and $.second together")
     options = describe_options(request.options, settings, ticket.decoding, figure, quartiles=False)
     options = _admitted([first, second], options, ticket, figure)
     comparison = compare(first, second, options, kinds=(first_kind, second_kind))
@@ -505,6 +505,6 @@ def _compare(body: bytes, codec: Codec, answer: Codec, settings: Settings, ticke
         return Computed(drawn, first_count + second_count, resamples)
     message = to_message(restricted_comparison(comparison, options.descriptors), ComparisonResponse)
     message = _with_scores(message, comparison.first, request.options.score)
-    message.first.plot_data = _plot(first, first_kind, request.options)
-    message.second.plot_data = _plot(second, second_kind, request.options)
+    message.first.plot_data = plot_data_of(first, first_kind, request.options)
+    message.second.plot_data = plot_data_of(second, second_kind, request.options)
     return Computed(answer.encode(message), first_count + second_count, resamples)

@@ -10,7 +10,7 @@ import msgspec
 
 from tailgauge.api import admission, schemas
 from tailgauge.api.conversion import group_messages
-from tailgauge.api.endpoints import Computed, _check_count, _decode, _float64s, _plot, _samples_data, describe_options
+from tailgauge.api.endpoints import Computed, check_count, decode_request, float64s, plot_data_of, samples_data, describe_options
 from tailgauge.api.media import Codec
 from tailgauge.api.problems import ApiProblem
 from tailgauge.api.schemas import ProblemLocation
@@ -28,7 +28,7 @@ def describe_groups_request(
     """Many samples in one request. No figure types are offered for groups (one picture of many
     inputs has no layout yet), so ``figure`` is always None here; plot_data is per group."""
     with admission.admitted(body, codec, settings) as ticket, collection_paused():
-        request = _decode(body, schemas.GroupsRequest, codec)
+        request = decode_request(body, schemas.GroupsRequest, codec)
         chosen = request.options
         groups, count = _groups(request, chosen.missing, settings)
         options = describe_options(chosen, settings, ticket.decoding)
@@ -47,7 +47,7 @@ def describe_groups_request(
         if chosen.plot_data:  # each group's own values, as the samples endpoint plots them alone
             data = {(type(g.key), g.key): g.data for g in groups}
             messages = [
-                msgspec.structs.replace(m, plot_data=_plot(data[(type(m.key), m.key)], "samples", chosen)) for m in messages
+                msgspec.structs.replace(m, plot_data=plot_data_of(data[(type(m.key), m.key)], "samples", chosen)) for m in messages
             ]
         message = schemas.GroupsResponse(groups=messages, seed=seed, warnings=[])
         resamples = sum(g.resampling.resamples for g in message.groups if g.resampling is not None)
@@ -80,9 +80,9 @@ def _groups(request: schemas.GroupsRequest, missing: str, settings: Settings) ->
                 "the columnar form needs both values and keys",
                 [ProblemLocation(path=f"$.{field}", message="required with the columnar form")],
             )
-    values = _float64s(request.values, "$.values", missing=True)
-    _check_count(len(values), "$.values", settings)
-    weights = None if request.weights is None else _float64s(request.weights, "$.weights", missing=False)
+    values = float64s(request.values, "$.values", missing=True)
+    check_count(len(values), "$.values", settings)
+    weights = None if request.weights is None else float64s(request.weights, "$.weights", missing=False)
     groups = from_columns(
         values,
         request.keys,
@@ -104,7 +104,7 @@ def _listed_groups(listed: list[schemas.Group], missing: str, settings: Settings
             locations=[Location("groups", f"at most {settings.max_groups} groups")],
         )
     count = sum(len(g.values) // 8 if isinstance(g.values, bytes) else len(g.values) for g in listed)
-    _check_count(count, "$.groups", settings, "all groups together")
+    check_count(count, "$.groups", settings, "all groups together")
     first_at: dict = {}
     for index, group in enumerate(listed):
         earlier = first_at.setdefault(group.key, index)
@@ -114,6 +114,6 @@ def _listed_groups(listed: list[schemas.Group], missing: str, settings: Settings
             )
     groups = []
     for index, group in enumerate(listed):
-        data, _ = _samples_data(group, missing, settings, f"$.groups[{index}]")
+        data, _ = samples_data(group, missing, settings, f"$.groups[{index}]")
         groups.append(Group(group.key, data, field=f"groups[{index}]"))
     return groups, count
