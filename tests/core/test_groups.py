@@ -230,3 +230,23 @@ def test_options_are_checked_against_every_group_before_any_is_described(monkeyp
     assert calls == []  # refused before the first group was resampled
     assert [loc.path for loc in caught.value.locations] == ["options.interval", "groups[2].values"]
     assert "'c'" in caught.value.detail
+
+
+def test_the_groups_plan_is_each_groups_own_plan_with_every_option_term():
+    """admit_groups plans each group as describe plans one input (assembly.admit): the tail means'
+    replicates and a series' serial stage count there as they do for one input."""
+    from tailgauge.core import admit, admit_groups
+
+    rng = np.random.default_rng(12)
+    groups = [Group(key, from_samples(rng.normal(500.0, 1.0, 400).tolist(), omit_missing=False)) for key in "ab"]
+    interval = IntervalOptions(method="percentile", resamples=500, seed=1)
+    for changes in ({}, {"tail_levels": (0.9, 0.99)}, {"order": "as_sent"}):
+        options = DescribeOptions(interval=interval, **changes)
+        together = admit_groups(groups, options)
+        alone = admit([groups[0].data], options)
+        # Described one after another: the times add up, the working memory is one group's.
+        assert together.seconds == pytest.approx(2 * alone.seconds, rel=1e-9)
+        assert together.peak_bytes >= alone.peak_bytes
+    plain = admit_groups(groups, DescribeOptions(interval=interval))
+    tails = admit_groups(groups, DescribeOptions(interval=interval, tail_levels=(0.9, 0.99)))
+    assert tails.peak_bytes > plain.peak_bytes

@@ -51,12 +51,20 @@ def admit(inputs: list[WeightedData], options: DescribeOptions) -> cost.Estimate
     interval = options.interval
     if interval is not None and any(d.meaning is WeightMeaning.PROBABILITY for d in inputs):
         interval = None  # refused with its own reason by validation.check_description
+    return planned([input_shape(d, options) for d in inputs], options, interval)
+
+
+def input_shape(data: WeightedData, options: DescribeOptions) -> cost.Shape:
+    """What the cost model needs of one input described by ``options``."""
+    return cost.shape_of(data, options.subset_rows, distinct=_sorts(data, options), ordered=options.order == "as_sent")
+
+
+def planned(shapes: list[cost.Shape], options: DescribeOptions, interval, *, separately: bool = False) -> cost.Estimate:
+    """``cost.admit`` of ``shapes`` with every term ``options`` sets (``interval``: the one planned
+    for, or None); ``separately``: the inputs are described one after another (groups)."""
     left = math.inf if options.deadline is None else options.deadline - time.monotonic()
     return cost.admit(
-        [
-            cost.shape_of(d, options.subset_rows, distinct=_sorts(d, options), ordered=options.order == "as_sent")
-            for d in inputs
-        ],
+        shapes,
         probabilities=len(options.probabilities),
         resamples=0 if interval is None else interval.resamples,
         method=None if interval is None else interval.method,
@@ -65,6 +73,7 @@ def admit(inputs: list[WeightedData], options: DescribeOptions) -> cost.Estimate
         seconds=left,
         max_work=options.max_resample_work,
         tail_levels=len(options.tail_levels),
+        separately=separately,
     )
 
 

@@ -4,7 +4,6 @@ other group described alone by ``describe``, each contrasted with a baseline gro
 from __future__ import annotations
 
 import dataclasses
-import math
 import time
 from collections.abc import Sequence
 from dataclasses import dataclass
@@ -13,6 +12,7 @@ from typing import Literal
 from tailgauge.core import cost
 from tailgauge.core.compare import Contrasts, contrast
 from tailgauge.core.describe import DescribeOptions, Description, check_description, describe, restricted
+from tailgauge.core.describe.assembly import input_shape, planned
 from tailgauge.core.errors import DescriptorError, LimitExceeded, Location, UncomputableInput
 from tailgauge.core.groups import vectorised
 from tailgauge.core.groups.keys import Key, group_seed, sort_key
@@ -48,48 +48,37 @@ class GroupDescription(Description):
     partial_state: PartialState | None = None
 
 
-def whole_shape(groups: list[Group]) -> cost.Shape:
+def whole_shape(groups: list[Group], options: DescribeOptions) -> cost.Shape:
     """Every group's values as one input, which is what the point descriptors of all groups
     hold and touch (the vectorised path stacks them; the others are described in turn)."""
     entries = sum(g.data.count for g in groups)
     return cost.Shape(
         entries=entries, rows=entries, draws=entries, bins=False, multinomial=True, poisson=False, picks=False,
-        subset_rows=0,
+        subset_rows=0, ordered=options.order == "as_sent",
     )
 
 
 def admit_groups(groups: list[Group], options: DescribeOptions) -> cost.Estimate:
     """Plan the memory and time of describing ``groups`` (``cost.admit``): without intervals the
     point descriptors of all values at once; with them each group's bootstrap in turn, whose
-    resampling work also counts against one budget for the whole request."""
-    left = math.inf if options.deadline is None else options.deadline - time.monotonic()
+    resampling work also counts against one budget for the whole request. Each group is planned
+    as ``describe`` plans one input (``input_shape``), with every term its options set."""
     interval = options.interval
     if interval is None:
-        shapes, separately = [whole_shape(groups)], False
-    else:
-        shapes, separately = [cost.shape_of(g.data, options.subset_rows) for g in groups], True
-        work = cost.resampling_work(shapes, interval.resamples)
-        if work > options.max_resample_work:
-            rows = cost.resampling_work(shapes, 1)
-            allowed = int(options.max_resample_work // rows)
-            raise LimitExceeded(
-                detail=(
-                    f"resampling every group touches {work:.3g} rows, beyond this server's resampling budget "
-                    f"of {options.max_resample_work:.3g}; lower options.interval.resamples to at most {allowed}"
-                ),
-                locations=[Location("options.interval.resamples", f"at most {allowed} for these groups")],
-            )
-    return cost.admit(
-        shapes,
-        probabilities=len(options.probabilities),
-        resamples=0 if interval is None else interval.resamples,
-        method=None if interval is None else interval.method,
-        threads=options.resample_threads,
-        max_bytes=options.max_memory_bytes,
-        seconds=left,
-        max_work=options.max_resample_work,
-        separately=separately,
-    )
+        return planned([whole_shape(groups, options)], options, None)
+    shapes = [input_shape(g.data, options) for g in groups]
+    work = cost.resampling_work(shapes, interval.resamples)
+    if work > options.max_resample_work:
+        rows = cost.resampling_work(shapes, 1)
+        allowed = int(options.max_resample_work // rows)
+        raise LimitExceeded(
+            detail=(
+                f"resampling every group touches {work:.3g} rows, beyond this server's resampling budget "
+                f"of {options.max_resample_work:.3g}; lower options.interval.resamples to at most {allowed}"
+            ),
+            locations=[Location("options.interval.resamples", f"at most {allowed} for these groups")],
+        )
+    return planned(shapes, options, interval, separately=True)
 
 
 def group_options(options: DescribeOptions, key: Key) -> DescribeOptions:
