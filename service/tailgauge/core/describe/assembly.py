@@ -51,7 +51,8 @@ def admit(inputs: list[WeightedData], options: DescribeOptions) -> cost.Estimate
     interval = options.interval
     if interval is not None and any(d.meaning is WeightMeaning.PROBABILITY for d in inputs):
         interval = None  # refused with its own reason by validation.check_description
-    return planned([input_shape(d, options) for d in inputs], options, interval)
+    left = _left(options)  # (the time left when planning began, before the shapes are measured)
+    return planned([input_shape(d, options) for d in inputs], options, interval, left=left)
 
 
 def input_shape(data: WeightedData, options: DescribeOptions) -> cost.Shape:
@@ -59,10 +60,13 @@ def input_shape(data: WeightedData, options: DescribeOptions) -> cost.Shape:
     return cost.shape_of(data, options.subset_rows, distinct=_sorts(data, options), ordered=options.order == "as_sent")
 
 
-def planned(shapes: list[cost.Shape], options: DescribeOptions, interval, *, separately: bool = False) -> cost.Estimate:
+def planned(
+    shapes: list[cost.Shape], options: DescribeOptions, interval, *, separately: bool = False, left: float | None = None
+) -> cost.Estimate:
     """``cost.admit`` of ``shapes`` with every term ``options`` sets (``interval``: the one planned
-    for, or None); ``separately``: the inputs are described one after another (groups)."""
-    left = math.inf if options.deadline is None else options.deadline - time.monotonic()
+    for, or None); ``separately``: the inputs are described one after another (groups); ``left``:
+    the seconds left before the deadline, as measured when planning began (now, by default)."""
+    left = _left(options) if left is None else left
     return cost.admit(
         shapes,
         probabilities=len(options.probabilities),
@@ -75,6 +79,10 @@ def planned(shapes: list[cost.Shape], options: DescribeOptions, interval, *, sep
         tail_levels=len(options.tail_levels),
         separately=separately,
     )
+
+
+def _left(options: DescribeOptions) -> float:
+    return math.inf if options.deadline is None else options.deadline - time.monotonic()
 
 
 def _sorts(data: WeightedData, options: DescribeOptions) -> bool:
