@@ -30,7 +30,7 @@ def main(size: str = "", *, quick: bool = False) -> None:
     except ImportError as error:  # pragma: no cover - another tree
         print(f"  {NA}: {error}")
         return
-    if not hasattr(endpoints, "describe_groups_request"):
+    if not hasattr(group_endpoints, "describe_groups_request"):
         print(f"  {NA}: no groups endpoint")
         record("groups", "1,000 x 1,000 vs one request", None, "x", "<= 2x", NA)
         record("groups", "10,000 x 100 vs separate calls", None, "x", ">= 10x", NA)

@@ -15,7 +15,15 @@ import dataclasses
 
 import numpy as np
 import pytest
-from tailgauge.core import DescribeOptions, IntervalOptions, choose, describe, from_samples, restricted
+from tailgauge.core import (
+    DescribeOptions,
+    IntervalOptions,
+    choose,
+    describe,
+    from_complete_samples,
+    from_samples,
+    restricted,
+)
 from tailgauge.core.errors import LimitExceeded, UncomputableInput
 from tailgauge.core.groups import Group, describe_groups, from_columns, group_seed, sort_key, vectorised
 from tailgauge.core.moments import ROW_SUMS_AT_MOST, central_sums, row_central_sums
@@ -117,6 +125,40 @@ def test_each_group_is_described_as_alone(selection, quantile_type):
     assert [r.key for r in results] == [g.key for g in groups]
     for group, result in zip(groups, results):
         assert _as_described(result) == _alone(group.data, options), group.key
+
+
+@pytest.mark.parametrize("selection", [BASIC, ORDER_AND_SPREAD])
+def test_groups_of_one_length_are_described_as_alone(selection):
+    # All groups of one length take the path's one-stretch layout (the sorted rows themselves):
+    # ties, repeated values and zeros of both signs among them; the distinct counts too.
+    rng = np.random.default_rng(17)
+    groups = [Group(i, _sample(np.round(rng.normal(0.0, 2.0, 9), int(rng.integers(0, 2))))) for i in range(60)]
+    groups.append(Group("zeros", _sample([0.0, -0.0, 1.0, -1.0, 0.0, 2.0, 2.0, -3.0, 5.0])))
+    options = DescribeOptions(descriptors=choose(selection), probabilities=(0.0, 0.1, 0.5, 1.0))
+    assert len(vectorised.describe_together([g.data for g in groups], dataclasses.replace(options, admitted=True)).numbers) >= 40
+    for group, result in zip(groups, describe_groups(groups, options).descriptions()):
+        assert _as_described(result) == _alone(group.data, options), group.key
+
+
+def test_complete_samples_are_what_from_samples_gives_each():
+    # Reference: from_samples, one sample at a time (with nothing missing, the same data).
+    rng = np.random.default_rng(23)
+    samples = [rng.normal(size=int(n)) for n in rng.integers(1, 30_000, 12)]  # more than one check chunk
+    together = from_complete_samples(samples)
+    assert together is not None
+    for sample, data in zip(samples, together):
+        alone = from_samples(sample, omit_missing=False)
+        assert data.values is sample
+        assert (data.weights, data.meaning, data.ordered, data.omitted, data.zero_weight) == (
+            alone.weights, alone.meaning, alone.ordered, alone.omitted, alone.zero_weight)
+        assert np.array_equal(data.values, alone.values)
+    # A missing value (NaN, in any chunk) or an empty sample: each sample goes through from_samples.
+    for where in (0, 5, 11):
+        holed = [s.copy() for s in samples]
+        holed[where][-1] = np.nan
+        assert from_complete_samples(holed) is None
+    assert from_complete_samples(samples + [np.empty(0)]) is None
+    assert from_complete_samples([]) is None
 
 
 def test_the_basic_descriptors_take_the_vectorised_path():

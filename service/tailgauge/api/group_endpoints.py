@@ -7,14 +7,32 @@ from __future__ import annotations
 import dataclasses
 
 import msgspec
+import numpy as np
 
 from tailgauge.api import admission, schemas
 from tailgauge.api.conversion import group_messages
-from tailgauge.api.endpoints import Computed, check_count, decode_request, float64s, plot_data_of, samples_data, describe_options
+from tailgauge.api.endpoints import (
+    Computed,
+    check_count,
+    decode_request,
+    describe_options,
+    float64s,
+    plot_data_of,
+    samples_data,
+)
 from tailgauge.api.media import Codec
 from tailgauge.api.problems import ApiProblem
 from tailgauge.api.schemas import ProblemLocation
-from tailgauge.core import Group, LimitExceeded, Location, UncomputableInput, WeightMeaning, admit_groups, describe_groups
+from tailgauge.core import (
+    Group,
+    LimitExceeded,
+    Location,
+    UncomputableInput,
+    WeightMeaning,
+    admit_groups,
+    describe_groups,
+    from_complete_samples,
+)
 from tailgauge.core.groups import from_columns
 from tailgauge.core.partial import MIN_ORDER
 from tailgauge.runtime.memory import collection_paused
@@ -112,6 +130,17 @@ def _listed_groups(listed: list[schemas.Group], missing: str, settings: Settings
             raise UncomputableInput.at(
                 f"groups[{index}].key", f"repeats the key of groups[{earlier}]; keys must be unique"
             )
+    if all(group.weights is None for group in listed):
+        # Unweighted groups with nothing missing: checked together (each group alone below
+        # otherwise, whose errors and omissions are located in it).
+        samples = [
+            float64s(group.values, f"$.groups[{index}].values", missing=True) if isinstance(group.values, bytes)
+            else np.asarray(group.values, dtype=np.float64)
+            for index, group in enumerate(listed)
+        ]
+        complete = from_complete_samples(samples)
+        if complete is not None:
+            return [Group(g.key, data, field=f"groups[{i}]") for i, (g, data) in enumerate(zip(listed, complete))], count
     groups = []
     for index, group in enumerate(listed):
         data, _ = samples_data(group, missing, settings, f"$.groups[{index}]")

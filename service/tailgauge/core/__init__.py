@@ -31,6 +31,7 @@ from tailgauge.core.weighted import (
     WeightMeaning,
     from_array,
     from_bins,
+    from_complete_samples,
     from_samples,
     from_table,
 )
@@ -70,6 +71,7 @@ __all__ = [
     "describe_state",
     "from_array",
     "from_bins",
+    "from_complete_samples",
     "from_samples",
     "from_table",
     "group_seed",

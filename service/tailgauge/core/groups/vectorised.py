@@ -188,12 +188,15 @@ def _numbers(datas: list[WeightedData], indices: list[int], options: DescribeOpt
     order = max(options.moment_order, 4)
     sizes = np.array([d.count for d in datas], dtype=np.intp)
     offsets = np.concatenate(([0], np.cumsum(sizes)[:-1])).astype(np.intp)
-    ordered = np.empty(int(sizes.sum()))
     sums = np.empty((order + 1, len(datas)))
     shift = np.empty(len(datas))
+    # Distinct values of each group: 1 + its sorted neighbours that differ (-0.0 equals 0.0).
+    counted = np.empty(len(datas), dtype=np.intp)
     by_length: dict[int, list[int]] = defaultdict(list)
     for position, size in enumerate(sizes.tolist()):
         by_length[size].append(position)
+    # Groups all of one length: their sorted rows are the groups laid end to end (no copy).
+    ordered = None if len(by_length) == 1 else np.empty(int(sizes.sum()))
     for n, positions in by_length.items():
         rows = np.empty((len(positions), n))
         for row, position in zip(rows, positions):
@@ -204,11 +207,15 @@ def _numbers(datas: list[WeightedData], indices: list[int], options: DescribeOpt
         sums[:, positions] = part_sums
         shift[positions] = part_shift
         rows.sort(axis=1)
-        if positions[-1] - positions[0] == len(positions) - 1:  # consecutive groups: one stretch
+        counted[positions] = np.count_nonzero(rows[:, 1:] != rows[:, :-1], axis=1) + 1
+        if ordered is None:
+            ordered = rows.reshape(-1)
+        elif positions[-1] - positions[0] == len(positions) - 1:  # consecutive groups: one stretch
             start = int(offsets[positions[0]])
             ordered[start : start + rows.size] = rows.ravel()
         else:
             ordered[(offsets[positions][:, None] + np.arange(n)).ravel()] = rows.ravel()
+    assert ordered is not None
     first, last = offsets, offsets + sizes - 1
     minimum, maximum = ordered[first], ordered[last]
     constant = minimum == maximum
@@ -240,7 +247,6 @@ def _numbers(datas: list[WeightedData], indices: list[int], options: DescribeOpt
         & np.isfinite(iqr)
         & np.all(np.isfinite(quantiles), axis=1)
     )
-    counted = _per_segment(np.concatenate(([False], ordered[1:] != ordered[:-1])), first + 1, last) + 1
     columns = {
         "mean": found.mean, "variance": variance, "standard_deviation": sd, "median": median, "minimum": minimum,
         "maximum": maximum, "range": spread, "interquartile_range": iqr,
