@@ -394,3 +394,41 @@ def test_equal_widths_near_the_largest_float64_stay_finite():
     with np.errstate(all="ignore"):  # the moments of such bins overflow and are reported null
         description = describe(from_bins([-LARGEST, 0.0, LARGEST], [3.0, 4.0]), DescribeOptions(), kind="bins")
     assert description.grouping.bin_width == LARGEST and description.grouping.equal_widths
+
+
+# ---------------------------------------------------------------------------------------------
+# (e) bins so narrow that a count over a width overflows float64
+# ---------------------------------------------------------------------------------------------
+
+
+def test_narrow_bins_give_the_by_hand_mad_and_mode_scaled_by_a_power_of_two():
+    # The by-hand cases of (d) with edges times 2**-1000 and counts times 2**40: every count over
+    # a width (about 1e12 / 1e-301) overflows float64, yet the MAD and the grouped mode are normal
+    # numbers. Scaling by powers of two is exact, so the references are the hand values (1.25 and
+    # 10 + 4/3 above) times 2**-1000, to rounding of the last digit. The test run turns numpy's
+    # RuntimeWarnings into errors (pyproject filterwarnings): no overflow may be met on the way.
+    scale, weight = 2.0**-1000, 2.0**40
+    result = bins([e * scale for e in (0, 1, 3, 6)], [c * weight for c in (3, 4, 3)])
+    assert result.descriptors["median"].value == 2.0 * scale
+    assert result.descriptors["median_absolute_deviation"].value == pytest.approx(1.25 * scale, rel=1e-15)
+    result = bins([e * scale for e in (0, 10, 12, 16)], [c * weight for c in (10, 6, 8)])
+    (modal,) = result.grouping.modal_classes
+    assert (modal.lower, modal.upper) == (10 * scale, 12 * scale)
+    assert modal.grouped_mode == pytest.approx((10 + 4 / 3) * scale, rel=1e-15)
+    assert "grouped_mode_undefined" not in codes(result)
+
+
+def test_subnormal_bins_report_their_mad_as_not_representable_not_as_an_open_bin():
+    # Widths of a few times 2**-1074 (the smallest subnormal): the MAD, 1.25 widths as in (d),
+    # falls below float64's normal range and keeps almost none of its digits, so it is null with
+    # not_representable (moments.scale_by_power_of_two's rule); there is no open bin to blame.
+    tiny = 5e-324
+    result = bins([0, 8 * tiny, 24 * tiny, 48 * tiny], [3, 4, 3])
+    assert result.descriptors["median_absolute_deviation"].value is None
+    reasons = {note.code for note in result.warnings if "median_absolute_deviation" in note.descriptors}
+    assert reasons == {"not_representable"}
+    # The mode's neighbours are known and do not tie: the grouped mode is given (10 + 4/3 units
+    # of 8 tiny = 90.67 tiny, rounded to a whole number of tiny in the subnormal range).
+    result = bins([0, 80 * tiny, 96 * tiny, 128 * tiny], [10, 6, 8])
+    assert result.modes.values == [91 * tiny]
+    assert "grouped_mode_undefined" not in codes(result)

@@ -218,6 +218,28 @@ def median_absolute_deviations(
     return np.where(np.isnan(centres), np.nan, result)
 
 
+# The smallest positive normal float64 (below it a value keeps fewer than 53 bits).
+SMALLEST_NORMAL = 2.0**-1022
+
+
+def _narrow_bins_shift(rows: Rows, edges: np.ndarray) -> int:
+    """The power of two that brings the narrowest finite bin width to [1/2, 1) when a count over
+    it would overflow float64 (0 otherwise, and when a finite edge would overflow scaled)."""
+    finite_edges = edges[np.isfinite(edges)]
+    gaps = np.diff(finite_edges)
+    gaps = gaps[gaps > 0.0]
+    if gaps.size == 0:
+        return 0
+    narrowest = float(np.min(gaps))
+    with np.errstate(over="ignore"):
+        steep = not math.isfinite(float(np.max(rows.total)) / narrowest)
+    if not steep:
+        return 0
+    shift = -math.frexp(narrowest)[1]
+    widest = float(np.max(np.abs(finite_edges)))
+    return shift if math.isfinite(math.ldexp(widest, shift)) else 0
+
+
 def _piecewise_linear(x: np.ndarray, knots: np.ndarray, heights: np.ndarray) -> np.ndarray:
     """``np.interp(x[r], knots, heights[r])`` for every row r at once, with np.interp's
     arithmetic (``slope * (x - x0) + y0``, the end heights beyond the knots), bit for bit."""
@@ -232,14 +254,28 @@ def _piecewise_linear(x: np.ndarray, knots: np.ndarray, heights: np.ndarray) -> 
     return np.where(x < knots[0], heights[:, :1], np.where(x >= knots[-1], heights[:, -1:], inside))
 
 
-def grouped_median_absolute_deviations(rows: Rows, edges: np.ndarray, centres: np.ndarray) -> np.ndarray:
+def grouped_median_absolute_deviations(
+    rows: Rows, edges: np.ndarray, centres: np.ndarray, *, below_normal: bool = False
+) -> np.ndarray:
     """Smallest ``d`` with ``F(centre + d) - F(centre - d) >= N / 2`` under even spread in bins,
     per row (rows,); the positions are the bins, ``edges`` their k + 1 edges.
 
     ``G(d) = F(centre + d) - F(centre - d)`` is piecewise linear between the distances from
     ``centre`` to the finite edges, so the root is found exactly by linear interpolation
     between the two breakpoints around it. NaN when it would lie inside an open bin.
+
+    Bins so narrow that a count over a width overflows (subnormal widths) are measured in units
+    of a power of two that makes the narrowest width about 1 (scaling by a power of two is
+    exact), and the answer scaled back; NaN too when it then falls below float64's normal range,
+    where it would keep few of its digits, or none (``moments.scale_by_power_of_two``'s rule),
+    unless ``below_normal`` asks for such values as they are (to say why there is no value).
     """
+    shift = _narrow_bins_shift(rows, edges)
+    if shift:
+        with np.errstate(under="ignore"):
+            found = grouped_median_absolute_deviations(rows, np.ldexp(edges, shift), np.ldexp(centres, shift))
+            scaled_back = np.ldexp(found, -shift)
+        return scaled_back if below_normal else np.where(np.abs(scaled_back) < SMALLEST_NORMAL, np.nan, scaled_back)
     finite = np.isfinite(edges)
     finite_edges = edges[finite]
     cumulative = np.concatenate((np.zeros((rows.count, 1)), rows.cumulative), axis=1)[:, finite]

@@ -42,11 +42,13 @@ def quantiles(data: WeightedData, probabilities: np.ndarray) -> np.ndarray:
 
 def median_absolute_deviation(data: WeightedData, centre: float) -> float:
     """Smallest ``d`` with ``F(centre + d) - F(centre - d) >= N / 2`` under even spread in bins
-    (see :func:`tailgauge.core.order_rules.grouped_median_absolute_deviations`); ``N`` is the
-    data's total weight. NaN when it would lie inside an open bin."""
+    (see :func:`tailgauge.core.deviation_rules.grouped_median_absolute_deviations`); ``N`` is the
+    data's total weight. NaN when it would lie inside an open bin; below float64's normal range
+    (0 included) when the bins are that narrow, which the caller reports as not representable."""
     assert data.edges is not None
     row = rows_of(data, data.total_weight)
-    return float(deviation_rules.grouped_median_absolute_deviations(row, data.edges, np.array([centre]))[0])
+    found = deviation_rules.grouped_median_absolute_deviations(row, data.edges, np.array([centre]), below_normal=True)
+    return float(found[0])
 
 
 @dataclass(frozen=True)
@@ -68,7 +70,18 @@ def modal_classes(data: WeightedData) -> list[ModalClass]:
     lower, upper, counts = _parts(data)
     closed = np.isfinite(lower) & np.isfinite(upper)
     widths = np.where(closed, upper - lower, np.inf)
-    density = np.where(closed, counts / widths, 0.0)
+    with np.errstate(over="ignore"):
+        density = np.where(closed, counts / widths, 0.0)
+    if not np.all(np.isfinite(density)) and np.any(closed):
+        # Densities beyond float64's range (bins narrower than their count / 1.8e308, such as
+        # subnormal widths): counts and widths scaled by exact powers of two, so the largest
+        # count is below 1 and the narrowest width about 1. The comparisons and the mode read
+        # only ratios of densities, which the scaling leaves unchanged (a density negligible
+        # beside the largest may become 0).
+        count_shift = math.frexp(float(np.max(counts)))[1]
+        width_shift = math.frexp(float(np.min(widths[closed])))[1]
+        with np.errstate(over="ignore", under="ignore"):
+            density = np.where(closed, np.ldexp(counts, -count_shift) / np.ldexp(widths, -width_shift), 0.0)
     top = float(np.max(density))
     result = []
     for i in np.flatnonzero(closed & (density == top) & (counts > 0)):

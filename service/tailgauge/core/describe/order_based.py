@@ -8,6 +8,7 @@ import math
 import numpy as np
 
 from tailgauge.core import grouped, order_statistics
+from tailgauge.core.deviation_rules import SMALLEST_NORMAL
 from tailgauge.core.describe import tails
 from tailgauge.core.describe.basis import Basis
 from tailgauge.core.describe.warnings import Warnings, finite_or_none
@@ -61,6 +62,14 @@ def order_descriptors(
                 notes.add(
                     WarningCode.QUANTILE_IN_OPEN_BIN,
                     "the median absolute deviation reaches into an open-ended bin",
+                    ["median_absolute_deviation", "median_absolute_deviation_normal"],
+                )
+            elif abs(mad) < SMALLEST_NORMAL:  # bins of subnormal widths (grouped.median_absolute_deviation)
+                mad = None
+                notes.add(
+                    WarningCode.NOT_REPRESENTABLE,
+                    "the median absolute deviation of bins this narrow falls below float64's normal range, "
+                    "where it would keep few of its digits",
                     ["median_absolute_deviation", "median_absolute_deviation_normal"],
                 )
         notes.add(
