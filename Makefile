@@ -40,7 +40,7 @@ test: $(STAMP)
 # The hostile-input suite alone (also part of `make test`): one line per case with statuses and peak RSS.
 .PHONY: hostile
 hostile: $(STAMP)
-	$(PY) -m pytest tests/system/test_hostile.py -rA -s
+	$(PY) -m pytest tests/system/test_hostile*.py -rA -s
 
 # Every benchmark section (tests/benchmarks/run.py --help). BENCH_ARGS: e.g. "--quick", "small order",
 # "--tree /path/to/other/checkout --json before.json".

@@ -1,7 +1,7 @@
 """Limits in the binary forms and the wall clock: just under passes, just over is the right problem.
 
 The list-form limits (values, body bytes, moment order, probabilities, resampling budget) are
-tested beside their endpoints in test_samples.py and test_intervals.py.
+tested beside their endpoints in test_samples_bad_requests.py and test_intervals.py.
 """
 
 from __future__ import annotations

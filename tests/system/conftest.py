@@ -6,6 +6,7 @@ from collections.abc import Iterator
 
 import pytest
 
+from .hostile_harness import hostile  # noqa: F401 (the hostile-input suite's server, one per test module)
 from .server import GunicornServer
 
 

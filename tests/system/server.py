@@ -36,13 +36,13 @@ def free_port() -> int:
         return probe.getsockname()[1]
 
 
-def _die_with_parent() -> None:
+def die_with_parent() -> None:
     # If the test process dies without running its finalizers, the server gets SIGTERM too.
     PR_SET_PDEATHSIG = 1
     ctypes.CDLL(None, use_errno=True).prctl(PR_SET_PDEATHSIG, signal.SIGTERM)
 
 
-def _gunicorn_command() -> list[str]:
+def gunicorn_command() -> list[str]:
     script = Path(sys.executable).with_name("gunicorn")
     launcher = [str(script)] if script.exists() else [sys.executable, "-m", "gunicorn"]
     return [*launcher, "--config", str(CONFIG), "tailgauge.asgi:app"]
@@ -106,7 +106,7 @@ class GunicornServer:
 
     def command(self) -> list[str]:
         """The command that becomes the gunicorn master (a subclass may wrap it; it must exec gunicorn)."""
-        return _gunicorn_command()
+        return gunicorn_command()
 
     def environment(self) -> dict[str, str]:
         """The server's environment (a subclass may add settings of its own)."""
@@ -139,7 +139,7 @@ class GunicornServer:
                     stdin=subprocess.DEVNULL,
                     stdout=log,
                     stderr=subprocess.STDOUT,
-                    preexec_fn=_die_with_parent if sys.platform == "linux" else None,
+                    preexec_fn=die_with_parent if sys.platform == "linux" else None,
                 )
             if self._wait_ready(timeout):
                 return self
