@@ -25,6 +25,7 @@ import pytest
 
 from tailgauge.core import (
     DescribeOptions,
+    IntervalOptions,
     WeightMeaning,
     describe,
     describe_state,
@@ -72,6 +73,7 @@ BIN_COUNTS = {
 OPEN_BINS = {
     "open bin, light": ([None, 0.0, 1.0, 2.0, 3.0], [1.0, 20.0, 30.0, 20.0]),
     "open bin, octile inside": ([None, 0.0, 1.0, 2.0], [1.0, 2.0, 3.0]),
+    "open bin, median inside": ([None, 0.0, 1.0, 2.0], [5.0, 1.0, 1.0]),
 }
 
 KINDS = (
@@ -118,10 +120,11 @@ def _size(case: Case) -> float:
     return float(len(values))
 
 
-def build(case: Case):
+def build(case: Case, interval: IntervalOptions | None = None):
     options = DescribeOptions(
         convention=None if case.kind == "probability table" else case.convention,
         quantile_type=5 if case.degenerate == "quantile type 5" else None,
+        interval=interval,
     )
     if case.kind == "open bins":
         edges, counts = OPEN_BINS[case.degenerate]
@@ -205,6 +208,11 @@ def expected_reason(case: Case, name: str) -> W | None:
         return W.QUANTILE_SPREAD_ZERO
     if degenerate == "open bin, octile inside" and name in ("octile_kurtosis", "octile_excess_kurtosis"):
         return W.QUANTILE_IN_OPEN_BIN
+    # The median (and so the MAD measured from it) and the first quartile inside the open bin.
+    if degenerate == "open bin, median inside" and name in (
+        "median", "median_absolute_deviation", "median_absolute_deviation_normal", "interquartile_range", *QUANTILE_SHAPE
+    ):
+        return W.QUANTILE_IN_OPEN_BIN
     return None
 
 
@@ -250,6 +258,44 @@ def test_every_null_descriptor_names_its_specific_reason(case):
             problems.append(f"{name}: named by {sorted(named.get(name, ()))}, expected {reason.value}")
     assert problems == []
     assert W.UNDEFINED_FOR_THESE_DATA not in {note.code for note in description.warnings}
+
+
+# Whole counts, so every kind here can be resampled; not a single observation or every count in
+# one bin, which have nothing to resample (options.interval is refused there, a located 422).
+RESAMPLED = [
+    c for c in CASES
+    if c.kind in ("samples", "count table", "bins", "open bins") and c.convention == "sample"
+    and c.degenerate != "single observation" and (c.kind, c.degenerate) != ("bins", "constant")
+]
+
+
+@pytest.mark.parametrize("case", RESAMPLED, ids=lambda c: f"{c.kind}, {c.degenerate}")
+def test_asking_for_intervals_leaves_every_null_reason_in_place(case):
+    # Reference: the enumeration's own expected reasons. Warnings about intervals (bootstrap_discrete,
+    # bootstrap_small_sample, interval_undefined, ...) name descriptors too; they must neither stand
+    # in for a null's reason nor hide it from the safety net.
+    description = build(case, IntervalOptions(method="percentile", resamples=200, seed=3))
+    about_values = {}
+    for note in description.warnings:
+        if note.code in INTERVAL_CODES:
+            continue
+        for name in note.descriptors:
+            about_values.setdefault(name, set()).add(note.code)
+    problems = []
+    for name in SCALAR_DESCRIPTORS:
+        value, reason = description.descriptors[name].value, expected_reason(case, name)
+        if (reason is None) != (value is not None):
+            problems.append(f"{name}: {value!r}, expected reason {reason}")
+        elif reason is not None and reason not in about_values.get(name, set()):
+            problems.append(f"{name}: named by {sorted(about_values.get(name, ()))}, expected {reason.value}")
+    assert problems == []
+    assert W.UNDEFINED_FOR_THESE_DATA not in {note.code for note in description.warnings}
+
+
+INTERVAL_CODES = {
+    W.BCA_FALLBACK, W.INTERVAL_UNDEFINED, W.INTERVAL_NOT_OFFERED, W.RESAMPLING_SCHEME, W.SERIAL_DEPENDENCE,
+    W.BOOTSTRAP_SMALL_SAMPLE, W.BOOTSTRAP_DISCRETE,
+}
 
 
 def test_the_enumeration_covers_every_kind_degenerate_case_and_code():

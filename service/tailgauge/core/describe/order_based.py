@@ -53,7 +53,15 @@ def order_descriptors(
         median = finite_or_none(float(values[0]))
         quartiles, requested = values[1:3], values[3:]
         robust_values, requested = requested[: ROBUST_PROBABILITIES.size], requested[ROBUST_PROBABILITIES.size :]
-        if median is None:
+        mad_names = ["median_absolute_deviation", "median_absolute_deviation_normal"] if wants_mad else []
+        if median is None and not basis.single:
+            notes.add(
+                WarningCode.QUANTILE_IN_OPEN_BIN,
+                "the median falls inside an open-ended bin"
+                + (" (the median absolute deviation is measured from it)" if mad_names else ""),
+                ["median", *mad_names],
+            )
+        elif median is None:
             notes.add(WarningCode.QUANTILE_IN_OPEN_BIN, "the median falls inside an open-ended bin", ["median"])
         mad = None
         if median is not None and not basis.single and wants_mad:

@@ -71,9 +71,23 @@ def note_degenerate(basis: Basis, constant: bool, notes: Warnings) -> None:
         )
 
 
+# Codes that speak of a descriptor's interval, not of its value: naming a descriptor they do not
+# explain why its value is null.
+_ABOUT_INTERVALS = frozenset((
+    WarningCode.BCA_FALLBACK,
+    WarningCode.INTERVAL_UNDEFINED,
+    WarningCode.INTERVAL_NOT_OFFERED,
+    WarningCode.RESAMPLING_SCHEME,
+    WarningCode.SERIAL_DEPENDENCE,
+    WarningCode.BOOTSTRAP_SMALL_SAMPLE,
+    WarningCode.BOOTSTRAP_DISCRETE,
+))
+
+
 def explain_remaining_nulls(descriptors: dict[str, Descriptor], notes: Warnings) -> None:
-    """Safety net of the contract "every null has a reason": name any null no warning covers."""
-    covered = {name for note in notes.items for name in note.descriptors}
+    """Safety net of the contract "every null has a reason": name any null no warning about values
+    covers (a warning about its interval alone does not)."""
+    covered = {name for note in notes.items if note.code not in _ABOUT_INTERVALS for name in note.descriptors}
     silent = [name for name, d in descriptors.items() if d.value is None and name not in covered]
     if silent:
         notes.add(
