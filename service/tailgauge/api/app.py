@@ -38,7 +38,9 @@ def token_matches(presented: str, tokens: tuple[str, ...]) -> bool:
     return found
 
 
-def _require_token(connection: ASGIConnection, _: BaseRouteHandler) -> None:
+async def _require_token(connection: ASGIConnection, _: BaseRouteHandler) -> None:
+    # A coroutine, so litestar awaits it on the event loop: a plain function guard is run in its
+    # thread pool, a hop to another thread and back on every request for a few comparisons.
     settings: Settings = connection.app.state.settings
     if connection.scope.get("method") == "OPTIONS":
         return
