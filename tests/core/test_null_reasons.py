@@ -290,6 +290,10 @@ def test_asking_for_intervals_leaves_every_null_reason_in_place(case):
             problems.append(f"{name}: named by {sorted(about_values.get(name, ()))}, expected {reason.value}")
     assert problems == []
     assert W.UNDEFINED_FOR_THESE_DATA not in {note.code for note in description.warnings}
+    # A warning that the intervals of order statistics are coarse names only those with a value.
+    for note in description.warnings:
+        if note.code == W.BOOTSTRAP_DISCRETE:
+            assert all(description.descriptors[name].value is not None for name in note.descriptors if name != "quantiles")
 
 
 INTERVAL_CODES = {

@@ -142,12 +142,16 @@ def intervals(
             "much less than their level",
         )
     distinct = data.values.size if data.binned else data.support.values.size
-    if distinct < resample.FEW_DISTINCT:
+    # Named: the order statistics that have a value (a null one has no interval to be coarse).
+    coarse = [name for name in ("median", "interquartile_range", "median_absolute_deviation") if descriptors[name].value is not None]
+    if any(q.value is not None for q in quantiles):
+        coarse.append("quantiles")
+    if distinct < resample.FEW_DISTINCT and coarse:
         notes.add(
             WarningCode.BOOTSTRAP_DISCRETE,
             f"only {distinct} distinct values: the bootstrap distribution of order statistics (median, "
             "quantiles, IQR, MAD) is lumpy and their intervals are coarse",
-            ["median", "interquartile_range", "median_absolute_deviation", "quantiles"],
+            coarse,
         )
     if structure is None:
         _classical_intervals(data, sums, basis, interval.level, descriptors, quantiles, probabilities, notes)
