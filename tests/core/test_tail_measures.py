@@ -400,3 +400,30 @@ def test_the_plan_counts_the_tail_levels():
     assert tails.peak_bytes > plain.peak_bytes and tails.seconds > plain.seconds
     # Forty more float64 per resample are kept at least: 40 x 8 x 9,999 bytes.
     assert tails.peak_bytes - plain.peak_bytes >= 40 * 8 * 9999
+
+
+def test_exceedance_intervals_float64_cannot_resolve_are_null_with_their_reason():
+    """Counts near and beyond 1e16: the beta quantiles come back NaN (scipy.special.betaincinv at
+    a = 1e16, b = 9e16), or away from the proportion they must bracket (every Clopper-Pearson
+    interval contains x / n). Such an interval is null, named under not_representable, and the
+    proportion itself stays; an ordinary table beside it keeps scipy's exact interval
+    (scipy.stats.binomtest(k, n).proportion_ci(method="exact"), as above)."""
+    values = np.array([1.0, 2.0, 3.0])
+    for weights in ([1e17, 1e16, 5.0], [1.5e308, 1.1, 3e-5], [1e300, 0.5, 2.5e299]):
+        result = describe(
+            from_table(values, np.array(weights), probabilities=False, normalise=False),
+            DescribeOptions(thresholds=(1.5,)),
+            kind="table",
+        )
+        (found,) = result.exceedances
+        assert found.interval is None
+        assert found.proportion_above == pytest.approx((weights[1] + weights[2]) / sum(weights), rel=1e-12)
+        notes = [note for note in result.warnings if "exceedances[0]" in note.descriptors]
+        assert [note.code for note in notes] == [WarningCode.NOT_REPRESENTABLE]
+    (ordinary,) = describe(
+        from_table(values, np.array([3.0, 4.0, 5.0]), probabilities=False, normalise=False),
+        DescribeOptions(thresholds=(1.5,)),
+        kind="table",
+    ).exceedances
+    want = stats.binomtest(9, 12).proportion_ci(method="exact")
+    assert (ordinary.interval.low, ordinary.interval.high) == pytest.approx((want.low, want.high), rel=1e-12)

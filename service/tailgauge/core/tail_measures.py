@@ -151,12 +151,20 @@ def weight_above(data: WeightedData, thresholds: np.ndarray) -> list[Exceeded]:
     return found
 
 
-def clopper_pearson(successes: float, trials: float, level: float) -> tuple[float, float]:
+def clopper_pearson(successes: float, trials: float, level: float) -> tuple[float, float] | None:
     """The Clopper-Pearson interval of a proportion (successes and trials may be fractional: the
-    beta quantiles extend to them, as with an effective sample size)."""
+    beta quantiles extend to them, as with an effective sample size).
+
+    ``None`` where float64 cannot give it: the beta quantiles of counts near 1e16 and beyond
+    come back NaN, or not around the proportion ``successes / trials`` itself (which every
+    Clopper-Pearson interval contains), or with the bounds crossed."""
     alpha = 1.0 - level
-    low = 0.0 if successes <= 0.0 else float(special.betaincinv(successes, trials - successes + 1.0, alpha / 2.0))
-    high = 1.0 if successes >= trials else float(special.betaincinv(successes + 1.0, trials - successes, 1.0 - alpha / 2.0))
+    with np.errstate(all="ignore"):
+        low = 0.0 if successes <= 0.0 else float(special.betaincinv(successes, trials - successes + 1.0, alpha / 2.0))
+        high = 1.0 if successes >= trials else float(special.betaincinv(successes + 1.0, trials - successes, 1.0 - alpha / 2.0))
+        proportion = min(max(successes / trials, 0.0), 1.0)
+    if not (math.isfinite(low) and math.isfinite(high) and low <= proportion <= high):
+        return None
     return low, high
 
 

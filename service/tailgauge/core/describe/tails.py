@@ -232,7 +232,7 @@ def exceedances(data: WeightedData, options: DescribeOptions, notes: Warnings) -
     total = data.total_weight
     counted = data.meaning in (WeightMeaning.UNIT, WeightMeaning.FREQUENCY) and data.integer_weights
     found: list[Exceedance] = []
-    interpolated, in_open = [], []
+    interpolated, in_open, unresolved = [], [], []
     for i, (threshold, exceeded) in enumerate(zip(options.thresholds, tail_measures.weight_above(data, np.array(options.thresholds)))):
         if exceeded.above is None:
             in_open.append(f"exceedances[{i}]")
@@ -245,8 +245,11 @@ def exceedances(data: WeightedData, options: DescribeOptions, notes: Warnings) -
         if how is not None:
             method, trials = how
             successes = round(above) if counted and not exceeded.interpolated else share * trials
-            low, high = tail_measures.clopper_pearson(successes, trials, level)
-            interval = Interval(low, high, level, method)
+            bounds = tail_measures.clopper_pearson(successes, trials, level)
+            if bounds is None:
+                unresolved.append(f"exceedances[{i}]")
+            else:
+                interval = Interval(bounds[0], bounds[1], level, method)
         if exceeded.interpolated:
             interpolated.append(f"exceedances[{i}]")
         count = round(above) if counted and not exceeded.interpolated else None
@@ -260,6 +263,13 @@ def exceedances(data: WeightedData, options: DescribeOptions, notes: Warnings) -
         )
     if in_open:
         notes.add(WarningCode.TAIL_IN_OPEN_BIN, "these thresholds fall in an open-ended bin holding data", in_open)
+    if unresolved:
+        notes.add(
+            WarningCode.NOT_REPRESENTABLE,
+            "no interval for these proportions: with weights this large (from about 1e16) float64 cannot "
+            "resolve the Clopper-Pearson bounds around the proportion",
+            unresolved,
+        )
     if data.meaning is WeightMeaning.PROBABILITY:
         notes.add(
             WarningCode.INTERVAL_NOT_OFFERED,
