@@ -410,7 +410,8 @@ MEMBERS: tuple[CatalogEntry, ...] = (
           "counts), and a Clopper-Pearson interval of proportion_above: exact for whole counts, on Kish's effective n "
           "for reliability weights, on the total weight for fractional counts; bins: the count above a threshold "
           "inside a bin is interpolated (even spread within it), labelled interpolated", ("thresholds", "interval"),
-          ("the threshold falls in an open-ended bin holding data", "interval: a probability table (exact)"),
+          ("the threshold falls in an open-ended bin holding data", "interval: a probability table (exact)",
+           "interval: weights so large (from about 1e16) that float64 cannot resolve the bounds"),
           "Clopper & Pearson, Biometrika 26, 1934; Korn & Graubard, Survey Methodology 24, 1998"),
     CatalogEntry("tail_means", "tail_means",
           "per level alpha: upper = (1/(1 - alpha)) integral_alpha^1 q(u) du and lower = (1/(1 - alpha)) "
