@@ -187,3 +187,26 @@ def test_quantile_interval_of_a_count_table_reads_the_expanded_sample():
         ci = quantile.classical_interval
         assert (ci.low, ci.high) == (repeated[lower - 1], repeated[upper - 1])
         assert ci.coverage == pytest.approx(coverage, rel=1e-9)
+
+
+@pytest.mark.parametrize("n", [10**4, 7_592_685, 10**8, 2**31, 10**12, 10**15])
+@pytest.mark.parametrize("p", [0.01, 0.5, 0.9])
+def test_order_statistic_ranks_for_large_counts_match_scipy_binom(n, p):
+    """Counts a count table can carry (its n is the total count). Reference: scipy 1.17.1's
+    binom.ppf and binom.cdf (boost's incomplete beta). l - 1 is the largest k with
+    P(B <= k) <= alpha/2, u - 1 the smallest with P(B <= k) >= 1 - alpha/2; nothing of n entries
+    is built (n = 1e15 once asked for an array of 8e15 ranks)."""
+    level = 0.95
+    binom = stats.binom(n, p)
+    smallest = int(binom.ppf(0.025))
+    lower = smallest + 1 if binom.cdf(smallest) <= 0.025 * (1 + 1e-12) else smallest
+    upper = int(binom.ppf(0.975)) + 1
+    got = classical.order_statistic_ranks(n, p, level)
+    assert got is not None and got[:2] == (lower, upper)
+    assert got[2] == pytest.approx(binom.cdf(upper - 1) - binom.cdf(lower - 1), abs=1e-9)
+    assert got[2] >= level - 1e-9
+
+
+def test_order_statistic_ranks_beyond_two_to_the_53_are_not_offered():
+    # float64 no longer tells neighbouring ranks apart there.
+    assert classical.order_statistic_ranks(2**53 + 2, 0.5, 0.95) is None

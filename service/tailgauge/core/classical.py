@@ -52,37 +52,65 @@ def variance_interval(variance: float, n: float, level: float) -> ClassicalInter
     )
 
 
+def binomial_cdf(k, n: int, p: float):
+    """P(B <= k) for B ~ Binomial(n, p), k an integer or an array of them: the regularised
+    incomplete beta I_(1-p)(n - k, k + 1), 0 below 0 and 1 from n on.
+
+    Not ``scipy.special.bdtr``: it drifts from the binomial sum as n grows (0.61 for P(B <= n/2)
+    at n = 1e8 and p = 1/2, where the sum is 0.50004) and is NaN beyond 2**31.
+    """
+    k = np.asarray(k, dtype=np.float64)
+    inside = np.clip(k, 0.0, max(n - 1.0, 0.0))
+    with np.errstate(invalid="ignore"):
+        value = special.betainc(n - inside, inside + 1.0, 1.0 - p)
+    return np.where(k < 0, 0.0, np.where(k >= n, 1.0, value))
+
+
 def _smallest_reaching(n: int, p: float, target: float) -> int:
     """Smallest k in 0..n with P(B <= k) >= target, B ~ Binomial(n, p) (n + 1 if none).
 
-    A continuous inverse gives a first guess; the exact CDF around it decides.
+    A continuous inverse gives a first guess; the exact CDF around it decides, in a window around
+    the guess, else by bisection over 0..n (the CDF increases in k): O(log n) evaluations, never
+    an array of n entries (a count table's n may be 1e15).
     """
     guess = special.bdtrik(target, n, p)
     centre = int(math.floor(guess)) if math.isfinite(guess) else int(stats.binom.ppf(target, n, p))
-    for width in (3, 50, n + 1):
+    for width in (3, 50):
         ks = np.arange(max(centre - width, 0), min(centre + width, n) + 1)
-        reached = np.flatnonzero(special.bdtr(ks, n, p) >= target)
+        reached = np.flatnonzero(binomial_cdf(ks, n, p) >= target)
         if reached.size and (reached[0] > 0 or ks[0] == 0):
             return int(ks[reached[0]])
-    return n + 1
+    if not binomial_cdf(n, n, p) >= target:
+        return n + 1
+    below, reaching = -1, n  # P(B <= below) < target <= P(B <= reaching)
+    while reaching - below > 1:
+        middle = (below + reaching) // 2
+        if binomial_cdf(middle, n, p) >= target:
+            reaching = middle
+        else:
+            below = middle
+    return reaching
 
 
 def order_statistic_ranks(n: int, p: float, level: float) -> tuple[int, int, float] | None:
     """Ranks ``(l, u)`` and achieved coverage of the distribution-free quantile interval.
 
     ``l`` is the largest rank with ``P(B <= l - 1) <= alpha/2`` and ``u`` the smallest with
-    ``P(B <= u - 1) >= 1 - alpha/2``; ``None`` when n is too small for the level.
+    ``P(B <= u - 1) >= 1 - alpha/2``; ``None`` when n is too small for the level, or beyond
+    2**53, where float64 no longer tells neighbouring ranks apart.
     """
+    if n > 2**53:
+        return None
     alpha = 1.0 - level
     smallest = _smallest_reaching(n, p, alpha / 2.0)  # the binomial alpha/2 quantile
     # l - 1 is the largest k with P(B <= k) <= alpha/2: that quantile itself when its CDF equals
     # alpha/2 exactly (within rounding), otherwise the one below it.
-    below = smallest if special.bdtr(smallest, n, p) <= alpha / 2.0 * (1.0 + 1e-12) else smallest - 1
+    below = smallest if binomial_cdf(smallest, n, p) <= alpha / 2.0 * (1.0 + 1e-12) else smallest - 1
     lower = below + 1
     upper = _smallest_reaching(n, p, 1.0 - alpha / 2.0) + 1
     if lower < 1 or upper > n:
         return None
-    coverage = float(special.bdtr(upper - 1, n, p) - special.bdtr(lower - 1, n, p))
+    coverage = float(binomial_cdf(upper - 1, n, p) - binomial_cdf(lower - 1, n, p))
     return lower, upper, coverage
 
 
